@@ -34,6 +34,9 @@ class Pragma:
     reason: str
     location: Location
     inline: bool = False  # written at the end of a card (applies to that card's element)
+    cell: str = ""  # the cell it sits in ("" = top level)
+    element: str | None = None  # the element it is attached to (inline, or the line after)
+    element_nets: tuple[str, ...] = ()  # that element's nets
 
 
 @dataclass(slots=True)
