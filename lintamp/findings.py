@@ -105,3 +105,36 @@ class Finding:
             ],
             "fingerprint": self.fingerprint,
         }
+
+
+@dataclass(slots=True)
+class Waived:
+    """A finding that an inline waiver covers, with the waiver's place and reason."""
+
+    finding: Finding
+    waiver_location: Location
+    reason: str
+
+
+@dataclass(slots=True)
+class Report:
+    """The result of a run: what the decision layer kept, in report order.
+
+    ``findings`` is sorted by path, line, column, rule, subject; ``files`` are the
+    paths checked (as given, relative where the user gave them relative).
+    ``baseline_gone`` lists fingerprints of baseline entries that no longer occur.
+    """
+
+    findings: list[Finding] = field(default_factory=list)
+    waived: list[Waived] = field(default_factory=list)
+    files: list[str] = field(default_factory=list)
+    baseline_gone: list[dict] = field(default_factory=list)
+    baseline_matched: int = 0
+
+    def count(self, severity: Severity) -> int:
+        return sum(1 for f in self.findings if f.severity == severity)
+
+    def summary(self) -> dict:
+        return {"files": len(self.files), "errors": self.count(Severity.ERROR),
+                "warnings": self.count(Severity.WARNING), "infos": self.count(Severity.INFO),
+                "waived": len(self.waived)}
