@@ -35,8 +35,7 @@ class TextReporter(Reporter):
 
     def handle(self, finding: Finding) -> None:
         super().handle(finding)
-        for text, style in _finding_lines(finding):
-            self._write(text, style)
+        self._write_block(list(_finding_lines(finding)))
 
     def finish(self, report: Report) -> None:
         if self.statistics:
@@ -45,18 +44,23 @@ class TextReporter(Reporter):
         self._write(summary_line(report), "bold")
 
     def _write(self, parts, style: str | None = None) -> None:
-        """``parts``: a string, or a list of (text, style) pieces on one line."""
-        if isinstance(parts, str):
-            parts = [(parts, style)]
+        self._write_block([(parts, style)])
+
+    def _write_block(self, lines) -> None:
+        """``lines``: (parts, style) where parts is a string or a list of (text, style) pieces."""
+        pieces = [[(parts, style)] if isinstance(parts, str) else parts for parts, style in lines]
         if self._console is None:
-            self.stream.write("".join(text for text, _ in parts) + "\n")
+            self.stream.write("".join("".join(text for text, _ in line) + "\n" for line in pieces))
             return
         from rich.text import Text
 
-        line = Text()
-        for text, piece_style in parts:
-            line.append(text, style=piece_style or "")
-        self._console.print(line)
+        block = Text()
+        for number, line in enumerate(pieces):
+            if number:
+                block.append("\n")
+            for text, piece_style in line:
+                block.append(text, style=piece_style or "")
+        self._console.print(block)
 
 
 def _finding_lines(finding: Finding):
