@@ -18,7 +18,7 @@ from __future__ import annotations
 from collections import Counter
 
 from lintamp.findings import Finding, Report, Severity
-from lintamp.report.base import Reporter, plural
+from lintamp.report.base import Reporter, plural, printable
 
 INDENT = "    "
 _STYLE = {Severity.ERROR: "bold red", Severity.WARNING: "yellow", Severity.INFO: "cyan"}
@@ -65,21 +65,21 @@ class TextReporter(Reporter):
 
 def _finding_lines(finding: Finding):
     loc = finding.location
-    yield [(f"{loc}: ", "bold"), (finding.severity.label, _STYLE[finding.severity]),
-           (f" {finding.rule}: ", "magenta"), (finding.message, None)], None
+    yield [(printable(f"{loc}: "), "bold"), (finding.severity.label, _STYLE[finding.severity]),
+           (printable(f" {finding.rule}: "), "magenta"), (printable(finding.message), None)], None
     where = []
     if finding.cell:
         where.append(f"in cell {finding.cell}")
     if finding.instances:
         where.append(f"instances {', '.join(finding.instances)}")
     if where:
-        yield INDENT + ", ".join(where), "dim"
+        yield INDENT + printable(", ".join(where)), "dim"
     for step in finding.explanation:
-        yield INDENT + step, None
+        yield INDENT + printable(step), None
     if finding.fix:
-        yield [(INDENT + "fix: ", "green"), (finding.fix, None)], None
+        yield [(INDENT + "fix: ", "green"), (printable(finding.fix), None)], None
     for related in finding.related:
-        yield [(INDENT + f"{related.location}: ", "bold"), (related.note, "dim")], None
+        yield [(INDENT + printable(f"{related.location}: "), "bold"), (printable(related.note), "dim")], None
 
 
 def _statistics_lines(findings: list[Finding], rules: dict):
@@ -87,10 +87,11 @@ def _statistics_lines(findings: list[Finding], rules: dict):
     if not counts:
         return
     width = max(len(str(n)) for n in counts.values())
+    yield "Findings by rule:", "bold"
     for rule, count in sorted(counts.items(), key=lambda item: (-item[1], item[0])):
         info = rules.get(rule)
         summary = f"  {info.summary}" if info is not None else ""
-        yield f"{count:>{width}}  {rule}{summary}", None
+        yield f"  {count:>{width}}  {printable(rule)}{summary}", None
 
 
 def summary_line(report: Report) -> str:
