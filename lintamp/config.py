@@ -492,7 +492,7 @@ def parse_rule_list(text: str, *, option: str,
                     known_rules: Mapping[str, str] | Iterable[str] | None = None) -> tuple[str, ...]:
     """Parse ``--select a,b`` / ``--ignore ...`` with the same checks as the file."""
     names = [part.strip() for part in text.split(",") if part.strip()]
-    return _Checker(option, "", rule_catalog(known_rules)).selectors(names, "")
+    return _Checker(option, "", rule_catalog(known_rules)).selectors(tuple(names), "")
 
 
 def parse_fail_on(text: str, *, option: str = "--fail-on") -> Severity | None:
@@ -535,7 +535,7 @@ class _Checker:
         return items
 
     def selectors(self, value, key: str) -> tuple[str, ...]:
-        items = self.strings(value, key) if key else tuple(value)
+        items = value if isinstance(value, tuple) else self.strings(value, key)
         for item in items:
             if item != ALL and item not in CATEGORIES and item not in self.catalog:
                 raise self.fail(key, f"unknown rule or category {item!r}{_suggest(item, self.catalog)}",

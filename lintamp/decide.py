@@ -229,3 +229,10 @@ def _apply_baseline(findings: list[Finding], baseline: Baseline, report: Report)
             report.baseline_gone.append(dict(entry))
     report.baseline_gone.sort(key=lambda e: (e["path"], e["rule"], e["subject"], e["fingerprint"]))
     return new
+
+
+def exit_code(report: Report, fail_on: Severity | None) -> int:
+    """INTERFACE.md: 1 when a finding is at or above ``fail_on`` (None: never), else 0."""
+    if fail_on is None:
+        return 0
+    return 1 if any(f.severity >= fail_on for f in report.findings) else 0

@@ -150,3 +150,13 @@ def test_order_is_path_line_column_rule_subject(tmp_path):
                 make_finding(path="a.sp", line=2, column=7), make_finding(path="a.sp", line=2, column=3)]
     report = decide(list(reversed(findings)), [], Config(root=tmp_path), known_rules=KNOWN)
     assert [f.sort_key() for f in report.findings] == sorted(f.sort_key() for f in findings)
+
+
+def test_exit_code_follows_fail_on(tmp_path):
+    # INTERFACE.md "Exit codes": 1 for findings at or above --fail-on, else 0; never -> 0.
+    from lintamp.decide import exit_code
+    report = decide([make_finding(severity=Severity.WARNING)], [], Config(root=tmp_path), known_rules=KNOWN)
+    assert exit_code(report, Severity.WARNING) == 1 and exit_code(report, Severity.INFO) == 1
+    assert exit_code(report, Severity.ERROR) == 0 and exit_code(report, None) == 0
+    waived = decide([make_finding()], [make_waiver("dangling-net")], Config(root=tmp_path), known_rules=KNOWN)
+    assert exit_code(waived, Severity.INFO) == 0

@@ -85,3 +85,14 @@ def test_importing_the_package_loads_no_reporter_and_no_rich():
             "print(sorted(m for m in sys.modules if m.startswith(('rich', 'lintamp.report.'))))")
     out = subprocess.run([sys.executable, "-c", code], cwd=REPO, capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "['lintamp.report.base', 'lintamp.report.color', 'lintamp.report.text']"
+
+
+def test_control_characters_are_escaped(tmp_path):
+    # Netlist text is untrusted: no terminal escapes, no line splitting (house rules).
+    from conftest import make_finding
+    from lintamp.config import Config
+    from lintamp.decide import decide
+    finding = make_finding(message="net \x1b[31mred\nsecond line", explanation=("a\rb",))
+    out = render("text", decide([finding], [], Config(root=tmp_path), known_rules={"dangling-net": "connectivity"}))
+    assert out.splitlines()[:2] == ["blocks/amp.sp:10:1: warning dangling-net: net \\x1b[31mred\\nsecond line",
+                                    "    a\\rb"]

@@ -9,6 +9,7 @@ that.  Streaming formats write in ``handle``; document formats collect and write
 from __future__ import annotations
 
 import math
+import re
 from typing import TextIO
 
 from lintamp.findings import Finding, Report
@@ -62,3 +63,18 @@ def finding_data(finding: Finding) -> dict:
 
 def plural(count: int, word: str) -> str:
     return f"{count} {word}" + ("" if count == 1 else "s")
+
+
+_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]")
+
+
+def printable(text: str) -> str:
+    r"""One line of text safe for a terminal: control characters (newlines, ESC ...) escaped.
+
+    Netlist text is untrusted; a net name holding an escape sequence must not
+    restyle the user's terminal, nor a newline split a ``path:line:col:`` line.
+
+    >>> print(printable("a" + chr(10) + "b" + chr(27) + "[31m"))
+    a\nb\x1b[31m
+    """
+    return _CONTROL.sub(lambda m: repr(m.group())[1:-1], text)

@@ -8,7 +8,7 @@ for the message, ``escapeProperty`` for ``file=``/``title=``).
 from __future__ import annotations
 
 from lintamp.findings import Finding, Report, Severity
-from lintamp.report.base import Reporter
+from lintamp.report.base import Reporter, printable
 from lintamp.report.text import TextReporter
 
 COMMANDS = {Severity.ERROR: "error", Severity.WARNING: "warning", Severity.INFO: "notice"}
@@ -28,7 +28,8 @@ def annotation(finding: Finding) -> str:
     if loc.line >= 1:
         props += [f"line={loc.line}", f"col={max(1, loc.column)}"]
     props.append(f"title={escape_property(finding.rule)}")
-    body = "\n".join([finding.message, *finding.explanation] + ([f"fix: {finding.fix}"] if finding.fix else []))
+    lines = [finding.message, *finding.explanation] + ([f"fix: {finding.fix}"] if finding.fix else [])
+    body = "\n".join(printable(line) for line in lines)
     return f"::{COMMANDS[finding.severity]} {','.join(props)}::{escape_data(body)}"
 
 

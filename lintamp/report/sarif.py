@@ -137,4 +137,5 @@ def _suppressed(waived: Waived, index: dict[str, int]) -> dict:
 class SarifReporter(Reporter):
     def finish(self, report: Report) -> None:
         log = sarif_log(self.findings, report, self.rules, self.tool_version)
-        self.stream.write(json.dumps(log, indent=2, ensure_ascii=False, allow_nan=False) + "\n")
+        # Compact: logs of large runs stay well within code-scanning upload limits.
+        self.stream.write(json.dumps(log, ensure_ascii=False, allow_nan=False, separators=(",", ":")) + "\n")

@@ -18,7 +18,7 @@ from __future__ import annotations
 from collections import Counter
 
 from lintamp.findings import Finding, Report, Severity
-from lintamp.report.base import Reporter, plural
+from lintamp.report.base import Reporter, plural, printable
 
 INDENT = "    "
 _STYLE = {Severity.ERROR: "bold red", Severity.WARNING: "yellow", Severity.INFO: "cyan"}
@@ -35,8 +35,7 @@ class TextReporter(Reporter):
 
     def handle(self, finding: Finding) -> None:
         super().handle(finding)
-        for text, style in _finding_lines(finding):
-            self._write(text, style)
+        self._write_block(list(_finding_lines(finding)))
 
     def finish(self, report: Report) -> None:
         if self.statistics:
@@ -45,37 +44,42 @@ class TextReporter(Reporter):
         self._write(summary_line(report), "bold")
 
     def _write(self, parts, style: str | None = None) -> None:
-        """``parts``: a string, or a list of (text, style) pieces on one line."""
-        if isinstance(parts, str):
-            parts = [(parts, style)]
+        self._write_block([(parts, style)])
+
+    def _write_block(self, lines) -> None:
+        """``lines``: (parts, style) where parts is a string or a list of (text, style) pieces."""
+        pieces = [[(parts, style)] if isinstance(parts, str) else parts for parts, style in lines]
         if self._console is None:
-            self.stream.write("".join(text for text, _ in parts) + "\n")
+            self.stream.write("".join("".join(text for text, _ in line) + "\n" for line in pieces))
             return
         from rich.text import Text
 
-        line = Text()
-        for text, piece_style in parts:
-            line.append(text, style=piece_style or "")
-        self._console.print(line)
+        block = Text()
+        for number, line in enumerate(pieces):
+            if number:
+                block.append("\n")
+            for text, piece_style in line:
+                block.append(text, style=piece_style or "")
+        self._console.print(block)
 
 
 def _finding_lines(finding: Finding):
     loc = finding.location
-    yield [(f"{loc}: ", "bold"), (finding.severity.label, _STYLE[finding.severity]),
-           (f" {finding.rule}: ", "magenta"), (finding.message, None)], None
+    yield [(printable(f"{loc}: "), "bold"), (finding.severity.label, _STYLE[finding.severity]),
+           (printable(f" {finding.rule}: "), "magenta"), (printable(finding.message), None)], None
     where = []
     if finding.cell:
         where.append(f"in cell {finding.cell}")
     if finding.instances:
         where.append(f"instances {', '.join(finding.instances)}")
     if where:
-        yield INDENT + ", ".join(where), "dim"
+        yield INDENT + printable(", ".join(where)), "dim"
     for step in finding.explanation:
-        yield INDENT + step, None
+        yield INDENT + printable(step), None
     if finding.fix:
-        yield [(INDENT + "fix: ", "green"), (finding.fix, None)], None
+        yield [(INDENT + "fix: ", "green"), (printable(finding.fix), None)], None
     for related in finding.related:
-        yield [(INDENT + f"{related.location}: ", "bold"), (related.note, "dim")], None
+        yield [(INDENT + printable(f"{related.location}: "), "bold"), (printable(related.note), "dim")], None
 
 
 def _statistics_lines(findings: list[Finding], rules: dict):
@@ -83,10 +87,11 @@ def _statistics_lines(findings: list[Finding], rules: dict):
     if not counts:
         return
     width = max(len(str(n)) for n in counts.values())
+    yield "Findings by rule:", "bold"
     for rule, count in sorted(counts.items(), key=lambda item: (-item[1], item[0])):
         info = rules.get(rule)
         summary = f"  {info.summary}" if info is not None else ""
-        yield f"{count:>{width}}  {rule}{summary}", None
+        yield f"  {count:>{width}}  {printable(rule)}{summary}", None
 
 
 def summary_line(report: Report) -> str:
