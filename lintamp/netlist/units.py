@@ -20,7 +20,7 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["SUFFIXES", "parse_number", "scale_of_suffix"]
+__all__ = ["SUFFIXES", "parse_number"]
 
 #: Scale factor of each suffix, lower-case keys.  ``meg`` and ``mil`` are matched before
 #: ``m``; any letters after a suffix are ignored.
@@ -49,19 +49,6 @@ _DECIMAL_EXPONENT: dict[str, int] = {
 _NUMBER_RE = re.compile(
     r"([+-]?(?:\d+\.?\d*|\.\d+))(?:[eEdD]([+-]?\d+))?([^\W\d]\w*)?"
 )
-
-
-def scale_of_suffix(tail: str) -> float:
-    """Scale factor of the letters written after a number (``"kohm"`` -> 1e3).
-
-    Letters that start with no known suffix scale by 1 (``"V"``, ``"ohm"``, ``"x"``).
-    """
-    low = tail[:3].lower()
-    if low == "meg":
-        return 1e6
-    if low == "mil":
-        return 25.4e-6
-    return SUFFIXES.get(low[:1], 1.0)
 
 
 def parse_number(text: str) -> float | None:
