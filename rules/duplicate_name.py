@@ -31,16 +31,21 @@ def check(ctx):
     for diag in ctx.diagnostics(NAME):
         yield ctx.from_diagnostic(diag)
     for view in ctx.cells():
-        first: dict[str, object] = {}
+        by_name: dict[str, list] = {}
         for dev in view.devices:
-            earlier = first.get(dev.name)
-            if earlier is None:
-                first[dev.name] = dev
+            by_name.setdefault(dev.name, []).append(dev)
+        for name, devs in by_name.items():
+            if len(devs) < 2:
                 continue
+            first, second = devs[0], devs[1]
+            others = f" (and {len(devs) - 2} more)" if len(devs) > 2 else ""
             yield ctx.finding(
-                location=dev.location, subject=dev.name, view=view, elements=[dev.name],
-                message=f"{dev.display} has the name of the element at line {earlier.location.line}",
+                location=second.location, subject=name, view=view, elements=[name],
+                message=f"{second.display} has the name of the element at line "
+                        f"{first.location.line}{others}",
                 explanation=["SPICE names are case-insensitive and unique within a cell",
-                             "a simulator rejects the deck or keeps only one of the two"],
-                fix="give one of them a new name",
-                related=[Related(earlier.location, f"first {earlier.display}")])
+                             "a simulator rejects the deck (ngspice: 'device already exists') "
+                             "or keeps only one of them"],
+                fix="give each element its own name",
+                values={"count": len(devs)},
+                related=[Related(d.location, f"{d.display}") for d in [first] + devs[2:6]])

@@ -91,6 +91,55 @@ def split_fields(tokens: list[Token]) -> tuple[list[Token], list[tuple[Token, To
     return positional, params, stray
 
 
+_ASSIGN = re.compile(r"([A-Za-z_][\w.]*)\s*=(?!=)\s*")
+
+
+def assignments(text: str, start: int = 0) -> tuple[list[tuple[str, int, str]], list[tuple[str, int]]]:
+    """``NAME=VALUE`` pairs of a card, where a value may hold blanks, commas and
+    parentheses (``x = agauss(1.0, 0.01, 1)``).
+
+    Returns (pairs as (name, offset of name, value text), stray text with offset).
+    A new pair starts at a ``NAME=`` outside parentheses, braces and quotes.
+    """
+    starts = []
+    depth = 0
+    quote = ""
+    i = start
+    n = len(text)
+    while i < n:
+        ch = text[i]
+        if quote:
+            if ch == quote:
+                quote = ""
+        elif ch in "'\"":
+            quote = ch
+        elif ch in "({":
+            depth += 1
+        elif ch in ")}":
+            depth = max(0, depth - 1)
+        elif depth == 0 and (ch.isalpha() or ch == "_") and (i == start or not (
+                text[i - 1].isalnum() or text[i - 1] in "_.")):
+            m = _ASSIGN.match(text, i)
+            if m and (not starts or i > starts[-1][2]):
+                starts.append((m.group(1), i, m.end()))
+                i = m.end()
+                continue
+        i += 1
+    pairs = []
+    bad = []
+    lead = text[start:starts[0][1] if starts else n].strip()
+    if lead:
+        bad.append((lead, start + text[start:].find(lead[0])))
+    for k, (name, at, value_at) in enumerate(starts):
+        end = starts[k + 1][1] if k + 1 < len(starts) else n
+        value = text[value_at:end].strip().rstrip(",").strip()
+        if not value:
+            bad.append((name + "=", at))
+            continue
+        pairs.append((name, at, value))
+    return pairs, bad
+
+
 def is_number(text: str) -> bool:
     return parse_number(text) is not None
 
@@ -155,7 +204,7 @@ class ParseContext:
         elif word == ".model":
             self.model(card, tokens)
         elif word in (".param", ".global_param", ".params"):
-            self.params(card, tokens[1:])
+            self.params(card, tokens)
         elif word == ".func":
             self.func(card, tokens)
         elif word == ".global":
@@ -233,11 +282,12 @@ class ParseContext:
         self.cell.models[name] = model
 
     def params(self, card: Card, tokens: list[Token]) -> None:
-        positional, params, stray = split_fields(tokens)
-        for k, v in params:
-            self.cell.params.append(ParamDef(k.text.lower(), v.text, card.location_at(k.offset)))
-        for t in positional + stray:
-            self.error(card, t.offset, f"'{excerpt(t.text)}' in .param is not NAME=VALUE",
+        start = tokens[0].offset + len(tokens[0].text) if tokens else 0
+        pairs, bad = assignments(card.text, start)
+        for name, name_at, value in pairs:
+            self.cell.params.append(ParamDef(name.lower(), value, card.location_at(name_at)))
+        for text, at in bad:
+            self.error(card, at, f"'{excerpt(text)}' in .param is not NAME=VALUE",
                        expected="NAME=VALUE")
 
     def func(self, card: Card, tokens: list[Token]) -> None:
@@ -347,7 +397,7 @@ def parse_source(ctx, card, tokens):
             j = i + 1
             args = []
             while j < len(rest) and (is_value_token(rest[j].text) or rest[j].text[:1].isalpha()
-                                     and rest[j].text.lower() not in ("dc", "ac") | WAVEFORMS):
+                                     and rest[j].text.lower() not in {"dc", "ac"} | WAVEFORMS):
                 args.append(rest[j].text)
                 j += 1
             src.waveform = word
@@ -550,10 +600,8 @@ def parse_y(ctx, card, tokens):
     """Y: ngspice lossy line ``n1 n2 n3 n4 model``; Xyce ``YTYPE name nodes ... model``."""
     positional, pairs, _ = split_fields(tokens[1:])
     name = tokens[0].text.lower()
-    if name in ("ypde", "ymemristor", "ymin", "yacc", "ylin", "ytransline", "ybsim", "yvsrc",
-                "yisrc", "ygenext", "ywindsrc", "ypowergrid", "yneuron", "ysynapse", "yrxn",
-                "yinterfacemodel", "ydigital") or (len(positional) >= 1 and not positional[0].text[:1].isdigit()
-                                                   and name[1:] in ("pde", "memristor", "lin", "acc")):
+    # Xyce writes 'YTYPE NAME NODES ...': the letters after Y name the device type
+    if len(name) > 3 and name[1:].isalpha() and name[1:4] != "txl":
         if len(positional) < 3:
             ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected an instance name, nodes and a model",
                       expected="YTYPE NAME NODES ... MODEL", subject=name)

@@ -181,6 +181,10 @@ class _Reader:
 
     # -- files ---------------------------------------------------------------
     def read_top(self, path: Path, data: bytes | None = None, title: bool = True) -> ReadResult:
+        try:
+            self.stack.append((str(path.resolve()), ""))
+        except OSError:
+            pass
         self._read_file(path, top_level=title, section=None, data=data, at=None)
         return self.result
 
@@ -220,6 +224,7 @@ class _Reader:
         cards = self.result.cards
         lines = text.split("\n")
         current: list | None = None  # [pieces, segments, first_comment, last_line]
+        cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
         in_control = False
         in_data = False
         spectre = False
@@ -269,8 +274,10 @@ class _Reader:
                     self.result.comments.append(
                         CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma"))
                 elif head == "*" and body[:1] == "." and in_section and not in_control:
-                    self.result.comments.append(
-                        CommentLine(body.strip(), Location(shown, lineno, indent + 1), "cdl"))
+                    flush()  # a '+' after a CDL directive continues the directive, not a card
+                    cdl_open = CommentLine(body.strip(), Location(shown, lineno, indent + 1), "cdl")
+                    self.result.comments.append(cdl_open)
+                    continue
                 continue
             lowered = stripped[:10].lower()
             if in_control:
@@ -303,6 +310,10 @@ class _Reader:
                 i += 1
                 more, _ = _strip_inline_comment(nxt.lstrip(), opts)
                 code += more
+            if head == "+" and cdl_open is not None:
+                cdl_open.text += " " + code[1:].strip()
+                continue
+            cdl_open = None
             if head == "+":
                 if current is None:
                     if in_section:
