@@ -39,6 +39,8 @@ def check(ctx):
         return
     incomplete = ctx.options.get("includes_missing", False)
     for view in ctx.cells():
+        if not ctx.design.in_deck(view):
+            continue  # a library cell: the file that includes it may define the model
         for dev in view.devices:
             el = dev.element
             if el.letter not in _NEEDS_MODEL or not el.model or dev.model is not None:

@@ -163,6 +163,26 @@ class Design:
     diagnostics: list[Diagnostic] = field(default_factory=list)
     ground: frozenset[str] = GROUND_NAMES
 
+    @cached_property
+    def deck_cells(self) -> frozenset[int]:
+        """Ids of the views a simulation deck instantiates: the top level (when it has
+        devices of its own) and every cell reached from it.  Empty for a cell library."""
+        if not self.top.devices:
+            return frozenset()
+        seen = {id(self.top)}
+        stack = [self.top]
+        while stack:
+            view = stack.pop()
+            for dev in view.devices:
+                sub = dev.subcell
+                if sub is not None and id(sub) not in seen:
+                    seen.add(id(sub))
+                    stack.append(sub)
+        return frozenset(seen)
+
+    def in_deck(self, view: CellView) -> bool:
+        return id(view) in self.deck_cells
+
     def view_of(self, cell: Cell) -> CellView:
         return self.views[id(cell)]
 
@@ -280,6 +300,9 @@ def recognise(element: Element, cell: Cell, devmap: DeviceMap,
     polarity_from = ""
     if letter == "x":
         spec = devmap.lookup(element.model or "") if element.model else None
+        if (spec is not None and getattr(spec, "builtin", False) and subcell is not None
+                and len(subcell.ports) != len(spec.pins)):
+            spec = None  # a generated wrapper that only shares the PDK's prefix: use its definition
         if spec is not None:  # the map wins even where the subcircuit is defined
             kind = spec.kind
             pins = spec.pins
@@ -292,10 +315,9 @@ def recognise(element: Element, cell: Cell, devmap: DeviceMap,
         kind = "behavioral"
     if letter in "fh" and element.model == "poly":
         kind = "behavioral"
-    if letter == "r" and element.model and model is None and element.value is None:
+    if (letter in "rcl" and element.model and model is None and element.value is None
+            and element.model in visible_params(cell)):
         element.value, element.model = element.model, None  # 'R1 a b rval': a bare parameter
-    if letter in "cl" and element.model and model is None and element.value is None:
-        element.value, element.model = element.model, None
     if letter == "q":
         mtype = model.type if model else ""
         if mtype in ("npn", "pnp"):

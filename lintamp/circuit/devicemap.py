@@ -45,6 +45,9 @@ def _b(pattern, kind, pins=None, value=None):
 
 
 BUILTIN = (
+    # generic transistor names that schematic flows instantiate as subcircuits
+    _b("nmos", "nmos"), _b("pmos", "pmos"), _b("nmos_*", "nmos"), _b("pmos_*", "pmos"),
+    _b("nfet", "nmos"), _b("pfet", "pmos"),
     # SkyWater sky130
     _b("sky130_fd_pr__nfet_*", "nmos"), _b("sky130_fd_pr__special_nfet*", "nmos"),
     _b("sky130_fd_pr__esd_nfet*", "nmos"),

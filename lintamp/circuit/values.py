@@ -7,6 +7,7 @@ A value that names an undefined parameter is not guessed: it stays symbolic
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 from typing import Iterator, Mapping
 
@@ -19,11 +20,18 @@ from lintamp.netlist.statements import Cell, Element, Netlist
 # names every SPICE expression may use without defining them
 BUILTIN_NAMES = frozenset({"pi", "e", "temper", "temp", "hertz", "time", "true", "false",
                            "boltz", "planck", "echarge", "kelvin", "epsilon0", "mu0", "c"})
+# keys whose value is a number even when written as a bare name (else a bare word
+# is a string option, like CDL's topography=normal)
+NUMERIC_KEYS = frozenset({"value", "r", "c", "l", "dc", "ac", "acphase", "gain", "tc1", "tc2",
+                          "temp", "dtemp", "ic", "k", "res", "cap", "ind"})
 GEOMETRY_PARAMS = frozenset({"w", "l", "nf", "m", "mult", "nfin", "ad", "as", "pd", "ps",
                              "nrd", "nrs", "sa", "sb", "sd", "area", "perim", "multi"})
 # keys whose values are not numbers (file names, switches, model selectors)
 NON_NUMERIC_KEYS = frozenset({"file", "model", "type", "spice_model", "dtemp_model",
                               "string", "sourcefile", "name"})
+
+
+_IDENTIFIER = re.compile(r"[A-Za-z_][\w.]*")
 
 
 def _funcs_of(cell: Cell) -> dict[str, UserFunc]:
@@ -58,7 +66,7 @@ class Scope:
         if number is not None:
             return number
         try:
-            result = evaluate_value(text, self.values, self.funcs)
+            result = evaluate_value(expression_body(text), self.values, self.funcs)
         except ExprError:
             return None
         return result if math.isfinite(result) else None
@@ -127,10 +135,23 @@ class BadExpression:
     cell: Cell | None = None
 
 
-def _names_in(text: str) -> tuple[frozenset[str], ExprError | None]:
+_PROBE = re.compile(r"\b[vi]\s*\([^()]*\)", re.I)  # v(node), i(vsource): not parameters
+
+
+def expression_body(text: str) -> str:
+    """The expression of a value token: delimiters off, and braces nested in an
+    unbraced expression read as parentheses (ngspice accepts ``(a ? {x} : {y})``)."""
     body = strip_delimiters(text)
+    if body is text and "{" in body:
+        body = body.replace("{", "(").replace("}", ")")
+    return body
+
+
+def _names_in(text: str) -> tuple[frozenset[str], ExprError | None]:
+    body = expression_body(text)
     if parse_number(body) is not None:
         return frozenset(), None
+    body = _PROBE.sub("0", body)
     try:
         return compile_expr(body).names, None
     except ExprError as exc:
@@ -156,6 +177,8 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             known.update(c.funcs)
             c = c.parent
         for p in cell.params:
+            if p.text.startswith('"'):
+                continue  # a string parameter
             names, err = _names_in(p.text)
             if err is not None:
                 yield BadExpression(None, f".param {p.name}", err, p.location, cell)
@@ -164,7 +187,7 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
                 yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
         for element in cell.elements:
             fields = []
-            if element.value is not None:
+            if element.value is not None and element.source is None:
                 fields.append(("value", element.value))
             fields.extend((k, v) for k, v in element.params.items() if k not in NON_NUMERIC_KEYS)
             if element.source is not None:
@@ -172,13 +195,18 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
                 fields.extend(("dc" if k == "dc" else k, v) for k, v in
                               (("dc", src.dc), ("ac", src.ac_mag), ("acphase", src.ac_phase)) if v)
             for key, text in fields:
-                if text is None or parse_number(text) is not None:
-                    continue
+                if text is None or parse_number(text) is not None or text.startswith('"'):
+                    continue  # a number, or a string value
                 names, err = _names_in(text)
                 if err is not None:
                     yield BadExpression(element, key, err, element.location, cell)
                     continue
                 bare = text[:1] not in "{'\""
-                for name in sorted(names - known):
+                if bare and _IDENTIFIER.fullmatch(text) and key not in NUMERIC_KEYS | GEOMETRY_PARAMS:
+                    continue  # a string option, not a number
+                # an instance's parameter may use the instance's other parameters
+                # (sky130: ad='int((nf+1)/2) * W/nf * 0.29'); they bind in the cell it calls
+                unknown = names - known - element.params.keys()
+                for name in sorted(unknown):
                     yield UndefinedUse(name, element, key, element.location,
                                        bare and key in GEOMETRY_PARAMS, cell)

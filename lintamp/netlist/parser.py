@@ -21,6 +21,9 @@ from lintamp.netlist.statements import (Analysis, Cell, Diagnostic, Element, Fun
 
 WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
              "pat", "pwl_file"}
+# source keywords that take a fixed number of values and say nothing of topology
+SOURCE_KEYWORDS = {"portnum": 1, "z0": 1, "distof1": 2, "distof2": 2, "pwr": 1, "freq": 1}
+SOURCE_WORDS = WAVEFORMS | {"dc", "ac"} | set(SOURCE_KEYWORDS)
 ANALYSES = {".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".sens", ".pz", ".disto", ".pss",
             ".sp", ".hb", ".four", ".mpde", ".step", ".fft", ".lin"}
 IGNORED_DOT = {".ic", ".nodeset", ".save", ".print", ".plot", ".probe", ".meas", ".measure",
@@ -37,6 +40,10 @@ IGNORED_DOT = {".ic", ".nodeset", ".save", ".print", ".plot", ".probe", ".meas",
 # Model types that make an element letter into a known device.
 MOS_TYPES = {"nmos": "nmos", "pmos": "pmos", "nmf": "nmos", "pmf": "pmos", "vdmos": "vdmos"}
 BJT_TYPES = {"npn": "npn", "pnp": "pnp", "lpnp": "pnp"}
+
+# words after a device's model that are switches, not names (initial-condition
+# 'off', self-heating 'thermal', CIDER 'save')
+DEVICE_FLAGS = frozenset({"off", "on", "thermal", "save", "print"})
 
 _TOKEN = re.compile(
     r"""\{(?:[^{}]|\{(?:[^{}]|\{[^{}]*\})*\})*\}   # {expr}, three levels of braces
@@ -140,6 +147,20 @@ def assignments(text: str, start: int = 0) -> tuple[list[tuple[str, int, str]], 
     return pairs, bad
 
 
+def _regroup_assignments(text: str, tokens: list[Token]) -> list[Token]:
+    """Re-read the ``NAME=VALUE`` part of an element card whose values hold
+    parentheses or blanks (``R = (time<1m ? 1k : 2k)``) as whole values."""
+    first_name = next((t for t in tokens[1:] if t.text != "="), None)
+    pairs, _ = assignments(text, first_name.offset if first_name else 0)
+    if not pairs:
+        return tokens
+    first = pairs[0][1]
+    out = [t for t in tokens if t.offset < first]
+    for name, at, value in pairs:
+        out += [Token(name, at), Token("=", at + len(name)), Token(value, text.find(value, at))]
+    return out
+
+
 def is_number(text: str) -> bool:
     return parse_number(text) is not None
 
@@ -157,6 +178,9 @@ class ParseContext:
         self.netlist = Netlist(path=path, title=title, top=self.top)
         self.stack: list[Cell] = [self.top]
         self.element_cards: list[tuple[Element, Card]] = []
+        # device cards whose model could not be told from a node: parsed again at
+        # the end, once every .model name is known
+        self.deferred: list = []
 
     # -- diagnostics ---------------------------------------------------------
     def error(self, card: Card, offset: int, message: str, expected: str = "", subject: str = "",
@@ -179,6 +203,8 @@ class ParseContext:
         if not tokens:
             return
         head = tokens[0].text
+        if "=" in text and "(" in text and head[0] != ".":
+            tokens = _regroup_assignments(text, tokens)
         if head[0] == ".":
             self.dot_card(card, tokens, head.lower())
             return
@@ -267,7 +293,7 @@ class ParseContext:
             self.error(card, tokens[1].offset,
                        f".ends {excerpt(tokens[1].text)} closes .subckt {cell.label} "
                        f"(opened at line {cell.location.line})", severity="warning",
-                       expected=f".ends {cell.label}", subject=cell.name)
+                       expected=f".ends {cell.label}", subject=cell.name, rule="mismatched-ends")
 
     def model(self, card: Card, tokens: list[Token]) -> None:
         if len(tokens) < 3:
@@ -302,6 +328,13 @@ class ParseContext:
         self.cell.funcs[m.group(1).lower()] = FuncDef(m.group(1).lower(), args, body, card.location)
 
     def finish(self) -> Netlist:
+        if self.deferred:
+            models = frozenset(name for cell in self.netlist.all_cells() for name in cell.models)
+            for parse, card, tokens, cell, index in reversed(self.deferred):
+                element = parse(self, card, tokens, models)
+                if element is not None:
+                    cell.elements.insert(index, element)
+                    self.element_cards.append((element, card))
         while len(self.stack) > 1:
             cell = self.stack.pop()
             self.netlist.diagnostics.append(Diagnostic(
@@ -381,9 +414,11 @@ def parse_source(ctx, card, tokens):
     while i < len(rest):
         word = rest[i].text.lower()
         if word == "dc":
-            if i + 1 < len(rest):
+            if i + 1 < len(rest) and rest[i + 1].text.lower() not in SOURCE_WORDS:
                 src.dc = rest[i + 1].text
-            i += 2
+                i += 2
+            else:
+                i += 1
         elif word == "ac":
             vals = []
             j = i + 1
@@ -403,6 +438,8 @@ def parse_source(ctx, card, tokens):
             src.waveform = word
             src.waveform_args = tuple(args)
             i = j
+        elif word in SOURCE_KEYWORDS:
+            i += 1 + SOURCE_KEYWORDS[word]  # port number and impedance, distortion inputs
         elif src.dc is None and is_value_token(rest[i].text) or (
                 src.dc is None and i == 0 and rest[i].text[:1].isalpha()):
             src.dc = rest[i].text
@@ -501,14 +538,19 @@ def parse_behavioral(ctx, card, tokens):
     return el
 
 
-def _model_split(positional: list[Token], min_nodes: int, max_nodes: int):
+def _model_split(positional: list[Token], min_nodes: int, max_nodes: int,
+                 models: frozenset[str] = frozenset()):
     """Nodes then model: the model is the last positional token that is not a number.
 
-    Tokens after the model (HSPICE positional sizes, an area factor) are returned
-    separately.
+    A model name that looks like a number (``1n4002``, ``2SJ74``) counts once a
+    ``.model`` of that name is known.  Tokens after the model (HSPICE positional
+    sizes, an area factor) are returned separately.
     """
+    while positional and positional[-1].text.lower() in DEVICE_FLAGS:
+        positional = positional[:-1]
     for idx in range(len(positional) - 1, -1, -1):
-        if not is_value_token(positional[idx].text) and idx >= min_nodes:
+        tok = positional[idx].text
+        if idx >= min_nodes and (not is_value_token(tok) or tok.lower() in models):
             nodes = positional[:idx]
             if len(nodes) > max_nodes:
                 continue
@@ -517,9 +559,12 @@ def _model_split(positional: list[Token], min_nodes: int, max_nodes: int):
 
 
 def make_device_parser(what: str, min_nodes: int, max_nodes: int, after: tuple[str, ...] = ()):
-    def parse(ctx, card, tokens):
+    def parse(ctx, card, tokens, models: frozenset[str] | None = None):
         positional, pairs, _ = split_fields(tokens[1:])
-        split = _model_split(positional, min_nodes, max_nodes)
+        split = _model_split(positional, min_nodes, max_nodes, models or frozenset())
+        if split is None and models is None:
+            ctx.deferred.append((parse, card, tokens, ctx.cell, len(ctx.cell.elements)))
+            return None
         if split is None:
             n = f"{min_nodes}" if min_nodes == max_nodes else f"{min_nodes} to {max_nodes}"
             ctx.error(card, tokens[-1].offset + len(tokens[-1].text),
@@ -531,7 +576,7 @@ def make_device_parser(what: str, min_nodes: int, max_nodes: int, after: tuple[s
         for name, tok in zip(after, extra):
             params.setdefault(name, tok.text)
         for tok in extra[len(after):]:
-            if tok.text.lower() in ("off", "on"):
+            if tok.text.lower() in DEVICE_FLAGS:
                 continue
             ctx.error(card, tok.offset, f"unexpected field '{excerpt(tok.text)}' after the model",
                       expected="KEY=VALUE parameters", subject=tokens[0].text.lower(), severity="warning")
@@ -624,7 +669,7 @@ ELEMENT_PARSERS = {
     "v": parse_source, "i": parse_source,
     "e": parse_controlled, "f": parse_controlled, "g": parse_controlled, "h": parse_controlled,
     "b": parse_behavioral,
-    "d": make_device_parser("diode", 2, 2, after=("area",)),
+    "d": make_device_parser("diode", 2, 3, after=("area",)),
     "q": make_device_parser("BJT", 3, 5, after=("area",)),
     "j": make_device_parser("JFET", 3, 3, after=("area",)),
     "z": make_device_parser("MESFET", 3, 3, after=("area",)),

@@ -1,0 +1,1 @@
+"""Analyses: pure functions of an elaborated design, memoised on the context."""

@@ -1,0 +1,169 @@
+"""Typed statements of a netlist: what the parser hands to the circuit layer.
+
+Values stay as the text written (``"10k"``, ``"{2*w}"``); the circuit layer
+evaluates them with the parameters in scope.  Names of nets, elements, models and
+cells are lower-cased (SPICE is case-insensitive); ``Element.name`` keeps the
+original spelling for messages.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from lintamp.location import Location
+
+
+@dataclass(slots=True)
+class Diagnostic:
+    """Something the reader or parser could not accept, reported as a finding later."""
+
+    rule: str  # parse-error, undefined-param, ...
+    location: Location
+    message: str
+    subject: str = ""
+    severity: str = "error"  # error | warning | info
+    expected: str = ""
+
+
+@dataclass(slots=True)
+class Pragma:
+    """A ``lintamp:`` comment: verb and arguments, with its place and the cell it sits in."""
+
+    verb: str  # current-input, voltage-output, load, bandwidth, waive, ...
+    args: tuple[str, ...]
+    reason: str
+    location: Location
+    inline: bool = False  # written at the end of a card (applies to that card's element)
+    cell: str = ""  # the cell it sits in ("" = top level)
+    element: str | None = None  # the element it is attached to (inline, or the line after)
+    element_nets: tuple[str, ...] = ()  # that element's nets
+
+
+@dataclass(slots=True)
+class Source:
+    """Stimulus of an independent V or I source (values as text)."""
+
+    dc: str | None = None
+    ac_mag: str | None = None
+    ac_phase: str | None = None
+    waveform: str | None = None  # pulse, sin, pwl, exp, sffm, am, ...
+    waveform_args: tuple[str, ...] = ()
+
+
+@dataclass(slots=True)
+class Element:
+    """One element card.  ``letter`` is the lower-case first letter of the name.
+
+    ``nodes`` are the positional nets; ``model`` the model or subcircuit name (or
+    None); ``value`` the main value token (resistance, capacitance, gain ...);
+    ``params`` the ``key=value`` pairs, keys lower-cased, values as text;
+    ``controls`` the controlling V-source names of F/H/W elements and POLY forms.
+    """
+
+    name: str
+    letter: str
+    nodes: tuple[str, ...]
+    location: Location
+    model: str | None = None
+    value: str | None = None
+    params: dict[str, str] = field(default_factory=dict)
+    controls: tuple[str, ...] = ()
+    source: Source | None = None
+    expression: str | None = None  # B sources, E/G VALUE= / TABLE bodies
+    raw_nodes: tuple[str, ...] = ()  # original spelling of nodes, for messages
+
+    @property
+    def key(self) -> str:
+        return self.name.lower()
+
+
+@dataclass(slots=True)
+class Model:
+    """A ``.model`` card: type (nmos, npn, d, r, sw ...) and parameters as text."""
+
+    name: str
+    type: str
+    params: dict[str, str]
+    location: Location
+
+
+@dataclass(slots=True)
+class ParamDef:
+    """One ``name=value`` of a ``.param`` card or a ``.subckt`` default."""
+
+    name: str
+    text: str
+    location: Location
+
+
+@dataclass(slots=True)
+class FuncDef:
+    """A ``.func name(args) {body}`` definition."""
+
+    name: str
+    args: tuple[str, ...]
+    body: str
+    location: Location
+
+
+@dataclass(slots=True)
+class Analysis:
+    """An analysis card, recorded not interpreted (``.ac`` gives a bandwidth hint)."""
+
+    kind: str  # op, dc, ac, tran, noise, ...
+    args: tuple[str, ...]
+    location: Location
+
+
+@dataclass(slots=True)
+class Cell:
+    """A ``.subckt`` definition, or the top level of a file (``name == ""``).
+
+    ``cells`` are subcircuits defined inside this one (local scope).
+    """
+
+    name: str
+    ports: tuple[str, ...]
+    location: Location
+    params: list[ParamDef] = field(default_factory=list)  # .subckt defaults, then .param cards
+    defaults: dict[str, str] = field(default_factory=dict)  # .subckt header defaults
+    elements: list[Element] = field(default_factory=list)
+    models: dict[str, Model] = field(default_factory=dict)
+    funcs: dict[str, FuncDef] = field(default_factory=dict)
+    cells: dict[str, "Cell"] = field(default_factory=dict)
+    pragmas: list[Pragma] = field(default_factory=list)
+    display_name: str = ""
+    end_location: Location | None = None
+    parent: "Cell | None" = field(default=None, repr=False)
+
+    @property
+    def is_top(self) -> bool:
+        return self.name == ""
+
+    @property
+    def label(self) -> str:
+        return self.display_name or self.name or "(top)"
+
+
+@dataclass(slots=True)
+class Netlist:
+    """Everything read from one top-level file and what it included."""
+
+    path: str
+    title: str
+    top: Cell
+    globals: set[str] = field(default_factory=set)
+    options: dict[str, str] = field(default_factory=dict)
+    temperature_c: str | None = None
+    analyses: list[Analysis] = field(default_factory=list)
+    diagnostics: list[Diagnostic] = field(default_factory=list)
+    files: list[str] = field(default_factory=list)  # every file read, the top one first
+    cdl: dict[str, list[str]] = field(default_factory=dict)  # *.PININFO, *.GLOBAL, ... metadata
+
+    def all_cells(self):
+        """Every cell, depth first: the top level, then each subcircuit definition."""
+        stack = [self.top]
+        while stack:
+            cell = stack.pop()
+            yield cell
+            stack.extend(reversed(list(cell.cells.values())))

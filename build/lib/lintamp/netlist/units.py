@@ -1,0 +1,106 @@
+"""SPICE numbers with engineering suffixes: ``10k``, ``1.5MEG``, ``10uF``, ``2.2e-3m``.
+
+The rules follow what ngspice-39 does with a plain number field (checked by running
+it, see ``tests/test_expr.py``):
+
+- scale suffixes are case-insensitive: ``t g meg k m mil u n p f`` and ``µ`` (U+00B5);
+  ``M`` is milli, ``MEG`` is mega, ``MIL`` is 25.4e-6, ``F`` is femto;
+- letters (and digits) after the number or suffix are ignored: ``10V``, ``5kohm``,
+  ``1MEGohm``, ``3k3`` (= 3000, not 3300), ``1x`` (= 1; there is no ``x``/``a`` suffix);
+- an exponent and a suffix both apply: ``1E3k`` is 1e6;
+- ``d``/``D`` also marks an exponent (``1d3`` is 1000), as the ngspice number reader has it;
+- the Greek small letter mu (U+03BC) is *not* micro: ngspice reads ``1μ`` as 1.
+
+Deliberate differences: a token that is only partly a number (``1.5.3``, ``1e+``,
+``2*3``) is not a number here (ngspice would silently read its leading part), nor is a
+value that overflows a float (``1e400``), so that the caller can report it.
+"""
+
+from __future__ import annotations
+
+import re
+
+__all__ = ["SUFFIXES", "parse_number"]
+
+#: Scale factor of each suffix, lower-case keys.  ``meg`` and ``mil`` are matched before
+#: ``m``; any letters after a suffix are ignored.
+SUFFIXES: dict[str, float] = {
+    "t": 1e12,
+    "g": 1e9,
+    "meg": 1e6,
+    "k": 1e3,
+    "m": 1e-3,
+    "mil": 25.4e-6,
+    "u": 1e-6,
+    "\u00b5": 1e-6,  # micro sign, as ngspice reads it
+    "n": 1e-9,
+    "p": 1e-12,
+    "f": 1e-15,
+}
+
+# Decimal exponent of each power-of-ten suffix, so that ``1.1u`` becomes the float of
+# "1.1e-6" (correctly rounded) rather than 1.1 * 1e-6 (one rounding more).
+_DECIMAL_EXPONENT: dict[str, int] = {
+    "t": 12, "g": 9, "k": 3, "m": -3, "u": -6, "\u00b5": -6, "n": -9, "p": -12, "f": -15,
+}
+
+# mantissa, optional exponent (e or d), then an optional tail that starts with a letter
+# and runs over letters, digits and underscores ([^\W\d] is "a letter or _").
+_NUMBER_RE = re.compile(
+    r"([+-]?(?:\d+\.?\d*|\.\d+))(?:[eEdD]([+-]?\d+))?([^\W\d]\w*)?"
+)
+
+
+def parse_number(text: str) -> float | None:
+    """Read a SPICE number such as ``"10k"``, ``"-2.5u"``, ``".5"``, ``"1MEGohm"``.
+
+    Parameters
+    ----------
+    text : str
+        One token, without surrounding blanks.
+
+    Returns
+    -------
+    float or None
+        The value, or None when the token is not a (finite) SPICE number: a name
+        (``"w"``, ``"nch"``), an expression (``"{a}"``, ``"2*3"``), or an overflow.
+
+    Notes
+    -----
+    O(len(text)): one compiled-regex match and a dict lookup; no allocation beyond
+    one small string when a suffix or exponent is present.
+
+    Examples
+    --------
+    >>> parse_number("10M"), parse_number("1MEG"), parse_number("1F")
+    (0.01, 1000000.0, 1e-15)
+    >>> parse_number("5kohm"), parse_number("1E3k"), parse_number("nch")
+    (5000.0, 1000000.0, None)
+    """
+    match = _NUMBER_RE.fullmatch(text)
+    if match is None:
+        return None
+    mantissa, exponent, tail = match.groups()
+    exp10 = 0
+    if tail is not None:
+        first = tail[0].lower()
+        if first == "m":
+            after = tail[1:3].lower()
+            if after == "eg":
+                exp10 = 6
+            elif after == "il":
+                value = float(mantissa if exponent is None else f"{mantissa}e{exponent}")
+                value *= 25.4e-6
+                return value if value - value == 0.0 else None
+            else:
+                exp10 = -3
+        else:
+            exp10 = _DECIMAL_EXPONENT.get(first, 0)
+    if exponent is not None:
+        value = float(f"{mantissa}e{int(exponent) + exp10}")
+    elif exp10:
+        value = float(f"{mantissa}e{exp10}")
+    else:
+        value = float(mantissa)
+    # inf - inf is nan, the one value unequal to 0.0 here; cheaper than math.isfinite
+    return value if value - value == 0.0 else None

@@ -1,0 +1,1 @@
+"""Built-in rules, one module each (installed as ``lintamp.rules``)."""

@@ -1,0 +1,1 @@
+"""Elaboration: cells, devices, nets, the connectivity graph, flattening."""

@@ -1,0 +1,1 @@
+"""Commands beyond check: impedance, audit."""

@@ -1,0 +1,1 @@
+"""Netlist reading and parsing."""
