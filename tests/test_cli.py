@@ -1,0 +1,99 @@
+"""The command line as a user meets it: exit codes, formats, rules, explain."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from lintamp import __version__
+from lintamp.cli import main
+
+REPO = Path(__file__).resolve().parent.parent
+SAMPLES = REPO / "samples"
+
+
+def run(*args, cwd=None):
+    return subprocess.run([sys.executable, "-m", "lintamp", *args], capture_output=True,
+                          text=True, cwd=cwd or REPO, env={"PYTHONPATH": str(REPO), "NO_COLOR": "1",
+                                                          "PATH": "/usr/bin:/bin"})
+
+
+def test_version():
+    out = run("--version")
+    assert out.returncode == 0 and out.stdout.strip() == f"lintamp {__version__}"
+
+
+def test_clean_file_exits_0(tmp_path):
+    f = tmp_path / "ok.sp"
+    f.write_text("divider\nv1 a 0 1\nr1 a b 1k\nr2 b 0 1k\n.end\n")
+    assert main(["check", "--isolated", str(f)]) == 0
+
+
+def test_findings_exit_1_and_fail_on_never_exits_0():
+    assert main(["check", "--isolated", str(SAMPLES / "review_typos.sp")]) == 1
+    assert main(["check", "--isolated", "--fail-on", "never", str(SAMPLES / "review_typos.sp")]) == 0
+
+
+def test_missing_path_and_bad_option_exit_2(capsys):
+    assert main(["check", "no/such/file.sp"]) == 2
+    assert "no such file" in capsys.readouterr().err
+    with pytest.raises(SystemExit) as exc:
+        main(["check", "--format", "yaml"])
+    assert exc.value.code == 2
+
+
+def test_unknown_rule_in_select_exits_2(capsys):
+    assert main(["check", "--isolated", "--select", "no-such-rule", str(SAMPLES)]) == 2
+    assert "no-such-rule" in capsys.readouterr().err
+
+
+def test_json_report_shape(tmp_path):
+    out = tmp_path / "r.json"
+    code = main(["check", "--isolated", "--format", "json", "-o", str(out), str(SAMPLES)])
+    data = json.loads(out.read_text())
+    assert code == 1
+    assert data["tool"] == "lintamp" and data["schema"] == 1 and data["version"] == __version__
+    rules = sorted(f["rule"] for f in data["findings"])
+    assert rules == ["duplicate-name", "pin-mismatch", "undefined-param", "unknown-model"]
+    fields = {"rule", "severity", "path", "line", "column", "cell", "instances", "subject", "nets",
+              "elements", "message", "explanation", "fix", "values", "related", "fingerprint"}
+    for finding in data["findings"]:
+        assert fields <= set(finding)
+    assert data["summary"]["errors"] == 4
+
+
+def test_text_report_lines():
+    out = run("check", "--isolated", "samples/review_typos.sp")
+    assert out.returncode == 1
+    first = out.stdout.splitlines()[0]
+    assert first.startswith("samples/review_typos.sp:16:1: error pin-mismatch:")
+
+
+def test_two_runs_are_byte_identical():
+    a = run("check", "--isolated", "--format", "json", "samples")
+    b = run("check", "--isolated", "--format", "json", "samples")
+    assert a.stdout == b.stdout and a.stdout
+
+
+def test_rules_and_explain():
+    out = run("rules", "--format", "json")
+    names = {r["name"] for r in json.loads(out.stdout)}
+    assert {"parse-error", "undefined-param", "unknown-cell", "pin-mismatch", "unknown-model",
+            "duplicate-name"} <= names
+    page = run("explain", "pin-mismatch")
+    assert page.returncode == 0
+    for section in ("What it finds", "Why it matters", "Example", "Fix"):
+        assert section in page.stdout
+    assert run("explain", "pin-mismach").returncode == 2
+
+
+def test_every_rule_documents_itself():
+    from lintamp.registry import all_rules
+    for rule in all_rules().values():
+        for section in ("What it finds", "Why it matters", "Example", "Fix"):
+            assert section in rule.doc, f"{rule.name} lacks '{section}'"
+        assert rule.summary and rule.category
