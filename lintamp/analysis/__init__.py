@@ -1,0 +1,1 @@
+"""Analyses of an elaborated circuit: DC paths, stages, operating point, small-signal impedance."""
