@@ -105,3 +105,72 @@ class Finding:
             ],
             "fingerprint": self.fingerprint,
         }
+
+    @classmethod
+    def from_json(cls, data: dict) -> "Finding":
+        """The inverse of :meth:`to_json` (the fingerprint is recomputed, not read).
+
+        Raises ``KeyError``, ``TypeError`` or ``ValueError`` for data of another shape.
+        """
+        def strings(key: str) -> tuple[str, ...]:
+            items = data.get(key, [])
+            if not isinstance(items, list) or not all(isinstance(i, str) for i in items):
+                raise TypeError(f"{key} is not a list of strings")
+            return tuple(items)
+
+        values = data.get("values", {})
+        if not isinstance(values, dict):
+            raise TypeError("values is not an object")
+        return cls(
+            rule=str(data["rule"]),
+            severity=Severity.parse(data["severity"]),
+            location=Location(str(data["path"]), int(data["line"]), int(data.get("column", 1))),
+            subject=str(data["subject"]),
+            message=str(data["message"]),
+            cell=str(data.get("cell", "")),
+            instances=strings("instances"),
+            nets=strings("nets"),
+            elements=strings("elements"),
+            explanation=strings("explanation"),
+            fix=str(data.get("fix", "")),
+            values={str(k): v for k, v in values.items()},
+            related=tuple(
+                Related(Location(str(r["path"]), int(r["line"]), int(r.get("column", 1))),
+                        str(r.get("note", "")))
+                for r in data.get("related", [])
+            ),
+        )
+
+
+@dataclass(slots=True)
+class Waived:
+    """A finding that an inline waiver covers, with the waiver's place and reason."""
+
+    finding: Finding
+    waiver_location: Location
+    reason: str
+
+
+@dataclass(slots=True)
+class Report:
+    """The result of a run: what the decision layer kept, in report order.
+
+    ``findings`` is sorted by path, line, column, rule, subject; ``files`` are the
+    paths checked (as given, relative where the user gave them relative).
+    ``baseline_gone`` lists fingerprints of baseline entries that no longer occur.
+    """
+
+    findings: list[Finding] = field(default_factory=list)
+    waived: list[Waived] = field(default_factory=list)
+    files: list[str] = field(default_factory=list)
+    baseline_gone: list[dict] = field(default_factory=list)
+    baseline_matched: int = 0
+    baseline_used: bool = False  # a baseline was applied (reporters then list baseline_gone)
+
+    def count(self, severity: Severity) -> int:
+        return sum(1 for f in self.findings if f.severity == severity)
+
+    def summary(self) -> dict:
+        return {"files": len(self.files), "errors": self.count(Severity.ERROR),
+                "warnings": self.count(Severity.WARNING), "infos": self.count(Severity.INFO),
+                "waived": len(self.waived)}

@@ -1,0 +1,197 @@
+"""The library entry points: ``check_text``, ``check_paths``, and loaders.
+
+The CLI is a thin layer over these.  Every function takes a
+:class:`~lintamp.config.Config` (defaults when omitted) and returns data, never
+prints.
+"""
+
+from __future__ import annotations
+
+import os
+import traceback
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Iterable
+
+from lintamp.analysis.context import Context
+from lintamp.circuit.design import Design, elaborate
+from lintamp.circuit.devicemap import DeviceMap
+from lintamp.findings import Finding, Report, Severity
+from lintamp.location import Location
+from lintamp.netlist.parser import parse_file, parse_text
+from lintamp.netlist.reader import ReadOptions
+from lintamp.netlist.statements import Netlist, Pragma
+
+PARSER_RULES = ("parse-error", "undefined-param", "unknown-cell", "pin-mismatch",
+                "unknown-model", "duplicate-name")
+
+
+@dataclass(slots=True)
+class FileResult:
+    """Findings and pragmas of one checked file, before the decision layer."""
+
+    path: str
+    findings: list[Finding] = field(default_factory=list)
+    pragmas: list[Pragma] = field(default_factory=list)
+    internal_errors: list[str] = field(default_factory=list)
+    files_read: list[str] = field(default_factory=list)
+
+
+def default_config():
+    from lintamp.config import Config
+    return Config()
+
+
+def _devmap(config) -> DeviceMap:
+    return DeviceMap(tuple(getattr(config, "devices", ()) or ()))
+
+
+def project_root(path: Path, config) -> Path:
+    """Where includes may come from: the config's folder, else the git work tree,
+    else the current folder when the file is under it, else the file's folder."""
+    source = getattr(config, "source", None)
+    if source is not None:
+        return Path(source).resolve().parent
+    start = path.resolve().parent
+    for folder in (start, *start.parents):
+        if (folder / ".git").exists():
+            return folder
+    cwd = Path.cwd().resolve()
+    if cwd == start or cwd in start.parents:
+        return cwd
+    return start
+
+
+def read_options(path: Path, config, include_paths: Iterable[Path] = ()) -> ReadOptions:
+    paths = tuple(Path(p).resolve() for p in (*getattr(config, "include_paths", ()), *include_paths))
+    return ReadOptions(root=project_root(path, config), include_paths=paths,
+                       display_root=Path.cwd())
+
+
+def load_design(netlist: Netlist, config=None, *, top: str | None = None) -> Design:
+    config = config or default_config()
+    return elaborate(netlist, devmap=_devmap(config), top=top)
+
+
+def enabled_rules(config):
+    from lintamp.registry import all_rules
+    rules = all_rules()
+    out = []
+    for rule in rules.values():
+        if rule.check is None:
+            continue
+        enabled = getattr(config, "rule_enabled", None)
+        if enabled is not None and not enabled(rule.name, rule.category):
+            continue
+        out.append(rule)
+    return out
+
+
+def analyse(netlist: Netlist, config=None, *, top: str | None = None,
+            options: dict | None = None) -> FileResult:
+    """Run every enabled rule over one parsed netlist."""
+    config = config or default_config()
+    result = FileResult(path=netlist.path, files_read=list(netlist.files))
+    design = load_design(netlist, config, top=top)
+    opts = dict(options or {})
+    opts.setdefault("includes_missing",
+                    any(d.rule == "missing-include" for d in netlist.diagnostics))
+    ctx = Context(netlist, design, config=config, options=opts)
+    for rule in enabled_rules(config):
+        ctx.rule = rule
+        try:
+            result.findings.extend(rule.check(ctx))
+        except Exception as exc:  # a bug in a rule must not hide the other rules' findings
+            detail = "".join(traceback.format_exception_only(type(exc), exc)).strip()
+            where = traceback.extract_tb(exc.__traceback__)[-1]
+            result.internal_errors.append(
+                f"{netlist.path}: rule {rule.name} failed: {detail} "
+                f"(at {os.path.basename(where.filename)}:{where.lineno}); "
+                "this is a bug in lintamp, please report it with the netlist")
+    for cell in netlist.all_cells():
+        result.pragmas.extend(cell.pragmas)
+    return result
+
+
+def check_file(path: Path, config=None, *, top: str | None = None,
+               include_paths: Iterable[Path] = (), options: dict | None = None) -> FileResult:
+    config = config or default_config()
+    netlist = parse_file(path, read_options(path, config, include_paths))
+    return analyse(netlist, config, top=top, options=options)
+
+
+def check_text(text: str, path: str = "<text>", config=None, *, top: str | None = None,
+               options: dict | None = None) -> Report:
+    """Check netlist text held in memory; includes resolve from the current folder."""
+    from lintamp.decide import decide
+    config = config or default_config()
+    opts = ReadOptions(root=Path.cwd(), include_paths=tuple(getattr(config, "include_paths", ())),
+                       display_root=Path.cwd())
+    result = analyse(parse_text(text, path, opts), config, top=top, options=options)
+    report = decide(result.findings, result.pragmas, config)
+    report.files = [path]
+    return report
+
+
+def collect_paths(paths: Iterable[str | Path], config) -> list[Path]:
+    """Files named, and netlist files under folders named (by the config's globs)."""
+    out: list[Path] = []
+    seen: set[Path] = set()
+    for given in paths:
+        p = Path(given)
+        if p.is_dir():
+            for root, dirs, files in os.walk(p):
+                dirs[:] = sorted(d for d in dirs if not d.startswith(".") and d != "__pycache__")
+                for name in sorted(files):
+                    f = Path(root) / name
+                    if config.wants_file(f) and f not in seen:
+                        seen.add(f)
+                        out.append(f)
+        elif p not in seen:
+            seen.add(p)
+            out.append(p)
+    return out
+
+
+def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = None,
+                include_paths: Iterable[Path] = (), baseline=None,
+                options: dict | None = None) -> tuple[Report, list[str]]:
+    """Check files and folders; returns the decided report and any internal errors."""
+    from lintamp.decide import decide
+    config = config or default_config()
+    findings: list[Finding] = []
+    pragmas: list[Pragma] = []
+    errors: list[str] = []
+    files = collect_paths(paths, config)
+    for f in files:
+        result = check_file(f, config, top=top, include_paths=include_paths, options=options)
+        findings.extend(result.findings)
+        pragmas.extend(result.pragmas)
+        errors.extend(result.internal_errors)
+    report = decide(findings, pragmas, config, baseline)
+    report.files = [_display(f) for f in files]
+    return report, errors
+
+
+def _display(path: Path) -> str:
+    try:
+        rel = os.path.relpath(path, Path.cwd())
+    except ValueError:
+        rel = str(path)
+    return rel.replace(os.sep, "/")
+
+
+def flat_circuit_from_text(text: str, path: str = "<text>", config=None, *, top: str | None = None):
+    """Parse, elaborate and flatten netlist text into the engine's numeric circuit."""
+    from lintamp.circuit.flatten import flatten
+    config = config or default_config()
+    netlist = parse_text(text, path, ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
+    return flatten(load_design(netlist, config, top=top))
+
+
+def severity_counts(report: Report) -> dict[str, int]:
+    return {s.label: report.count(s) for s in Severity}
+
+
+__all__ = ["check_text", "check_paths", "check_file", "analyse", "flat_circuit_from_text",
+           "collect_paths", "load_design", "FileResult", "Location"]

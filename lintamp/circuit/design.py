@@ -1,0 +1,418 @@
+"""Elaboration: from parsed cells to devices, nets and the connectivity graph.
+
+Each cell (``.subckt`` or the top level) becomes one :class:`CellView`, built
+once whatever the number of its instances: its devices with their kind and pin
+roles, its nets, and a networkx graph.  :class:`Design` ties the views together
+with the instance hierarchy, the ground and supply nets, and can flatten the
+whole into a numeric :class:`~lintamp.circuit.flat.FlatCircuit` for the engine.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Iterable, Iterator
+
+from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
+from lintamp.location import Location
+from lintamp.netlist.statements import Cell, Diagnostic, Element, Model, Netlist
+
+GROUND_NAMES = frozenset({"0", "gnd", "gnd!"})
+DEFAULT_FLATTEN_LIMIT = 2_000_000
+
+# pin roles by device kind (the order of the element's nodes)
+PINS = {
+    "resistor": ("p", "n"), "capacitor": ("p", "n"), "inductor": ("p", "n"),
+    "vsource": ("p", "n"), "isource": ("p", "n"),
+    "vcvs": ("p", "n", "cp", "cn"), "vccs": ("p", "n", "cp", "cn"),
+    "cccs": ("p", "n"), "ccvs": ("p", "n"),
+    "behavioral": ("p", "n"),
+    "diode": ("a", "k"),
+    "npn": ("c", "b", "e", "s"), "pnp": ("c", "b", "e", "s"), "bjt": ("c", "b", "e", "s"),
+    "njf": ("d", "g", "s"), "pjf": ("d", "g", "s"), "jfet": ("d", "g", "s"),
+    "mesfet": ("d", "g", "s"),
+    "nmos": ("d", "g", "s", "b", "e", "t", "x"), "pmos": ("d", "g", "s", "b", "e", "t", "x"),
+    "mos": ("d", "g", "s", "b", "e", "t", "x"),
+    "switch": ("p", "n", "cp", "cn"), "cswitch": ("p", "n"),
+    "line": ("p1", "n1", "p2", "n2"),
+}
+MOS_KINDS = frozenset({"nmos", "pmos", "mos"})
+BJT_KINDS = frozenset({"npn", "pnp", "bjt"})
+TRANSISTOR_KINDS = MOS_KINDS | BJT_KINDS | {"njf", "pjf", "jfet", "mesfet"}
+
+_LETTER_KIND = {"r": "resistor", "c": "capacitor", "l": "inductor", "k": "coupling",
+                "v": "vsource", "i": "isource", "e": "vcvs", "g": "vccs", "f": "cccs",
+                "h": "ccvs", "b": "behavioral", "d": "diode", "q": "bjt", "j": "jfet",
+                "z": "mesfet", "m": "mos", "x": "instance", "s": "switch", "w": "cswitch",
+                "t": "line", "o": "line", "u": "line", "y": "other", "p": "line",
+                "a": "xspice", "n": "other"}
+_N_GUESS = re.compile(r"^(n|.*(nmos|nfet|nch|_n_|nlv|nhv))", re.I)
+_P_GUESS = re.compile(r"^(p|.*(pmos|pfet|pch|_p_|plv|phv))", re.I)
+
+
+@dataclass(eq=False, slots=True)
+class Device:
+    """One element of a cell, recognised: kind, pin roles, nets.
+
+    ``polarity_from`` says how an n/p kind was decided: ``"model"`` (its .model
+    type), ``"map"`` (the device map), ``"name"`` (guessed from the model name,
+    because the model is not in the files read) or ``""``.
+    """
+
+    name: str
+    kind: str
+    pins: tuple[str, ...]
+    nets: tuple[str, ...]
+    element: Element
+    model: Model | None = None
+    subcell: "CellView | None" = None
+    spec: DeviceSpec | None = None
+    polarity_from: str = ""
+
+    @property
+    def display(self) -> str:
+        return self.element.name
+
+    @property
+    def location(self) -> Location:
+        return self.element.location
+
+    def net(self, pin: str) -> str | None:
+        for p, n in zip(self.pins, self.nets):
+            if p == pin:
+                return n
+        return None
+
+    def terminals(self) -> Iterator[tuple[str, str]]:
+        return zip(self.pins, self.nets)
+
+    def __repr__(self) -> str:
+        return f"<{self.kind} {self.name} {dict(zip(self.pins, self.nets))}>"
+
+
+@dataclass(eq=False)
+class CellView:
+    """A cell's devices and nets, graphed once.
+
+    Nets are lower-case names.  ``ports`` connect to the parent; ``globals`` to
+    the whole design (ground included).
+    """
+
+    cell: Cell
+    devices: list[Device] = field(default_factory=list)
+    parent: "CellView | None" = None
+    ports: tuple[str, ...] = ()
+    globals: frozenset[str] = frozenset()
+
+    @property
+    def name(self) -> str:
+        return self.cell.name
+
+    @property
+    def label(self) -> str:
+        return self.cell.label
+
+    @cached_property
+    def net_terminals(self) -> dict[str, list[tuple[Device, str]]]:
+        """Each net with the (device, pin) terminals on it, in netlist order."""
+        nets: dict[str, list[tuple[Device, str]]] = {p: [] for p in self.ports}
+        for dev in self.devices:
+            for pin, net in dev.terminals():
+                nets.setdefault(net, []).append((dev, pin))
+        return nets
+
+    @property
+    def nets(self) -> list[str]:
+        return list(self.net_terminals)
+
+    def is_external(self, net: str) -> bool:
+        """A port, a global or ground: connected from outside this cell."""
+        return net in self.ports or net in self.globals
+
+    @cached_property
+    def graph(self):
+        """Bipartite networkx graph: net names (str) and :class:`Device` objects.
+
+        An edge joins a device to each net it touches, with ``pins`` (tuple of pin
+        roles on that net).  ``G.nodes[net]["external"]`` marks ports and globals.
+        """
+        import networkx as nx
+
+        g = nx.Graph()
+        for net in self.net_terminals:
+            g.add_node(net, kind="net", external=self.is_external(net))
+        for dev in self.devices:
+            g.add_node(dev, kind="device")
+            for pin, net in dev.terminals():
+                if g.has_edge(dev, net):
+                    g[dev][net]["pins"] += (pin,)
+                else:
+                    g.add_edge(dev, net, pins=(pin,))
+        return g
+
+
+@dataclass
+class Design:
+    """The elaborated netlist: cell views, hierarchy, ground and supplies."""
+
+    netlist: Netlist
+    views: dict[int, CellView]  # id(Cell) -> view
+    top: CellView
+    roots: list[CellView]
+    diagnostics: list[Diagnostic] = field(default_factory=list)
+    ground: frozenset[str] = GROUND_NAMES
+
+    def view_of(self, cell: Cell) -> CellView:
+        return self.views[id(cell)]
+
+    @property
+    def cells(self) -> list[CellView]:
+        return list(self.views.values())
+
+    def instances(self, view: CellView) -> list[tuple[str, ...]]:
+        """Instance paths reaching ``view`` from the roots (at most 20 listed)."""
+        return self._paths.get(id(view), [])[:20]
+
+    def instance_count(self, view: CellView) -> int:
+        return self._counts.get(id(view), 0)
+
+    @cached_property
+    def _counts(self) -> dict[int, int]:
+        counts: dict[int, int] = {}
+        order = self._topological()
+        for root in self.roots:
+            counts[id(root)] = counts.get(id(root), 0) + 1
+        for view in order:
+            n = counts.get(id(view), 0)
+            for dev in view.devices:
+                if dev.subcell is not None:
+                    counts[id(dev.subcell)] = counts.get(id(dev.subcell), 0) + n
+        return counts
+
+    @cached_property
+    def _paths(self) -> dict[int, list[tuple[str, ...]]]:
+        paths: dict[int, list[tuple[str, ...]]] = {id(r): [()] for r in self.roots}
+        for view in self._topological():
+            mine = paths.get(id(view), [])
+            for dev in view.devices:
+                if dev.subcell is not None:
+                    bucket = paths.setdefault(id(dev.subcell), [])
+                    for p in mine:
+                        if len(bucket) >= 20:
+                            break
+                        bucket.append(p + (dev.name,))
+        return paths
+
+    def _topological(self) -> list[CellView]:
+        """Views parents-first (cycles were cut during elaboration)."""
+        seen: set[int] = set()
+        out: list[CellView] = []
+
+        def visit(v: CellView, depth: int = 0):
+            if id(v) in seen or depth > 200:
+                return
+            seen.add(id(v))
+            for d in v.devices:
+                if d.subcell is not None:
+                    visit(d.subcell, depth + 1)
+            out.append(v)
+
+        for v in self.views.values():
+            visit(v)
+        out.reverse()
+        return out
+
+
+# -- scope lookups --------------------------------------------------------------
+def _scopes(cell: Cell) -> Iterator[Cell]:
+    while cell is not None:
+        yield cell
+        cell = cell.parent
+
+
+def find_model(cell: Cell, name: str) -> Model | None:
+    """A model visible from ``cell``; binned names (``nch.1``) match ``nch``."""
+    for scope in _scopes(cell):
+        model = scope.models.get(name)
+        if model is not None:
+            return model
+    for scope in _scopes(cell):
+        for key, model in scope.models.items():
+            base, dot, suffix = key.rpartition(".")
+            if dot and base == name and suffix.isdigit():
+                return model
+    return None
+
+
+def find_cell(cell: Cell, name: str) -> Cell | None:
+    for scope in _scopes(cell):
+        found = scope.cells.get(name)
+        if found is not None:
+            return found
+    return None
+
+
+def visible_params(cell: Cell) -> set[str]:
+    names: set[str] = set()
+    for scope in _scopes(cell):
+        names.update(p.name for p in scope.params)
+        names.update(scope.defaults)
+    return names
+
+
+# -- recognising devices ---------------------------------------------------------
+def _guess_polarity(model_name: str, n_kind: str, p_kind: str) -> str | None:
+    if _P_GUESS.match(model_name) and not _N_GUESS.match(model_name):
+        return p_kind
+    if _N_GUESS.match(model_name) and not _P_GUESS.match(model_name):
+        return n_kind
+    return None
+
+
+def recognise(element: Element, cell: Cell, devmap: DeviceMap,
+              subcell: Cell | None) -> tuple[str, tuple[str, ...], Model | None, DeviceSpec | None, str]:
+    """Kind, pin roles, model, device-map entry and polarity source of an element."""
+    letter = element.letter
+    kind = _LETTER_KIND.get(letter, "other")
+    model = find_model(cell, element.model) if element.model and letter not in "xkve" else None
+    spec = None
+    polarity_from = ""
+    if letter == "x":
+        spec = devmap.lookup(element.model or "") if element.model else None
+        if spec is not None:  # the map wins even where the subcircuit is defined
+            kind = spec.kind
+            pins = spec.pins
+            polarity_from = "map"
+            return kind, pins[: len(element.nodes)] + tuple(
+                f"x{i}" for i in range(len(pins), len(element.nodes))), None, spec, polarity_from
+        ports = subcell.ports if subcell is not None else ()
+        return "instance", ports, None, None, ""
+    if letter in "eg" and element.model in ("value", "table", "laplace", "freq", "poly"):
+        kind = "behavioral"
+    if letter in "fh" and element.model == "poly":
+        kind = "behavioral"
+    if letter == "r" and element.model and model is None and element.value is None:
+        element.value, element.model = element.model, None  # 'R1 a b rval': a bare parameter
+    if letter in "cl" and element.model and model is None and element.value is None:
+        element.value, element.model = element.model, None
+    if letter == "q":
+        mtype = model.type if model else ""
+        if mtype in ("npn", "pnp"):
+            kind, polarity_from = mtype, "model"
+        elif mtype == "lpnp":
+            kind, polarity_from = "pnp", "model"
+        elif model is None and element.model:
+            guess = _guess_polarity(element.model, "npn", "pnp")
+            if guess:
+                kind, polarity_from = guess, "name"
+    elif letter == "m":
+        mtype = model.type if model else ""
+        if mtype in ("nmos", "pmos"):
+            kind, polarity_from = mtype, "model"
+        elif mtype in ("nmf", "pmf"):
+            kind, polarity_from = ("nmos" if mtype == "nmf" else "pmos"), "model"
+        elif mtype == "vdmos":
+            pchan = model.params.get("pchan") is not None if model else False
+            kind, polarity_from = ("pmos" if pchan else "nmos"), "model"
+        elif model is None and element.model:
+            guess = _guess_polarity(element.model, "nmos", "pmos")
+            if guess:
+                kind, polarity_from = guess, "name"
+    elif letter == "j":
+        mtype = model.type if model else ""
+        if mtype in ("njf", "pjf"):
+            kind, polarity_from = mtype, "model"
+    pins = PINS.get(kind, ())
+    n = len(element.nodes)
+    if kind in BJT_KINDS and n == 3:
+        pins = ("c", "b", "e")
+    if kind in ("vcvs", "vccs", "switch") and n > 4:
+        pins = pins + tuple(f"c{i}" for i in range(n - 4))
+    if kind == "behavioral" and n > 2:
+        pins = ("p", "n") + tuple(f"c{i}" for i in range(n - 2))
+    if len(pins) < n:
+        pins = tuple(pins) + tuple(f"t{i}" for i in range(len(pins), n))
+    return kind, tuple(pins[:n]), model, spec, polarity_from
+
+
+# -- elaboration ---------------------------------------------------------------------
+def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | None = None,
+              ground: Iterable[str] = GROUND_NAMES) -> Design:
+    """Build every cell's view once and link instances to their cell views."""
+    devmap = devmap or DeviceMap()
+    ground = frozenset(g.lower() for g in ground)
+    globals_ = frozenset(netlist.globals) | ground
+    views: dict[int, CellView] = {}
+    diagnostics: list[Diagnostic] = []
+    cells = list(netlist.all_cells())
+    for cell in cells:
+        view = CellView(cell=cell, ports=cell.ports, globals=globals_)
+        views[id(cell)] = view
+    for cell in cells:
+        view = views[id(cell)]
+        for element in cell.elements:
+            subcell = None
+            if element.letter == "x" and element.model:
+                subcell = find_cell(cell, element.model)
+            kind, pins, model, spec, polarity_from = recognise(element, cell, devmap, subcell)
+            dev = Device(name=element.key, kind=kind, pins=pins, nets=element.nodes,
+                         element=element, model=model, spec=spec, polarity_from=polarity_from)
+            if kind == "instance" and subcell is not None:
+                dev.subcell = views[id(subcell)]
+            view.devices.append(dev)
+    _cut_recursion(views, diagnostics)
+    top_view, roots = _choose_top(netlist, views, top, diagnostics)
+    design = Design(netlist=netlist, views=views, top=top_view, roots=roots,
+                    diagnostics=diagnostics, ground=ground)
+    return design
+
+
+def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> None:
+    """A cell that instantiates itself (directly or not) cannot be elaborated."""
+    state: dict[int, int] = {}
+
+    def visit(view: CellView, stack: list[CellView]):
+        state[id(view)] = 1
+        stack.append(view)
+        for dev in view.devices:
+            sub = dev.subcell
+            if sub is None:
+                continue
+            if state.get(id(sub)) == 1:
+                cycle = stack[stack.index(sub):] + [sub]
+                diagnostics.append(Diagnostic(
+                    "unknown-cell", dev.location,
+                    "recursive subcircuit: " + " -> ".join(v.label for v in cycle)
+                    + f"; instance {dev.display} is not elaborated",
+                    subject=dev.name))
+                dev.subcell = None
+                dev.kind = "recursive-instance"
+            elif state.get(id(sub)) is None:
+                if len(stack) > 500:
+                    continue
+                visit(sub, stack)
+        stack.pop()
+        state[id(view)] = 2
+
+    for view in list(views.values()):
+        if id(view) not in state:
+            visit(view, [])
+
+
+def _choose_top(netlist: Netlist, views: dict[int, CellView], top: str | None,
+                diagnostics: list[Diagnostic]) -> tuple[CellView, list[CellView]]:
+    top_view = views[id(netlist.top)]
+    if top:
+        for cell in netlist.all_cells():
+            if cell.name == top.lower():
+                return views[id(cell)], [views[id(cell)]]
+        diagnostics.append(Diagnostic("unknown-cell", netlist.top.location,
+                                      f"--top {top}: no such subcircuit in {netlist.path}",
+                                      subject=top.lower()))
+    if top_view.devices or not netlist.top.cells:
+        return top_view, [top_view]
+    # a cell library: every cell that nobody instantiates is a root
+    used = {id(d.subcell) for v in views.values() for d in v.devices if d.subcell is not None}
+    roots = [v for v in views.values() if id(v) not in used and not v.cell.is_top]
+    return top_view, [top_view] + roots

@@ -1,0 +1,184 @@
+"""Parameter scopes and element values: text -> numbers, per cell or per instance.
+
+A value that names an undefined parameter is not guessed: it stays symbolic
+(``None``) and the name is reported by :func:`undefined_names`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Iterator, Mapping
+
+from lintamp.location import Location
+from lintamp.netlist.expr import (ExprError, UndefinedName, UserFunc, compile_expr,
+                                  evaluate_params, evaluate_value, parse_number,
+                                  strip_delimiters)
+from lintamp.netlist.statements import Cell, Element, Netlist
+
+# names every SPICE expression may use without defining them
+BUILTIN_NAMES = frozenset({"pi", "e", "temper", "temp", "hertz", "time", "true", "false",
+                           "boltz", "planck", "echarge", "kelvin", "epsilon0", "mu0", "c"})
+GEOMETRY_PARAMS = frozenset({"w", "l", "nf", "m", "mult", "nfin", "ad", "as", "pd", "ps",
+                             "nrd", "nrs", "sa", "sb", "sd", "area", "perim", "multi"})
+# keys whose values are not numbers (file names, switches, model selectors)
+NON_NUMERIC_KEYS = frozenset({"file", "model", "type", "spice_model", "dtemp_model",
+                              "string", "sourcefile", "name"})
+
+
+def _funcs_of(cell: Cell) -> dict[str, UserFunc]:
+    funcs: dict[str, UserFunc] = {}
+    scopes = []
+    c = cell
+    while c is not None:
+        scopes.append(c)
+        c = c.parent
+    for scope in reversed(scopes):  # inner definitions win
+        for f in scope.funcs.values():
+            try:
+                funcs[f.name] = UserFunc(f.name, f.args, compile_expr(f.body))
+            except ExprError:
+                continue
+    return funcs
+
+
+@dataclass(slots=True)
+class Scope:
+    """Numeric parameter values and user functions visible at one place."""
+
+    values: dict[str, float]
+    funcs: dict[str, UserFunc]
+    errors: dict[str, ExprError]
+
+    def value(self, text: str | None) -> float | None:
+        """The number a value token stands for, or None when it cannot be had."""
+        if text is None:
+            return None
+        number = parse_number(text)
+        if number is not None:
+            return number
+        try:
+            result = evaluate_value(text, self.values, self.funcs)
+        except ExprError:
+            return None
+        return result if math.isfinite(result) else None
+
+
+def top_scope(netlist: Netlist) -> Scope:
+    funcs = _funcs_of(netlist.top)
+    values, errors = evaluate_params([(p.name, p.text) for p in netlist.top.params], {}, funcs)
+    return Scope(values, funcs, errors)
+
+
+def cell_scope(cell: Cell, outer: Scope, overrides: Mapping[str, float] | None = None) -> Scope:
+    """Parameters of ``cell`` for one binding: header defaults (or the instance's
+    values in ``overrides``), then the cell's ``.param`` cards, over ``outer``."""
+    if cell.is_top:
+        return outer
+    overrides = overrides or {}
+    funcs = dict(outer.funcs)
+    funcs.update(_funcs_of_local(cell))
+    base = dict(outer.values)
+    base.update(overrides)
+    defs = [(p.name, p.text) for p in cell.params if p.name not in overrides]
+    values, errors = evaluate_params(defs, base, funcs)
+    merged = dict(base)
+    merged.update(values)
+    return Scope(merged, funcs, errors)
+
+
+def _funcs_of_local(cell: Cell) -> dict[str, UserFunc]:
+    out = {}
+    for f in cell.funcs.values():
+        try:
+            out[f.name] = UserFunc(f.name, f.args, compile_expr(f.body))
+        except ExprError:
+            continue
+    return out
+
+
+def instance_overrides(element: Element, parent: Scope) -> dict[str, float]:
+    """The instance's ``name=value`` parameters evaluated in the parent's scope."""
+    out = {}
+    for key, text in element.params.items():
+        value = parent.value(text)
+        if value is not None:
+            out[key] = value
+    return out
+
+
+# -- undefined names -----------------------------------------------------------------
+@dataclass(slots=True)
+class UndefinedUse:
+    name: str
+    element: Element | None
+    key: str  # the field: "value", a parameter key, or ".param NAME"
+    location: Location
+    symbolic_size: bool  # a bare name used as a geometry value (unsized netlist)
+    cell: Cell | None = None
+
+
+@dataclass(slots=True)
+class BadExpression:
+    element: Element | None
+    key: str
+    error: ExprError
+    location: Location
+    cell: Cell | None = None
+
+
+def _names_in(text: str) -> tuple[frozenset[str], ExprError | None]:
+    body = strip_delimiters(text)
+    if parse_number(body) is not None:
+        return frozenset(), None
+    try:
+        return compile_expr(body).names, None
+    except ExprError as exc:
+        return frozenset(), exc
+
+
+def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
+    """Every use of a parameter name that no scope defines, cell by cell.
+
+    Yields :class:`UndefinedUse` for unknown names and :class:`BadExpression` for
+    expressions that do not parse.
+
+    Notes
+    -----
+    One pass over every value of every element: O(total value tokens).
+    """
+    for cell in netlist.all_cells():
+        known = set(BUILTIN_NAMES)
+        c = cell
+        while c is not None:
+            known.update(p.name for p in c.params)
+            known.update(c.defaults)
+            known.update(c.funcs)
+            c = c.parent
+        for p in cell.params:
+            names, err = _names_in(p.text)
+            if err is not None:
+                yield BadExpression(None, f".param {p.name}", err, p.location, cell)
+                continue
+            for name in sorted(names - known):
+                yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
+        for element in cell.elements:
+            fields = []
+            if element.value is not None:
+                fields.append(("value", element.value))
+            fields.extend((k, v) for k, v in element.params.items() if k not in NON_NUMERIC_KEYS)
+            if element.source is not None:
+                src = element.source
+                fields.extend(("dc" if k == "dc" else k, v) for k, v in
+                              (("dc", src.dc), ("ac", src.ac_mag), ("acphase", src.ac_phase)) if v)
+            for key, text in fields:
+                if text is None or parse_number(text) is not None:
+                    continue
+                names, err = _names_in(text)
+                if err is not None:
+                    yield BadExpression(element, key, err, element.location, cell)
+                    continue
+                bare = text[:1] not in "{'\""
+                for name in sorted(names - known):
+                    yield UndefinedUse(name, element, key, element.location,
+                                       bare and key in GEOMETRY_PARAMS, cell)

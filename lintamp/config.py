@@ -1,0 +1,658 @@
+"""Project configuration: ``lintamp.toml`` or ``[tool.lintamp]`` in ``pyproject.toml``.
+
+The nearest file up the tree from the starting folder wins; in one folder
+``lintamp.toml`` is preferred over ``pyproject.toml``.  Keys are kebab-case.  Every
+key, rule name and threshold name is checked, and a mistake is a :class:`ConfigError`
+whose text reads ``path: key: what was wrong; what was expected`` (the CLI turns it
+into exit code 2).
+
+Example::
+
+    include = ["*.sp", "*.cir"]
+    exclude = ["build/**"]
+    select = ["all"]
+    ignore = ["unused-port"]
+    fail-on = "warning"          # error | warning | info | never
+    bandwidth = "20meg"
+    include-paths = ["models"]
+
+    [severity]
+    dangling-net = "error"       # a rule or a whole category
+
+    [per-file-ignores]
+    "tb/**" = ["connectivity"]
+
+    [devices]
+    "acme_nfet_*" = { kind = "nmos", pins = ["d", "g", "s", "b"] }
+
+    [thresholds]
+    some-threshold-name = 10.0   # names that rules declare with register_threshold
+
+Globs
+-----
+``include`` and ``exclude`` and the ``[per-file-ignores]`` keys are matched against
+the file's path relative to the project root, with ``/`` separators.  A pattern
+without ``/`` matches the file name alone (``*.sp``) or, for ``exclude``, any folder
+name on the way (``build``); ``*`` stays inside one folder, ``**`` spans folders.
+``[devices]`` globs match subcircuit names, case-insensitively; the first match wins.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import re
+import tomllib
+from dataclasses import dataclass, field, fields, replace
+from pathlib import Path, PurePosixPath
+from typing import Iterable, Mapping
+
+from lintamp.findings import Severity
+
+CONFIG_FILE = "lintamp.toml"
+PYPROJECT_FILE = "pyproject.toml"
+
+DEFAULT_INCLUDE = ("*.sp", "*.spice", "*.cir", "*.net", "*.spi", "*.ckt", "*.cdl")
+DEFAULT_EXCLUDE = (".git", ".lintamp_cache")
+
+CATEGORIES = ("syntax", "references", "connectivity", "impedance", "bias", "waivers")
+ALL = "all"
+
+# Rules whose findings come from the reader, the parser or the decision layer; they
+# may have no rule module of their own, but are valid names everywhere.
+BUILTIN_RULE_CATEGORIES: dict[str, str] = {
+    "parse-error": "syntax",
+    "undefined-param": "syntax",
+    "unknown-cell": "references",
+    "pin-mismatch": "references",
+    "unknown-model": "references",
+    "duplicate-name": "references",
+    "unused-waiver": "waivers",
+    "waiver-without-reason": "waivers",
+}
+
+DEVICE_KINDS = ("nmos", "pmos", "npn", "pnp", "diode", "resistor", "capacitor", "inductor")
+
+# Pin roles per device kind: the required ones, then the optional ones.  "-" marks a
+# wrapper port that the device model ignores (a dummy or a substrate tap).
+_PIN_ROLES: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
+    "nmos": (("d", "g", "s"), ("b",)),
+    "pmos": (("d", "g", "s"), ("b",)),
+    "npn": (("c", "b", "e"), ("s",)),
+    "pnp": (("c", "b", "e"), ("s",)),
+    "diode": (("a", "k"), ()),
+    "resistor": (("p", "n"), ()),
+    "capacitor": (("p", "n"), ()),
+    "inductor": (("p", "n"), ()),
+}
+IGNORED_PIN = "-"
+
+FAIL_ON_CHOICES = ("error", "warning", "info", "never")
+
+
+class ConfigError(Exception):
+    """A configuration the tool cannot use; the text says where, what and what instead.
+
+    Parameters
+    ----------
+    path : str
+        The file (or ``--option``) the problem is in.
+    key : str
+        The dotted key, ``""`` when the problem is the whole file.
+    problem : str
+        What was wrong, as a short phrase.
+    expected : str
+        What was expected instead.
+    """
+
+    def __init__(self, path: str, key: str, problem: str, expected: str = ""):
+        self.path = str(path)
+        self.key = key
+        self.problem = problem
+        self.expected = expected
+        text = f"{self.path}: {key}: {problem}" if key else f"{self.path}: {problem}"
+        if expected:
+            text += f"; expected {expected}"
+        super().__init__(text)
+
+
+# ---------------------------------------------------------------- thresholds
+
+
+@dataclass(frozen=True, slots=True)
+class ThresholdInfo:
+    """A number a rule compares against, declared by the rule, settable in ``[thresholds]``."""
+
+    name: str
+    default: float
+    unit: str
+    doc: str
+
+
+_THRESHOLDS: dict[str, ThresholdInfo] = {}
+
+
+def register_threshold(name: str, default: float, unit: str, doc: str) -> ThresholdInfo:
+    """Declare a threshold (call at rule-module import time).
+
+    Registering the same name twice with the same default is harmless (a module
+    re-imported); a different default is a programming error.
+    """
+    info = ThresholdInfo(name, float(default), unit, doc)
+    known = _THRESHOLDS.get(name)
+    if known is not None and known.default != info.default:
+        raise ValueError(f"threshold {name!r} registered twice with different defaults")
+    _THRESHOLDS[name] = info
+    return info
+
+
+def known_thresholds() -> dict[str, ThresholdInfo]:
+    """Every declared threshold by name (import the rules first: they declare them)."""
+    return dict(sorted(_THRESHOLDS.items()))
+
+
+# ---------------------------------------------------------------- devices
+
+
+@dataclass(frozen=True, slots=True)
+class DeviceMapping:
+    """A subcircuit name glob that stands for one device, its port roles in order."""
+
+    pattern: str
+    kind: str
+    pins: tuple[str, ...]
+    value: str | None = None  # the instance parameter holding ohm / farad / henry
+
+    def matches(self, subckt_name: str) -> bool:
+        return _glob_regex(self.pattern.lower(), whole_name=True).fullmatch(
+            subckt_name.lower()) is not None
+
+
+# ---------------------------------------------------------------- the config
+
+
+@dataclass(slots=True)
+class Config:
+    """Everything a run takes from the project configuration (defaults when absent)."""
+
+    root: Path = field(default_factory=Path.cwd)
+    source: Path | None = None  # the file read, None for defaults
+    include: tuple[str, ...] = DEFAULT_INCLUDE
+    exclude: tuple[str, ...] = DEFAULT_EXCLUDE
+    select: tuple[str, ...] = (ALL,)
+    ignore: tuple[str, ...] = ()
+    fail_on: Severity | None = Severity.WARNING  # None: never fail on findings
+    bandwidth: str | None = None
+    include_paths: tuple[Path, ...] = ()
+    severity: dict[str, Severity] = field(default_factory=dict)
+    per_file_ignores: dict[str, tuple[str, ...]] = field(default_factory=dict)
+    devices: tuple[DeviceMapping, ...] = ()
+    thresholds: dict[str, float] = field(default_factory=dict)
+
+    # ---- rules
+
+    def rule_enabled(self, rule: str, category: str) -> bool:
+        """Whether ``select``/``ignore`` keep ``rule``.
+
+        The most specific entry wins (rule name over category over ``all``); at equal
+        specificity ``ignore`` wins.  A rule no ``select`` entry names is off.
+        """
+        chosen = _specificity(self.select, rule, category)
+        dropped = _specificity(self.ignore, rule, category)
+        return chosen > 0 and chosen > dropped
+
+    def severity_for(self, rule: str, category: str, default: Severity) -> Severity:
+        """The ``[severity]`` override for a rule (its name first, then its category)."""
+        if rule in self.severity:
+            return self.severity[rule]
+        return self.severity.get(category, default)
+
+    def ignored_in_file(self, rule: str, category: str, relpath: str) -> bool:
+        """Whether a ``[per-file-ignores]`` entry drops ``rule`` for that root-relative path."""
+        for pattern, names in self.per_file_ignores.items():
+            if _specificity(names, rule, category) and glob_match(pattern, relpath):
+                return True
+        return False
+
+    # ---- files
+
+    def relative_path(self, path: str | Path) -> str:
+        """``path`` relative to the project root, posix; as given when outside it."""
+        p = Path(path)
+        absolute = p if p.is_absolute() else Path.cwd() / p
+        try:
+            return absolute.resolve().relative_to(self.root.resolve()).as_posix()
+        except (ValueError, OSError):
+            return PurePosixPath(*p.parts).as_posix() if not p.is_absolute() else p.as_posix()
+
+    def wants_file(self, path: str | Path) -> bool:
+        """Whether folder discovery should check ``path`` (by ``include``/``exclude``)."""
+        rel = self.relative_path(path)
+        parts = rel.split("/")
+        for pattern in self.exclude:
+            if glob_match(pattern, rel):
+                return False
+            if "/" not in pattern and any(glob_match(pattern, part) for part in parts[:-1]):
+                return False
+        return any(glob_match(pattern, rel) for pattern in self.include)
+
+    # ---- devices and thresholds
+
+    def device_for(self, subckt_name: str) -> DeviceMapping | None:
+        """The first ``[devices]`` entry whose glob matches the subcircuit name."""
+        for mapping in self.devices:
+            if mapping.matches(subckt_name):
+                return mapping
+        return None
+
+    def threshold(self, name: str) -> float:
+        """The configured value of a declared threshold, else its default.
+
+        Raises ``KeyError`` for a name no rule declared (a bug in the rule).
+        """
+        info = _THRESHOLDS[name]
+        return self.thresholds.get(name, info.default)
+
+    # ---- identity
+
+    def fingerprint(self) -> str:
+        """A digest of every setting that can change findings (for the cache key)."""
+        data = {
+            "select": list(self.select), "ignore": list(self.ignore),
+            "bandwidth": self.bandwidth,
+            "include_paths": [str(p) for p in self.include_paths],
+            "severity": {k: v.label for k, v in sorted(self.severity.items())},
+            "per_file_ignores": {k: list(v) for k, v in sorted(self.per_file_ignores.items())},
+            "devices": [[d.pattern, d.kind, list(d.pins), d.value] for d in self.devices],
+            "thresholds": dict(sorted(self.thresholds.items())),
+            "root": str(self.root),
+        }
+        text = json.dumps(data, sort_keys=True, separators=(",", ":"))
+        return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _specificity(names: Iterable[str], rule: str, category: str) -> int:
+    """3 when ``names`` holds the rule, 2 its category, 1 ``all``, 0 none."""
+    best = 0
+    for name in names:
+        if name == rule:
+            return 3
+        if category and name == category:
+            best = max(best, 2)
+        elif name == ALL:
+            best = max(best, 1)
+    return best
+
+
+# ---------------------------------------------------------------- globs
+
+_glob_cache: dict[tuple[str, bool], re.Pattern] = {}
+
+
+def _glob_regex(pattern: str, *, whole_name: bool = False) -> re.Pattern:
+    """Compile a glob: ``*`` within a folder, ``**`` across folders, ``?``, ``[...]``."""
+    cached = _glob_cache.get((pattern, whole_name))
+    if cached is not None:
+        return cached
+    out: list[str] = []
+    i, n = 0, len(pattern)
+    any_char = "." if whole_name else "[^/]"
+    while i < n:
+        c = pattern[i]
+        if c == "*":
+            if pattern.startswith("**", i) and not whole_name:
+                i += 2
+                if i < n and pattern[i] == "/":
+                    out.append("(?:.*/)?")  # **/ : zero or more folders
+                    i += 1
+                else:
+                    out.append(".*")
+                continue
+            out.append(any_char + "*")
+        elif c == "?":
+            out.append(any_char)
+        elif c == "[":
+            end = pattern.find("]", i + 2 if pattern[i + 1:i + 2] in ("!", "]") else i + 1)
+            if end < 0:
+                out.append(re.escape(c))
+            else:
+                body = pattern[i + 1:end]
+                if body.startswith("!"):
+                    body = "^" + body[1:]
+                out.append("[" + body.replace("\\", "\\\\") + "]")
+                i = end
+        else:
+            out.append(re.escape(c))
+        i += 1
+    compiled = re.compile("".join(out), re.DOTALL)
+    _glob_cache[(pattern, whole_name)] = compiled
+    return compiled
+
+
+def glob_match(pattern: str, relpath: str) -> bool:
+    """Match a root-relative posix path; a pattern without ``/`` matches the file name.
+
+    >>> glob_match("*.sp", "blocks/amp.sp"), glob_match("blocks/*.sp", "blocks/sub/a.sp")
+    (True, False)
+    >>> glob_match("blocks/**/*.sp", "blocks/sub/a.sp"), glob_match("tb/**", "tb/x/y.cir")
+    (True, True)
+    """
+    pattern = pattern.strip().removeprefix("./")
+    if "/" not in pattern:
+        relpath = relpath.rsplit("/", 1)[-1]
+    return _glob_regex(pattern).fullmatch(relpath) is not None
+
+
+# ---------------------------------------------------------------- finding the file
+
+
+def find_config(start: Path) -> Path | None:
+    """The nearest ``lintamp.toml``, or ``pyproject.toml`` with ``[tool.lintamp]``, upwards.
+
+    A ``pyproject.toml`` without that table is passed over; one that is not valid
+    TOML is passed over too (it belongs to other tools, which will complain).
+    """
+    here = Path(start).resolve()
+    if here.is_file():
+        here = here.parent
+    for folder in (here, *here.parents):
+        candidate = folder / CONFIG_FILE
+        if candidate.is_file():
+            return candidate
+        candidate = folder / PYPROJECT_FILE
+        if candidate.is_file() and _has_tool_table(candidate):
+            return candidate
+    return None
+
+
+def _has_tool_table(pyproject: Path) -> bool:
+    try:
+        data = tomllib.loads(pyproject.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return False
+    tool = data.get("tool")
+    return isinstance(tool, dict) and "lintamp" in tool
+
+
+# ---------------------------------------------------------------- loading
+
+
+def rule_catalog(known_rules: Mapping[str, str] | Iterable[str] | None = None) -> dict[str, str]:
+    """Rule name -> category: the registry's rules plus the built-in parser-level ones.
+
+    ``known_rules`` may be given as a mapping (used as is, with the built-in names
+    added) or as a set of names (categories looked up where known).
+    """
+    if isinstance(known_rules, Mapping):
+        return {**BUILTIN_RULE_CATEGORIES, **dict(known_rules)}
+    from lintamp.registry import all_rules
+
+    registered = {name: info.category for name, info in all_rules().items()}
+    catalog = {**BUILTIN_RULE_CATEGORIES, **registered}
+    if known_rules is None:
+        return catalog
+    return {name: catalog.get(name, "") for name in known_rules} | BUILTIN_RULE_CATEGORIES
+
+
+def load_config(path: Path | None, *, isolated: bool = False, start: Path,
+                known_rules: Mapping[str, str] | Iterable[str] | None = None) -> Config:
+    """Read the configuration.
+
+    Parameters
+    ----------
+    path : Path or None
+        The file ``--config`` named; None to look upwards from ``start``.
+    isolated : bool
+        Ignore every configuration file (``--isolated``): defaults, root = ``start``.
+    start : Path
+        Where discovery begins (usually the current folder).
+    known_rules : mapping or iterable, optional
+        Valid rule names (with categories when a mapping); default: the registry's.
+
+    Raises
+    ------
+    ConfigError
+        For a missing or unreadable file, bad TOML, an unknown key, rule or threshold,
+        or a value of the wrong shape.
+    """
+    start = Path(start)
+    start_folder = start if start.is_dir() or not start.exists() else start.parent
+    if isolated:
+        return Config(root=start_folder.resolve())
+    if path is None:
+        path = find_config(start)
+        if path is None:
+            return Config(root=start_folder.resolve())
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ConfigError(str(path), "", "file not found", "an existing lintamp.toml or pyproject.toml") from None
+    except (OSError, UnicodeDecodeError) as err:
+        raise ConfigError(str(path), "", f"cannot read it ({err})", "a readable UTF-8 TOML file") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise ConfigError(str(path), "", f"not valid TOML: {err}", "TOML syntax (https://toml.io)") from None
+    prefix = ""
+    if path.name == PYPROJECT_FILE:
+        prefix = "tool.lintamp."
+        tool = data.get("tool", {})
+        data = tool.get("lintamp", {}) if isinstance(tool, dict) else {}
+        if not isinstance(data, dict):
+            raise ConfigError(str(path), "tool.lintamp", "is not a table", "a [tool.lintamp] table")
+    return parse_config(data, source=path, prefix=prefix, known_rules=known_rules)
+
+
+_TOP_KEYS = ("include", "exclude", "select", "ignore", "fail-on", "bandwidth", "include-paths",
+             "severity", "per-file-ignores", "devices", "thresholds")
+
+
+def parse_config(data: dict, *, source: Path, prefix: str = "",
+                 known_rules: Mapping[str, str] | Iterable[str] | None = None) -> Config:
+    """Validate a parsed TOML table into a :class:`Config` (root = the file's folder)."""
+    where = str(source)
+    catalog = rule_catalog(known_rules)
+    root = source.resolve().parent
+    for key in data:
+        if key not in _TOP_KEYS:
+            hint = key.replace("_", "-")
+            expected = (f"the kebab-case spelling {hint!r}" if hint in _TOP_KEYS
+                        else "one of " + ", ".join(_TOP_KEYS))
+            raise ConfigError(where, prefix + key, "unknown key", expected)
+    check = _Checker(where, prefix, catalog)
+    config = Config(root=root, source=source)
+    if "include" in data:
+        config.include = check.globs(data["include"], "include")
+    if "exclude" in data:
+        config.exclude = check.globs(data["exclude"], "exclude")
+    if "select" in data:
+        config.select = check.selectors(data["select"], "select")
+    if "ignore" in data:
+        config.ignore = check.selectors(data["ignore"], "ignore")
+    if "fail-on" in data:
+        config.fail_on = check.fail_on(data["fail-on"], "fail-on")
+    if "bandwidth" in data:
+        config.bandwidth = check.bandwidth(data["bandwidth"], "bandwidth")
+    if "include-paths" in data:
+        config.include_paths = tuple(
+            (root / p).resolve() for p in check.strings(data["include-paths"], "include-paths"))
+    if "severity" in data:
+        config.severity = check.severity_table(data["severity"], "severity")
+    if "per-file-ignores" in data:
+        config.per_file_ignores = check.per_file_ignores(data["per-file-ignores"], "per-file-ignores")
+    if "devices" in data:
+        config.devices = check.devices(data["devices"], "devices")
+    if "thresholds" in data:
+        config.thresholds = check.thresholds(data["thresholds"], "thresholds")
+    return config
+
+
+def parse_rule_list(text: str, *, option: str,
+                    known_rules: Mapping[str, str] | Iterable[str] | None = None) -> tuple[str, ...]:
+    """Parse ``--select a,b`` / ``--ignore ...`` with the same checks as the file."""
+    names = [part.strip() for part in text.split(",") if part.strip()]
+    return _Checker(option, "", rule_catalog(known_rules)).selectors(names, "")
+
+
+def parse_fail_on(text: str, *, option: str = "--fail-on") -> Severity | None:
+    """Parse ``--fail-on error|warning|info|never``."""
+    return _Checker(option, "", {}).fail_on(text, "")
+
+
+def with_overrides(config: Config, **changes) -> Config:
+    """A copy of ``config`` with command-line values in place (field names as in Config)."""
+    names = {f.name for f in fields(Config)}
+    unknown = set(changes) - names
+    if unknown:
+        raise TypeError(f"no such config field(s): {', '.join(sorted(unknown))}")
+    return replace(config, **changes)
+
+
+class _Checker:
+    """Shape checks with messages that name the file and the dotted key."""
+
+    def __init__(self, where: str, prefix: str, catalog: Mapping[str, str]):
+        self.where = where
+        self.prefix = prefix
+        self.catalog = catalog
+
+    def fail(self, key: str, problem: str, expected: str) -> ConfigError:
+        return ConfigError(self.where, (self.prefix + key) if key else "", problem, expected)
+
+    def strings(self, value, key: str) -> tuple[str, ...]:
+        if isinstance(value, str):
+            raise self.fail(key, f"is a single string {value!r}", f'a list of strings, e.g. ["{value}"]')
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            raise self.fail(key, f"is {_shape(value)}", "a list of strings")
+        return tuple(value)
+
+    def globs(self, value, key: str) -> tuple[str, ...]:
+        items = self.strings(value, key)
+        for item in items:
+            if not item.strip():
+                raise self.fail(key, "has an empty pattern", "glob patterns such as \"*.sp\"")
+        return items
+
+    def selectors(self, value, key: str) -> tuple[str, ...]:
+        items = self.strings(value, key) if key else tuple(value)
+        for item in items:
+            if item != ALL and item not in CATEGORIES and item not in self.catalog:
+                raise self.fail(key, f"unknown rule or category {item!r}{_suggest(item, self.catalog)}",
+                                "a rule name (see `lintamp rules`), a category ("
+                                + ", ".join(CATEGORIES) + ") or \"all\"")
+        return items
+
+    def fail_on(self, value, key: str) -> Severity | None:
+        if not isinstance(value, str) or value.strip().lower() not in FAIL_ON_CHOICES:
+            raise self.fail(key, f"is {value!r}", "one of " + ", ".join(FAIL_ON_CHOICES))
+        text = value.strip().lower()
+        return None if text == "never" else Severity.parse(text)
+
+    def bandwidth(self, value, key: str) -> str:
+        if isinstance(value, bool) or not isinstance(value, (str, int, float)):
+            raise self.fail(key, f"is {_shape(value)}", 'a frequency such as "20meg" or 2e7')
+        text = str(value).strip()
+        if not re.fullmatch(r"[0-9.]+(?:e[-+]?\d+)?[a-z]*", text, re.IGNORECASE):
+            raise self.fail(key, f"is {value!r}", 'a frequency such as "20meg", "1.5g" or 2e7')
+        return text
+
+    def table(self, value, key: str) -> dict:
+        if not isinstance(value, dict):
+            raise self.fail(key, f"is {_shape(value)}", "a table")
+        return value
+
+    def severity_table(self, value, key: str) -> dict[str, Severity]:
+        out: dict[str, Severity] = {}
+        for name, level in self.table(value, key).items():
+            sub = f"{key}.{name}"
+            if name not in CATEGORIES and name not in self.catalog:
+                raise self.fail(sub, f"unknown rule or category{_suggest(name, self.catalog)}",
+                                "a rule name or a category")
+            if not isinstance(level, str) or level.strip().lower() not in ("error", "warning", "info"):
+                raise self.fail(sub, f"is {level!r}", '"error", "warning" or "info"')
+            out[name] = Severity.parse(level)
+        return out
+
+    def per_file_ignores(self, value, key: str) -> dict[str, tuple[str, ...]]:
+        out: dict[str, tuple[str, ...]] = {}
+        for pattern, names in self.table(value, key).items():
+            sub = f'{key}."{pattern}"'
+            if not pattern.strip():
+                raise self.fail(sub, "has an empty glob", 'a path glob such as "tb/**"')
+            out[pattern] = self.selectors(self.strings(names, sub), sub) if names else ()
+        return out
+
+    def devices(self, value, key: str) -> tuple[DeviceMapping, ...]:
+        out: list[DeviceMapping] = []
+        for pattern, spec in self.table(value, key).items():
+            sub = f'{key}."{pattern}"'
+            spec = self.table(spec, sub)
+            for k in spec:
+                if k not in ("kind", "pins", "value"):
+                    raise self.fail(f"{sub}.{k}", "unknown key", "kind, pins or value")
+            kind = spec.get("kind")
+            if kind not in DEVICE_KINDS:
+                raise self.fail(f"{sub}.kind", "is missing" if kind is None else f"is {kind!r}",
+                                "one of " + " ".join(DEVICE_KINDS))
+            if "pins" not in spec:
+                raise self.fail(f"{sub}.pins", "is missing", "the role of each port in order, e.g. "
+                                + json.dumps(list(_PIN_ROLES[kind][0] + _PIN_ROLES[kind][1])))
+            pins = tuple(p.lower() for p in self.strings(spec["pins"], f"{sub}.pins"))
+            self._check_pins(pins, kind, f"{sub}.pins")
+            val = spec.get("value")
+            if val is not None and (not isinstance(val, str) or not val.strip()):
+                raise self.fail(f"{sub}.value", f"is {val!r}", "the name of the instance parameter holding the value")
+            if val is not None and kind not in ("resistor", "capacitor", "inductor"):
+                raise self.fail(f"{sub}.value", f"is set for a {kind}", "value only for resistor, capacitor or inductor")
+            out.append(DeviceMapping(pattern, kind, pins, val.lower() if val else None))
+        return tuple(out)
+
+    def _check_pins(self, pins: tuple[str, ...], kind: str, key: str) -> None:
+        required, optional = _PIN_ROLES[kind]
+        allowed = required + optional
+        roles = [p for p in pins if p != IGNORED_PIN]
+        for p in roles:
+            if p not in allowed:
+                raise self.fail(key, f"has {p!r}, not a {kind} terminal",
+                                f"terminals {', '.join(allowed)} (or \"-\" for a port to ignore)")
+        doubled = sorted({p for p in roles if roles.count(p) > 1})
+        if doubled:
+            raise self.fail(key, f"names {', '.join(doubled)} twice", "each terminal once")
+        missing = [p for p in required if p not in roles]
+        if missing:
+            raise self.fail(key, f"lacks {', '.join(missing)}", f"every one of {', '.join(required)}")
+
+    def thresholds(self, value, key: str) -> dict[str, float]:
+        table = self.table(value, key)
+        if table:
+            from lintamp.registry import all_rules
+
+            all_rules()  # rule modules declare their thresholds on import
+        out: dict[str, float] = {}
+        for name, number in table.items():
+            sub = f"{key}.{name}"
+            if name not in _THRESHOLDS:
+                names = ", ".join(_THRESHOLDS) or "none are declared yet"
+                raise self.fail(sub, f"unknown threshold{_suggest(name, _THRESHOLDS)}",
+                                f"a threshold a rule declares ({names})")
+            if isinstance(number, bool) or not isinstance(number, (int, float)):
+                unit = _THRESHOLDS[name].unit
+                raise self.fail(sub, f"is {_shape(number)}", f"a number in {unit}")
+            if number != number or number in (float("inf"), float("-inf")):
+                raise self.fail(sub, f"is {number!r}", "a finite number")
+            out[name] = float(number)
+        return out
+
+
+def _shape(value) -> str:
+    names = {str: "a string", bool: "a boolean", int: "an integer", float: "a number",
+             list: "a list", dict: "a table"}
+    return names.get(type(value), type(value).__name__)
+
+
+def _suggest(name: str, known: Iterable[str]) -> str:
+    import difflib
+
+    close = difflib.get_close_matches(name, list(known) + list(CATEGORIES), n=1, cutoff=0.75)
+    return f" (did you mean {close[0]!r}?)" if close else ""

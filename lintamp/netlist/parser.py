@@ -1,0 +1,690 @@
+"""Parser: logical cards -> typed statements (elements, cells, models, params).
+
+The first letter of an element card decides its syntax (SPICE3/ngspice element
+table).  Values are kept as text; the circuit layer evaluates them.  Anything the
+parser cannot read becomes a ``parse-error`` diagnostic with the place and what
+was expected, and the rest of the file is still read.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from pathlib import Path
+
+from lintamp.location import Location
+from lintamp.netlist.expr import parse_number
+from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, read,
+                                    read_text)
+from lintamp.netlist.statements import (Analysis, Cell, Diagnostic, Element, FuncDef, Model,
+                                        Netlist, ParamDef, Pragma, Source)
+
+WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
+             "pat", "pwl_file"}
+ANALYSES = {".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".sens", ".pz", ".disto", ".pss",
+            ".sp", ".hb", ".four", ".mpde", ".step", ".fft", ".lin"}
+IGNORED_DOT = {".ic", ".nodeset", ".save", ".print", ".plot", ".probe", ".meas", ".measure",
+               ".width", ".title", ".csparam", ".preprocess", ".protect", ".unprotect", ".alter",
+               ".if", ".elseif", ".else", ".endif", ".options", ".option", ".opt", ".temp",
+               ".global", ".param", ".func", ".model", ".subckt", ".ends", ".end", ".lib",
+               ".endl", ".include", ".inc", ".incl", ".control", ".endc", ".data", ".enddata",
+               ".global_param", ".sensitivity", ".noise", ".machine", ".endmachine",
+               ".connect", ".backanno", ".macro", ".eom", ".hdl", ".verilog", ".distribution",
+               ".agauss", ".variation", ".mc", ".use", ".resultname", ".objective", ".result",
+               ".initcond", ".savebias", ".loadbias", ".checkpoint", ".scale", ".portdef",
+               ".coupling", ".dcvolt", ".csdf", ".lprint"}
+
+# Model types that make an element letter into a known device.
+MOS_TYPES = {"nmos": "nmos", "pmos": "pmos", "nmf": "nmos", "pmf": "pmos", "vdmos": "vdmos"}
+BJT_TYPES = {"npn": "npn", "pnp": "pnp", "lpnp": "pnp"}
+
+_TOKEN = re.compile(
+    r"""\{(?:[^{}]|\{(?:[^{}]|\{[^{}]*\})*\})*\}   # {expr}, three levels of braces
+      | '[^']*'                                    # 'expr'
+      | "[^"]*"                                    # "string"
+      | =                                          # assignment
+      | [^\s,()={}'"]+(?:\{[^{}]*\}[^\s,()={}'"]*)*  # word (may hold {..} parts)
+      | [{}'"]                                     # unbalanced delimiter
+    """,
+    re.VERBOSE,
+)
+_FAST = re.compile(r"[{}'\"(),=]")
+
+
+@dataclass(slots=True)
+class Token:
+    text: str
+    offset: int
+
+
+def tokenize(text: str) -> list[Token]:
+    """Split a card into tokens; blanks, commas and parentheses separate fields."""
+    if not _FAST.search(text):
+        return [Token(m.group(), m.start()) for m in re.finditer(r"\S+", text)]
+    return [Token(m.group(), m.start()) for m in _TOKEN.finditer(text)]
+
+
+def split_fields(tokens: list[Token]) -> tuple[list[Token], list[tuple[Token, Token]], list[Token]]:
+    """Separate positional tokens from ``key=value`` pairs.
+
+    Returns (positional, params, stray) where stray are '=' signs with nothing on
+    one side.  A positional token after the first ``key=value`` is still returned
+    in ``positional`` (callers decide whether that is allowed).
+    """
+    positional: list[Token] = []
+    params: list[tuple[Token, Token]] = []
+    stray: list[Token] = []
+    i = 0
+    n = len(tokens)
+    while i < n:
+        tok = tokens[i]
+        if i + 2 <= n - 1 and tokens[i + 1].text == "=" and tok.text != "=":
+            params.append((tok, tokens[i + 2]))
+            i += 3
+            continue
+        if tok.text == "=":
+            stray.append(tok)
+            i += 1
+            continue
+        positional.append(tok)
+        i += 1
+    return positional, params, stray
+
+
+def is_number(text: str) -> bool:
+    return parse_number(text) is not None
+
+
+def is_value_token(text: str) -> bool:
+    """A number or an expression in braces or quotes."""
+    return text[:1] in "{'\"" or is_number(text)
+
+
+class ParseContext:
+    """Builds the :class:`Netlist` from cards, one card at a time."""
+
+    def __init__(self, path: str, title: str):
+        self.top = Cell(name="", ports=(), location=Location(path, 1, 1))
+        self.netlist = Netlist(path=path, title=title, top=self.top)
+        self.stack: list[Cell] = [self.top]
+        self.element_cards: list[tuple[Element, Card]] = []
+
+    # -- diagnostics ---------------------------------------------------------
+    def error(self, card: Card, offset: int, message: str, expected: str = "", subject: str = "",
+              rule: str = "parse-error", severity: str = "error") -> None:
+        self.netlist.diagnostics.append(Diagnostic(
+            rule, card.location_at(offset), message, subject=subject, severity=severity,
+            expected=expected))
+
+    @property
+    def cell(self) -> Cell:
+        return self.stack[-1]
+
+    # -- dispatch --------------------------------------------------------------
+    def card(self, card: Card) -> None:
+        text = card.text
+        stripped = text.lstrip()
+        if not stripped:
+            return
+        tokens = tokenize(text)
+        if not tokens:
+            return
+        head = tokens[0].text
+        if head[0] == ".":
+            self.dot_card(card, tokens, head.lower())
+            return
+        letter = head[0].lower()
+        parse = ELEMENT_PARSERS.get(letter)
+        if parse is None or not head[0].isalpha():
+            self.error(card, tokens[0].offset,
+                       f"'{excerpt(head)}' does not start with an element letter or a dot command",
+                       expected="an element (R C L K V I E F G H B D Q J M X S W T ...) or a .card")
+            return
+        element = parse(self, card, tokens)
+        if element is not None:
+            self.cell.elements.append(element)
+            self.element_cards.append((element, card))
+
+    # -- dot cards -------------------------------------------------------------
+    def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:
+        nl = self.netlist
+        if word == ".subckt" or word == ".macro":
+            self.subckt(card, tokens)
+        elif word in (".ends", ".eom"):
+            self.ends(card, tokens)
+        elif word == ".model":
+            self.model(card, tokens)
+        elif word in (".param", ".global_param", ".params"):
+            self.params(card, tokens[1:])
+        elif word == ".func":
+            self.func(card, tokens)
+        elif word == ".global":
+            nl.globals.update(t.text.lower() for t in tokens[1:])
+        elif word in (".option", ".options", ".opt"):
+            _, params, _ = split_fields(tokens[1:])
+            for k, v in params:
+                nl.options[k.text.lower()] = v.text
+        elif word == ".temp":
+            if len(tokens) > 1:
+                nl.temperature_c = tokens[1].text
+        elif word in ANALYSES:
+            nl.analyses.append(Analysis(word[1:], tuple(t.text for t in tokens[1:]), card.location))
+        elif word == ".title":
+            nl.title = card.text.strip()[6:].strip()
+        elif word == ".end":
+            pass
+        elif word in IGNORED_DOT:
+            pass
+        else:
+            # simulators ignore unknown dot cards with a warning; so do we, quietly
+            pass
+
+    def subckt(self, card: Card, tokens: list[Token]) -> None:
+        if len(tokens) < 2:
+            self.error(card, tokens[0].offset, ".subckt without a name", expected=".subckt NAME PORT ...")
+            return
+        name_tok = tokens[1]
+        rest = [t for t in tokens[2:] if t.text.lower() not in ("params:", "param:")]
+        positional, params, _ = split_fields(rest)
+        ports = tuple(t.text.lower() for t in positional)
+        cell = Cell(name=name_tok.text.lower(), ports=ports, location=card.location,
+                    display_name=name_tok.text, parent=self.cell)
+        for k, v in params:
+            cell.defaults[k.text.lower()] = v.text
+            cell.params.append(ParamDef(k.text.lower(), v.text, card.location_at(k.offset)))
+        seen: set[str] = set()
+        for t in positional:
+            key = t.text.lower()
+            if key in seen:
+                self.error(card, t.offset, f"port '{excerpt(t.text)}' listed twice in .subckt "
+                           f"{excerpt(name_tok.text)}", expected="distinct port names")
+            seen.add(key)
+        parent = self.cell
+        if cell.name in parent.cells:
+            self.error(card, name_tok.offset, f"subcircuit '{excerpt(name_tok.text)}' defined twice "
+                       f"in one scope; the later definition is used", rule="duplicate-name",
+                       severity="warning", subject=cell.name)
+        parent.cells[cell.name] = cell
+        self.stack.append(cell)
+
+    def ends(self, card: Card, tokens: list[Token]) -> None:
+        if len(self.stack) == 1:
+            self.error(card, tokens[0].offset, ".ends with no open .subckt",
+                       expected=".subckt before .ends")
+            return
+        cell = self.stack.pop()
+        cell.end_location = card.location
+        if len(tokens) > 1 and tokens[1].text.lower() != cell.name:
+            self.error(card, tokens[1].offset,
+                       f".ends {excerpt(tokens[1].text)} closes .subckt {cell.label} "
+                       f"(opened at line {cell.location.line})", severity="warning",
+                       expected=f".ends {cell.label}", subject=cell.name)
+
+    def model(self, card: Card, tokens: list[Token]) -> None:
+        if len(tokens) < 3:
+            self.error(card, tokens[-1].offset, ".model needs a name and a type",
+                       expected=".model NAME TYPE (PARAM=VALUE ...)")
+            return
+        name = tokens[1].text.lower()
+        mtype = tokens[2].text.lower()
+        _, params, _ = split_fields(tokens[3:])
+        model = Model(name=name, type=mtype,
+                      params={k.text.lower(): v.text for k, v in params}, location=card.location)
+        self.cell.models[name] = model
+
+    def params(self, card: Card, tokens: list[Token]) -> None:
+        positional, params, stray = split_fields(tokens)
+        for k, v in params:
+            self.cell.params.append(ParamDef(k.text.lower(), v.text, card.location_at(k.offset)))
+        for t in positional + stray:
+            self.error(card, t.offset, f"'{excerpt(t.text)}' in .param is not NAME=VALUE",
+                       expected="NAME=VALUE")
+
+    def func(self, card: Card, tokens: list[Token]) -> None:
+        m = re.match(r"\s*\.func\s+([A-Za-z_][\w]*)\s*\(([^)]*)\)\s*=?\s*(.*)$", card.text, re.I | re.S)
+        if not m:
+            self.error(card, 0, "cannot read .func", expected=".func NAME(ARG, ...) {EXPRESSION}")
+            return
+        args = tuple(a.strip().lower() for a in m.group(2).split(",") if a.strip())
+        body = m.group(3).strip()
+        if body[:1] in "{'" and body[-1:] in "}'":
+            body = body[1:-1]
+        self.cell.funcs[m.group(1).lower()] = FuncDef(m.group(1).lower(), args, body, card.location)
+
+    def finish(self) -> Netlist:
+        while len(self.stack) > 1:
+            cell = self.stack.pop()
+            self.netlist.diagnostics.append(Diagnostic(
+                "parse-error", cell.location,
+                f".subckt {cell.label} is never closed", expected=f".ends {cell.label}",
+                subject=cell.name))
+        return self.netlist
+
+
+# -- element parsers ----------------------------------------------------------------
+def _element(ctx: ParseContext, card: Card, tokens: list[Token], nodes: list[Token],
+             **kw) -> Element:
+    name = tokens[0].text
+    return Element(name=name, letter=name[0].lower(), nodes=tuple(t.text.lower() for t in nodes),
+                   raw_nodes=tuple(t.text for t in nodes), location=card.location, **kw)
+
+
+def _need(ctx, card, tokens, positional, count, what) -> bool:
+    if len(positional) < count:
+        last = tokens[-1]
+        ctx.error(card, last.offset + len(last.text),
+                  f"{tokens[0].text}: expected {what}, found {len(positional)} field(s)",
+                  expected=what, subject=tokens[0].text.lower())
+        return False
+    return True
+
+
+def _params(pairs) -> dict[str, str]:
+    return {k.text.lower(): v.text for k, v in pairs}
+
+
+def parse_passive(ctx: ParseContext, card: Card, tokens: list[Token]) -> Element | None:
+    """R, C, L: ``n+ n- [value] [model] [key=value ...]``."""
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 2, "two nodes"):
+        return None
+    nodes, rest = positional[:2], positional[2:]
+    params = _params(pairs)
+    value = model = None
+    extra = []
+    for tok in rest:
+        if value is None and is_value_token(tok.text):
+            value = tok.text
+        elif model is None and not is_value_token(tok.text):
+            model = tok.text.lower()
+        else:
+            extra.append(tok)
+    letter = tokens[0].text[0].lower()
+    key = {"r": "r", "c": "c", "l": "l"}[letter]
+    if value is None:
+        for alias in ((key, "value", "res", "resistance") if key == "r" else (key, "value")):
+            if alias in params:
+                value = params.pop(alias)
+                break
+    for tok in extra:
+        ctx.error(card, tok.offset, f"unexpected field '{excerpt(tok.text)}' after the value",
+                  expected="KEY=VALUE parameters", subject=tokens[0].text.lower(), severity="warning")
+    return _element(ctx, card, tokens, nodes, value=value, model=model, params=params)
+
+
+def parse_coupling(ctx, card, tokens):
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 3, "two inductor names and a coupling factor"):
+        return None
+    return _element(ctx, card, tokens, [], value=positional[-1].text,
+                    controls=tuple(t.text.lower() for t in positional[:-1]), params=_params(pairs))
+
+
+def parse_source(ctx, card, tokens):
+    """V, I: ``n+ n- [[DC] value] [AC mag [phase]] [WAVEFORM args]``."""
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 2, "two nodes"):
+        return None
+    nodes, rest = positional[:2], positional[2:]
+    src = Source()
+    i = 0
+    while i < len(rest):
+        word = rest[i].text.lower()
+        if word == "dc":
+            if i + 1 < len(rest):
+                src.dc = rest[i + 1].text
+            i += 2
+        elif word == "ac":
+            vals = []
+            j = i + 1
+            while j < len(rest) and len(vals) < 2 and is_value_token(rest[j].text):
+                vals.append(rest[j].text)
+                j += 1
+            src.ac_mag = vals[0] if vals else "1"
+            src.ac_phase = vals[1] if len(vals) > 1 else None
+            i = j
+        elif word in WAVEFORMS:
+            j = i + 1
+            args = []
+            while j < len(rest) and (is_value_token(rest[j].text) or rest[j].text[:1].isalpha()
+                                     and rest[j].text.lower() not in ("dc", "ac") | WAVEFORMS):
+                args.append(rest[j].text)
+                j += 1
+            src.waveform = word
+            src.waveform_args = tuple(args)
+            i = j
+        elif src.dc is None and is_value_token(rest[i].text) or (
+                src.dc is None and i == 0 and rest[i].text[:1].isalpha()):
+            src.dc = rest[i].text
+            i += 1
+        else:
+            i += 1  # distof1/distof2 and friends: not topology
+    params = _params(pairs)
+    if src.dc is None and "dc" in params:
+        src.dc = params.pop("dc")
+    return _element(ctx, card, tokens, nodes, source=src, value=src.dc, params=params)
+
+
+def _controlled_nodes_from_expr(text: str) -> list[str]:
+    names = []
+    for m in re.finditer(r"\bv\s*\(\s*([^,()\s]+)\s*(?:,\s*([^,()\s]+)\s*)?\)", text, re.I):
+        names.extend(n for n in m.groups() if n)
+    return names
+
+
+def parse_controlled(ctx, card, tokens):
+    """E/G (voltage-controlled) and F/H (current-controlled) sources."""
+    letter = tokens[0].text[0].lower()
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 2, "two output nodes"):
+        return None
+    out, rest = positional[:2], positional[2:]
+    params = _params(pairs)
+    for key in ("value", "vol", "cur"):
+        if key in params:
+            expr = params.pop(key)
+            ctl = [t for t in _controlled_nodes_from_expr(expr)]
+            el = _element(ctx, card, tokens, out, expression=expr, params=params)
+            el.nodes += tuple(n.lower() for n in ctl)
+            el.raw_nodes += tuple(ctl)
+            el.model = "value"
+            return el
+    words = [t.text.lower() for t in rest]
+    if words and words[0] in ("table", "laplace", "freq", "and", "or", "nand", "nor"):
+        text = card.text
+        ctl = _controlled_nodes_from_expr(text)
+        el = _element(ctx, card, tokens, out, expression=text, params=params, model=words[0])
+        el.nodes += tuple(n.lower() for n in ctl)
+        return el
+    if words and re.fullmatch(r"poly\d*", words[0]):
+        dims_text = words[0][4:] or (rest[1].text if len(rest) > 1 else "")
+        start = 1 if words[0][4:] else 2
+        try:
+            dims = int(dims_text)
+        except ValueError:
+            ctx.error(card, rest[0].offset, "POLY without a dimension", expected="POLY(N)")
+            return None
+        if letter in "eg":
+            ctl_nodes = rest[start:start + 2 * dims]
+            el = _element(ctx, card, tokens, out + ctl_nodes, model="poly",
+                          expression=" ".join(t.text for t in rest[start + 2 * dims:]), params=params)
+        else:
+            ctl = rest[start:start + dims]
+            el = _element(ctx, card, tokens, out, model="poly",
+                          controls=tuple(t.text.lower() for t in ctl),
+                          expression=" ".join(t.text for t in rest[start + dims:]), params=params)
+        return el
+    if letter in "eg":
+        if len(rest) < 2:
+            ctx.error(card, tokens[-1].offset + len(tokens[-1].text),
+                      f"{tokens[0].text}: expected two control nodes and a gain",
+                      expected="N+ N- NC+ NC- GAIN", subject=tokens[0].text.lower())
+            return None
+        gain = rest[2].text if len(rest) > 2 else params.pop("gain", None)
+        return _element(ctx, card, tokens, out + rest[:2], value=gain, params=params)
+    if not rest:
+        ctx.error(card, tokens[-1].offset + len(tokens[-1].text),
+                  f"{tokens[0].text}: expected a controlling voltage source and a gain",
+                  expected="N+ N- VNAME GAIN", subject=tokens[0].text.lower())
+        return None
+    gain = rest[1].text if len(rest) > 1 else params.pop("gain", None)
+    return _element(ctx, card, tokens, out, value=gain, controls=(rest[0].text.lower(),), params=params)
+
+
+def parse_behavioral(ctx, card, tokens):
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 2, "two nodes"):
+        return None
+    params = _params(pairs)
+    expr = params.pop("v", None)
+    model = "v"
+    if expr is None:
+        expr = params.pop("i", None)
+        model = "i"
+    if expr is None:
+        ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected V=expression or I=expression",
+                  expected="V={...} or I={...}", subject=tokens[0].text.lower())
+        return None
+    el = _element(ctx, card, tokens, positional[:2], expression=expr, model=model, params=params)
+    ctl = _controlled_nodes_from_expr(expr)
+    el.nodes += tuple(n.lower() for n in ctl)
+    return el
+
+
+def _model_split(positional: list[Token], min_nodes: int, max_nodes: int):
+    """Nodes then model: the model is the last positional token that is not a number.
+
+    Tokens after the model (HSPICE positional sizes, an area factor) are returned
+    separately.
+    """
+    for idx in range(len(positional) - 1, -1, -1):
+        if not is_value_token(positional[idx].text) and idx >= min_nodes:
+            nodes = positional[:idx]
+            if len(nodes) > max_nodes:
+                continue
+            return nodes, positional[idx], positional[idx + 1:]
+    return None
+
+
+def make_device_parser(what: str, min_nodes: int, max_nodes: int, after: tuple[str, ...] = ()):
+    def parse(ctx, card, tokens):
+        positional, pairs, _ = split_fields(tokens[1:])
+        split = _model_split(positional, min_nodes, max_nodes)
+        if split is None:
+            n = f"{min_nodes}" if min_nodes == max_nodes else f"{min_nodes} to {max_nodes}"
+            ctx.error(card, tokens[-1].offset + len(tokens[-1].text),
+                      f"{tokens[0].text}: expected {n} nodes and a model name ({what})",
+                      expected=f"{n} nodes, then a model name", subject=tokens[0].text.lower())
+            return None
+        nodes, model, extra = split
+        params = _params(pairs)
+        for name, tok in zip(after, extra):
+            params.setdefault(name, tok.text)
+        for tok in extra[len(after):]:
+            if tok.text.lower() in ("off", "on"):
+                continue
+            ctx.error(card, tok.offset, f"unexpected field '{excerpt(tok.text)}' after the model",
+                      expected="KEY=VALUE parameters", subject=tokens[0].text.lower(), severity="warning")
+        return _element(ctx, card, tokens, nodes, model=model.text.lower(), params=params)
+    return parse
+
+
+def parse_instance(ctx, card, tokens):
+    """X: ``n1 ... nk subname [params:] [key=value ...]``."""
+    toks = [t for t in tokens[1:] if t.text.lower() not in ("params:", "param:")]
+    positional, pairs, _ = split_fields(toks)
+    if not positional:
+        ctx.error(card, tokens[0].offset + len(tokens[0].text),
+                  f"{tokens[0].text}: expected nodes and a subcircuit name",
+                  expected="N1 ... NK SUBCKT [PARAM=VALUE ...]", subject=tokens[0].text.lower())
+        return None
+    nodes, sub = positional[:-1], positional[-1]
+    return _element(ctx, card, tokens, nodes, model=sub.text.lower(), params=_params(pairs))
+
+
+def parse_switch_i(ctx, card, tokens):
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 4, "two nodes, a controlling source and a model"):
+        return None
+    return _element(ctx, card, tokens, positional[:2], controls=(positional[2].text.lower(),),
+                    model=positional[3].text.lower(), params=_params(pairs))
+
+
+def parse_line(ctx, card, tokens):
+    positional, pairs, _ = split_fields(tokens[1:])
+    if not _need(ctx, card, tokens, positional, 4, "four nodes"):
+        return None
+    return _element(ctx, card, tokens, positional[:4],
+                    model=positional[4].text.lower() if len(positional) > 4 else None,
+                    params=_params(pairs))
+
+
+def parse_nodes_then_model(what: str, min_nodes: int):
+    def parse(ctx, card, tokens):
+        positional, pairs, _ = split_fields(tokens[1:])
+        if not _need(ctx, card, tokens, positional, min_nodes + 1, f"{min_nodes}+ nodes and a model ({what})"):
+            return None
+        return _element(ctx, card, tokens, positional[:-1], model=positional[-1].text.lower(),
+                        params=_params(pairs))
+    return parse
+
+
+def parse_xspice(ctx, card, tokens):
+    """A: ``[in ...] out model`` with %v/%i/%d prefixes, [ ] vectors, ~ inversion, NULL."""
+    positional, pairs, _ = split_fields(tokens[1:])
+    if len(positional) < 2:
+        ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected connections and a model",
+                  expected="CONNECTIONS ... MODEL", subject=tokens[0].text.lower())
+        return None
+    nodes = []
+    for tok in positional[:-1]:
+        for part in re.split(r"[\[\]\s]+", tok.text):
+            part = part.lstrip("~")
+            if not part or part.startswith("%") or part.lower() == "null":
+                continue
+            nodes.append(Token(part, tok.offset))
+    return _element(ctx, card, tokens, nodes, model=positional[-1].text.lower(), params=_params(pairs))
+
+
+def parse_y(ctx, card, tokens):
+    """Y: ngspice lossy line ``n1 n2 n3 n4 model``; Xyce ``YTYPE name nodes ... model``."""
+    positional, pairs, _ = split_fields(tokens[1:])
+    name = tokens[0].text.lower()
+    if name in ("ypde", "ymemristor", "ymin", "yacc", "ylin", "ytransline", "ybsim", "yvsrc",
+                "yisrc", "ygenext", "ywindsrc", "ypowergrid", "yneuron", "ysynapse", "yrxn",
+                "yinterfacemodel", "ydigital") or (len(positional) >= 1 and not positional[0].text[:1].isdigit()
+                                                   and name[1:] in ("pde", "memristor", "lin", "acc")):
+        if len(positional) < 3:
+            ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected an instance name, nodes and a model",
+                      expected="YTYPE NAME NODES ... MODEL", subject=name)
+            return None
+        el = _element(ctx, card, tokens, positional[1:-1], model=positional[-1].text.lower(),
+                      params=_params(pairs))
+        el.name = tokens[0].text + "!" + positional[0].text
+        return el
+    if len(positional) < 5:
+        ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected four nodes and a model",
+                  expected="N1 N2 N3 N4 MODEL", subject=name)
+        return None
+    return _element(ctx, card, tokens, positional[:-1], model=positional[-1].text.lower(),
+                    params=_params(pairs))
+
+
+ELEMENT_PARSERS = {
+    "r": parse_passive, "c": parse_passive, "l": parse_passive,
+    "k": parse_coupling,
+    "v": parse_source, "i": parse_source,
+    "e": parse_controlled, "f": parse_controlled, "g": parse_controlled, "h": parse_controlled,
+    "b": parse_behavioral,
+    "d": make_device_parser("diode", 2, 2, after=("area",)),
+    "q": make_device_parser("BJT", 3, 5, after=("area",)),
+    "j": make_device_parser("JFET", 3, 3, after=("area",)),
+    "z": make_device_parser("MESFET", 3, 3, after=("area",)),
+    "m": make_device_parser("MOSFET", 3, 7, after=("l", "w")),
+    "x": parse_instance,
+    "s": make_device_parser("voltage-controlled switch", 4, 4),
+    "w": parse_switch_i,
+    "t": parse_line,
+    "o": parse_nodes_then_model("lossy line", 4),
+    "u": parse_nodes_then_model("RC line", 3),
+    "p": parse_nodes_then_model("coupled lines", 2),
+    "n": parse_nodes_then_model("numerical device", 1),
+    "a": parse_xspice,
+    "y": parse_y,
+}
+
+
+# -- pragmas and CDL comments ----------------------------------------------------
+def attach_comments(netlist: Netlist, comments: list[CommentLine],
+                    element_cards: list[tuple[Element, Card]]) -> None:
+    """Turn ``lintamp:`` comments into pragmas in the cell that holds them."""
+    by_line: dict[tuple[str, int], Element] = {}
+    for element, card in element_cards:
+        by_line[(card.path, card.segments[0][1])] = element
+    cells = list(netlist.all_cells())
+    # which cell holds a line: the innermost .subckt whose span contains it
+    spans = [(c, c.location, c.end_location) for c in cells if not c.is_top and c.end_location]
+
+    def cell_of(loc: Location) -> Cell:
+        best = netlist.top
+        for cell, start, end in spans:
+            if start.path == loc.path and start.line <= loc.line <= end.line:
+                if best.is_top or best.location.line <= start.line:
+                    best = cell
+        return best
+
+    for comment in comments:
+        if comment.kind == "cdl":
+            word, _, rest = comment.text.partition(" ")
+            netlist.cdl.setdefault(word.lower(), []).append(rest.strip())
+            if word.lower() == ".global":
+                netlist.globals.update(t.lower() for t in rest.split())
+            continue
+        text, _, reason = comment.text.partition("--")
+        words = text.split()
+        if not words:
+            netlist.diagnostics.append(Diagnostic(
+                "parse-error", comment.location, "empty lintamp: pragma",
+                expected="lintamp: VERB ARGUMENTS", severity="warning"))
+            continue
+        cell = cell_of(comment.location)
+        pragma = Pragma(verb=words[0].lower(), args=tuple(w.lower() for w in words[1:]),
+                        reason=reason.strip(), location=comment.location,
+                        inline=comment.kind == "pragma-inline", cell=cell.name)
+        key = (comment.location.path, comment.location.line)
+        element = by_line.get(key) if pragma.inline else by_line.get((key[0], key[1] + 1))
+        if element is not None:
+            pragma.element = element.key
+            pragma.element_nets = element.nodes
+        cell.pragmas.append(pragma)
+
+
+_FRAGMENT_FIRST = re.compile(r"\s*\.(subckt|model|lib|include|inc|param|global|option|options|func|macro)\b",
+                             re.I)
+
+
+def is_fragment(first_line: str) -> bool:
+    """A file whose first line is a definition is a library fragment: it has no title."""
+    return bool(_FRAGMENT_FIRST.match(first_line))
+
+
+def parse_read(result: ReadResult, path: str) -> Netlist:
+    ctx = ParseContext(path, result.title)
+    for card in result.cards:
+        ctx.card(card)
+    netlist = ctx.finish()
+    netlist.files = list(result.files)
+    netlist.diagnostics[:0] = result.diagnostics
+    attach_comments(netlist, result.comments, ctx.element_cards)
+    return netlist
+
+
+def parse_file(path: Path, opts: ReadOptions | None = None) -> Netlist:
+    """Read and parse a netlist file and everything it includes."""
+    opts = opts or ReadOptions()
+    shown = _display(path, opts)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        netlist = Netlist(path=shown, title="", top=Cell("", (), Location(shown, 1, 1)))
+        netlist.diagnostics.append(Diagnostic("parse-error", Location(shown, 1, 1),
+                                              f"cannot read {shown}: {exc.strerror or exc}"))
+        return netlist
+    first = data.split(b"\n", 1)[0].decode("latin-1")
+    result = read(path, opts, data=data, title=not is_fragment(first))
+    return parse_read(result, shown)
+
+
+def parse_text(text: str, path: str = "<text>", opts: ReadOptions | None = None) -> Netlist:
+    """Parse netlist text held in memory (its first line is the title)."""
+    return parse_read(read_text(text, path, opts), path)
+
+
+def _display(path: Path, opts: ReadOptions) -> str:
+    import os
+    if opts.display_root is not None:
+        try:
+            return os.path.relpath(path, opts.display_root).replace(os.sep, "/")
+        except ValueError:
+            pass
+    return str(path).replace(os.sep, "/")

@@ -1,0 +1,499 @@
+"""Reader: physical lines of netlist files -> logical cards.
+
+The reader owns everything about text layout: decoding, the title line,
+continuation lines, comments (with ``lintamp:`` pragmas and CDL ``*.`` directives
+kept), ``.control`` blocks, ``.end``, dialect switches, and ``.include`` /
+``.lib`` resolution inside a sandbox.  It knows nothing of element syntax.
+
+A :class:`Card` is one logical statement with a map from character offsets back
+to physical ``(line, column)`` so that a token on a ``+`` line is reported where
+it was written.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Iterator
+
+from lintamp.location import Location
+from lintamp.netlist.statements import Diagnostic
+
+MAX_INCLUDE_DEPTH = 40
+MAX_FILE_BYTES = 256 * 1024 * 1024
+MAX_CARD_CHARS = 4 * 1024 * 1024  # a logical card longer than this is refused, not parsed
+EXCERPT_CHARS = 60
+
+_PLACEHOLDER = re.compile(r"\$\{|\$[A-Za-z_]|@@|@[A-Za-z_]|\{[A-Za-z_]\w*\}")
+
+
+def excerpt(text: str, limit: int = EXCERPT_CHARS) -> str:
+    """A short, printable piece of untrusted text for messages."""
+    text = "".join(ch if ch.isprintable() else "?" for ch in text[: limit + 1])
+    return text if len(text) <= limit else text[:limit] + "..."
+
+
+@dataclass(slots=True)
+class Card:
+    """One logical statement: text with comments removed and continuations joined.
+
+    ``segments`` maps offsets in ``text`` to physical places:
+    ``(offset, line, column)`` triples in increasing offset order.
+    """
+
+    text: str
+    path: str
+    segments: list[tuple[int, int, int]]
+    comment: str = ""  # the inline comment of the card's first line, if any
+    last_line: int = 0
+
+    @property
+    def location(self) -> Location:
+        _, line, col = self.segments[0]
+        return Location(self.path, line, col)
+
+    def location_at(self, offset: int) -> Location:
+        """Physical place of character ``offset`` of ``text``."""
+        seg = self.segments[0]
+        for candidate in self.segments:
+            if candidate[0] > offset:
+                break
+            seg = candidate
+        start, line, col = seg
+        return Location(self.path, line, col + (offset - start))
+
+
+@dataclass(slots=True)
+class CommentLine:
+    """A whole-line comment worth keeping: a pragma or a CDL directive."""
+
+    text: str  # after the comment marker, stripped
+    location: Location
+    kind: str  # "pragma" | "cdl"
+
+
+@dataclass(slots=True)
+class ReadOptions:
+    """Where includes may come from, and the comment dialect."""
+
+    root: Path | None = None  # project root: includes must stay inside it ...
+    include_paths: tuple[Path, ...] = ()  # ... or inside one of these
+    dollar_comments: bool = True  # ' $ ' starts an inline comment (HSPICE, ngspice)
+    slash_comments: bool = True  # '//' starts an inline comment (ngspice)
+    display_root: Path | None = None  # paths in locations are relative to this
+
+
+@dataclass(slots=True)
+class ReadResult:
+    cards: list[Card] = field(default_factory=list)
+    comments: list[CommentLine] = field(default_factory=list)
+    diagnostics: list[Diagnostic] = field(default_factory=list)
+    files: list[str] = field(default_factory=list)
+    title: str = ""
+    # cards of each included file are spliced in order; which file each came from is in card.path
+
+
+def decode(data: bytes) -> str:
+    """UTF-8 when it is valid, latin-1 otherwise: never fails, never loses a byte."""
+    if data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
+
+
+def looks_binary(data: bytes) -> bool:
+    head = data[:8192]
+    if b"\x00" in head:
+        return True
+    if not head:
+        return False
+    control = sum(1 for b in head if b < 32 and b not in (9, 10, 12, 13))
+    return control > len(head) // 10
+
+
+def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
+    """Split ``line`` into code and inline comment, respecting quotes and braces.
+
+    ``;`` always starts a comment; ``$`` only at the line start or after a blank
+    (``M$1`` and ``$PDK_ROOT`` are names); ``//`` when enabled.
+    """
+    if ";" not in line and "$" not in line and "/" not in line:
+        return line, ""
+    depth = 0
+    quote = ""
+    n = len(line)
+    i = 0
+    while i < n:
+        ch = line[i]
+        if quote:
+            if ch == quote:
+                quote = ""
+        elif ch in "'\"":
+            quote = ch
+        elif ch == "{":
+            depth += 1
+        elif ch == "}":
+            depth = max(0, depth - 1)
+        elif depth == 0:
+            if ch == ";":
+                return line[:i], line[i + 1:]
+            if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t"):
+                return line[:i], line[i + 1:]
+            if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
+                    i == 0 or line[i - 1] in " \t"):
+                return line[:i], line[i + 2:]
+        i += 1
+    return line, ""
+
+
+def _pragma_text(comment: str) -> str | None:
+    text = comment.strip()
+    if text[:8].lower() == "lintamp:":
+        return text[8:].strip()
+    return None
+
+
+class _Reader:
+    def __init__(self, opts: ReadOptions):
+        self.opts = opts
+        self.result = ReadResult()
+        self.stack: list[tuple[str, str]] = []  # (realpath, section) being read
+        self.allowed = [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
+
+    # -- paths ---------------------------------------------------------------
+    def display(self, path: Path) -> str:
+        base = self.opts.display_root
+        if base is not None:
+            try:
+                return os.path.relpath(path, base).replace(os.sep, "/")
+            except ValueError:
+                pass
+        return str(path).replace(os.sep, "/")
+
+    def inside_sandbox(self, real: Path) -> bool:
+        if not self.allowed:
+            return True
+        return any(real == a or a in real.parents for a in self.allowed)
+
+    # -- files ---------------------------------------------------------------
+    def read_top(self, path: Path, data: bytes | None = None, title: bool = True) -> ReadResult:
+        self._read_file(path, top_level=title, section=None, data=data, at=None)
+        return self.result
+
+    def _diag(self, rule: str, loc: Location, message: str, *, severity="error",
+              subject="", expected="") -> None:
+        self.result.diagnostics.append(
+            Diagnostic(rule, loc, message, subject=subject, severity=severity, expected=expected))
+
+    def _read_file(self, path: Path, *, top_level: bool, section: str | None,
+                   data: bytes | None, at: Location | None) -> None:
+        shown = self.display(path)
+        if data is None:
+            try:
+                size = path.stat().st_size
+                if size > MAX_FILE_BYTES:
+                    self._diag("bad-include" if at else "parse-error", at or Location(shown, 1, 1),
+                               f"{shown}: file is {size} bytes, over the {MAX_FILE_BYTES}-byte limit; not read")
+                    return
+                data = path.read_bytes()
+            except OSError as exc:
+                self._diag("missing-include" if at else "parse-error", at or Location(shown, 1, 1),
+                           f"cannot read {shown}: {exc.strerror or exc}", severity="warning" if at else "error")
+                return
+        if looks_binary(data):
+            self._diag("parse-error", at or Location(shown, 1, 1),
+                       f"{shown} looks like a binary file, not netlist text; not read",
+                       expected="SPICE netlist text")
+            return
+        if shown not in self.result.files:
+            self.result.files.append(shown)
+        text = decode(data)
+        self._read_lines(text, shown, path, top_level=top_level, section=section)
+
+    def _read_lines(self, text: str, shown: str, path: Path, *, top_level: bool,
+                    section: str | None) -> None:
+        opts = self.opts
+        cards = self.result.cards
+        lines = text.split("\n")
+        current: list | None = None  # [pieces, segments, first_comment, last_line]
+        in_control = False
+        in_data = False
+        spectre = False
+        in_section = section is None
+        section_depth = 0
+        start = 0
+        if top_level:
+            first = lines[0].rstrip("\r") if lines else ""
+            self.result.title = first.strip()
+            start = 1
+            pragma = _pragma_text(first.lstrip("*$ \t"))
+            if pragma is not None and first.lstrip()[:1] in "*$":
+                self.result.comments.append(CommentLine(pragma, Location(shown, 1, 1), "pragma"))
+
+        def flush():
+            nonlocal current
+            if current is not None:
+                pieces, segs, comment, last = current
+                card_text = "".join(pieces)
+                if len(card_text) > MAX_CARD_CHARS:
+                    self._diag("parse-error", Location(shown, segs[0][1], segs[0][2]),
+                               f"statement is {len(card_text)} characters long, over the "
+                               f"{MAX_CARD_CHARS} limit; skipped")
+                else:
+                    cards.append(Card(card_text, shown, segs, comment, last))
+                current = None
+
+        i = start
+        n = len(lines)
+        while i < n:
+            raw = lines[i]
+            i += 1
+            lineno = i
+            if raw.endswith("\r"):
+                raw = raw[:-1]
+            stripped = raw.lstrip()
+            if not stripped:
+                continue
+            indent = len(raw) - len(stripped)
+            head = stripped[0]
+            # whole-line comments: keep pragmas and CDL directives
+            if head == "*" or (head == "$" and (len(stripped) == 1 or stripped[1] in " \t$")) \
+                    or stripped.startswith("//"):
+                body = stripped[2:] if stripped.startswith("//") else stripped[1:]
+                pragma = _pragma_text(body)
+                if pragma is not None:
+                    self.result.comments.append(
+                        CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma"))
+                elif head == "*" and body[:1] == "." and in_section and not in_control:
+                    self.result.comments.append(
+                        CommentLine(body.strip(), Location(shown, lineno, indent + 1), "cdl"))
+                continue
+            lowered = stripped[:10].lower()
+            if in_control:
+                if lowered.startswith(".endc"):
+                    in_control = False
+                continue
+            if in_data:
+                if lowered.startswith(".enddata"):
+                    in_data = False
+                continue
+            if lowered.startswith("simulator"):
+                low = stripped.lower().replace(" ", "")
+                if "lang=spectre" in low:
+                    flush()
+                    spectre = True
+                    self._diag("unsupported-syntax", Location(shown, lineno, indent + 1),
+                               "Spectre-language section: lintamp reads SPICE syntax only, so "
+                               "the lines up to the next 'simulator lang=spice' are not checked",
+                               severity="info")
+                elif "lang=spice" in low:
+                    spectre = False
+                continue
+            if spectre:
+                continue
+            code, comment = _strip_inline_comment(stripped, opts)
+            # trailing backslash continues onto the next line (HSPICE / Spectre style)
+            while code.rstrip().endswith("\\") and i < n and not code.rstrip().endswith("\\\\\\"):
+                code = code.rstrip()[:-1] + " "
+                nxt = lines[i].rstrip("\r")
+                i += 1
+                more, _ = _strip_inline_comment(nxt.lstrip(), opts)
+                code += more
+            if head == "+":
+                if current is None:
+                    if in_section:
+                        self._diag("parse-error", Location(shown, lineno, indent + 1),
+                                   "continuation line '+' with no statement before it",
+                                   expected="a statement before the '+' line")
+                    continue
+                current[0].append(" ")
+                offset = sum(len(p) for p in current[0])
+                current[0].append(code[1:])
+                current[1].append((offset, lineno, indent + 2))
+                current[3] = lineno
+                if comment and _pragma_text(comment) is not None:
+                    self.result.comments.append(
+                        CommentLine(_pragma_text(comment), Location(shown, lineno, indent + 1), "pragma"))
+                continue
+            flush()
+            word = lowered.split(None, 1)[0] if lowered.split() else ""
+            if word.startswith(".control"):
+                in_control = True
+                continue
+            if word.startswith(".data") and not word.startswith(".database"):
+                in_data = True
+                continue
+            if section is not None or word in (".lib", ".endl"):
+                handled, in_section, section_depth = self._section_card(
+                    stripped, code, shown, path, lineno, indent, section, in_section, section_depth)
+                if handled:
+                    continue
+            if not in_section:
+                continue
+            if word == ".end" or (word.startswith(".end") and word == ".end"):
+                break
+            if word in (".include", ".inc", ".incl", ".includes"):
+                self._include(code, shown, path, lineno, indent)
+                continue
+            current = [[code], [(0, lineno, indent + 1)], comment, lineno]
+            if comment:
+                pragma = _pragma_text(comment)
+                if pragma is not None:
+                    self.result.comments.append(
+                        CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma-inline"))
+        flush()
+
+    # -- .lib sections ---------------------------------------------------------
+    def _section_card(self, stripped, code, shown, path, lineno, indent, section,
+                      in_section, depth):
+        """Handle ``.lib``/``.endl``; returns (handled, in_section, depth)."""
+        tokens = _split_path_tokens(code)
+        word = tokens[0].lower() if tokens else ""
+        loc = Location(shown, lineno, indent + 1)
+        if word == ".endl":
+            if section is not None and in_section and depth == 0:
+                return True, False, 0
+            return True, in_section, max(0, depth - 1)
+        if word != ".lib":
+            return False, in_section, depth
+        if len(tokens) >= 3:  # .lib FILE SECTION: use a section
+            if in_section:
+                self._include_section(tokens[1], tokens[2], shown, path, loc)
+            return True, in_section, depth
+        if len(tokens) == 2:
+            if section is not None:  # inside a library file: .lib NAME opens a section
+                if in_section:
+                    return True, in_section, depth + 1  # nested definition inside ours
+                return True, tokens[1].lower() == section, 0
+            # top-level file: a .lib NAME block defines a section nobody selected; skip it
+            # unless NAME is a file (PSPICE style '.lib file' behaves like .include)
+            target = self._resolve(tokens[1], path, loc, quiet=True)
+            if target is not None and target.is_file():
+                if in_section:
+                    self._include(code, shown, path, lineno, indent, tokens=tokens)
+                return True, in_section, depth
+            return True, False, 0
+        self._diag("parse-error", loc, ".lib without a file or section name",
+                   expected=".lib FILE SECTION or .lib SECTION")
+        return True, in_section, depth
+
+    # -- includes ------------------------------------------------------------
+    def _resolve(self, target: str, including: Path, loc: Location, *, quiet=False) -> Path | None:
+        if _PLACEHOLDER.search(target):
+            if not quiet:
+                self._diag("missing-include", loc,
+                           f"include path '{excerpt(target)}' holds an unexpanded placeholder; "
+                           "the file it names is not read", severity="warning", subject=target)
+            return None
+        target_path = Path(target.replace("\\", "/"))
+        candidates = []
+        if target_path.is_absolute():
+            candidates.append(target_path)
+        else:
+            candidates.append(including.parent / target_path)
+            candidates.extend(p / target_path for p in self.opts.include_paths)
+        for cand in candidates:
+            try:
+                if cand.is_file():
+                    real = cand.resolve()
+                    if not self.inside_sandbox(real):
+                        if not quiet:
+                            self._diag("bad-include", loc,
+                                       f"'{excerpt(target)}' resolves outside the project root and the "
+                                       "include paths; not read (add its folder with --include-path "
+                                       "if it is trusted)", subject=target)
+                        return None
+                    return real
+            except OSError:
+                continue
+        if not quiet:
+            self._diag("missing-include", loc,
+                       f"include file '{excerpt(target)}' not found (looked beside "
+                       f"{self.display(including)}" + (" and in the include paths" if self.opts.include_paths else "")
+                       + "); checking goes on without it", severity="warning", subject=target)
+        return None
+
+    def _enter(self, real: Path, section: str | None, loc: Location) -> bool:
+        key = (str(real), section or "")
+        if key in self.stack:
+            chain = " -> ".join(self.display(Path(p)) + (f"[{s}]" if s else "") for p, s in self.stack)
+            self._diag("bad-include", loc, f"include cycle: {chain} -> {self.display(real)}; "
+                       "not read again", subject=self.display(real))
+            return False
+        if len(self.stack) >= MAX_INCLUDE_DEPTH:
+            self._diag("bad-include", loc, f"includes nested more than {MAX_INCLUDE_DEPTH} deep; "
+                       "not read further", subject=self.display(real))
+            return False
+        return True
+
+    def _include(self, code, shown, path, lineno, indent, tokens=None):
+        tokens = tokens or _split_path_tokens(code)
+        loc = Location(shown, lineno, indent + 1)
+        if len(tokens) < 2:
+            self._diag("parse-error", loc, f"{tokens[0]} without a file name", expected="a file name")
+            return
+        real = self._resolve(tokens[1], path, loc)
+        if real is None or not self._enter(real, None, loc):
+            return
+        self.stack.append((str(real), ""))
+        try:
+            self._read_file(real, top_level=False, section=None, data=None, at=loc)
+        finally:
+            self.stack.pop()
+
+    def _include_section(self, target, section, shown, path, loc):
+        real = self._resolve(target, path, loc)
+        if real is None:
+            return
+        section = section.lower()
+        if not self._enter(real, section, loc):
+            return
+        self.stack.append((str(real), section))
+        before = len(self.result.cards)
+        try:
+            self._read_file(real, top_level=False, section=section, data=None, at=loc)
+        finally:
+            self.stack.pop()
+        if len(self.result.cards) == before and not self._has_section(real, section):
+            self._diag("missing-include", loc, f"library {self.display(real)} has no section "
+                       f"'{excerpt(section)}'", severity="warning", subject=section)
+
+    def _has_section(self, real: Path, section: str) -> bool:
+        try:
+            text = decode(real.read_bytes())
+        except OSError:
+            return False
+        pattern = re.compile(r"^\s*\.lib\s+" + re.escape(section) + r"\s*$", re.I | re.M)
+        return bool(pattern.search(text))
+
+
+def _split_path_tokens(code: str) -> list[str]:
+    """Tokens of an include-like card; quoted paths keep their spaces."""
+    out = []
+    for m in re.finditer(r"'([^']*)'|\"([^\"]*)\"|(\S+)", code):
+        out.append(m.group(1) if m.group(1) is not None else
+                   m.group(2) if m.group(2) is not None else m.group(3))
+    return out
+
+
+def read(path: Path, opts: ReadOptions | None = None, *, data: bytes | None = None,
+         title: bool = True) -> ReadResult:
+    """Read a netlist file and its includes; with ``title`` its first line is the title."""
+    return _Reader(opts or ReadOptions()).read_top(path, data, title)
+
+
+def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None) -> ReadResult:
+    """Read netlist text held in memory (first line is the title)."""
+    opts = opts or ReadOptions()
+    reader = _Reader(opts)
+    reader.result.files.append(path)
+    reader._read_lines(text, path, Path(path), top_level=True, section=None)
+    return reader.result
+
+
+def iter_cards(result: ReadResult) -> Iterator[Card]:
+    return iter(result.cards)

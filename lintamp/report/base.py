@@ -1,0 +1,64 @@
+"""The interface every reporter implements: start, handle each finding, finish.
+
+The driver (the CLI) calls ``start()`` once, ``handle(finding)`` for each finding of
+``report.findings`` in order, then ``finish(report)``; :func:`emit` does exactly
+that.  Streaming formats write in ``handle``; document formats collect and write in
+``finish``.  Waived findings, the summary and baseline results come from the report.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import TextIO
+
+from lintamp.findings import Finding, Report
+from lintamp.registry import RuleInfo
+
+
+class Reporter:
+    """Base class: keeps the handled findings; subclasses render."""
+
+    def __init__(self, stream: TextIO, *, color: bool, rules: dict[str, RuleInfo],
+                 tool_version: str, statistics: bool = False):
+        self.stream = stream
+        self.color = color
+        self.rules = rules
+        self.tool_version = tool_version
+        self.statistics = statistics
+        self.findings: list[Finding] = []
+
+    def start(self) -> None:
+        """Called once before any finding."""
+
+    def handle(self, finding: Finding) -> None:
+        """Called for each reported finding, in report order."""
+        self.findings.append(finding)
+
+    def finish(self, report: Report) -> None:
+        """Called once at the end with the whole report."""
+
+
+def emit(reporter: Reporter, report: Report) -> None:
+    """Drive a reporter through a report."""
+    reporter.start()
+    for finding in report.findings:
+        reporter.handle(finding)
+    reporter.finish(report)
+
+
+def json_number(value):
+    """A value JSON can carry: non-finite floats become the strings "inf", "-inf", "nan"."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
+    return value
+
+
+def finding_data(finding: Finding) -> dict:
+    """``Finding.to_json`` with ``values`` sorted by key and made JSON-safe."""
+    data = finding.to_json()
+    data["values"] = {k: json_number(v) for k, v in sorted(data["values"].items())}
+    return data
+
+
+def plural(count: int, word: str) -> str:
+    return f"{count} {word}" + ("" if count == 1 else "s")

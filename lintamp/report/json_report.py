@@ -1,0 +1,33 @@
+"""JSON report, schema 1 of INTERFACE.md; identical input gives identical bytes."""
+
+from __future__ import annotations
+
+import json
+
+from lintamp.findings import Report, Waived
+from lintamp.report.base import Reporter, finding_data
+
+SCHEMA = 1
+
+
+def waived_data(waived: Waived) -> dict:
+    data = finding_data(waived.finding)
+    data["waiver"] = {"path": waived.waiver_location.path, "line": waived.waiver_location.line,
+                      "reason": waived.reason}
+    return data
+
+
+def report_document(report: Report, findings, tool_version: str) -> dict:
+    doc = {"tool": "lintamp", "version": tool_version, "schema": SCHEMA,
+           "findings": [finding_data(f) for f in findings],
+           "waived": [waived_data(w) for w in report.waived],
+           "summary": report.summary()}
+    if report.baseline_used:
+        doc["baseline_gone"] = [dict(sorted(e.items())) for e in report.baseline_gone]
+    return doc
+
+
+class JsonReporter(Reporter):
+    def finish(self, report: Report) -> None:
+        doc = report_document(report, self.findings, self.tool_version)
+        self.stream.write(json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n")

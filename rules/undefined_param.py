@@ -1,0 +1,70 @@
+"""An expression uses a parameter that no scope defines.
+
+What it finds
+    A name in a value or expression (``{rload*2}``, ``'wn/2'``, ``r=rval``) that is
+    neither a ``.param`` of the cell or an enclosing scope, a ``.subckt`` parameter,
+    nor a built-in constant.  A bare name used as a device size (``w=WA l=LA`` in an
+    unsized netlist) is reported once per cell as information: the sizes stay
+    symbolic and numbers that need them are not computed.
+
+Why it matters
+    A simulator refuses the deck, or (in some dialects) takes the name as zero.
+    lintamp keeps the value symbolic and cannot compute anything from it.
+
+Example
+    ::
+
+        .param rl=10k
+        R1 out 0 {rload}
+
+Fix
+    Define the parameter (``.param rload=10k``), pass it to the subcircuit, or
+    correct the spelling.
+"""
+
+from lintamp.circuit.values import BadExpression, undefined_names
+from lintamp.findings import Severity
+
+NAME = "undefined-param"
+CATEGORY = "syntax"
+SEVERITY = Severity.ERROR
+SUMMARY = "an expression uses a parameter that is not defined in scope"
+
+
+def check(ctx):
+    symbolic: dict[int, list] = {}
+    for use in undefined_names(ctx.netlist):
+        view = ctx.design.view_of(use.cell) if use.cell is not None else None
+        if isinstance(use, BadExpression):
+            element, key, error = use.element, use.key, use.error
+            yield ctx.finding(
+                location=use.location, subject=(element.key if element else key), view=view,
+                message=f"cannot read the expression of {key}"
+                        + (f" of {element.name}" if element else "") + f": {error}",
+                severity=Severity.ERROR,
+                explanation=["the value stays unknown, so nothing that depends on it is computed"],
+                elements=[element.key] if element else [])
+            continue
+        if use.symbolic_size:
+            symbolic.setdefault(id(view), [view]).append(use)
+            continue
+        where = f"{use.key} of {use.element.name}" if use.element else use.key
+        yield ctx.finding(
+            location=use.location, subject=use.name, view=view,
+            message=f"'{use.name}' in {where} is not a defined parameter",
+            elements=[use.element.key] if use.element else [],
+            explanation=[f"no .param, .subckt parameter or built-in constant named '{use.name}' "
+                         "is visible here", "the value stays symbolic; a simulator rejects the deck"],
+            fix=f"define it (.param {use.name}=...), pass it as a subcircuit parameter, "
+                "or correct the spelling")
+    for view, *uses in symbolic.values():
+        names = sorted({u.name for u in uses})
+        first = min(uses, key=lambda u: (u.location.line, u.location.column))
+        yield ctx.finding(
+            location=first.location, subject="symbolic sizes", view=view, severity=Severity.INFO,
+            message=f"device sizes are symbolic ({', '.join(names[:6])}"
+                    f"{', ...' if len(names) > 6 else ''}): {len(uses)} value(s) stay unsized",
+            explanation=["bare names used as W, L, M or NF with no definition: an unsized netlist",
+                         "checks that need sizes (operating point, impedances) skip these devices"],
+            fix="size the netlist, or define the names with .param", values={"count": len(uses)})
+

@@ -1,0 +1,55 @@
+"""A device that names a model that is not defined.
+
+What it finds
+    A diode, BJT, JFET, MOSFET, switch or line that names a ``.model`` no scope
+    defines (binned names such as ``nch.1`` count for ``nch``).  It is reported only
+    where the files read define some models, or include them: a cell library with
+    no models at all is meant to be combined with a PDK's model files, and every
+    model is then "unknown" by design.
+
+Why it matters
+    A simulator stops.  Without the model, lintamp cannot tell an NMOS from a PMOS
+    except by the model's name, and computes no operating point for the device.
+
+Example
+    ::
+
+        .model nch nmos level=1 vto=0.5 kp=200u
+        M1 d g 0 0 nhc W=2u L=1u
+
+Fix
+    Correct the name, or include the model library (``--include-path`` where it
+    lives outside the project).
+"""
+
+from lintamp.findings import Severity
+
+NAME = "unknown-model"
+CATEGORY = "references"
+SEVERITY = Severity.ERROR
+SUMMARY = "a device that names a model that is not defined"
+
+_NEEDS_MODEL = {"d", "q", "j", "z", "m", "s", "w", "o", "u"}
+
+
+def check(ctx):
+    netlist = ctx.netlist
+    defines_models = any(cell.models for cell in netlist.all_cells())
+    if not defines_models:
+        return
+    incomplete = ctx.options.get("includes_missing", False)
+    for view in ctx.cells():
+        for dev in view.devices:
+            el = dev.element
+            if el.letter not in _NEEDS_MODEL or not el.model or dev.model is not None:
+                continue
+            polarity = f"; its type is guessed as {dev.kind} from the name" if dev.polarity_from == "name" else ""
+            yield ctx.finding(
+                location=el.location, subject=dev.name, view=view, elements=[dev.name],
+                severity=Severity.WARNING if incomplete else None,
+                message=f"{el.name} names model '{el.model}', which no .model defines",
+                explanation=[f"no .model {el.model} in this cell, its enclosing cells or the top level"
+                             + (" (some include files were not found, and it may be defined there)"
+                                if incomplete else "") + polarity,
+                             "no operating point is computed for this device"],
+                fix="correct the model name or include the model library")

@@ -1,0 +1,53 @@
+"""Shared helpers for the policy and report tests: hand-built findings in scenarios of our own."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import pytest
+
+REPO = Path(__file__).resolve().parent.parent
+if str(REPO) not in sys.path:
+    sys.path.insert(0, str(REPO))
+
+from lintamp.findings import Finding, Related, Severity  # noqa: E402
+from lintamp.location import Location  # noqa: E402
+from lintamp.netlist.statements import Pragma  # noqa: E402
+
+# Rule names the tests may use, with categories (the catalog a caller passes in).
+KNOWN = {
+    "parse-error": "syntax", "dangling-net": "connectivity", "unbiased-gate": "connectivity",
+    "no-dc-path": "connectivity", "unbuffered-output": "impedance", "unused-port": "references",
+    "unused-waiver": "waivers", "waiver-without-reason": "waivers",
+}
+
+
+def make_finding(rule="dangling-net", path="blocks/amp.sp", line=10, column=1, subject="n1",
+                 cell="", severity=Severity.WARNING, **extra) -> Finding:
+    return Finding(rule=rule, severity=severity, location=Location(path, line, column),
+                   subject=subject, message=extra.pop("message", f"{rule} on {subject}"),
+                   cell=cell, **extra)
+
+
+def make_waiver(rule, subject=None, *, path="blocks/amp.sp", line=5, reason="on purpose",
+                cell="", element=None, element_nets=(), inline=False) -> Pragma:
+    args = (rule,) + ((subject,) if subject else ())
+    return Pragma(verb="waive", args=args, reason=reason, location=Location(path, line, 1),
+                  inline=inline, cell=cell, element=element, element_nets=tuple(element_nets))
+
+
+@pytest.fixture
+def rich_finding() -> Finding:
+    """A finding with every field filled (a scenario of our own)."""
+    return Finding(
+        rule="unbiased-gate", severity=Severity.ERROR, location=Location("blocks/bias.sp", 12, 3),
+        subject="nb", message="gate net nb has no DC bias path", cell="biasgen",
+        instances=("x1", "x2"), nets=("nb",), elements=("m0", "m1"),
+        explanation=("nb connects only to gates of m0, m1", "and to c1, open at DC",
+                     "so its DC level is set by leakage: 100% undefined, a,b: c"),
+        fix="add a bias resistor from nb to a defined level",
+        values={"z_ohm": 1.0e12, "limit_ohm": 8.0e3, "region": "cutoff", "open": float("inf")},
+        related=(Related(Location("blocks/bias.sp", 13, 1), "gate of m1"),
+                 Related(Location("blocks/bias.sp", 14, 1), "c1 to ground")),
+    )
