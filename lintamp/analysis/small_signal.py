@@ -42,6 +42,8 @@ class ImpedanceSolver:
     freq_hz : analysis frequency (0 = DC small signal).
     detach : element names removed before solving.
     grounded : net names held at AC ground (used for Thevenin impedances).
+    driven : a net held at 1 V by an ideal source instead of fed by a current;
+        :meth:`gain_to` then reads voltage gains from it.
 
     Notes
     -----
@@ -56,6 +58,7 @@ class ImpedanceSolver:
         freq_hz: float = 0.0,
         detach=(),
         grounded=(),
+        driven: str | None = None,
     ):
         self.circuit = circuit
         self.freq_hz = float(freq_hz)
@@ -81,6 +84,16 @@ class ImpedanceSolver:
         self.notes: list[str] = []
         omega = 2 * math.pi * self.freq_hz
         rows, cols, vals, owner = self._triplets(omega)
+        self._driven = -1
+        if driven is not None:
+            k = self.unknown(driven)
+            if k >= 0:
+                keep = rows != k
+                rows = np.concatenate([rows[keep], [k]])
+                cols = np.concatenate([cols[keep], [k]])
+                vals = np.concatenate([vals[keep], [1.0 + 0j]])
+                owner = np.concatenate([owner[keep], [-1]])
+                self._driven = k
         self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
         matrix = sp.csc_matrix((vals, (rows, cols)), shape=(cc.size, cc.size), dtype=complex)
         try:
@@ -103,7 +116,7 @@ class ImpedanceSolver:
                 f"the small-signal matrix is singular (no AC path at {where}); a {OPEN_SHUNT_S:g} S shunt "
                 "was added to every node, so an impedance near 1e12 ohm means open"
             )
-        self._cache: dict[int, np.ndarray] = {}
+        self._cache: dict = {}
 
     def _triplets(self, omega: float):
         cc = self.compiled
@@ -188,6 +201,16 @@ class ImpedanceSolver:
             sol = self._lu.solve(rhs)
             out[sel] = sol[idx[sel], np.arange(len(sel))]
         return out
+
+    def gain_to(self, node: str) -> complex:
+        """Voltage at ``node`` per volt on the ``driven`` net (needs ``driven``)."""
+        if self._driven < 0:
+            return 0j
+        if "driven" not in self._cache:
+            rhs = np.zeros(self.compiled.size, dtype=complex)
+            rhs[self._driven] = 1.0
+            self._cache["driven"] = self._lu.solve(rhs)
+        return self.voltage(self._cache["driven"], node)
 
     def transfer(self, from_node: str, to_node: str) -> complex:
         """V(to_node) per 1 A injected at ``from_node`` (ohm); a transimpedance."""
