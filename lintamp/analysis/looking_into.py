@@ -55,8 +55,11 @@ class NodeExplanation:
     notes: list[str]
 
 
-def ac_ground_nets(circuit: FlatCircuit, detach=()) -> set[int]:
+def ac_ground_nets(circuit: FlatCircuit, detach=(), signal_sources_ground: bool = True) -> set[int]:
     """Nets at AC ground: ground and nets tied to it through independent voltage sources.
+
+    With ``signal_sources_ground=False`` a source carrying an AC value or a
+    waveform counts as a signal input, not as AC ground (for naming stages).
 
     Notes
     -----
@@ -65,7 +68,8 @@ def ac_ground_nets(circuit: FlatCircuit, detach=()) -> set[int]:
     detached = set(detach)
     adj: dict[int, list[int]] = {}
     for dev in circuit.devices:
-        if dev.kind == "vsource" and dev.name not in detached:
+        signal = dev.source is not None and (dev.source.ac_mag != 0 or dev.source.time_varying)
+        if dev.kind == "vsource" and dev.name not in detached and (signal_sources_ground or not signal):
             a, b = dev.nodes[0], dev.nodes[1]
             adj.setdefault(a, []).append(b)
             adj.setdefault(b, []).append(a)
