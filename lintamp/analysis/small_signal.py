@@ -25,6 +25,9 @@ from lintamp.circuit.flat import FlatCircuit
 
 OPEN_SHUNT_S = 1e-12  # added per node only when Y is singular (a node with no AC path)
 NONLINEAR = ("nmos", "pmos", "npn", "pnp", "diode")
+# minimum degree on A^T + A suits MNA matrices (structurally near-symmetric):
+# less fill than COLAMD on netlist-like circuits
+PERMC_SPEC = "COLAMD"
 
 
 class SmallSignalError(RuntimeError):
@@ -97,7 +100,7 @@ class ImpedanceSolver:
         self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
         matrix = sp.csc_matrix((vals, (rows, cols)), shape=(cc.size, cc.size), dtype=complex)
         try:
-            self._lu = splu(matrix)
+            self._lu = splu(matrix, permc_spec=PERMC_SPEC)
         except RuntimeError:
             groups = floating_groups(cc)
             shunt = sp.csc_matrix(
@@ -105,7 +108,7 @@ class ImpedanceSolver:
                 shape=(cc.size, cc.size),
             )
             try:
-                self._lu = splu(matrix + shunt)
+                self._lu = splu(matrix + shunt, permc_spec=PERMC_SPEC)
             except RuntimeError as exc:
                 raise SmallSignalError(
                     "singular small-signal matrix even with a shunt on every node "
@@ -183,7 +186,7 @@ class ImpedanceSolver:
         """Driving-point impedance of ``node`` in ohm (V per 1 A injected)."""
         return self.voltage(self.solve_injection(node), node)
 
-    def z_many(self, nodes, block: int = 64) -> np.ndarray:
+    def z_many(self, nodes, block: int = 8) -> np.ndarray:
         """Driving-point impedances of many nodes; blocks of right-hand sides share the LU.
 
         Notes
