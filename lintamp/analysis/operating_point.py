@@ -1,0 +1,491 @@
+"""DC operating point: Newton-Raphson on the sparse MNA system.
+
+Capacitors are open, inductors short, independent sources at their DC values.
+Convergence aids, tried in order: plain Newton with SPICE-style step limiting of
+junction and gate voltages; GMIN stepping (a shunt conductance on every node,
+reduced to zero); source stepping (all independent sources ramped from zero).
+Iterations are capped everywhere, so a netlist can never hang the solve.
+
+A circuit with devices lintamp cannot evaluate raises :class:`CannotEvaluateError`
+listing them; a singular matrix or a failed convergence raises
+:class:`OperatingPointError` with the nodes involved.  No numbers are returned in
+either case.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.linalg import splu
+
+from lintamp.analysis.devices_bjt import (
+    BjtGroup,
+    bjt_capacitances,
+    bjt_controls,
+    bjt_evaluate,
+    bjt_limit,
+    bjt_params,
+)
+from lintamp.analysis.devices_diode import (
+    DiodeGroup,
+    diode_capacitance,
+    diode_evaluate,
+    diode_limit,
+    diode_params,
+)
+from lintamp.analysis.devices_mos import (
+    MosGroup,
+    UnsupportedModel,
+    junction_capacitances,
+    meyer_capacitances,
+    mos_controls,
+    mos_evaluate,
+    mos_limit,
+    mos_params,
+)
+from lintamp.analysis.mna import CompiledCircuit, compile_circuit, floating_groups
+from lintamp.circuit.flat import FlatCircuit
+
+
+class OperatingPointError(RuntimeError):
+    """No DC operating point: singular system or no convergence (message says where)."""
+
+
+class CannotEvaluateError(OperatingPointError):
+    """The circuit holds devices or models lintamp does not simulate."""
+
+    def __init__(self, devices: list[tuple[str, str]]):
+        self.devices = devices
+        listing = ", ".join(f"{n} ({why})" for n, why in devices)
+        super().__init__(f"cannot evaluate the operating point: {listing}")
+
+
+@dataclass
+class DeviceOperatingPoint:
+    """One nonlinear device at the operating point.
+
+    ``terminals`` are node keys of the intrinsic device (net index or an internal
+    node name); ``jacobian_s[t, u]`` is d I(into t) / d V(u), the small-signal
+    conductance stamp; ``capacitances_f`` are (t, u, farad) two-terminal caps.
+    """
+
+    name: str
+    kind: str
+    region: str
+    values: dict[str, float]
+    terminals: tuple
+    jacobian_s: np.ndarray
+    capacitances_f: list[tuple[int, int, float]] = field(default_factory=list)
+
+
+@dataclass
+class OperatingPoint:
+    node_voltages_v: dict[str, float]
+    branch_currents_a: dict[str, float]
+    devices: dict[str, DeviceOperatingPoint]
+    method: str
+    iterations: int
+    source: str = "level1"
+    series_resistances: dict[str, dict[str, float]] = field(default_factory=dict)
+    notes: list[str] = field(default_factory=list)
+
+    def v(self, net: str) -> float:
+        return 0.0 if net in ("0", "gnd") else self.node_voltages_v[net.lower()]
+
+
+@dataclass
+class SolveOptions:
+    reltol: float = 1e-6
+    vntol_v: float = 1e-9
+    abstol_a: float = 1e-14
+    max_iterations: int = 100  # per Newton run (ngspice itl1)
+    max_total_iterations: int = 5000
+    gmin_start_s: float = 1e-2
+    source_steps_min: float = 1e-4
+
+
+class _DeviceSet:
+    """The nonlinear devices of a compiled circuit, grouped by model family."""
+
+    def __init__(self, cc: CompiledCircuit, temp_c: float):
+        self.cc = cc
+        self.groups = []  # (family, group, devices, keys)
+        unsupported = list(cc.unsupported)
+        fam: dict[str, list] = {"mos": [], "bjt": [], "diode": []}
+        for dev, keys in cc.nonlinear:
+            try:
+                if dev.kind in ("nmos", "pmos"):
+                    fam["mos"].append((mos_params(dev, temp_c), dev, keys))
+                elif dev.kind in ("npn", "pnp"):
+                    fam["bjt"].append((bjt_params(dev, temp_c), dev, keys))
+                else:
+                    fam["diode"].append((diode_params(dev, temp_c), dev, keys))
+            except UnsupportedModel as exc:
+                unsupported.append((dev.name, str(exc)))
+            if dev.model is None and dev.kind in ("nmos", "pmos", "npn", "pnp", "diode"):
+                pass  # SPICE defaults apply, as in ngspice
+        if unsupported:
+            raise CannotEvaluateError(unsupported)
+        cls = {"mos": MosGroup, "bjt": BjtGroup, "diode": DiodeGroup}
+        for family, items in fam.items():
+            if not items:
+                continue
+            group = cls[family]([i[0] for i in items])
+            term_idx = np.array([[cc.index_of(k) for k in i[2]] for i in items], dtype=np.int64)
+            self.groups.append((family, group, [i[1] for i in items], [i[2] for i in items], term_idx))
+        self._pattern()
+
+    def _pattern(self):
+        rows, cols = [], []
+        for _f, _g, _d, _k, term in self.groups:
+            k = term.shape[1]
+            rows.append(np.repeat(term, k, axis=1).ravel())
+            cols.append(np.tile(term, (1, k)).ravel())
+        self.rows = np.concatenate(rows) if rows else np.zeros(0, np.int64)
+        self.cols = np.concatenate(cols) if cols else np.zeros(0, np.int64)
+        self.keep = (self.rows >= 0) & (self.cols >= 0)
+
+    def initial_state(self):
+        state = []
+        for family, g, _d, _k, _t in self.groups:
+            n = len(g)
+            if family == "mos":
+                state.append((g.vto_v.copy(), np.zeros(n), -np.ones(n)))
+            elif family == "bjt":
+                state.append((g.vcrit_v.copy(), np.zeros(n)))
+            else:
+                state.append(g.vcrit_v.copy())
+        return state
+
+    @staticmethod
+    def _term_voltages(x, term):
+        xv = np.concatenate([x, [0.0]])
+        return xv[np.where(term >= 0, term, len(x))]
+
+    def raw_controls(self, x):
+        out = []
+        for family, g, _d, _k, term in self.groups:
+            v = self._term_voltages(x, term)
+            if family == "mos":
+                out.append(mos_controls(g, v[:, 0], v[:, 1], v[:, 2], v[:, 3]))
+            elif family == "bjt":
+                out.append(bjt_controls(g, v[:, 0], v[:, 1], v[:, 2]))
+            else:
+                out.append(v[:, 0] - v[:, 1])
+        return out
+
+    def limit(self, new, old):
+        out, any_lim = [], False
+        for (family, g, *_), n, o in zip(self.groups, new, old):
+            if family == "mos":
+                lim, flags = mos_limit(g, n, o)
+            elif family == "bjt":
+                lim, flags = bjt_limit(g, n, o)
+            else:
+                lim, flags = diode_limit(g, n, o)
+            out.append(lim)
+            any_lim = any_lim or bool(np.any(flags))
+        return out, any_lim
+
+    def evaluate(self, state):
+        evs = []
+        for (family, g, *_), st in zip(self.groups, state):
+            if family == "mos":
+                evs.append(mos_evaluate(g, *st))
+            elif family == "bjt":
+                evs.append(bjt_evaluate(g, *st))
+            else:
+                evs.append(diode_evaluate(g, st))
+        return evs
+
+    def linearised(self, state, evs, size):
+        """Jacobian values (for the fixed pattern) and the right-hand side."""
+        vals, rhs = [], np.zeros(size + 1)
+        for (family, g, _d, _k, term), st, ev in zip(self.groups, state, evs):
+            if family == "mos":
+                vgs, vds, vbs = st
+                s = g.sign
+                vrel = np.stack([s * vds, s * vgs, np.zeros_like(vds), s * vbs], axis=1)
+            elif family == "bjt":
+                vbe, vbc = st
+                s = g.sign
+                vrel = np.stack([s * (vbe - vbc), s * vbe, np.zeros_like(vbe)], axis=1)
+            else:
+                vrel = np.stack([st, np.zeros_like(st)], axis=1)
+            jac = ev.jacobian_s
+            ceq = ev.current_a - np.einsum("ktu,ku->kt", jac, vrel)
+            np.add.at(rhs, np.where(term >= 0, term, size), -ceq)
+            vals.append(jac.ravel())
+        v = np.concatenate(vals) if vals else np.zeros(0)
+        return v, rhs[:size]
+
+
+def _assemble(cc: CompiledCircuit, devs: _DeviceSet, dev_vals, gshunt):
+    g_r, g_c, g_v, _ = cc.conductance.arrays()
+    rows = [g_r, devs.rows[devs.keep]]
+    cols = [g_c, devs.cols[devs.keep]]
+    vals = [g_v, dev_vals[devs.keep]]
+    if gshunt:
+        diag = np.arange(cc.n_nodes)
+        rows.append(diag)
+        cols.append(diag)
+        vals.append(np.full(cc.n_nodes, gshunt))
+    return sp.csc_matrix(
+        (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=(cc.size, cc.size)
+    )
+
+
+def describe_singular(cc: CompiledCircuit, matrix=None) -> str:
+    """A message naming the nodes or branches that make the MNA matrix singular."""
+    groups = floating_groups(cc)
+    if groups:
+        shown = "; ".join(", ".join(g[:8]) + (" ..." if len(g) > 8 else "") for g in groups[:5])
+        return f"singular matrix: no DC path to ground from node(s) {shown}"
+    if matrix is not None and cc.size <= 3000:
+        dense = matrix.toarray()
+        _u, s, vt = np.linalg.svd(dense)
+        null = np.abs(vt[-1])
+        involved = [cc.unknown_names[i] for i in np.argsort(-null)[:6] if null[i] > 0.1 * null.max()]
+        return "singular matrix: check " + ", ".join(involved) + " (a loop of voltage sources/inductors, or a cut set of current sources)"
+    return "singular matrix (a loop of voltage sources/inductors, or a cut set of current sources)"
+
+
+def _factor(cc, matrix):
+    try:
+        return splu(matrix)
+    except RuntimeError as exc:
+        raise OperatingPointError(describe_singular(cc, matrix)) from exc
+
+
+class _Budget:
+    def __init__(self, total):
+        self.left = total
+        self.used = 0
+
+
+def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state):
+    """One Newton run; returns (x, state, iterations) or None when it does not converge."""
+    x = x0.copy()
+    state = state0
+    rhs_src = cc.rhs_sources * scale
+    is_node = np.arange(cc.size) < cc.n_nodes
+    for it in range(opts.max_iterations):
+        if budget.left <= 0:
+            return None
+        budget.left -= 1
+        budget.used += 1
+        if it == 0 and first_from_state:
+            limited, any_lim = state, True
+        else:
+            limited, any_lim = devs.limit(devs.raw_controls(x), state)
+        evs = devs.evaluate(limited)
+        vals, rhs_dev = devs.linearised(limited, evs, cc.size)
+        matrix = _assemble(cc, devs, vals, gshunt)
+        lu = _factor(cc, matrix)
+        x_new = lu.solve(rhs_src + rhs_dev)
+        if not np.all(np.isfinite(x_new)):
+            return None
+        tol = opts.reltol * np.maximum(np.abs(x_new), np.abs(x)) + np.where(is_node, opts.vntol_v, opts.abstol_a)
+        small = np.all(np.abs(x_new - x) <= tol)
+        x, state = x_new, limited
+        if small and not any_lim and it > 0:
+            return x, state, it + 1
+    return None
+
+
+def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = None) -> OperatingPoint:
+    """Solve the DC operating point of ``circuit``.
+
+    Returns
+    -------
+    OperatingPoint
+        Node voltages by net name, branch currents of voltage-defined elements,
+        and every nonlinear device's small-signal values and region.
+
+    Raises
+    ------
+    CannotEvaluateError
+        Devices of kind ``other`` or models outside level-1 MOS / Gummel-Poon / diode.
+    OperatingPointError
+        Singular matrix (message names the nodes) or no convergence.
+
+    Notes
+    -----
+    Each Newton step is one sparse LU (SuperLU) of the MNA matrix: roughly linear in
+    circuit size for netlist-like sparsity; iterations are capped by ``options``.
+    """
+    opts = options or SolveOptions()
+    series = _series_resistances(circuit)
+    cc = compile_circuit(circuit, series_resistances=series)
+    if cc.unsupported:
+        raise CannotEvaluateError(cc.unsupported)
+    devs = _DeviceSet(cc, circuit.temperature_c)
+    budget = _Budget(opts.max_total_iterations)
+    x0 = np.zeros(cc.size)
+    state0 = devs.initial_state()
+    result = _newton(cc, devs, x0, state0, 1.0, 0.0, opts, budget, True)
+    method = "newton"
+    if result is None:
+        result = _gmin_stepping(cc, devs, state0, opts, budget)
+        method = "gmin stepping"
+    if result is None:
+        result = _source_stepping(cc, devs, state0, opts, budget)
+        method = "source stepping"
+    if result is None:
+        raise OperatingPointError(
+            f"no DC convergence after {budget.used} Newton iterations "
+            "(plain Newton, GMIN stepping and source stepping all failed); "
+            "look for positive feedback without a stable point, or nodes held only by devices that are off"
+        )
+    x, state, _ = result
+    return _build_result(cc, devs, x, method, budget.used, series)
+
+
+def _gmin_stepping(cc, devs, state0, opts, budget):
+    x = np.zeros(cc.size)
+    state = state0
+    gshunt = opts.gmin_start_s
+    first = True
+    while True:
+        res = _newton(cc, devs, x, state, 1.0, gshunt, opts, budget, first)
+        if res is None:
+            return None
+        x, state, _ = res
+        first = False
+        if gshunt == 0.0:
+            return res
+        gshunt = gshunt / 10 if gshunt > 1e-13 else 0.0
+
+
+def _source_stepping(cc, devs, state0, opts, budget):
+    x = np.zeros(cc.size)
+    state = state0
+    res = _newton(cc, devs, x, state, 0.0, 0.0, opts, budget, True)
+    if res is None:
+        return None
+    x, state, _ = res
+    scale, step = 0.0, 0.1
+    while scale < 1.0:
+        trial = min(1.0, scale + step)
+        res = _newton(cc, devs, x, state, trial, 0.0, opts, budget, False)
+        if res is None:
+            step /= 4
+            if step < opts.source_steps_min or budget.left <= 0:
+                return None
+            continue
+        x, state, _ = res
+        scale = trial
+        step = min(step * 2, 0.5)
+    return res
+
+
+def _series_resistances(circuit: FlatCircuit) -> dict[str, dict[str, float]]:
+    out: dict[str, dict[str, float]] = {}
+    for dev in circuit.devices:
+        try:
+            if dev.kind in ("npn", "pnp"):
+                q = bjt_params(dev, circuit.temperature_c)
+                rs = {"c": q.rc_ohm, "b": q.rb_ohm, "e": q.re_ohm}
+            elif dev.kind == "diode":
+                rs = {"a": diode_params(dev, circuit.temperature_c).rs_ohm}
+            else:
+                continue
+        except UnsupportedModel:
+            continue
+        rs = {k: v for k, v in rs.items() if v > 0}
+        if rs:
+            out[dev.name] = rs
+    return out
+
+
+def _build_result(cc, devs, x, method, iterations, series) -> OperatingPoint:
+    circuit = cc.circuit
+    node_v = {}
+    for net, name in enumerate(circuit.nets):
+        if net == 0:
+            continue
+        node_v[name] = float(x[cc.node_index[net]])
+    branch_i = {name: float(x[i]) for name, i in cc.branch_index.items()}
+    # evaluate exactly at the solution (no limiting) for small-signal values
+    exact = devs.raw_controls(x)
+    evs = devs.evaluate(exact)
+    devices: dict[str, DeviceOperatingPoint] = {}
+    for (family, g, dev_list, key_list, _t), st, ev in zip(devs.groups, exact, evs):
+        if family == "mos":
+            cgs, cgd, cgb = meyer_capacitances(g, ev)
+            cbd, cbs = junction_capacitances(g, ev)
+        elif family == "bjt":
+            cbe, cbc = bjt_capacitances(g, ev)
+        else:
+            cd = diode_capacitance(g, ev)
+        for k, (dev, keys) in enumerate(zip(dev_list, key_list)):
+            jac = ev.jacobian_s[k].copy()
+            if family == "mos":
+                gm, gds, gmb = ev.gm_s[k], ev.gds_s[k], ev.gmb_s[k]
+                values = {
+                    "ids_a": float(ev.ids_a[k]),
+                    "gm_s": float(gm),
+                    "gds_s": float(gds),
+                    "gmb_s": float(gmb),
+                    "ro_ohm": float(1 / gds) if gds > 0 else float("inf"),
+                    "vth_v": float(ev.vth_v[k]),
+                    "vdsat_v": float(ev.vdsat_v[k]),
+                    "vgs_v": float(g.sign[k] * ev.vgs_v[k]),
+                    "vds_v": float(g.sign[k] * ev.vds_v[k]),
+                    "vbs_v": float(g.sign[k] * ev.vbs_v[k]),
+                    "gbd_s": float(ev.gbd_s[k]),
+                    "gbs_s": float(ev.gbs_s[k]),
+                    "mode": float(ev.mode[k]),
+                    "cgs_f": float(cgs[k]),
+                    "cgd_f": float(cgd[k]),
+                    "cgb_f": float(cgb[k]),
+                    "cbd_f": float(cbd[k]),
+                    "cbs_f": float(cbs[k]),
+                }
+                caps = [(1, 2, cgs[k]), (1, 0, cgd[k]), (1, 3, cgb[k]), (3, 0, cbd[k]), (3, 2, cbs[k])]
+            elif family == "bjt":
+                gm, gpi, go = ev.gm_s[k], ev.gpi_s[k], ev.go_s[k]
+                values = {
+                    "ic_a": float(ev.ic_a[k]),
+                    "ib_a": float(ev.ib_a[k]),
+                    "gm_s": float(gm),
+                    "gpi_s": float(gpi),
+                    "gmu_s": float(ev.gmu_s[k]),
+                    "go_s": float(go),
+                    "rpi_ohm": float(1 / gpi) if gpi > 0 else float("inf"),
+                    "ro_ohm": float(1 / go) if go > 0 else float("inf"),
+                    "beta_ac": float(gm / gpi) if gpi > 0 else float("inf"),
+                    "vbe_v": float(g.sign[k] * ev.vbe_v[k]),
+                    "vce_v": float(g.sign[k] * (ev.vbe_v[k] - ev.vbc_v[k])),
+                    "cbe_f": float(cbe[k]),
+                    "cbc_f": float(cbc[k]),
+                }
+                caps = [(1, 2, cbe[k]), (1, 0, cbc[k])]
+            else:
+                values = {
+                    "id_a": float(ev.id_a[k]),
+                    "gd_s": float(ev.gd_s[k]),
+                    "rd_ohm": float(1 / ev.gd_s[k]),
+                    "vd_v": float(ev.vd_v[k]),
+                    "cd_f": float(cd[k]),
+                }
+                caps = [(0, 1, cd[k])]
+            devices[dev.name] = DeviceOperatingPoint(
+                name=dev.name,
+                kind=dev.kind,
+                region=ev.region[k],
+                values=values,
+                terminals=keys,
+                jacobian_s=jac,
+                capacitances_f=[(a, b, float(c)) for a, b, c in caps if c > 0],
+            )
+    return OperatingPoint(
+        node_voltages_v=node_v,
+        branch_currents_a=branch_i,
+        devices=devices,
+        method=method,
+        iterations=iterations,
+        series_resistances=series,
+    )

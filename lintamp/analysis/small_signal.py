@@ -1,0 +1,245 @@
+"""Small-signal (AC) solve: complex admittance matrix at the operating point.
+
+``Y(f) = G + j*2*pi*f*C`` where G holds the linear conductances, controlled
+sources and every nonlinear device's conductance stamp at the operating point,
+and C the capacitors, the inductors (``-L`` on their branch row) and the device
+capacitances the models define (MOS Meyer caps when TOX is given, overlap caps,
+bulk junction caps; BJT CJE/CJC/TF/TR; diode CJO/TT).  Independent sources are
+zeroed: a voltage source becomes a short, a current source an open.
+
+One sparse LU factorisation of Y serves any number of nodes:
+``ImpedanceSolver(circuit, op, freq_hz).z(node)``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.linalg import splu
+
+from lintamp.analysis.mna import CompiledCircuit, compile_circuit, floating_groups
+from lintamp.analysis.operating_point import OperatingPoint, solve_operating_point
+from lintamp.circuit.flat import FlatCircuit
+
+OPEN_SHUNT_S = 1e-12  # added per node only when Y is singular (a node with no AC path)
+NONLINEAR = ("nmos", "pmos", "npn", "pnp", "diode")
+# minimum degree on A^T + A suits MNA matrices (structurally near-symmetric):
+# less fill than COLAMD on netlist-like circuits
+PERMC_SPEC = "COLAMD"
+
+
+class SmallSignalError(RuntimeError):
+    """The small-signal system cannot be set up (message says why)."""
+
+
+class ImpedanceSolver:
+    """Driving-point and transfer impedances of one circuit at one frequency.
+
+    Parameters
+    ----------
+    circuit : the flat circuit.
+    op : operating point (level-1 solve or an op table); solved here when None
+        and the circuit has nonlinear devices.
+    freq_hz : analysis frequency (0 = DC small signal).
+    detach : element names removed before solving.
+    grounded : net names held at AC ground (used for Thevenin impedances).
+    driven : a net held at 1 V by an ideal source instead of fed by a current;
+        :meth:`gain_to` then reads voltage gains from it.
+
+    Notes
+    -----
+    Building Y is O(elements); the factorisation is one SuperLU call; each
+    :meth:`z` is one forward/back substitution, O(nnz(L+U)).
+    """
+
+    def __init__(
+        self,
+        circuit: FlatCircuit,
+        op: OperatingPoint | None = None,
+        freq_hz: float = 0.0,
+        detach=(),
+        grounded=(),
+        driven: str | None = None,
+    ):
+        self.circuit = circuit
+        self.freq_hz = float(freq_hz)
+        self.detach = tuple(d.lower() for d in detach)
+        if op is None and any(d.kind in NONLINEAR for d in circuit.devices):
+            op = solve_operating_point(circuit)
+        self.op = op
+        grounded_nets = []
+        for name in grounded:
+            idx = circuit.find_net(name)
+            if idx is None:
+                raise SmallSignalError(f"no net named {name!r}")
+            grounded_nets.append(idx)
+        series = op.series_resistances if op is not None else {}
+        self.compiled: CompiledCircuit = compile_circuit(
+            circuit, detach=self.detach, grounded=grounded_nets, series_resistances=series
+        )
+        cc = self.compiled
+        if cc.unsupported:
+            missing = [n for n, _ in cc.unsupported]
+            raise SmallSignalError("cannot build the small-signal model: " + ", ".join(
+                f"{n} ({why})" for n, why in cc.unsupported) if missing else "")
+        self.notes: list[str] = []
+        omega = 2 * math.pi * self.freq_hz
+        rows, cols, vals, owner = self._triplets(omega)
+        self._driven = -1
+        if driven is not None:
+            k = self.unknown(driven)
+            if k >= 0:
+                keep = rows != k
+                rows = np.concatenate([rows[keep], [k]])
+                cols = np.concatenate([cols[keep], [k]])
+                vals = np.concatenate([vals[keep], [1.0 + 0j]])
+                owner = np.concatenate([owner[keep], [-1]])
+                self._driven = k
+        self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
+        matrix = sp.csc_matrix((vals, (rows, cols)), shape=(cc.size, cc.size), dtype=complex)
+        try:
+            self._lu = splu(matrix, permc_spec=PERMC_SPEC)
+        except RuntimeError:
+            groups = floating_groups(cc)
+            shunt = sp.csc_matrix(
+                (np.full(cc.n_nodes, OPEN_SHUNT_S, dtype=complex), (np.arange(cc.n_nodes), np.arange(cc.n_nodes))),
+                shape=(cc.size, cc.size),
+            )
+            try:
+                self._lu = splu(matrix + shunt, permc_spec=PERMC_SPEC)
+            except RuntimeError as exc:
+                raise SmallSignalError(
+                    "singular small-signal matrix even with a shunt on every node "
+                    "(a loop of voltage sources/inductors?)"
+                ) from exc
+            where = "; ".join(", ".join(g[:6]) for g in groups[:4]) or "some node"
+            self.notes.append(
+                f"the small-signal matrix is singular (no AC path at {where}); a {OPEN_SHUNT_S:g} S shunt "
+                "was added to every node, so an impedance near 1e12 ohm means open"
+            )
+        self._cache: dict = {}
+
+    def _triplets(self, omega: float):
+        cc = self.compiled
+        g_r, g_c, g_v, g_o = cc.conductance.arrays()
+        c_r, c_c, c_v, c_o = cc.capacitance.arrays()
+        rows = [g_r, c_r]
+        cols = [g_c, c_c]
+        vals = [g_v.astype(complex), 1j * omega * c_v]
+        owners = [g_o, c_o]
+        if self.op is not None:
+            names = {d.name for d in self.circuit.devices if d.kind in NONLINEAR} - set(self.detach)
+            self._device_owner = {}
+            for name in sorted(names):
+                dop = self.op.devices.get(name)
+                if dop is None:
+                    raise SmallSignalError(f"no operating point for {name}")
+                owner = len(cc.element_names) + len(self._device_owner)
+                self._device_owner[name] = owner
+                idx = np.array([cc.index_of(k) for k in dop.terminals])
+                k = len(idx)
+                r = np.repeat(idx, k)
+                c = np.tile(idx, k)
+                v = dop.jacobian_s.ravel().astype(complex)
+                caps = [(a, b, cf) for a, b, cf in dop.capacitances_f]
+                for a, b, cf in caps:
+                    y = 1j * omega * cf
+                    ia, ib = idx[a], idx[b]
+                    r = np.concatenate([r, [ia, ib, ia, ib]])
+                    c = np.concatenate([c, [ia, ib, ib, ia]])
+                    v = np.concatenate([v, [y, y, -y, -y]])
+                keep = (r >= 0) & (c >= 0) & (v != 0)
+                rows.append(r[keep])
+                cols.append(c[keep])
+                vals.append(v[keep])
+                owners.append(np.full(int(keep.sum()), owner))
+        else:
+            self._device_owner = {}
+        return (np.concatenate(rows), np.concatenate(cols), np.concatenate(vals), np.concatenate(owners))
+
+    # -- lookups -----------------------------------------------------------
+    def unknown(self, node: str) -> int:
+        """Unknown index of a net (-1 for ground or a grounded net)."""
+        net = self.circuit.find_net(node)
+        if net is None:
+            raise SmallSignalError(f"no net named {node!r}")
+        return self.compiled.index_of(net)
+
+    def solve_injection(self, node: str) -> np.ndarray:
+        """Solution vector for 1 A injected into ``node`` (zeros if it is AC ground)."""
+        k = self.unknown(node)
+        if k < 0:
+            return np.zeros(self.compiled.size, dtype=complex)
+        if k not in self._cache:
+            rhs = np.zeros(self.compiled.size, dtype=complex)
+            rhs[k] = 1.0
+            self._cache[k] = self._lu.solve(rhs)
+        return self._cache[k]
+
+    def voltage(self, solution: np.ndarray, node: str) -> complex:
+        k = self.unknown(node)
+        return complex(solution[k]) if k >= 0 else 0j
+
+    def z(self, node: str) -> complex:
+        """Driving-point impedance of ``node`` in ohm (V per 1 A injected)."""
+        return self.voltage(self.solve_injection(node), node)
+
+    def z_many(self, nodes, block: int = 8) -> np.ndarray:
+        """Driving-point impedances of many nodes; blocks of right-hand sides share the LU.
+
+        Notes
+        -----
+        O(len(nodes) * nnz(L+U)); memory O(block * unknowns).
+        """
+        idx = np.array([self.unknown(n) for n in nodes])
+        out = np.zeros(len(idx), dtype=complex)
+        size = self.compiled.size
+        live = np.flatnonzero(idx >= 0)
+        for start in range(0, len(live), block):
+            sel = live[start : start + block]
+            rhs = np.zeros((size, len(sel)), dtype=complex)
+            rhs[idx[sel], np.arange(len(sel))] = 1.0
+            sol = self._lu.solve(rhs)
+            out[sel] = sol[idx[sel], np.arange(len(sel))]
+        return out
+
+    def gain_to(self, node: str) -> complex:
+        """Voltage at ``node`` per volt on the ``driven`` net (needs ``driven``)."""
+        if self._driven < 0:
+            return 0j
+        if "driven" not in self._cache:
+            rhs = np.zeros(self.compiled.size, dtype=complex)
+            rhs[self._driven] = 1.0
+            self._cache["driven"] = self._lu.solve(rhs)
+        return self.voltage(self._cache["driven"], node)
+
+    def transfer(self, from_node: str, to_node: str) -> complex:
+        """V(to_node) per 1 A injected at ``from_node`` (ohm); a transimpedance."""
+        return self.voltage(self.solve_injection(from_node), to_node)
+
+    def element_current(self, solution: np.ndarray, element: str, node: str) -> complex:
+        """Small-signal current flowing from ``node`` into ``element`` in ``solution``."""
+        k = self.unknown(node)
+        if k < 0:
+            return 0j
+        cc = self.compiled
+        owner = self._device_owner.get(element)
+        if owner is None:
+            if element not in cc.element_names:
+                return 0j
+            owner = cc.element_names.index(element)
+        mask = (self._owner == owner) & (self._rows == k)
+        return complex(np.sum(self._vals[mask] * solution[self._cols[mask]]))
+
+
+def impedance(
+    circuit: FlatCircuit,
+    node: str,
+    freq_hz: float = 0.0,
+    op: OperatingPoint | None = None,
+    detach=(),
+) -> complex:
+    """Driving-point impedance looking into ``node`` (1 A injection), in ohm."""
+    return ImpedanceSolver(circuit, op, freq_hz, detach=detach).z(node)

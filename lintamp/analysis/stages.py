@@ -1,0 +1,108 @@
+"""Stage recognition: what role each transistor plays, from topology and AC grounds.
+
+Roles follow the textbook vocabulary (Razavi ch. 3 and ch. 5; Sedra & Smith
+ch. 7): common source / emitter, common gate / base, common drain (source
+follower) / emitter follower, cascode, current-mirror reference and output,
+differential pair, diode-connected load, current source.  AC ground = ground and
+nets tied to it by independent voltage sources that carry no AC value and no
+waveform (a source with ``AC`` or a waveform is taken as a signal input).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from lintamp.analysis.looking_into import ac_ground_nets
+from lintamp.analysis.operating_point import OperatingPoint
+from lintamp.circuit.flat import FlatCircuit, FlatDevice
+
+MOS = ("nmos", "pmos")
+BJT = ("npn", "pnp")
+
+
+@dataclass
+class Stage:
+    device: str
+    role: str
+    related: list[str] = field(default_factory=list)
+    region: str = ""
+    gm_s: float | None = None
+    ro_ohm: float | None = None
+
+
+def _pins(dev: FlatDevice):
+    """(out, control, common) = drain/gate/source or collector/base/emitter."""
+    if dev.kind in MOS:
+        return dev.nodes[0], dev.nodes[1], dev.nodes[2]
+    return dev.nodes[0], dev.nodes[1], dev.nodes[2]
+
+
+def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None) -> list[Stage]:
+    """One :class:`Stage` per MOS/BJT device, in netlist order.
+
+    Notes
+    -----
+    O(T^2) in the number of transistors sharing nets (indexes by net keep it
+    near-linear for netlist-like circuits).
+    """
+    acg = ac_ground_nets(circuit, signal_sources_ground=False)
+    trans = [d for d in circuit.devices if d.kind in MOS + BJT]
+    by_common: dict[tuple, list[FlatDevice]] = {}
+    by_control: dict[tuple, list[FlatDevice]] = {}
+    by_out: dict[tuple, list[FlatDevice]] = {}
+    for d in trans:
+        out, ctl, com = _pins(d)
+        fam = d.kind
+        by_common.setdefault((fam, com), []).append(d)
+        by_control.setdefault((fam, ctl), []).append(d)
+        by_out.setdefault((fam, out), []).append(d)
+    stages = []
+    for d in trans:
+        out, ctl, com = _pins(d)
+        mos = d.kind in MOS
+        words = {
+            "cs": "common source" if mos else "common emitter",
+            "cg": "common gate" if mos else "common base",
+            "cd": "common drain (source follower)" if mos else "emitter follower",
+        }
+        related: list[str] = []
+        siblings = [o for o in by_control.get((d.kind, ctl), []) if o is not d]
+        diode = out == ctl
+        if out == com:
+            role = "shorted (output tied to common terminal)"
+        elif diode:
+            outs = [o.name for o in siblings if _pins(o)[2] == com and _pins(o)[0] != ctl]
+            role = "current-mirror reference (diode-connected)" if outs else "diode-connected load"
+            related = outs
+        else:
+            refs = [o.name for o in siblings if _pins(o)[0] == ctl and _pins(o)[2] == com]
+            pair = [
+                o.name
+                for o in by_common.get((d.kind, com), [])
+                if o is not d and _pins(o)[1] != ctl and _pins(o)[0] != out and com not in acg
+            ]
+            below = [o.name for o in by_out.get((d.kind, com), []) if o is not d] if com not in acg else []
+            if refs:
+                role, related = "current-mirror output", refs
+            elif ctl in acg and below:
+                role, related = "cascode", below
+            elif ctl in acg and com in acg:
+                role = "current source (fixed bias)"
+            elif out in acg and com not in acg:
+                role = words["cd"]
+            elif ctl in acg:
+                role = words["cg"]
+            elif pair:
+                role, related = "differential pair", pair
+            elif com in acg:
+                role = words["cs"]
+            else:
+                role = words["cs"] + " with degeneration"
+        st = Stage(d.name, role, related)
+        if op is not None and d.name in op.devices:
+            dop = op.devices[d.name]
+            st.region = dop.region
+            st.gm_s = dop.values.get("gm_s")
+            st.ro_ohm = dop.values.get("ro_ohm")
+        stages.append(st)
+    return stages
