@@ -97,3 +97,23 @@ def test_every_rule_documents_itself():
         for section in ("What it finds", "Why it matters", "Example", "Fix"):
             assert section in rule.doc, f"{rule.name} lacks '{section}'"
         assert rule.summary and rule.category
+
+
+def test_impedance_command_json_matches_the_worked_common_gate_example():
+    # analog-knowledge.md 5.3 (reproduced with ngspice-39): CG input, VG=1.5 V, 100 uA sink,
+    # RD=10k, level-1 model of 5.1: Rin = 1301.1 ohm
+    out = run("impedance", "samples/sensor_frontend.sp", "pd", "--freq", "1k", "--format", "json")
+    assert out.returncode == 0, out.stderr
+    data = json.loads(out.stdout)
+    assert data["node"] == "pd" and data["operating_point"] == "level1"
+    assert data["z_ohm"]["mag"] == pytest.approx(1301.1, rel=1e-3)
+    assert data["branches"][0]["via"].startswith("source of m1")
+
+
+def test_impedance_command_text_and_errors():
+    out = run("impedance", "samples/sensor_frontend.sp", "out")
+    assert out.returncode == 0 and out.stdout.startswith("looking into out at DC:")
+    bad = run("impedance", "samples/sensor_frontend.sp", "nowhere")
+    assert bad.returncode == 2 and "no net 'nowhere'" in bad.stderr
+    port = run("impedance", "samples/bias_block.sp", "xbias/nbias")
+    assert port.returncode == 0
