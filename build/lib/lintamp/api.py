@@ -153,18 +153,77 @@ def collect_paths(paths: Iterable[str | Path], config) -> list[Path]:
     return out
 
 
+def _cached_check(path: Path, config, cache, top, include_paths, options) -> FileResult:
+    """``check_file`` through the content-hash cache.
+
+    A small manifest entry, keyed by the file's own bytes, lists the files it read;
+    the result entry is keyed by all of them, so an edit to any include misses.
+    Files with missing includes are not cached (the missing file may appear).
+    """
+    manifest_key = [path]
+    files = _read_manifest(cache, manifest_key)
+    if files is not None:
+        entry = cache.get_entry([path, *files])
+        if entry is not None:
+            return FileResult(path=str(path), findings=entry.findings, pragmas=entry.pragmas)
+    result = check_file(path, config, top=top, include_paths=include_paths, options=options)
+    if not result.internal_errors and not any(f.rule == "missing-include" for f in result.findings):
+        included = [Path(f) for f in result.files_read[1:]]
+        _write_manifest(cache, manifest_key, included)
+        cache.put([path, *included], result.findings, result.pragmas)
+    return result
+
+
+def _read_manifest(cache, key_paths) -> list[Path] | None:
+    entry = cache.get_entry(key_paths)
+    if entry is None:
+        return None
+    return [Path(p.args[0]) for p in entry.pragmas if p.verb == "manifest-file"] \
+        if all(p.verb == "manifest-file" for p in entry.pragmas) else None
+
+
+def _write_manifest(cache, key_paths, included: list[Path]) -> None:
+    marks = [Pragma(verb="manifest-file", args=(str(p),), reason="", location=Location(str(p), 1, 1))
+             for p in included]
+    cache.put(key_paths, [], marks)
+
+
+def _check_one(job) -> FileResult:
+    path, config, top, include_paths, options, use_cache = job
+    if use_cache:
+        from lintamp.cache import Cache, config_key
+        cache = Cache(Path(getattr(config, "root", Path.cwd())),
+                      config_key(config, [r.name for r in enabled_rules(config)]) + repr(
+                          (top, [str(p) for p in include_paths], sorted((options or {}).items()))))
+        return _cached_check(path, config, cache, top, include_paths, options)
+    return check_file(path, config, top=top, include_paths=include_paths, options=options)
+
+
 def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = None,
                 include_paths: Iterable[Path] = (), baseline=None,
-                options: dict | None = None) -> tuple[Report, list[str]]:
-    """Check files and folders; returns the decided report and any internal errors."""
+                options: dict | None = None, jobs: int = 1,
+                use_cache: bool = False) -> tuple[Report, list[str]]:
+    """Check files and folders; returns the decided report and any internal errors.
+
+    ``jobs`` > 1 checks files in that many processes; results keep the file order,
+    so the report is the same whatever ``jobs`` is.  ``use_cache`` reads and writes
+    ``.lintamp_cache/`` under the config root.
+    """
     from lintamp.decide import decide
     config = config or default_config()
     findings: list[Finding] = []
     pragmas: list[Pragma] = []
     errors: list[str] = []
     files = collect_paths(paths, config)
-    for f in files:
-        result = check_file(f, config, top=top, include_paths=include_paths, options=options)
+    include_paths = tuple(include_paths)
+    work = [(f, config, top, include_paths, options, use_cache) for f in files]
+    if jobs > 1 and len(files) > 1:
+        from concurrent.futures import ProcessPoolExecutor
+        with ProcessPoolExecutor(max_workers=min(jobs, len(files))) as pool:
+            results = list(pool.map(_check_one, work, chunksize=max(1, len(work) // (4 * jobs))))
+    else:
+        results = [_check_one(job) for job in work]
+    for result in results:
         findings.extend(result.findings)
         pragmas.extend(result.pragmas)
         errors.extend(result.internal_errors)

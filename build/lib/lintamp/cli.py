@@ -116,6 +116,8 @@ def _load_config(args):
         config = load_config(explicit, isolated=args.isolated, start=start.resolve(),
                              known_rules=known)
         changes = {}
+        if config.source is None:  # no config file: the cache and relative paths live here
+            changes["root"] = Path.cwd().resolve()
         if args.select:
             changes["select"] = parse_rule_list(args.select, option="--select", known_rules=known)
         if args.ignore:
@@ -151,7 +153,8 @@ def cmd_check(args) -> int:
     options = {"bandwidth": args.bandwidth, "op_file": args.op}
     report, errors = check_paths(paths, config, top=args.top,
                                  include_paths=[Path(p) for p in args.include_path],
-                                 baseline=baseline, options=options)
+                                 baseline=baseline, options=options, jobs=args.jobs,
+                                 use_cache=not args.no_cache)
     if args.write_baseline:
         from lintamp.baseline import write_baseline
         write_baseline(Path(args.write_baseline), report)

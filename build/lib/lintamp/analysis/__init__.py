@@ -1,1 +1,1 @@
-"""Analyses: pure functions of an elaborated design, memoised on the context."""
+"""Analyses of an elaborated circuit: DC paths, stages, operating point, small-signal impedance."""

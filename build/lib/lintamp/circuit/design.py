@@ -245,7 +245,8 @@ class Design:
 
 
 # -- scope lookups --------------------------------------------------------------
-def _scopes(cell: Cell) -> Iterator[Cell]:
+def scopes(cell: Cell) -> Iterator[Cell]:
+    """The cell and its enclosing cells, innermost first."""
     while cell is not None:
         yield cell
         cell = cell.parent
@@ -253,11 +254,11 @@ def _scopes(cell: Cell) -> Iterator[Cell]:
 
 def find_model(cell: Cell, name: str) -> Model | None:
     """A model visible from ``cell``; binned names (``nch.1``) match ``nch``."""
-    for scope in _scopes(cell):
+    for scope in scopes(cell):
         model = scope.models.get(name)
         if model is not None:
             return model
-    for scope in _scopes(cell):
+    for scope in scopes(cell):
         for key, model in scope.models.items():
             base, dot, suffix = key.rpartition(".")
             if dot and base == name and suffix.isdigit():
@@ -266,7 +267,7 @@ def find_model(cell: Cell, name: str) -> Model | None:
 
 
 def find_cell(cell: Cell, name: str) -> Cell | None:
-    for scope in _scopes(cell):
+    for scope in scopes(cell):
         found = scope.cells.get(name)
         if found is not None:
             return found
@@ -275,7 +276,7 @@ def find_cell(cell: Cell, name: str) -> Cell | None:
 
 def visible_params(cell: Cell) -> set[str]:
     names: set[str] = set()
-    for scope in _scopes(cell):
+    for scope in scopes(cell):
         names.update(p.name for p in scope.params)
         names.update(scope.defaults)
     return names

@@ -87,6 +87,10 @@ class FlatCircuit:
             self._index[key] = idx
         return idx
 
+    def alias(self, name: str, index: int) -> None:
+        """Another name for net ``index`` (a subcircuit port seen from inside)."""
+        self._index.setdefault(name.lower(), index)
+
     def find_net(self, name: str) -> int | None:
         return self._index.get(name.lower())
 

@@ -72,6 +72,8 @@ def flatten(design: Design, *, root: CellView | None = None,
                     continue
                 sub = dev.subcell
                 child_map = {port: nodes[i] for i, port in enumerate(sub.ports) if i < len(nodes)}
+                for port, index in child_map.items():  # 'x1/in' names the parent's net too
+                    circuit.alias(prefix + dev.name + "/" + port, index)
                 child_scope = cell_scope(sub.cell, scope, instance_overrides(dev.element, scope))
                 walk(sub, prefix + dev.name + "/", child_map, child_scope, depth + 1)
                 continue

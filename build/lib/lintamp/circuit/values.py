@@ -177,6 +177,8 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             known.update(c.funcs)
             c = c.parent
         for p in cell.params:
+            if p.text.startswith('"'):
+                continue  # a string parameter
             names, err = _names_in(p.text)
             if err is not None:
                 yield BadExpression(None, f".param {p.name}", err, p.location, cell)

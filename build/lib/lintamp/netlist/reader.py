@@ -118,8 +118,9 @@ def looks_binary(data: bytes) -> bool:
 def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
     """Split ``line`` into code and inline comment, respecting quotes and braces.
 
-    ``;`` always starts a comment; ``$`` only at the line start or after a blank
-    (``M$1`` and ``$PDK_ROOT`` are names); ``//`` when enabled.
+    ``;`` always starts a comment; ``$`` only at the line start or after a blank,
+    and not when a name follows it (``M$1``, ``$PDK_ROOT``, ``${dir}`` are names or
+    placeholders); ``//`` after a blank when enabled.
     """
     if ";" not in line and "$" not in line and "/" not in line:
         return line, ""
@@ -141,7 +142,8 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
         elif depth == 0:
             if ch == ";":
                 return line[:i], line[i + 1:]
-            if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t"):
+            if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t") and (
+                    i + 1 == n or not (line[i + 1].isalnum() or line[i + 1] in "_{")):
                 return line[:i], line[i + 1:]
             if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
                     i == 0 or line[i - 1] in " \t"):

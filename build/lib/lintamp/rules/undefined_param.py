@@ -22,6 +22,9 @@ Fix
     correct the spelling.
 """
 
+import difflib
+
+from lintamp.circuit.design import visible_params
 from lintamp.circuit.values import BadExpression, undefined_names
 from lintamp.findings import Severity
 
@@ -49,9 +52,11 @@ def check(ctx):
             symbolic.setdefault(id(view), [view]).append(use)
             continue
         where = f"{use.key} of {use.element.name}" if use.element else use.key
+        close = difflib.get_close_matches(use.name, visible_params(use.cell), n=1) if use.cell else []
+        hint = f"; did you mean '{close[0]}'?" if close else ""
         yield ctx.finding(
             location=use.location, subject=use.name, view=view,
-            message=f"'{use.name}' in {where} is not a defined parameter",
+            message=f"'{use.name}' in {where} is not a defined parameter{hint}",
             elements=[use.element.key] if use.element else [],
             explanation=[f"no .param, .subckt parameter or built-in constant named '{use.name}' "
                          "is visible here", "the value stays symbolic; a simulator rejects the deck"],

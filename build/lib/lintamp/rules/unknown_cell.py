@@ -22,6 +22,9 @@ Fix
     device name in ``[devices]``.
 """
 
+import difflib
+
+from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
 
 NAME = "unknown-cell"
@@ -40,10 +43,13 @@ def check(ctx):
             if dev.kind != "instance" or dev.subcell is not None or not dev.element.model:
                 continue
             name = dev.element.model
+            names = [c for scope in scopes(view.cell) for c in scope.cells]
+            close = difflib.get_close_matches(name, names, n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else ""
             yield ctx.finding(
                 location=dev.location, subject=dev.name, view=view, elements=[dev.name],
                 severity=Severity.WARNING if incomplete or library else None,
-                message=f"{dev.display} instantiates '{name}', which no .subckt defines",
+                message=f"{dev.display} instantiates '{name}', which no .subckt defines{hint}",
                 explanation=[f"no .subckt {name} in this cell, its enclosing cells or the top level"
                              + (" (some include files were not found, and it may be defined there)"
                                 if incomplete else "")

@@ -22,6 +22,9 @@ Fix
     lives outside the project).
 """
 
+import difflib
+
+from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
 
 NAME = "unknown-model"
@@ -45,11 +48,14 @@ def check(ctx):
             el = dev.element
             if el.letter not in _NEEDS_MODEL or not el.model or dev.model is not None:
                 continue
+            names = [m for scope in scopes(view.cell) for m in scope.models]
+            close = difflib.get_close_matches(el.model, names, n=1)
+            hint = f"; did you mean '{close[0]}'?" if close else ""
             polarity = f"; its type is guessed as {dev.kind} from the name" if dev.polarity_from == "name" else ""
             yield ctx.finding(
                 location=el.location, subject=dev.name, view=view, elements=[dev.name],
                 severity=Severity.WARNING if incomplete else None,
-                message=f"{el.name} names model '{el.model}', which no .model defines",
+                message=f"{el.name} names model '{el.model}', which no .model defines{hint}",
                 explanation=[f"no .model {el.model} in this cell, its enclosing cells or the top level"
                              + (" (some include files were not found, and it may be defined there)"
                                 if incomplete else "") + polarity,
