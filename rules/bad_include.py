@@ -21,6 +21,7 @@ Fix
     ``--include-path``.
 """
 
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "bad-include"
@@ -28,7 +29,4 @@ CATEGORY = "references"
 SEVERITY = Severity.ERROR
 SUMMARY = "an include cycle, an include outside the allowed folders, or includes nested too deep"
 
-
-def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+check = forward_diagnostics

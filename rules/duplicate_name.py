@@ -19,6 +19,7 @@ Fix
     Rename one of them (``R6 b c 22k``).
 """
 
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Related, Severity
 
 NAME = "duplicate-name"
@@ -28,8 +29,7 @@ SUMMARY = "two elements with one name in one scope"
 
 
 def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+    yield from forward_diagnostics(ctx)
     for view in ctx.cells():
         by_name: dict[str, list] = {}
         for dev in view.devices:

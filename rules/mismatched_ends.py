@@ -21,6 +21,7 @@ Fix
     leave the name out.
 """
 
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "mismatched-ends"
@@ -28,7 +29,4 @@ CATEGORY = "syntax"
 SEVERITY = Severity.WARNING
 SUMMARY = "an .ends whose name differs from the .subckt it closes"
 
-
-def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+check = forward_diagnostics

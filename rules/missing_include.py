@@ -21,6 +21,7 @@ Fix
     that holds the file, or ignore this rule where the library is knowingly absent.
 """
 
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "missing-include"
@@ -28,7 +29,4 @@ CATEGORY = "references"
 SEVERITY = Severity.WARNING
 SUMMARY = "an .include or .lib file (or section) that cannot be found"
 
-
-def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+check = forward_diagnostics

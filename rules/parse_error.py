@@ -22,6 +22,7 @@ Fix
     ``M1 d g s b nch W=1u L=0.18u``.
 """
 
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "parse-error"
@@ -29,7 +30,4 @@ CATEGORY = "syntax"
 SEVERITY = Severity.ERROR
 SUMMARY = "a card lintamp cannot read (with path:line:column and what was expected)"
 
-
-def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+check = forward_diagnostics

@@ -25,6 +25,7 @@ Fix
 import difflib
 
 from lintamp.circuit.design import scopes
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "unknown-cell"
@@ -34,8 +35,7 @@ SUMMARY = "an instance of a subcircuit that is not defined (nor mapped as a devi
 
 
 def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+    yield from forward_diagnostics(ctx)
     incomplete = ctx.options.get("includes_missing", False)
     for view in ctx.cells():
         library = not ctx.design.in_deck(view)

@@ -18,6 +18,7 @@ Fix
     Nothing to fix in the netlist; check a SPICE export of the block instead.
 """
 
+from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "unsupported-syntax"
@@ -25,7 +26,4 @@ CATEGORY = "syntax"
 SEVERITY = Severity.INFO
 SUMMARY = "a section written in a language lintamp does not read (skipped, said once)"
 
-
-def check(ctx):
-    for diag in ctx.diagnostics(NAME):
-        yield ctx.from_diagnostic(diag)
+check = forward_diagnostics

@@ -82,3 +82,10 @@ class Context:
         explanation = (f"expected: {diag.expected}",) if diag.expected else ()
         return Finding(rule=self.rule.name, severity=severity, location=diag.location,
                        subject=diag.subject, message=diag.message, explanation=explanation)
+
+
+def forward_diagnostics(ctx: Context) -> Iterable[Finding]:
+    """The ``check`` of a rule whose findings the reader or parser already made:
+    each diagnostic of the running rule's name, as a finding."""
+    for diag in ctx.diagnostics(ctx.rule.name):
+        yield ctx.from_diagnostic(diag)

@@ -1,1 +1,0 @@
-"""Elaboration: cells, devices, nets, the connectivity graph, flattening."""

@@ -1,1 +1,0 @@
-"""Commands beyond check: impedance, audit."""

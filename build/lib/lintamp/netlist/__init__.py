@@ -1,1 +1,0 @@
-"""Netlist reading and parsing."""

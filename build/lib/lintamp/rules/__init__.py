@@ -1,1 +1,0 @@
-"""Built-in rules, one module each (installed as ``lintamp.rules``)."""
