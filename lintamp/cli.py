@@ -72,6 +72,17 @@ def build_parser() -> argparse.ArgumentParser:
     imp.add_argument("--op", metavar="FILE")
     imp.add_argument("--format", default="text", choices=["text", "json"])
     imp.add_argument("--include-path", action="append", default=[], metavar="DIR")
+
+    audit = sub.add_parser("audit", help="the review sheet of a block")
+    audit.add_argument("netlist", metavar="NETLIST")
+    audit.add_argument("--top", metavar="CELL")
+    audit.add_argument("--format", default="text", choices=["text", "json", "markdown", "html"])
+    audit.add_argument("-o", "--output", metavar="FILE", help="write the sheet to FILE")
+    audit.add_argument("--op", metavar="FILE", help="operating-point table (CSV or JSON)")
+    audit.add_argument("--bandwidth", metavar="FREQ", help="signal band, e.g. 20meg")
+    audit.add_argument("--include-path", action="append", default=[], metavar="DIR")
+    audit.add_argument("--config", metavar="FILE", help="use this config file")
+    audit.add_argument("--isolated", action="store_true", help="ignore every config file")
     return parser
 
 
@@ -88,6 +99,9 @@ def main(argv: list[str] | None = None) -> int:
         if args.command == "impedance":
             from lintamp.commands.impedance import cmd_impedance
             return cmd_impedance(args)
+        if args.command == "audit":
+            from lintamp.commands.audit import cmd_audit
+            return cmd_audit(args)
         parser.print_help()
         return EXIT_TROUBLE
     except UsageError as exc:
