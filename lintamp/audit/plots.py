@@ -9,10 +9,11 @@ input gives the same bytes.
 from __future__ import annotations
 
 import io
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
+
+from lintamp.report.si import si
 
 DPI = 96
 SIZE_IN = (6.4, 3.2)
@@ -69,6 +70,8 @@ def _one(plt, curve) -> bytes:
         for k, f in enumerate(p for p in curve.poles_hz if lo <= p <= hi):
             ax.axvline(f, color="#b03030", linestyle="--", linewidth=0.9,
                        label="pole" if k == 0 else None)
+            ax.annotate(si(f, "Hz"), xy=(f, 1.0), xycoords=("data", "axes fraction"), xytext=(3, -12),
+                        textcoords="offset points", fontsize=8, color="#b03030")
         if curve.f3db_hz and lo <= curve.f3db_hz <= hi:
             ax.axvline(curve.f3db_hz, color="#2a8a2a", linestyle=":", linewidth=1.2, label="-3 dB")
         if curve.band_hz and lo <= curve.band_hz <= hi:
@@ -83,5 +86,3 @@ def _one(plt, curve) -> bytes:
         plt.close(fig)
 
 
-def poles_label(poles) -> str:
-    return ", ".join(f"{p:.3g} Hz" for p in poles if math.isfinite(p))

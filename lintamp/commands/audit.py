@@ -41,6 +41,9 @@ def write_atomically(path: Path, payload: bytes) -> None:
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(payload)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; a sheet is for sharing
         os.replace(tmp, path)
     except BaseException:
         try:
