@@ -236,3 +236,7 @@ def test_bjt_ce_follower_against_ngspice_and_sedra_smith(tmp_path):
     rb = 1 / (1 / 2e3 + 1 / ro1)
     zout = 1 / (1 / ((rb + rpi2) / (beta2 + 1)) + 1 / ro2 + 1 / 2e3)
     assert ports["out"]["z_ohm"]["mag"] == pytest.approx(zout, rel=REL)
+    # an ideal voltage source drives the input: Z_out 0 against r_pi suits a voltage signal
+    first = gain["interfaces"][0]
+    assert (first["net"], first["z_out_ohm"], first["signal"]) == ("in", 0.0, "voltage")
+    assert first["verdict"].startswith("suits")

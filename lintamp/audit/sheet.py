@@ -480,14 +480,16 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         net = name[net_idx]
         others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
                   and d.name not in base]
-        z_out = solves.z(net, 0.0, base + tuple(receiver))
+        # at the input the driver is the testbench's source itself: keep it attached
+        driver_base = () if role == "input" else base
+        z_out = solves.z(net, 0.0, driver_base + tuple(receiver))
         z_in = solves.z(net, 0.0, base + tuple(others)) if receiver else None
         entry = {"net": _local(block, net), "role": role, "signal": signal,
                  "driver": [_local(block, o) for o in others],
                  "receiver": [_local(block, r) for r in receiver],
                  "z_out_ohm": mag_or_none(z_out), "z_in_ohm": mag_or_none(z_in)}
         if band_hz:
-            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
+            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, driver_base + tuple(receiver)))
             entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
                                       if receiver else None)
         entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
