@@ -3,7 +3,7 @@
 Shape (INTERFACE.md, ``lintamp audit --format json``, with additions)::
 
     {"tool", "version", "schema": 1, "netlist", "cell", "instance",
-     "operating_point": "level1" | "table" | "assumed", "notes": [...],
+     "operating_point": "level1" | "table" | "assumed" | "linear", "notes": [...],
      "band": {"freq_hz", "source"},
      "ports": [{"net", "circuit_net", "kind", "decided_by", "stimulus",
                 "z_ohm": {"mag", "phase_deg"}, "z_band_ohm": {...}, "stage",
@@ -172,6 +172,8 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
                              "the testbench an AC source")
 
     op, source, op_notes = _operating_point(block.circuit, table)
+    if op is None and not any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
+        source, op_notes = "linear", []  # nothing to linearise: the small-signal solve needs no bias
     data["operating_point"] = source
     data["notes"] += op_notes
     curves: list[Curve] = []
@@ -478,18 +480,30 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         else:
             signal = "current" if hops[k].entry in ("s", "e") else "voltage"
         net = name[net_idx]
+        if role == "input":
+            # the testbench source (ideal: open for a current, a short for a voltage) drives
+            # the whole block as the port sees it
+            entry = {"net": _local(block, net), "role": role, "signal": signal,
+                     "driver": [_local(block, pin.stimulus)] if pin.stimulus else ["ideal source (assumed)"],
+                     "receiver": ["the block (Z_in of the port)"],
+                     "z_out_ohm": None if signal == "current" else 0.0,
+                     "z_in_ohm": mag_or_none(solves.z(net, 0.0, base))}
+            if band_hz:
+                entry["z_out_band_ohm"] = entry["z_out_ohm"]
+                entry["z_in_band_ohm"] = mag_or_none(solves.z(net, band_hz, base))
+            entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
+            row["interfaces"].append(entry)
+            continue
         others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
                   and d.name not in base]
-        # at the input the driver is the testbench's source itself: keep it attached
-        driver_base = () if role == "input" else base
-        z_out = solves.z(net, 0.0, driver_base + tuple(receiver))
+        z_out = solves.z(net, 0.0, base + tuple(receiver))
         z_in = solves.z(net, 0.0, base + tuple(others)) if receiver else None
         entry = {"net": _local(block, net), "role": role, "signal": signal,
                  "driver": [_local(block, o) for o in others],
                  "receiver": [_local(block, r) for r in receiver],
                  "z_out_ohm": mag_or_none(z_out), "z_in_ohm": mag_or_none(z_in)}
         if band_hz:
-            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, driver_base + tuple(receiver)))
+            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
             entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
                                       if receiver else None)
         entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
