@@ -159,6 +159,15 @@ class ImpedanceSolver:
             self._device_owner = {}
         return (np.concatenate(rows), np.concatenate(cols), np.concatenate(vals), np.concatenate(owners))
 
+    def admittance_matrix(self) -> sp.csc_matrix:
+        """The assembled small-signal matrix Y at this frequency (sparse CSC, complex).
+
+        Without the 1e-12 S shunt a singular Y receives for factorisation; with
+        ``driven`` its row is the driven net's ``v = 1`` constraint.
+        """
+        size = self.compiled.size
+        return sp.csc_matrix((self._vals, (self._rows, self._cols)), shape=(size, size), dtype=complex)
+
     # -- lookups -----------------------------------------------------------
     def unknown(self, node: str) -> int:
         """Unknown index of a net (-1 for ground or a grounded net)."""

@@ -1,0 +1,556 @@
+"""The review sheet of one block as a JSON-ready dict, plus the curves to plot.
+
+Shape (INTERFACE.md, ``lintamp audit --format json``, with additions)::
+
+    {"tool", "version", "schema": 1, "netlist", "cell", "instance",
+     "operating_point": "level1" | "table" | "assumed" | "linear", "notes": [...],
+     "band": {"freq_hz", "source"},
+     "ports": [{"net", "circuit_net", "kind", "decided_by", "stimulus",
+                "z_ohm": {"mag", "phase_deg"}, "z_band_ohm": {...}, "stage",
+                "device", "formula", "formula_ohm", "approx", "approx_ohm",
+                "terms", "findings": [fingerprint, ...]}],
+     "stages": [{"device", "role", "related", "region", "gm_s", "ro_ohm", "gmb_s",
+                 "vds_v", "vdsat_v", "margin_v", "vce_v", "id_a", "findings"}],
+     "paths": [{"from", "to", "kind", "gain": {"mag", "unit", "freq_hz",
+                "phase_deg", "sign"}, "gain_band": {...}, "f3db_hz", "f3db_low_hz",
+                "poles_hz", "formula", "formula_value", "chain": [...],
+                "interfaces": [{"net", "role", "signal", "z_out_ohm", "z_in_ohm",
+                "ratio", "suits", "verdict"}], "notes"}],
+     "findings": [... as in the check report ...], "waived": [...],
+     "summary": {"errors", "warnings", "infos", "waived"}, "plots": {...}}
+
+An open impedance is ``null`` (``"open": true`` beside it in ``z_ohm``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from lintamp import __version__
+from lintamp.audit import forms
+from lintamp.audit.band import ac_sweep_hz, signal_band
+from lintamp.audit.chain import find_chain
+from lintamp.audit.ports import Port, classify_ports, load_elements
+from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
+from lintamp.audit.solves import Solves, mag_or_none, z_json
+
+GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
+              ("voltage", "voltage"): ("voltage gain", "V/V"),
+              ("current", "current"): ("current gain", "A/A"),
+              ("voltage", "current"): ("transconductance", "S")}
+INTERFACE_RATIO_LIMIT = 0.1  # analog-knowledge 3: Rout <= RL/10 (voltage), Rin <= Rsrc/10 (current)
+PLOT_POINTS_PER_DECADE = 20
+MAX_PATHS = 24
+BJT_VCE_SAT_V = 0.3  # analog-knowledge 3, common practice
+
+
+class AuditError(Exception):
+    """The audit cannot start (bad --top, a cell library without --top ...)."""
+
+
+@dataclass
+class Curve:
+    """One plotted quantity over frequency."""
+
+    title: str
+    quantity: str  # "impedance" | "gain"
+    unit: str
+    freqs_hz: np.ndarray
+    values: np.ndarray
+    poles_hz: list[float] = field(default_factory=list)
+    f3db_hz: float | None = None
+    band_hz: float | None = None
+    key: str = ""
+
+
+@dataclass
+class Sheet:
+    data: dict
+    curves: list[Curve]
+
+
+@dataclass
+class _Block:
+    netlist: object
+    cell: object  # the Cell under review
+    circuit: object
+    prefix: str
+    instance: str | None
+    candidates: list[str]
+
+
+# ------------------------------------------------------------------ loading
+def _choose_block(netlist, design_full, config, top: str | None) -> _Block:
+    from lintamp.api import load_design
+    from lintamp.circuit.flatten import FlattenLimit, flatten
+
+    try:
+        if top is None:
+            if not netlist.top.elements and netlist.top.cells:
+                names = ", ".join(sorted(c.name for c in netlist.all_cells() if not c.is_top))
+                raise AuditError(f"{netlist.path} is a cell library with no testbench; "
+                                 f"choose a cell with --top (cells: {names})")
+            circuit = flatten(design_full)
+            nets = [n for n in circuit.nets[1:] if "/" not in n]
+            return _Block(netlist, netlist.top, circuit, "", None, nets)
+        cell = next((c for c in netlist.all_cells() if not c.is_top and c.name == top.lower()), None)
+        if cell is None:
+            names = ", ".join(sorted(c.name for c in netlist.all_cells() if not c.is_top)) or "none"
+            raise AuditError(f"--top {top}: no subcircuit of that name in {netlist.path} (cells: {names})")
+        view = design_full.view_of(cell)
+        if design_full.top.devices:  # a testbench: numbers come from it, with the cell in place
+            circuit = flatten(design_full)
+            for path in design_full.instances(view):
+                if path:
+                    prefix = "/".join(path) + "/"
+                    if all(circuit.find_net(prefix + p) is not None for p in cell.ports):
+                        return _Block(netlist, cell, circuit, prefix, "/".join(path), list(cell.ports))
+        circuit = flatten(load_design(netlist, config, top=top))
+        return _Block(netlist, cell, circuit, "", None, list(cell.ports))
+    except FlattenLimit as exc:
+        raise AuditError(str(exc)) from None
+
+
+# ------------------------------------------------------------------ building
+def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | None = None,
+                table=None, include_paths=(), config=None, plots: bool = True) -> Sheet:
+    """Everything the review sheet shows, computed once.
+
+    Raises :class:`AuditError` for a ``--top`` that names no cell, or a library
+    without a testbench; ``ValueError`` for a ``bandwidth`` that is no frequency.
+
+    Notes
+    -----
+    One DC solve; per port two impedance solves plus the explanation's; per path a
+    bounded -3 dB search (about 140 factorisations) and, below 300 unknowns, one
+    dense generalized eigenproblem for the poles.
+    """
+    from lintamp.api import analyse, default_config, load_design, read_options
+    from lintamp.decide import decide
+    from lintamp.netlist.parser import parse_file
+
+    config = config or default_config()
+    netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
+    design_full = load_design(netlist, config)
+    block = _choose_block(netlist, design_full, config, top)
+    band = signal_band(netlist, block.cell, option=bandwidth, config_value=getattr(config, "bandwidth", None))
+
+    result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
+    report = decide(result.findings, result.pragmas, config)
+    findings = [f.to_json() for f in report.findings]
+    data = {
+        "tool": "lintamp", "version": __version__, "schema": 1,
+        "netlist": str(netlist.path), "title": netlist.title,
+        "cell": block.cell.name or "top", "instance": block.instance,
+        "operating_point": "assumed", "notes": [],
+        "band": {"freq_hz": band.freq_hz, "source": band.source},
+        "ports": [], "stages": [], "paths": [],
+        "findings": findings,
+        "waived": [dict(w.finding.to_json(), waiver={"path": w.waiver_location.path,
+                                                     "line": w.waiver_location.line, "reason": w.reason})
+                   for w in report.waived],
+        "summary": {"errors": report.count(_sev("error")), "warnings": report.count(_sev("warning")),
+                    "infos": report.count(_sev("info")), "waived": len(report.waived)},
+        "internal_errors": list(result.internal_errors),
+    }
+    for diag in netlist.diagnostics:
+        if diag.severity == "error":
+            data["notes"].append(f"{diag.location}: {diag.message} (the numbers are computed without it)")
+
+    config_ports = getattr(config, "ports", None) or {}
+    ports = classify_ports(block.circuit, block.cell.pragmas, candidates=block.candidates,
+                           prefix=block.prefix, config_ports=config_ports)
+    loads = load_elements(block.circuit, block.cell.pragmas, prefix=block.prefix, config_ports=config_ports)
+    data["loads"] = [n[len(block.prefix):] for n in loads]
+    if not ports:
+        data["notes"].append("no inputs or outputs found: mark them with '* lintamp: current-input NET', "
+                             "'voltage-input', 'voltage-output' or 'current-output' pragmas, or give "
+                             "the testbench an AC source")
+
+    op, source, op_notes = _operating_point(block.circuit, table)
+    if op is None and not any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
+        source, op_notes = "linear", []  # nothing to linearise: the small-signal solve needs no bias
+    data["operating_point"] = source
+    data["notes"] += op_notes
+    curves: list[Curve] = []
+    stages = _stages(block, op)
+    data["stages"] = stages
+    if op is None and any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
+        data["notes"].append("no numbers: the operating point could not be had, so impedances and gains "
+                             "are not computed (roles are from the topology)")
+        data["ports"] = [_port_stub(p) for p in ports]
+    else:
+        solves = Solves(block.circuit, op)
+        try:
+            _numbers(data, block, ports, loads, solves, stages, band.freq_hz, netlist, curves, plots)
+        except Exception as exc:  # engine trouble on odd input must not lose the rest of the sheet
+            from lintamp.analysis.small_signal import SmallSignalError
+            if not isinstance(exc, (SmallSignalError, ArithmeticError, ValueError, RuntimeError,
+                                    np.linalg.LinAlgError)):
+                raise
+            data["notes"].append(f"no small-signal numbers: {exc}")
+            data["ports"] = data["ports"] or [_port_stub(p) for p in ports]
+        data["notes"] += [n for n in solves.notes if n not in data["notes"]]
+    _attach_findings(data, block)
+    return Sheet(data, curves)
+
+
+def _sev(label: str):
+    from lintamp.findings import Severity
+    return Severity.parse(label)
+
+
+def _operating_point(circuit, table):
+    from lintamp.analysis.impedance_report import resolve_operating_point
+    try:
+        return resolve_operating_point(circuit, table)
+    except (ValueError, RuntimeError, ArithmeticError) as exc:
+        return None, "assumed", [f"no operating point: {exc}"]
+
+
+def _stages(block: _Block, op) -> list[dict]:
+    from lintamp.analysis.stages import recognise_stages
+
+    out = []
+    for st in recognise_stages(block.circuit, op):
+        if not st.device.startswith(block.prefix):
+            continue
+        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": st.role,
+               "related": [r[len(block.prefix):] if r.startswith(block.prefix) else r for r in st.related],
+               "region": st.region or None, "gm_s": st.gm_s,
+               "ro_ohm": st.ro_ohm if st.ro_ohm is None or math.isfinite(st.ro_ohm) else None,
+               "findings": []}
+        dop = op.devices.get(st.device) if op is not None else None
+        if dop is not None:
+            v = dop.values
+            if dop.kind in ("nmos", "pmos"):
+                row.update(gmb_s=v.get("gmb_s"), id_a=v.get("ids_a"), vgs_v=v.get("vgs_v"),
+                           vds_v=v.get("vds_v"), vdsat_v=v.get("vdsat_v"))
+                if v.get("vds_v") is not None and v.get("vdsat_v") is not None:
+                    row["margin_v"] = abs(v["vds_v"]) - v["vdsat_v"]
+            else:
+                row.update(id_a=v.get("ic_a"), vbe_v=v.get("vbe_v"), vce_v=v.get("vce_v"),
+                           rpi_ohm=v.get("rpi_ohm"), beta=v.get("beta_ac"))
+                if v.get("vce_v") is not None:
+                    row["margin_v"] = v["vce_v"] - BJT_VCE_SAT_V
+                    row["margin_ref"] = "V_CE - 0.3 V"
+        out.append(row)
+    return out
+
+
+def _port_stub(port: Port) -> dict:
+    return {"net": port.net, "circuit_net": port.circuit_net, "kind": port.kind,
+            "decided_by": port.decided_by, "stimulus": port.stimulus,
+            "z_ohm": {"mag": None, "phase_deg": None}, "z_band_ohm": None, "stage": None,
+            "findings": []}
+
+
+def _input_detach(circuit, port: Port) -> list[str]:
+    """The stimulus, and any voltage source that holds the input net at AC ground."""
+    idx = circuit.find_net(port.circuit_net)
+    out = [port.stimulus] if port.stimulus else []
+    for dev in circuit.devices:
+        if dev.kind == "vsource" and idx in dev.nodes[:2] and 0 in dev.nodes[:2] and dev.name not in out:
+            out.append(dev.name)
+    return out
+
+
+def _stage_label(stage_rows: dict, device: str | None) -> str | None:
+    if device is None:
+        return None
+    row = stage_rows.get(device)
+    return f"{row['role']} ({row['device']})" if row else device
+
+
+def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves, plots):
+    from lintamp.analysis.looking_into import explain_node
+
+    circuit = block.circuit
+    stage_rows = {s["circuit_device"]: s for s in stages}
+    detach_of = {p.net: (_input_detach(circuit, p) if p.is_input else list(loads)) for p in ports}
+    span = _plot_span(netlist, band_hz)
+    freqs = log_grid(span[0], span[1], PLOT_POINTS_PER_DECADE) if plots else None
+    port_rows = []
+    for port in ports:
+        detach = detach_of[port.net]
+        row = _port_stub(port)
+        z_dc = solves.z(port.circuit_net, 0.0, detach)
+        row["z_ohm"] = z_json(z_dc)
+        row["detached"] = [d[len(block.prefix):] if d.startswith(block.prefix) else d for d in detach]
+        if band_hz:
+            row["z_band_ohm"] = z_json(solves.z(port.circuit_net, band_hz, detach))
+        expl = explain_node(circuit, port.circuit_net, 0.0, solves.op, detach)
+        best = _main_branch(circuit, expl.branches)
+        if best is not None:
+            dev = best.elements[0] if best.elements else None
+            row["device"] = dev[len(block.prefix):] if dev and dev.startswith(block.prefix) else dev
+            row["stage"] = _stage_label(stage_rows, dev) or best.via
+            row["via"] = best.via
+            row["formula"] = best.formula
+            row["formula_ohm"] = mag_or_none(best.z_ohm) if best.z_ohm is not None else None
+            row["terms"] = forms.clean_terms(best.terms)
+            row["parallel"] = [{"via": b.via, "formula": b.formula, "z_ohm": mag_or_none(b.z_mna_ohm)}
+                               for b in expl.branches if b is not best and mag_or_none(b.z_mna_ohm) is not None]
+            short = forms.port_short_form(best.via, best.terms, dev or "")
+            if short:
+                row["approx"], row["approx_ohm"] = short
+        if plots:
+            values = sweep(lambda f, n=port.circuit_net, d=tuple(detach): _z_or_open(solves, n, f, d), freqs)
+            curve = Curve(f"|Z| at {port.net} ({port.kind})", "impedance", "Ω", freqs, values,
+                          band_hz=band_hz, key=f"port-{port.net}")
+            solver0 = solves.solver(0.0, detach)
+            k = solver0.unknown(port.circuit_net)
+            poles = poles_hz(solver0.admittance_matrix(), solves.solver(1.0, detach).admittance_matrix(),
+                             k, k, lambda f, n=port.circuit_net, d=tuple(detach): _z_or_open(solves, n, f, d))
+            curve.poles_hz = poles or []
+            row["poles_hz"] = poles
+            curves.append(curve)
+        port_rows.append(row)
+    data["ports"] = port_rows
+    inputs = [p for p in ports if p.is_input]
+    outputs = [p for p in ports if not p.is_input]
+    for pin in inputs:
+        for pout in outputs:
+            if len(data["paths"]) >= MAX_PATHS:
+                data["notes"].append(f"only the first {MAX_PATHS} input/output pairs are shown")
+                return
+            data["paths"].append(_path(block, pin, pout, detach_of[pin.net], loads, solves, stage_rows,
+                                       band_hz, freqs, curves, plots))
+
+
+def _z_or_open(solves, net, f, detach):
+    z = solves.solver(f, detach).z(net)
+    return z
+
+
+def _main_branch(circuit, branches):
+    """The transistor that sets the port (lowest exact share), else the lowest branch."""
+    kinds = {d.name: d.kind for d in circuit.devices}
+    active = [b for b in branches if b.elements and kinds.get(b.elements[0]) in ("nmos", "pmos", "npn", "pnp")]
+    pool = active or [b for b in branches if b.elements]
+    return pool[0] if pool else None  # the engine sorts branches by exact share
+
+
+def _plot_span(netlist, band_hz):
+    ac = ac_sweep_hz(netlist)
+    if ac is not None:
+        return max(ac[0], 1e-3), ac[1]
+    if band_hz:
+        return max(band_hz / 1e4, 1e-3), band_hz * 1e2
+    return 1.0, 1e10
+
+
+def _path_probe(solves, pin: Port, pout: Port, detach, out_current: bool):
+    """H(f) for the path, in its unit (see GAIN_UNITS)."""
+    def probe(f_hz: float) -> complex:
+        if pin.signal == "current":
+            s = solves.solver(f_hz, detach)
+            v = s.transfer(pin.circuit_net, pout.circuit_net)
+        else:
+            s = solves.solver(f_hz, detach, driven=pin.circuit_net)
+            v = s.gain_to(pout.circuit_net)
+        if out_current:  # Norton: short-circuit output current = V_open / Z_out
+            z = s.z(pout.circuit_net)
+            return v / z if abs(z) > 0 else 0j
+        return v
+    return probe
+
+
+def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, curves, plots) -> dict:
+    from lintamp.analysis.looking_into import ac_ground_nets
+
+    circuit = block.circuit
+    kind, unit = GAIN_UNITS[(pin.signal, pout.signal)]
+    out_current = pout.signal == "current"
+    probe = _path_probe(solves, pin, pout, tuple(detach), out_current)
+    h0 = probe(0.0)
+    row = {"from": pin.net, "to": pout.net, "kind": kind,
+           "gain": {"mag": abs(h0), "unit": unit, "freq_hz": 0.0,
+                    "phase_deg": math.degrees(math.atan2(h0.imag, h0.real)), "sign": 1 if h0.real >= 0 else -1},
+           "notes": []}
+    if out_current:
+        row["notes"].append("output current is the short-circuit (Norton) current at the output")
+    if band_hz:
+        hb = probe(band_hz)
+        row["gain_band"] = {"mag": abs(hb), "unit": unit, "freq_hz": band_hz,
+                            "phase_deg": math.degrees(math.atan2(hb.imag, hb.real))}
+    corner = find_corners(probe, h0)
+    row["f3db_hz"] = corner.high_hz
+    row["f3db_low_hz"] = corner.low_hz
+    row["f3db_reference"] = corner.reference
+    if corner.high_hz is None and corner.reference == "dc":
+        row["notes"].append("no -3 dB point between 1 Hz and 1 THz (no capacitance limits this path)")
+    # poles of the excitation the path uses
+    if pin.signal == "current":
+        s0, s1 = solves.solver(0.0, tuple(detach)), solves.solver(1.0, tuple(detach))
+    else:
+        s0 = solves.solver(0.0, tuple(detach), driven=pin.circuit_net)
+        s1 = solves.solver(1.0, tuple(detach), driven=pin.circuit_net)
+    poles = None
+    if not out_current:
+        poles = poles_hz(s0.admittance_matrix(), s1.admittance_matrix(), s0.unknown(pin.circuit_net),
+                         s0.unknown(pout.circuit_net), probe)
+    row["poles_hz"] = poles
+    # the chain and its interfaces
+    acg = ac_ground_nets(circuit, detach)
+    i_in, i_out = circuit.find_net(pin.circuit_net), circuit.find_net(pout.circuit_net)
+    hops = find_chain(circuit, acg, i_in, i_out)
+    row["chain"], row["interfaces"] = [], []
+    if hops is None:
+        row["notes"].append(f"no signal chain from {pin.net} to {pout.net} through the elements "
+                            "(the gain above is whatever the MNA solve finds)")
+    else:
+        _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz)
+    if plots:
+        values = sweep(probe, freqs)
+        curves.append(Curve(f"{kind} {pin.net} → {pout.net}", "gain", unit, freqs, values,
+                            poles_hz=poles or [], f3db_hz=corner.high_hz, band_hz=band_hz,
+                            key=f"path-{pin.net}-{pout.net}"))
+    return row
+
+
+def _local(block, name: str) -> str:
+    return name[len(block.prefix):] if name.startswith(block.prefix) else name
+
+
+def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz):
+    circuit = block.circuit
+    base = tuple(detach)
+    name = circuit.nets
+    s_dc = solves.solver(0.0, base, driven=None if pin.signal == "current" else pin.circuit_net)
+    x = s_dc.solve_injection(pin.circuit_net) if pin.signal == "current" else None
+    values_at = {}
+
+    def v(net_idx: int) -> complex:
+        if net_idx not in values_at:
+            net = name[net_idx]
+            values_at[net_idx] = s_dc.voltage(x, net) if x is not None else s_dc.gain_to(net)
+        return values_at[net_idx]
+
+    product_formula, product_value = [], 1.0
+    for k, hop in enumerate(hops):
+        dev = circuit.device(hop.device)
+        first_current = k == 0 and pin.signal == "current"
+        denom = 1.0 if first_current else v(hop.from_net)
+        gain = v(hop.to_net) / denom if abs(denom) > 0 else 0j
+        entry = {"device": _local(block, hop.device), "role": stage_rows.get(hop.device, {}).get("role", dev.kind),
+                 "from": _local(block, name[hop.from_net]), "to": _local(block, name[hop.to_net]),
+                 "enters_at": hop.entry_word,
+                 "gain": {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
+                          "sign": 1 if gain.real >= 0 else -1}}
+        dop = solves.op.devices.get(hop.device) if solves.op is not None else None
+        if dop is not None and hop.kind in ("nmos", "pmos", "npn", "pnp"):
+            out_pin, com_pin = (0, 2)
+            near = {"out": _z_near(solves, dev.nodes[out_pin], name, base + (hop.device,)),
+                    "common": _z_near(solves, dev.nodes[com_pin], name, base + (hop.device,))}
+            if first_current:
+                near["source"] = near["common"]
+            form = forms.hop_form(hop, dop.values, near, first_current)
+            if form is not None:
+                entry["formula"], entry["formula_value"], terms = form
+                entry["terms"] = forms.clean_terms(terms)
+                if entry["formula_value"] is not None:
+                    product_value *= entry["formula_value"]
+                    product_formula.append(entry["formula"])
+                else:
+                    product_value = None
+            else:
+                product_value = None
+        else:
+            product_value = None
+        row["chain"].append(entry)
+        if product_value is None:
+            product_formula = []
+    if product_formula and product_value is not None:
+        row["formula"] = " × ".join(f"[{f}]" for f in product_formula)
+        row["formula_value"] = abs(product_value)
+    # interfaces: the input net, every net between two stages, the output net
+    nets = [hops[0].from_net] + [h.to_net for h in hops] if hops else []
+    for k, net_idx in enumerate(nets):
+        receiver = [hops[k].device] if k < len(hops) else list(loads)
+        role = "input" if k == 0 else ("output" if k == len(hops) else "internal")
+        if role == "input":
+            signal = pin.signal
+        elif role == "output":
+            signal = pout.signal
+        else:
+            signal = "current" if hops[k].entry in ("s", "e") else "voltage"
+        net = name[net_idx]
+        if role == "input":
+            # the testbench source (ideal: open for a current, a short for a voltage) drives
+            # the whole block as the port sees it
+            entry = {"net": _local(block, net), "role": role, "signal": signal,
+                     "driver": [_local(block, pin.stimulus)] if pin.stimulus else ["ideal source (assumed)"],
+                     "receiver": ["the block (Z_in of the port)"],
+                     "z_out_ohm": None if signal == "current" else 0.0,
+                     "z_in_ohm": mag_or_none(solves.z(net, 0.0, base))}
+            if band_hz:
+                entry["z_out_band_ohm"] = entry["z_out_ohm"]
+                entry["z_in_band_ohm"] = mag_or_none(solves.z(net, band_hz, base))
+            entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
+            row["interfaces"].append(entry)
+            continue
+        others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
+                  and d.name not in base]
+        z_out = solves.z(net, 0.0, base + tuple(receiver))
+        z_in = solves.z(net, 0.0, base + tuple(others)) if receiver else None
+        entry = {"net": _local(block, net), "role": role, "signal": signal,
+                 "driver": [_local(block, o) for o in others],
+                 "receiver": [_local(block, r) for r in receiver],
+                 "z_out_ohm": mag_or_none(z_out), "z_in_ohm": mag_or_none(z_in)}
+        if band_hz:
+            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
+            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
+                                      if receiver else None)
+        entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
+        row["interfaces"].append(entry)
+
+
+def _z_near(solves, net_idx: int, names, detach) -> float:
+    if net_idx == 0 or solves.solver(0.0, detach).unknown(names[net_idx]) < 0:
+        return 0.0
+    z = solves.z(names[net_idx], 0.0, detach)
+    return math.inf if z is None else abs(z)
+
+
+def _verdict(signal: str, z_out, z_in) -> dict:
+    """Voltage wants Z_out << Z_in, current wants Z_in << Z_out (analog-knowledge 3)."""
+    inf = math.inf
+    zo = inf if z_out is None else z_out
+    zi = inf if z_in is None else z_in
+    if signal == "voltage":
+        ratio = 0.0 if zi == inf and zo < inf else (zo / zi if zi > 0 else inf)
+        kept = 1.0 if zi == inf and zo < inf else (zi / (zi + zo) if zo < inf and zi < inf else 0.0)
+        want = "Z_out << Z_in"
+    else:
+        ratio = 0.0 if zo == inf and zi < inf else (zi / zo if zo > 0 else inf)
+        kept = 1.0 if zo == inf and zi < inf else (zo / (zi + zo) if zo < inf and zi < inf else 0.0)
+        want = "Z_in << Z_out"
+    if zo == inf and zi == inf:
+        return {"ratio": None, "kept": None, "suits": want, "verdict": "both open: the level is undefined"}
+    ok = ratio <= INTERFACE_RATIO_LIMIT
+    return {"ratio": ratio if math.isfinite(ratio) else None, "kept": kept, "suits": want,
+            "verdict": "suits a " + signal + " signal" if ok else
+            f"loses {100 * (1 - kept):.0f} % of the {signal} signal ({want} not met)"}
+
+
+def _attach_findings(data: dict, block: _Block) -> None:
+    """Each finding's fingerprint next to the port or stage it names."""
+    by_net: dict[str, list[str]] = {}
+    by_dev: dict[str, list[str]] = {}
+    cell = block.cell.name
+    for f in data["findings"]:
+        if (f.get("cell") or "") != (cell if not block.cell.is_top else ""):
+            continue
+        for net in {f["subject"], *f["nets"]}:
+            by_net.setdefault(net.lower(), []).append(f["fingerprint"])
+        for dev in {f["subject"], *f["elements"]}:
+            by_dev.setdefault(dev.lower(), []).append(f["fingerprint"])
+    for port in data["ports"]:
+        port["findings"] = sorted(set(by_net.get(port["net"], [])))
+    for stage in data["stages"]:
+        stage["findings"] = sorted(set(by_dev.get(stage["device"], [])))
