@@ -17,7 +17,7 @@ Why it matters
 Example
     ::
 
-        V1 in 0 dc 0.9
+        V2 in 0 dc 0.9
         R1 vdd out 10k
         M1 out inp 0 0 nch      <- 'inp': the one terminal on this net
 

@@ -16,7 +16,7 @@ Example
     ::
 
         R3 out out 10k
-        M4 n1 g n1 0 nch       <- drain and source on n1
+        M4 n1 out n1 0 nch     <- drain and source on n1
 
 Fix
     Connect the terminal that was typed twice to the net that was meant, or remove the

@@ -20,8 +20,9 @@ Example
 
         V1 vdd 0 1.8
         V2 vdd 0 1.8            <- a second supply in parallel
-        L1 a 0 10u
-        V3 a 0 0.5              <- an inductor across a source
+        V3 a 0 0.5
+        L1 a b 10u
+        V4 b 0 0.2              <- V3, L1, V4 close a loop through ground
 
 Fix
     Remove the duplicated source, or put the real series resistance in the loop (an

@@ -19,8 +19,8 @@ Example
         * mirror: the reference M0 was meant to be diode-connected (gate = drain)
         I0 vdd nd 10u
         M0 nd nb 0 0 nch
-        M1 out1 nb 0 0 nch
-        M2 out2 nb 0 0 nch
+        M1 o1 nb 0 0 nch
+        M2 o2 nb 0 0 nch
 
 Fix
     Diode-connect the mirror reference (gate to drain), or bias an AC-coupled gate with
