@@ -83,12 +83,12 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
         return
     kind = "NMOS" if nmos else "PMOS"
     vb = known.volts.get(body)
-    base = dict(location=dev.location, subject=dev.name, view=view, elements=[dev.name])
+    base = dict(location=dev.location, subject=dev.name, view=view)
     if vb is not None and low is not None and high is not None and high > low:
         wrong_rail = high if nmos else low
         if abs(vb - wrong_rail) < 1e-9:
             yield ctx.finding(
-                **base, nets=[body],
+                **base, nets=[body], elements=[dev.name],
                 message=f"{kind} {dev.display} has its body on the "
                         f"{'highest' if nmos else 'lowest'} rail {body} ({_fmt(vb)})",
                 explanation=[*_evidence(known, body, src, drn),
@@ -108,7 +108,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
             forward = (vb - v) if nmos else (v - vb)
             if forward > FORWARD_V:
                 yield ctx.finding(
-                    **base, nets=[body, net],
+                    **base, nets=[body, net], elements=[dev.name],
                     message=f"the {pin}-body junction of {kind} {dev.display} is forward-"
                             f"biased by {forward:g} V",
                     explanation=[*_evidence(known, body, net),
@@ -130,7 +130,6 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
                 for d, p in terms):
             shared_done.add(body)
             others = [d for d, _ in terms if d is not dev and d.kind != "capacitor"]
-            base.pop("elements")
             yield ctx.finding(
                 **base, nets=[body],
                 message=f"the body net {body} of {dev.display} floats: it touches only "
