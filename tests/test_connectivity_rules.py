@@ -177,6 +177,13 @@ def test_current_source_inside_a_floating_island_is_no_dc_path():
     assert islands_of("V1 a 0 1\nC1 a x 1p\nI1 x y 1u\nR1 x y 1k\n") == {("no-dc-path", "x")}
 
 
+def test_transconductor_into_capacitor_with_feedback_is_not_judged():
+    # a G output that its own control input observes acts as a conductance (OTA follower)
+    assert islands_of("V1 inp 0 1\nG1 0 out inp out 1m\nC1 out 0 1p\n") == set()
+    assert islands_of("V1 inp 0 1\nG1 0 out inp 0 1m\nC1 out 0 1p\n") == \
+        {("current-cutset", "out")}
+
+
 # -- source-loop ---------------------------------------------------------------------------
 def test_parallel_supplies_name_both():
     (f,) = findings("V1 vdd 0 1.8\nV2 vdd 0 1.8\nR1 vdd 0 1k\n", "source-loop")

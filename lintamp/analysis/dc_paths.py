@@ -68,6 +68,7 @@ class DevicePlan:
     controls: tuple[int, ...] = ()                 # gate / base pins (draw no DC bias current)
     currents: tuple[int, ...] = ()                 # current-source output pins
     unknown: tuple[int, ...] = ()                  # pins lintamp cannot judge
+    senses: tuple[int, ...] = ()                   # control inputs of controlled sources
 
 
 def is_voltage_output(dev: Device) -> bool:
@@ -89,18 +90,22 @@ def device_plan(dev: Device) -> DevicePlan:
     """
     kind = dev.kind
     n = len(dev.nets)
+    if kind in ("vcvs", "switch"):
+        return DevicePlan(groups=(_pos(dev, "p", "n"),),
+                          senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
     if kind in TWO_TERMINAL_SHORTS:
-        extra = () if kind in ("vcvs", "switch") else tuple(
-            i for i, p in enumerate(dev.pins) if p not in ("p", "n"))  # a mapped R's body pin
+        extra = tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n"))  # a mapped R's body
         return DevicePlan(groups=(_pos(dev, "p", "n"),), unknown=extra)
     if kind == "diode":
         return DevicePlan(groups=(_pos(dev, "a", "k"),))
     if kind == "behavioral":
+        senses = tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n"))
         if is_voltage_output(dev):
-            return DevicePlan(groups=(_pos(dev, "p", "n"),))
-        return DevicePlan(currents=_pos(dev, "p", "n"))
+            return DevicePlan(groups=(_pos(dev, "p", "n"),), senses=senses)
+        return DevicePlan(currents=_pos(dev, "p", "n"), senses=senses)
     if kind in CURRENT_KINDS:
-        return DevicePlan(currents=_pos(dev, "p", "n"))
+        return DevicePlan(currents=_pos(dev, "p", "n"),
+                          senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
     if kind == "capacitor":
         return DevicePlan(unknown=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
     if kind in MOS_KINDS:
@@ -140,6 +145,8 @@ class PortGroup:
     controls: tuple[str, ...] = ()
     currents: int = 0
     unknown: bool = False
+    controlled: int = 0   # of the current feeds, those a controlled source (G, F, B) makes
+    sensed: bool = False  # a controlled source's control input observes the component
 
 
 @dataclass(frozen=True, slots=True)
@@ -176,6 +183,8 @@ class CellDC:
     # net index -> descriptions of gate/base terminals reached through instance ports
     inner_controls: dict[int, list[str]] = field(default_factory=dict)
     current_feeds: list[tuple[Device, int]] = field(default_factory=list)  # (device, pin pos)
+    controlled: np.ndarray | None = None  # per component: controlled current feeds
+    sensed: np.ndarray | None = None      # per component: observed by a control input
 
 
 def _instance_groups(dev: Device, summary: CellSummary | None):
@@ -221,6 +230,9 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     inner_controls: dict[int, list[str]] = {}
     plans: dict[tuple, DevicePlan] = {}
     inst_currents: list[int] = []
+    inst_controlled: list[int] = []
+    sensed = np.zeros(n, dtype=bool)
+    by_name: dict[str, Device] | None = None
 
     def join(ids):
         first = ids[0]
@@ -246,6 +258,10 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
                         f"{c} inside {dev.display} ({dev.subcell.label})" for c in group.controls)
                 if group.currents:
                     inst_currents.append(members[0])
+                if group.controlled:
+                    inst_controlled.append(members[0])
+                if group.sensed:
+                    sensed[members[0]] = True
                 if group.unknown:
                     unknown[members[0]] = True
             continue
@@ -270,6 +286,17 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             currents_at.append((dev, p))
         for p in plan.unknown:
             unknown[ids[p]] = True
+        for p in plan.senses:
+            sensed[ids[p]] = True
+        if dev.element.controls and dev.kind != "coupling":
+            # F, H, W and POLY forms sense the current of a V source: its nets are observed
+            if by_name is None:
+                by_name = {d.name: d for d in view.devices}
+            for name in dev.element.controls:
+                ctl = by_name.get(name)
+                if ctl is not None:
+                    for net in ctl.nets:
+                        sensed[index[net]] = True
 
     if n:
         graph = coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)), shape=(n, n))
@@ -311,6 +338,7 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     for dev, p in currents_at:
         by_dev.setdefault(id(dev), []).append(p)
     seen: set[int] = set()
+    comp_controlled = np.zeros(n_comp, dtype=np.int64)
     for dev, p in currents_at:
         if id(dev) in seen:
             continue
@@ -320,13 +348,21 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         for q, comp in zip(pins, comps):
             if any(other != comp for other in comps):  # a feed from outside the component
                 comp_currents[comp] += 1
+                if dev.kind != "isource":
+                    comp_controlled[comp] += 1
                 feeds.append((dev, q))
     for i in inst_currents:
         comp_currents[labels[i]] += 1
+    for i in inst_controlled:
+        comp_controlled[labels[i]] += 1
+    comp_sensed = np.zeros(n_comp, dtype=bool)
+    if n:
+        comp_sensed[labels[sensed]] = True
     return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
                   n_components=int(n_comp), ground=ground, port=port, unknown=comp_unknown,
                   controls=comp_controls, currents=comp_currents, globals=comp_globals,
-                  inner_controls=inner_controls, current_feeds=feeds)
+                  inner_controls=inner_controls, current_feeds=feeds,
+                  controlled=comp_controlled, sensed=comp_sensed)
 
 
 def summarise(dc: CellDC) -> CellSummary:
@@ -367,7 +403,8 @@ def summarise(dc: CellDC) -> CellSummary:
             ports=tuple(by_comp[comp]), ground=bool(dc.ground[comp]),
             globals=frozenset(dc.globals.get(comp, ())), n_controls=int(dc.controls[comp]),
             controls=tuple(descriptions[comp][:4]), currents=int(dc.currents[comp]),
-            unknown=bool(dc.unknown[comp])))
+            unknown=bool(dc.unknown[comp]), controlled=int(dc.controlled[comp]),
+            sensed=bool(dc.sensed[comp])))
     return CellSummary(groups=tuple(groups), group_of=tuple(group_of))
 
 
@@ -491,6 +528,8 @@ class Island:
     controls: list[str]                  # "gate of M1", also through instances
     current_feeds: list[tuple[Device, str]]  # current sources entering from outside
     undefined_globals: list[str]
+    controlled_feeds: bool = False  # a controlled source (G, F, B with I=) feeds it
+    sensed: bool = False            # a control input observes it: feedback may set it
 
     @property
     def first_device(self) -> Device | None:
@@ -547,6 +586,8 @@ def islands(ctx, view: CellView, mode: str = FULL) -> list[Island]:
             if comp in out:
                 out[comp].current_feeds.append((dev, dev.pins[p]))
         for comp, isl in out.items():
+            isl.controlled_feeds = bool(dc.controlled[comp])
+            isl.sensed = bool(dc.sensed[comp])
             if dc.currents[comp] and not isl.current_feeds:
                 isl.current_feeds.extend(
                     (d, pin) for d, pin in isl.terminals if d.kind == "instance")
@@ -565,9 +606,14 @@ def reaches_defined_level(ctx, view: CellView, net: str, mode: str = FULL) -> bo
 
 
 # -- helpers the connectivity rules share ---------------------------------------------------
-def island_rule(island: Island) -> str:
+def island_rule(island: Island) -> str | None:
     """Which rule reports an island: a current feed makes it a cut set, a gate or base an
-    unbiased gate, anything else a plain missing DC path."""
+    unbiased gate, anything else a plain missing DC path.  None when a controlled
+    current source feeds an island that a control input observes: feedback through
+    the controlled sources may set its level (an OTA macromodel's G output into a
+    capacitor, closed by feedback), which connectivity alone cannot judge."""
+    if island.controlled_feeds and island.sensed:
+        return None
     if island.current_feeds:
         return "current-cutset"
     if island.controls:
