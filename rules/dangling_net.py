@@ -6,7 +6,8 @@ What it finds
     A net whose one terminal is the output of a voltage source (V, E, H, B with
     ``V=``) is a computed test signal, not a missed connection, and is not reported.
     Cells with a card lintamp could not read are skipped: that card may be the
-    second terminal.
+    second terminal; so are nets on pins of unknown subcircuits, and the top level of a
+    design netlist (no source, no analysis: its nets are the design's pins).
 
 Why it matters
     A net with one end is nearly always a typo or a connection that was never made:
@@ -25,7 +26,8 @@ Fix
     Connect the net where it was meant to go, or delete the unused element.
 """
 
-from lintamp.analysis.dc_paths import describe_terminal, is_voltage_output, unread_cells
+from lintamp.analysis.dc_paths import (describe_terminal, interface_view, is_voltage_output,
+                                       unread_cells)
 from lintamp.findings import Severity
 
 NAME = "dangling-net"
@@ -45,10 +47,11 @@ def check(ctx):
     skip = unread_cells(ctx)
     ground = ctx.design.ground
     for view in ctx.cells():
-        if id(view) in skip:
+        if id(view) in skip or interface_view(ctx.design, view):
             continue
+        roleless = {net for dev in view.devices for net in dev.nets[len(dev.pins):]}
         for net, terminals in view.net_terminals.items():
-            if len(terminals) != 1 or view.is_external(net) or net in ground:
+            if len(terminals) != 1 or view.is_external(net) or net in ground or net in roleless:
                 continue
             dev, pin = terminals[0]
             if _is_voltage_output(dev, pin):

@@ -6,7 +6,10 @@ What it finds
     supply that is itself grounded, or to a port of its subcircuit (a port counts as
     biased from outside).  One finding per island, at its first element, listing the
     nets.  Islands that hold a gate or base are reported as ``unbiased-gate``, islands
-    that a current source feeds as ``current-cutset``.
+    that a current source feeds as ``current-cutset``.  The top level of a design
+    netlist (instances, but no source and no analysis card) is the design's interface:
+    its nets count as driven from outside.  Cells with a card or an include lintamp
+    could not read are not judged.
 
 Why it matters
     At DC a capacitor is open, so the island's voltage is not determined by anything:

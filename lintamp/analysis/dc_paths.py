@@ -89,7 +89,7 @@ def device_plan(dev: Device) -> DevicePlan:
     A MOS joins drain, source and body; its gate is a control pin.
     """
     kind = dev.kind
-    n = len(dev.nets)
+    n = min(len(dev.nets), len(dev.pins))
     if kind in ("vcvs", "switch"):
         return DevicePlan(groups=(_pos(dev, "p", "n"),),
                           senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
@@ -192,7 +192,7 @@ def _instance_groups(dev: Device, summary: CellSummary | None):
     if summary is None:
         return None
     out = []
-    n = len(dev.nets)
+    n = min(len(dev.nets), len(dev.pins))
     for group in summary.groups:
         pins = tuple(p for p in group.ports if p < n)
         if pins:
@@ -220,6 +220,10 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     index: dict[str, int] = {}
     for net in view.net_terminals:
         index[net] = len(index)
+    for dev in view.devices:  # nets on pins without a role (an unknown cell's pins)
+        if len(dev.nets) > len(dev.pins):
+            for net in dev.nets[len(dev.pins):]:
+                index.setdefault(net, len(index))
     nets = list(index)
     n = len(nets)
     rows: list[int] = []
@@ -241,7 +245,10 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             cols.append(other)
 
     for dev in view.devices:
-        ids = [index[net] for net in dev.nets]
+        # only nets with a pin role are terminals (an instance with too many nets: pin-mismatch)
+        ids = [index[net] for net in dev.nets[:len(dev.pins)]]
+        for net in dev.nets[len(dev.pins):]:
+            unknown[index[net]] = True  # a pin lintamp knows no role for
         if dev.kind == "instance" and dev.subcell is not None:
             groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
             if groups is None:
@@ -304,6 +311,9 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     else:
         n_comp, labels = 0, np.zeros(0, dtype=np.int32)
 
+    def ids_of(dev, pos):  # noqa: E306 - a small local accessor
+        return index[dev.nets[pos]]
+
     ground = np.zeros(n_comp, dtype=bool)
     port = np.zeros(n_comp, dtype=bool)
     comp_globals: dict[int, set[str]] = {}
@@ -322,7 +332,7 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         if not groups:
             continue
         for pins, group in groups:
-            comp = int(labels[index[dev.nets[pins[0]]]])
+            comp = int(labels[ids_of(dev, pins[0])])
             if group.ground:
                 ground[comp] = True
             if group.globals:
@@ -344,7 +354,7 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             continue
         seen.add(id(dev))
         pins = by_dev[id(dev)]
-        comps = [int(labels[index[dev.nets[q]]]) for q in pins]
+        comps = [int(labels[ids_of(dev, q)]) for q in pins]
         for q, comp in zip(pins, comps):
             if any(other != comp for other in comps):  # a feed from outside the component
                 comp_currents[comp] += 1
@@ -486,7 +496,7 @@ def design_dc(design, mode: str) -> DesignDC:
         dc = cell_dc(view, mode, ground_names, summaries)
         cells[id(view)] = dc
         summaries[id(view)] = summarise(dc)
-    library = not design.deck_cells
+    library = not is_simulation_deck(design)
     defined: set[str] = set()
     if not library:
         # union-find over global names: a deck cell's component joins them
@@ -510,6 +520,24 @@ def design_dc(design, mode: str) -> DesignDC:
         defined = {g for g in parent if g != "\x00ground" and find(g) == root}
     return DesignDC(mode=mode, cells=cells, summaries=summaries,
                     defined_globals=frozenset(defined), library=library)
+
+
+def is_simulation_deck(design) -> bool:
+    """The file is a simulation deck: its top level has devices, and an analysis card or
+    an independent source.  Otherwise (a design netlist: top-level instances and nothing
+    to drive them) the top level's nets are the design's interface and count as
+    connected from outside, like a subcircuit's ports."""
+    if not design.deck_cells:
+        return False
+    if design.netlist.analyses:
+        return True
+    return any(d.kind in ("vsource", "isource") for d in design.top.devices)
+
+
+def interface_view(design, view: CellView) -> bool:
+    """A view whose every net counts as connected from outside: the top level of a
+    design netlist (see :func:`is_simulation_deck`)."""
+    return view is design.top and bool(view.devices) and not is_simulation_deck(design)
 
 
 def get_design_dc(ctx, mode: str = FULL) -> DesignDC:
@@ -542,6 +570,9 @@ class Island:
 def anchored(ddc: DesignDC, design, dc: CellDC) -> np.ndarray:
     """Per component: something outside the component defines its DC level."""
     anchor = dc.ground | dc.port | dc.unknown
+    if interface_view(design, dc.view):
+        anchor[:] = True
+        return anchor
     if dc.globals:
         everything = ddc.library or not design.in_deck(dc.view)
         for comp, names in dc.globals.items():
@@ -576,7 +607,7 @@ def islands(ctx, view: CellView, mode: str = FULL) -> list[Island]:
                                          current_feeds=[],
                                          undefined_globals=sorted(dc.globals.get(comp, ())))
             isl.nets.append(net)
-            for dev, pin in view.net_terminals[net]:
+            for dev, pin in view.net_terminals.get(net, ()):
                 isl.terminals.append((dev, pin))
                 if is_control(dev, pin):
                     isl.controls.append(control_label(dev, pin))
@@ -649,7 +680,10 @@ def unread_cells(ctx) -> frozenset[int]:
     """Ids of cell views holding a card lintamp could not read (a parse error).
 
     The nets of such a card are unknown, so a net there may look dangling or
-    floating only because the card that connects it was not read.
+    floating only because the card that connects it was not read.  A missing or
+    refused include inside a ``.subckt`` body counts too (extracted cells include
+    their parasitic networks); a missing include at the top level does not (most
+    often a model library, which holds no connections).
 
     Notes
     -----
@@ -661,7 +695,11 @@ def unread_cells(ctx) -> frozenset[int]:
                  if not c.is_top and c.end_location]
         out: set[int] = set()
         for diag in netlist.diagnostics:
-            if diag.rule != "parse-error" or diag.severity != "error":
+            if diag.rule == "parse-error" and diag.severity == "error":
+                pass
+            elif diag.rule in ("missing-include", "bad-include"):
+                pass  # inside a .subckt: the unread file holds part of the cell's body
+            else:
                 continue
             loc = diag.location
             best = netlist.top
@@ -669,6 +707,8 @@ def unread_cells(ctx) -> frozenset[int]:
                 if start.path == loc.path and start.line <= loc.line <= end.line:
                     if best.is_top or best.location.line <= start.line:
                         best = cell
+            if best.is_top and diag.rule != "parse-error":
+                continue  # a top-level include that is missing: most often model cards
             out.add(id(ctx.design.views[id(best)]) if id(best) in ctx.design.views else 0)
         return frozenset(out)
 

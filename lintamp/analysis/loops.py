@@ -176,7 +176,7 @@ def cell_loops(view: CellView, ground: frozenset[str], summaries: dict[int, Rigi
 def _end_net(end, dev: Device, ground: frozenset[str]) -> str | None:
     kind, value = end
     if kind == "port":
-        if value >= len(dev.nets):
+        if value >= min(len(dev.nets), len(dev.pins)):
             return None
         return _key(dev.nets[value], ground)
     return value  # ground key or a global's name
