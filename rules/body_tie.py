@@ -14,7 +14,8 @@ What it finds
 
     Not reported: a body on its own source, bodies on intermediate rails whose
     junctions the known voltages do not forward-bias, bulk-driven or dynamic-threshold
-    designs (body on a signal net), and MOS capacitors (drain = source = body).
+    designs (body on a signal net), MOS capacitors (drain = source = body), and SOI
+    devices (their fourth node is the substrate, not a body).
 
 Why it matters
     A forward-biased source/drain-body junction conducts IS*exp(V/VT): the device leaks
@@ -48,9 +49,26 @@ def _is_mos_cap(dev) -> bool:
     return dev.net("d") == dev.net("s") == dev.net("b")
 
 
+SOI_LEVELS = frozenset({9, 10, 55, 56, 57, 58, 70})  # ngspice BSIM3SOI / B4SOI levels
+
+
+def _is_soi(dev) -> bool:
+    """SOI models take the substrate (back gate) as the fourth node, not a body."""
+    if len(dev.nets) > 4:
+        return True
+    model = dev.model
+    if model is None:
+        return False
+    try:
+        return int(float(model.params.get("level", "1"))) in SOI_LEVELS
+    except ValueError:
+        return False
+
+
 def _transistors(view):
     for dev in view.devices:
-        if dev.kind in ("nmos", "pmos") and dev.net("b") is not None and not _is_mos_cap(dev):
+        if (dev.kind in ("nmos", "pmos") and dev.net("b") is not None and not _is_mos_cap(dev)
+                and not _is_soi(dev)):
             yield dev
 
 

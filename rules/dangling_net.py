@@ -6,7 +6,8 @@ What it finds
     A net whose one terminal is the output of a voltage source (V, E, H, B with
     ``V=``) is a computed test signal, not a missed connection, and is not reported.
     Cells with a card lintamp could not read are skipped: that card may be the
-    second terminal; so are nets on pins of unknown subcircuits, and the top level of a
+    second terminal; so are nets on pins of unknown subcircuits or of devices lintamp
+    does not model (XSPICE code models, simulator-specific Y devices), and the top level of a
     design netlist (no source, no analysis: its nets are the design's pins).
 
 Why it matters
@@ -54,8 +55,8 @@ def check(ctx):
             if len(terminals) != 1 or view.is_external(net) or net in ground or net in roleless:
                 continue
             dev, pin = terminals[0]
-            if _is_voltage_output(dev, pin):
-                continue
+            if _is_voltage_output(dev, pin) or dev.kind in ("xspice", "other"):
+                continue  # a computed test signal, or a device whose pins lintamp cannot judge
             yield ctx.finding(
                 location=dev.location, subject=net, view=view, nets=[net], elements=[dev.name],
                 message=f"{net} is touched only by {describe_terminal(dev, pin)}",

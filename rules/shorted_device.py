@@ -2,10 +2,12 @@
 
 What it finds
     A resistor, capacitor, inductor or diode with both ends on one net; a voltage or
-    current source with both ends on one net; a MOS with drain = source; a BJT with
-    collector = emitter; a JFET with drain = source.  Not reported, because they are
-    intentional: a diode-connected MOS (gate = drain) or BJT (base = collector), and
-    a MOS capacitor (drain = source = body, gate on another net).
+    current source with both ends on one net; a MOS or JFET with gate, drain and source
+    on one net; a BJT with collector = emitter.  Not reported, because they are
+    intentional: a diode-connected MOS (gate = drain) or BJT (base = collector), a
+    MOS capacitor (drain = source = body, gate on another net), and any MOS with
+    drain = source but its gate elsewhere -- the shape of a layout dummy (gate at the
+    off rail) as well as of a MOS capacitor, common in extracted netlists.
 
 Why it matters
     The device does nothing (a dead element, a transistor that can never carry
@@ -16,7 +18,7 @@ Example
     ::
 
         R3 out out 10k
-        M4 n1 out n1 0 nch     <- drain and source on n1
+        M4 n1 n1 n1 0 nch      <- gate, drain and source on n1
 
 Fix
     Connect the terminal that was typed twice to the net that was meant, or remove the
@@ -48,8 +50,8 @@ def shorted_pins(dev) -> tuple[str, str] | None:
         d, s = net("d"), net("s")
         if d is None or d != s:
             return None
-        if dev.kind in MOS_KINDS and net("b") == d and net("g") != d:
-            return None  # a MOS capacitor: gate against the tied channel and body
+        if net("g") != d:
+            return None  # a MOS capacitor or a layout dummy: gate against the tied channel
         return "d", "s"
     if dev.kind in BJT_KINDS:
         c, e = net("c"), net("e")

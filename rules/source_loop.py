@@ -55,8 +55,8 @@ def check(ctx):
                 location=closing.location, subject=closing.name, view=view, nets=nets,
                 elements=elements,
                 message=f"{closing.display} closes a loop of zero-impedance DC branches: "
-                        + ", ".join(names),
-                explanation=[f"around the loop {order}: " + ", ".join(names),
+                        + "; ".join(names),
+                explanation=[f"around the loop {order}: " + "; ".join(names),
                              "each branch fixes the voltage across it at DC (an inductor and "
                              "a 0-ohm resistor fix 0 V)",
                              "KVL around the loop is then contradicted or leaves the loop "

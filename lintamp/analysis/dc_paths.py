@@ -120,7 +120,10 @@ def device_plan(dev: Device) -> DevicePlan:
     if kind in JFET_KINDS:
         return DevicePlan(groups=(_pos(dev, "d", "s"),), full_only=(_pos(dev, "d", "g", "s"),),
                           controls=_pos(dev, "g"))
-    if kind == "line" and dev.element.letter in ("t", "o", "u"):
+    letter = dev.element.letter
+    is_line = letter == "t" or (letter == "o" and (dev.model is None or dev.model.type == "ltra")) \
+        or (letter == "u" and dev.model is not None and dev.model.type == "urc")
+    if kind == "line" and is_line:  # a U without a URC model is a digital primitive
         return DevicePlan(groups=tuple(g for g in ((0, 1), (2, 3)) if max(g) < n)
                           + ((tuple(range(4, n)),) if n > 4 else ()))
     if kind == "coupling":
@@ -495,7 +498,8 @@ def design_dc(design, mode: str) -> DesignDC:
     for view in bottom_up(design.cells):
         dc = cell_dc(view, mode, ground_names, summaries)
         cells[id(view)] = dc
-        summaries[id(view)] = summarise(dc)
+        # an empty definition is a black box (an abstract view): its ports are unknown
+        summaries[id(view)] = summarise(dc) if view.devices else None
     library = not is_simulation_deck(design)
     defined: set[str] = set()
     if not library:

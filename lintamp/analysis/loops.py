@@ -193,6 +193,10 @@ def _summary(view: CellView, forest: _Forest, ground: frozenset[str]) -> RigidSu
             ends.setdefault(forest.find(node), []).append((("node", node), node))
     summary = RigidSummary()
     for members in ends.values():
+        unique: dict[str, tuple[object, str]] = {}
+        for end, key in members:  # a port called gnd is ground itself: one end, not two
+            unique.setdefault(key, (end, key))
+        members = list(unique.values())
         first_end, first_key = members[0]
         for end, key in members[1:]:
             if first_key == key:
