@@ -386,6 +386,8 @@ def summarise(dc: CellDC) -> CellSummary:
     O(ports + control terminals of port components).
     """
     view = dc.view
+    if not view.ports:
+        return CellSummary(groups=(), group_of=())
     by_comp: dict[int, list[int]] = {}
     order: list[int] = []
     for pos, port in enumerate(view.ports):
