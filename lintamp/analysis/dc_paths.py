@@ -1,0 +1,721 @@
+"""DC conduction: which nets a DC path joins, and which of them something anchors.
+
+At DC a capacitor is open, an inductor a short, an ideal current source an open
+branch that still forces its current.  A net whose DC component contains neither
+ground, nor a DC-defined global, nor a port of its cell (biased from outside) has
+no defined voltage: the MNA conductance matrix is singular there.
+
+What conducts (pins of one device joined into one DC group):
+
+==========================  ==========================================================
+R (any value), L, V         p-n (a 0-ohm R is a short)
+E, H, B with ``V=``         output p-n (a voltage output); control inputs do not conduct
+diode, switch S/W           a-k, p-n
+BJT                         c, b, e (both junctions); the substrate pin does not conduct
+MOS                         d, s and b: channel plus the two bulk junction diodes
+JFET / MESFET               d, s and g (channel plus gate junction)
+T/O/U lines                 each port pair (p1-n1, p2-n2): Z0 (or R) in the model
+mapped PDK devices          by their kind's pins; body pins of R/C are not judged
+C, MOS gate, I, G, F,       nothing (I, G, F, B with ``I=`` are *current feeds*)
+B with ``I=``, K
+subcircuit instance         its ports as the cell's own summary joins them
+==========================  ==========================================================
+
+Two modes.  ``FULL`` is what a simulator sees: junctions conduct, so a floating
+MOS body or BJT base is still "reached" through its diodes (ngspice-39 adds GMIN
+across every junction and converges).  ``BIAS`` treats a BJT base and a JFET gate as
+control inputs, like a MOS gate: a base reached only through its own junctions has
+no source of base current, and the device sits off (ngspice-39 settles such a base
+near 0.4 V without complaint).  MOS bulk junctions conduct in both modes; a floating
+body is the ``body-tie`` rule's business.
+
+Globals (``.global``) are one net everywhere.  Inside a simulation deck a global
+counts as defined only when some instantiated cell joins it to ground by a DC path
+(a V source to ground, a resistor, ...); in a cell library, and in cells no deck
+instantiates, every global counts as defined from outside.  Devices lintamp cannot
+judge (XSPICE models, unknown subcircuits, coupled line bundles, extra pins) mark
+their nets *unknown*, and a component holding an unknown net is never reported.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.sparse import coo_matrix
+from scipy.sparse.csgraph import connected_components
+
+from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, CellView, Device
+
+FULL = "full"
+BIAS = "bias"
+MAX_DEPTH = 200  # nesting bound for the bottom-up summaries
+
+JFET_KINDS = frozenset({"njf", "pjf", "jfet", "mesfet"})
+TWO_TERMINAL_SHORTS = frozenset({"resistor", "inductor", "vsource", "ccvs", "switch",
+                                 "cswitch", "vcvs"})
+CURRENT_KINDS = frozenset({"isource", "vccs", "cccs"})
+UNKNOWN_KINDS = frozenset({"other", "xspice", "recursive-instance"})
+
+
+# -- what one device does at DC ----------------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class DevicePlan:
+    """Pin positions of one device by DC role (positions index ``device.nets``)."""
+
+    groups: tuple[tuple[int, ...], ...] = ()       # pins joined (in both modes)
+    full_only: tuple[tuple[int, ...], ...] = ()    # pins joined in FULL mode only (junctions)
+    controls: tuple[int, ...] = ()                 # gate / base pins (draw no DC bias current)
+    currents: tuple[int, ...] = ()                 # current-source output pins
+    unknown: tuple[int, ...] = ()                  # pins lintamp cannot judge
+    senses: tuple[int, ...] = ()                   # control inputs of controlled sources
+
+
+def is_voltage_output(dev: Device) -> bool:
+    """A behavioural element whose output is a voltage (B with V=, E/H VALUE/TABLE)."""
+    letter = dev.element.letter
+    return (letter == "b" and dev.element.model == "v") or letter in ("e", "h")
+
+
+def _pos(dev: Device, *pins: str) -> tuple[int, ...]:
+    return tuple(i for i, p in enumerate(dev.pins) if p in pins)
+
+
+def device_plan(dev: Device) -> DevicePlan:
+    """The DC role of each pin of ``dev`` (instances excluded: see :func:`cell_dc`).
+
+    Examples
+    --------
+    A MOS joins drain, source and body; its gate is a control pin.
+    """
+    kind = dev.kind
+    n = min(len(dev.nets), len(dev.pins))
+    if kind in ("vcvs", "switch"):
+        return DevicePlan(groups=(_pos(dev, "p", "n"),),
+                          senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
+    if kind in TWO_TERMINAL_SHORTS:
+        extra = tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n"))  # a mapped R's body
+        return DevicePlan(groups=(_pos(dev, "p", "n"),), unknown=extra)
+    if kind == "diode":
+        return DevicePlan(groups=(_pos(dev, "a", "k"),))
+    if kind == "behavioral":
+        senses = tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n"))
+        if is_voltage_output(dev):
+            return DevicePlan(groups=(_pos(dev, "p", "n"),), senses=senses)
+        return DevicePlan(currents=_pos(dev, "p", "n"), senses=senses)
+    if kind in CURRENT_KINDS:
+        return DevicePlan(currents=_pos(dev, "p", "n"),
+                          senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
+    if kind == "capacitor":
+        return DevicePlan(unknown=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
+    if kind in MOS_KINDS:
+        return DevicePlan(groups=(_pos(dev, "d", "s", "b"),), controls=_pos(dev, "g"),
+                          unknown=tuple(i for i, p in enumerate(dev.pins)
+                                        if p not in ("d", "g", "s", "b")))
+    if kind in BJT_KINDS:
+        return DevicePlan(groups=(_pos(dev, "c", "e"),), full_only=(_pos(dev, "c", "b", "e"),),
+                          controls=_pos(dev, "b"),
+                          unknown=tuple(i for i, p in enumerate(dev.pins)
+                                        if p not in ("c", "b", "e", "s")))
+    if kind in JFET_KINDS:
+        return DevicePlan(groups=(_pos(dev, "d", "s"),), full_only=(_pos(dev, "d", "g", "s"),),
+                          controls=_pos(dev, "g"))
+    letter = dev.element.letter
+    is_line = letter == "t" or (letter == "o" and (dev.model is None or dev.model.type == "ltra")) \
+        or (letter == "u" and dev.model is not None and dev.model.type == "urc")
+    if kind == "line" and is_line:  # a U without a URC model is a digital primitive
+        return DevicePlan(groups=tuple(g for g in ((0, 1), (2, 3)) if max(g) < n)
+                          + ((tuple(range(4, n)),) if n > 4 else ()))
+    if kind == "coupling":
+        return DevicePlan()
+    return DevicePlan(unknown=tuple(range(n)))
+
+
+# -- a cell's summary as seen by its parent ------------------------------------------------
+@dataclass(frozen=True, slots=True)
+class PortGroup:
+    """Ports of a cell that one DC component joins inside it, and what that component holds.
+
+    ``ports`` are positions in the cell's port list; ``controls`` describes up to
+    four gate/base terminals for messages; ``currents`` counts current feeds that
+    enter the component from outside it.
+    """
+
+    ports: tuple[int, ...]
+    ground: bool = False
+    globals: frozenset[str] = frozenset()
+    n_controls: int = 0
+    controls: tuple[str, ...] = ()
+    currents: int = 0
+    unknown: bool = False
+    controlled: int = 0   # of the current feeds, those a controlled source (G, F, B) makes
+    sensed: bool = False  # a controlled source's control input observes the component
+
+
+@dataclass(frozen=True, slots=True)
+class CellSummary:
+    groups: tuple[PortGroup, ...]
+    group_of: tuple[int, ...]  # port position -> index into groups
+
+
+UNKNOWN_SUMMARY = None  # an instance without a usable summary: every pin unknown
+
+
+@dataclass(eq=False)
+class CellDC:
+    """DC components of one cell's nets in one mode.
+
+    ``labels[i]`` is the component of net ``nets[i]``.  Per component: ``ground``
+    (holds a ground net), ``port`` (holds a port), ``unknown``, ``controls`` and
+    ``currents`` counts (own terminals plus those reached through instances), and
+    ``globals`` (names) where any.
+    """
+
+    view: CellView
+    mode: str
+    nets: list[str]
+    index: dict[str, int]
+    labels: np.ndarray
+    n_components: int
+    ground: np.ndarray
+    port: np.ndarray
+    unknown: np.ndarray
+    controls: np.ndarray
+    currents: np.ndarray
+    globals: dict[int, set[str]] = field(default_factory=dict)
+    # net index -> descriptions of gate/base terminals reached through instance ports
+    inner_controls: dict[int, list[str]] = field(default_factory=dict)
+    current_feeds: list[tuple[Device, int]] = field(default_factory=list)  # (device, pin pos)
+    controlled: np.ndarray | None = None  # per component: controlled current feeds
+    sensed: np.ndarray | None = None      # per component: observed by a control input
+
+
+def _instance_groups(dev: Device, summary: CellSummary | None):
+    """(pin positions joined, PortGroup) per group of the subcircuit's summary."""
+    if summary is None:
+        return None
+    out = []
+    n = min(len(dev.nets), len(dev.pins))
+    for group in summary.groups:
+        pins = tuple(p for p in group.ports if p < n)
+        if pins:
+            out.append((pins, group))
+    return out
+
+
+def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
+            summaries: dict[int, CellSummary | None]) -> CellDC:
+    """Connected components of the DC graph of one cell.
+
+    Parameters
+    ----------
+    view : the cell.
+    mode : ``FULL`` (junctions conduct) or ``BIAS`` (BJT base, JFET gate do not).
+    ground_names : nets that are ground.
+    summaries : ``id(subcell view) -> CellSummary`` for every instantiated cell
+        (``None`` marks a cell that could not be summarised: its pins are unknown).
+
+    Notes
+    -----
+    One pass over the devices and one sparse connected-components call:
+    O(terminals) time and memory, integer indices only.
+    """
+    index: dict[str, int] = {}
+    for net in view.net_terminals:
+        index[net] = len(index)
+    for dev in view.devices:  # nets on pins without a role (an unknown cell's pins)
+        if len(dev.nets) > len(dev.pins):
+            for net in dev.nets[len(dev.pins):]:
+                index.setdefault(net, len(index))
+    nets = list(index)
+    n = len(nets)
+    rows: list[int] = []
+    cols: list[int] = []
+    controls = np.zeros(n, dtype=np.int64)
+    currents_at: list[tuple[Device, int]] = []
+    unknown = np.zeros(n, dtype=bool)
+    inner_controls: dict[int, list[str]] = {}
+    plans: dict[tuple, DevicePlan] = {}
+    inst_currents: list[int] = []
+    inst_controlled: list[int] = []
+    sensed = np.zeros(n, dtype=bool)
+    by_name: dict[str, Device] | None = None
+
+    def join(ids):
+        first = ids[0]
+        for other in ids[1:]:
+            rows.append(first)
+            cols.append(other)
+
+    for dev in view.devices:
+        # only nets with a pin role are terminals (an instance with too many nets: pin-mismatch)
+        ids = [index[net] for net in dev.nets[:len(dev.pins)]]
+        for net in dev.nets[len(dev.pins):]:
+            unknown[index[net]] = True  # a pin lintamp knows no role for
+        if dev.kind == "instance" and dev.subcell is not None:
+            groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+            if groups is None:
+                for i in ids:
+                    unknown[i] = True
+                continue
+            for pins, group in groups:
+                members = [ids[p] for p in pins]
+                if len(members) > 1:
+                    join(members)
+                if group.n_controls:
+                    controls[members[0]] += group.n_controls
+                    inner_controls.setdefault(members[0], []).extend(
+                        f"{c} inside {dev.display} ({dev.subcell.label})" for c in group.controls)
+                if group.currents:
+                    inst_currents.append(members[0])
+                if group.controlled:
+                    inst_controlled.append(members[0])
+                if group.sensed:
+                    sensed[members[0]] = True
+                if group.unknown:
+                    unknown[members[0]] = True
+            continue
+        if dev.kind == "instance":
+            for i in ids:
+                unknown[i] = True
+            continue
+        key = (dev.kind, dev.pins, dev.element.letter, dev.element.model)
+        plan = plans.get(key)
+        if plan is None:
+            plan = plans[key] = device_plan(dev)
+        for group in plan.groups:
+            if len(group) > 1:
+                join([ids[p] for p in group])
+        if mode == FULL:
+            for group in plan.full_only:
+                if len(group) > 1:
+                    join([ids[p] for p in group])
+        for p in plan.controls:
+            controls[ids[p]] += 1
+        for p in plan.currents:
+            currents_at.append((dev, p))
+        for p in plan.unknown:
+            unknown[ids[p]] = True
+        for p in plan.senses:
+            sensed[ids[p]] = True
+        if dev.element.controls and dev.kind != "coupling":
+            # F, H, W and POLY forms sense the current of a V source: its nets are observed
+            if by_name is None:
+                by_name = {d.name: d for d in view.devices}
+            for name in dev.element.controls:
+                ctl = by_name.get(name)
+                if ctl is not None:
+                    for net in ctl.nets:
+                        sensed[index[net]] = True
+
+    if n:
+        graph = coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)), shape=(n, n))
+        n_comp, labels = connected_components(graph, directed=False)
+    else:
+        n_comp, labels = 0, np.zeros(0, dtype=np.int32)
+
+    def ids_of(dev, pos):  # noqa: E306 - a small local accessor
+        return index[dev.nets[pos]]
+
+    ground = np.zeros(n_comp, dtype=bool)
+    port = np.zeros(n_comp, dtype=bool)
+    comp_globals: dict[int, set[str]] = {}
+    for net, i in index.items():
+        if net in ground_names:
+            ground[labels[i]] = True
+        elif net in view.globals:
+            comp_globals.setdefault(int(labels[i]), set()).add(net)
+        if net in view.ports:
+            port[labels[i]] = True
+    # instance groups that reach ground / globals inside anchor their component here
+    for dev in view.devices:
+        if dev.kind != "instance" or dev.subcell is None:
+            continue
+        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+        if not groups:
+            continue
+        for pins, group in groups:
+            comp = int(labels[ids_of(dev, pins[0])])
+            if group.ground:
+                ground[comp] = True
+            if group.globals:
+                comp_globals.setdefault(comp, set()).update(group.globals)
+    comp_unknown = np.zeros(n_comp, dtype=bool)
+    if n:
+        comp_unknown[labels[unknown]] = True
+    comp_controls = np.bincount(labels, weights=controls, minlength=n_comp).astype(np.int64) \
+        if n else np.zeros(0, dtype=np.int64)
+    comp_currents = np.zeros(n_comp, dtype=np.int64)
+    feeds: list[tuple[Device, int]] = []
+    by_dev: dict[int, list[int]] = {}
+    for dev, p in currents_at:
+        by_dev.setdefault(id(dev), []).append(p)
+    seen: set[int] = set()
+    comp_controlled = np.zeros(n_comp, dtype=np.int64)
+    for dev, p in currents_at:
+        if id(dev) in seen:
+            continue
+        seen.add(id(dev))
+        pins = by_dev[id(dev)]
+        comps = [int(labels[ids_of(dev, q)]) for q in pins]
+        for q, comp in zip(pins, comps):
+            if any(other != comp for other in comps):  # a feed from outside the component
+                comp_currents[comp] += 1
+                if dev.kind != "isource":
+                    comp_controlled[comp] += 1
+                feeds.append((dev, q))
+    for i in inst_currents:
+        comp_currents[labels[i]] += 1
+    for i in inst_controlled:
+        comp_controlled[labels[i]] += 1
+    comp_sensed = np.zeros(n_comp, dtype=bool)
+    if n:
+        comp_sensed[labels[sensed]] = True
+    return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
+                  n_components=int(n_comp), ground=ground, port=port, unknown=comp_unknown,
+                  controls=comp_controls, currents=comp_currents, globals=comp_globals,
+                  inner_controls=inner_controls, current_feeds=feeds,
+                  controlled=comp_controlled, sensed=comp_sensed)
+
+
+def summarise(dc: CellDC) -> CellSummary:
+    """Which ports one DC component joins inside the cell, with its flags.
+
+    Notes
+    -----
+    O(ports + control terminals of port components).
+    """
+    view = dc.view
+    if not view.ports:
+        return CellSummary(groups=(), group_of=())
+    by_comp: dict[int, list[int]] = {}
+    order: list[int] = []
+    for pos, port in enumerate(view.ports):
+        i = dc.index.get(port)
+        if i is None:
+            continue
+        comp = int(dc.labels[i])
+        if comp not in by_comp:
+            by_comp[comp] = []
+            order.append(comp)
+        by_comp[comp].append(pos)
+    wanted = set(order)
+    descriptions: dict[int, list[str]] = {c: [] for c in order}
+    for net, terms in view.net_terminals.items():
+        comp = int(dc.labels[dc.index[net]])
+        if comp not in wanted or len(descriptions[comp]) >= 4:
+            continue
+        for dev, pin in terms:
+            if is_control(dev, pin):
+                descriptions[comp].append(control_label(dev, pin))
+        descriptions[comp].extend(dc.inner_controls.get(dc.index[net], ()))
+    groups = []
+    group_of = [-1] * len(view.ports)
+    for comp in order:
+        for pos in by_comp[comp]:
+            group_of[pos] = len(groups)
+        groups.append(PortGroup(
+            ports=tuple(by_comp[comp]), ground=bool(dc.ground[comp]),
+            globals=frozenset(dc.globals.get(comp, ())), n_controls=int(dc.controls[comp]),
+            controls=tuple(descriptions[comp][:4]), currents=int(dc.currents[comp]),
+            unknown=bool(dc.unknown[comp]), controlled=int(dc.controlled[comp]),
+            sensed=bool(dc.sensed[comp])))
+    return CellSummary(groups=tuple(groups), group_of=tuple(group_of))
+
+
+def is_control(dev: Device, pin: str) -> bool:
+    """A MOS or JFET gate, or a BJT base: a terminal that needs a bias from elsewhere."""
+    if dev.kind in MOS_KINDS or dev.kind in JFET_KINDS:
+        return pin == "g"
+    if dev.kind in BJT_KINDS:
+        return pin == "b"
+    return False
+
+
+def control_label(dev: Device, pin: str) -> str:
+    """``gate of M1`` / ``base of Q3``."""
+    word = "base" if dev.kind in BJT_KINDS else "gate"
+    return f"{word} of {dev.display}"
+
+
+def bottom_up(views: list[CellView]) -> list[CellView]:
+    """Cell views children first, each once, nesting bounded by :data:`MAX_DEPTH`.
+
+    Notes
+    -----
+    Iterative depth-first search: O(cells + instances).
+    """
+    done: set[int] = set()
+    out: list[CellView] = []
+    for root in views:
+        if id(root) in done:
+            continue
+        stack: list[tuple[CellView, int]] = [(root, 0)]
+        on_stack = {id(root)}
+        while stack:
+            view, child = stack[-1]
+            subs = [d.subcell for d in view.devices if d.subcell is not None]
+            advanced = False
+            while child < len(subs):
+                sub = subs[child]
+                child += 1
+                if id(sub) not in done and id(sub) not in on_stack and len(stack) < MAX_DEPTH:
+                    stack[-1] = (view, child)
+                    stack.append((sub, 0))
+                    on_stack.add(id(sub))
+                    advanced = True
+                    break
+            if advanced:
+                continue
+            stack.pop()
+            on_stack.discard(id(view))
+            if id(view) not in done:
+                done.add(id(view))
+                out.append(view)
+    return out
+
+
+# -- the design-wide picture, memoised on the context ---------------------------------------
+@dataclass(eq=False)
+class DesignDC:
+    """Every cell's DC components in one mode, and the globals a deck defines."""
+
+    mode: str
+    cells: dict[int, CellDC]
+    summaries: dict[int, CellSummary | None]
+    defined_globals: frozenset[str]
+    library: bool  # no deck: every global counts as defined from outside
+
+
+def design_dc(design, mode: str) -> DesignDC:
+    """Components of every cell, bottom-up, then which globals are defined.
+
+    Notes
+    -----
+    O(total terminals of unique cells), independent of the instance count.
+    """
+    ground_names = design.ground
+    summaries: dict[int, CellSummary | None] = {}
+    cells: dict[int, CellDC] = {}
+    for view in bottom_up(design.cells):
+        dc = cell_dc(view, mode, ground_names, summaries)
+        cells[id(view)] = dc
+        # an empty definition is a black box (an abstract view): its ports are unknown
+        summaries[id(view)] = summarise(dc) if view.devices else None
+    library = not is_simulation_deck(design)
+    defined: set[str] = set()
+    if not library:
+        # union-find over global names: a deck cell's component joins them
+        parent: dict[str, str] = {}
+
+        def find(x):
+            while parent.setdefault(x, x) != x:
+                parent[x] = parent[parent[x]]
+                x = parent[x]
+            return x
+
+        for vid in design.deck_cells:
+            dc = cells.get(vid)
+            if dc is None:
+                continue
+            for comp, names in dc.globals.items():
+                members = list(names) + (["\x00ground"] if dc.ground[comp] else [])
+                for other in members[1:]:
+                    parent[find(other)] = find(members[0])
+        root = find("\x00ground")
+        defined = {g for g in parent if g != "\x00ground" and find(g) == root}
+    return DesignDC(mode=mode, cells=cells, summaries=summaries,
+                    defined_globals=frozenset(defined), library=library)
+
+
+def is_simulation_deck(design) -> bool:
+    """The file is a simulation deck: its top level has devices, and an analysis card or
+    an independent source.  Otherwise (a design netlist: top-level instances and nothing
+    to drive them) the top level's nets are the design's interface and count as
+    connected from outside, like a subcircuit's ports."""
+    if not design.deck_cells:
+        return False
+    if design.netlist.analyses:
+        return True
+    return any(d.kind in ("vsource", "isource") for d in design.top.devices)
+
+
+def interface_view(design, view: CellView) -> bool:
+    """A view whose every net counts as connected from outside: the top level of a
+    design netlist (see :func:`is_simulation_deck`)."""
+    return view is design.top and bool(view.devices) and not is_simulation_deck(design)
+
+
+def get_design_dc(ctx, mode: str = FULL) -> DesignDC:
+    """The memoised :func:`design_dc` of the context's design."""
+    return ctx.memo(("dc_paths", mode), lambda: design_dc(ctx.design, mode))
+
+
+# -- islands: components nothing anchors ---------------------------------------------------
+@dataclass(eq=False)
+class Island:
+    """A DC component of one cell with no path to ground, a defined global or a port."""
+
+    view: CellView
+    nets: list[str]                      # in order of first use
+    terminals: list[tuple[Device, str]]  # every (device, pin) on those nets, netlist order
+    controls: list[str]                  # "gate of M1", also through instances
+    current_feeds: list[tuple[Device, str]]  # current sources entering from outside
+    undefined_globals: list[str]
+    controlled_feeds: bool = False  # a controlled source (G, F, B with I=) feeds it
+    sensed: bool = False            # a control input observes it: feedback may set it
+
+    @property
+    def first_device(self) -> Device | None:
+        devices = [d for d, _ in self.terminals]
+        if not devices:
+            return None
+        return min(devices, key=lambda d: (d.location.path, d.location.line, d.location.column))
+
+
+def anchored(ddc: DesignDC, design, dc: CellDC) -> np.ndarray:
+    """Per component: something outside the component defines its DC level."""
+    anchor = dc.ground | dc.port | dc.unknown
+    if interface_view(design, dc.view):
+        anchor[:] = True
+        return anchor
+    if dc.globals:
+        everything = ddc.library or not design.in_deck(dc.view)
+        for comp, names in dc.globals.items():
+            if everything or names & ddc.defined_globals:
+                anchor[comp] = True
+    return anchor
+
+
+def islands(ctx, view: CellView, mode: str = FULL) -> list[Island]:
+    """The unanchored DC components of ``view`` (memoised per cell and mode).
+
+    Notes
+    -----
+    O(nets of the cell) to find them, then O(terminals on island nets).
+    """
+    def compute():
+        ddc = get_design_dc(ctx, mode)
+        dc = ddc.cells.get(id(view))
+        if dc is None or dc.n_components == 0:
+            return []
+        anchor = anchored(ddc, ctx.design, dc)
+        if anchor.all():
+            return []
+        out: dict[int, Island] = {}
+        for net, i in dc.index.items():
+            comp = int(dc.labels[i])
+            if anchor[comp]:
+                continue
+            isl = out.get(comp)
+            if isl is None:
+                isl = out[comp] = Island(view=view, nets=[], terminals=[], controls=[],
+                                         current_feeds=[],
+                                         undefined_globals=sorted(dc.globals.get(comp, ())))
+            isl.nets.append(net)
+            for dev, pin in view.net_terminals.get(net, ()):
+                isl.terminals.append((dev, pin))
+                if is_control(dev, pin):
+                    isl.controls.append(control_label(dev, pin))
+            isl.controls.extend(dc.inner_controls.get(i, ()))
+        for dev, p in dc.current_feeds:
+            comp = int(dc.labels[dc.index[dev.nets[p]]])
+            if comp in out:
+                out[comp].current_feeds.append((dev, dev.pins[p]))
+        for comp, isl in out.items():
+            isl.controlled_feeds = bool(dc.controlled[comp])
+            isl.sensed = bool(dc.sensed[comp])
+            if dc.currents[comp] and not isl.current_feeds:
+                isl.current_feeds.extend(
+                    (d, pin) for d, pin in isl.terminals if d.kind == "instance")
+        return list(out.values())
+
+    return ctx.memo(("islands", id(view), mode), compute)
+
+
+def reaches_defined_level(ctx, view: CellView, net: str, mode: str = FULL) -> bool:
+    """True when ``net`` of ``view`` has a DC path to ground, a defined global or a port."""
+    ddc = get_design_dc(ctx, mode)
+    dc = ddc.cells.get(id(view))
+    if dc is None or net not in dc.index:
+        return True
+    return bool(anchored(ddc, ctx.design, dc)[dc.labels[dc.index[net]]])
+
+
+# -- helpers the connectivity rules share ---------------------------------------------------
+def island_rule(island: Island) -> str | None:
+    """Which rule reports an island: a current feed makes it a cut set, a gate or base an
+    unbiased gate, anything else a plain missing DC path.  None when a controlled
+    current source feeds an island that a control input observes: feedback through
+    the controlled sources may set its level (an OTA macromodel's G output into a
+    capacitor, closed by feedback), which connectivity alone cannot judge."""
+    if island.controlled_feeds and island.sensed:
+        return None
+    if island.current_feeds:
+        return "current-cutset"
+    if island.controls:
+        return "unbiased-gate"
+    return "no-dc-path"
+
+
+_OPEN_WHY = {
+    "capacitor": "open at DC",
+    "isource": "an ideal current source: it fixes a current, not a voltage",
+    "vccs": "a current output: it fixes a current, not a voltage",
+    "cccs": "a current output: it fixes a current, not a voltage",
+}
+
+
+def describe_terminal(dev: Device, pin: str) -> str:
+    """``C1 (capacitor, open at DC)``, ``gate of M1 (draws no DC current)`` ..."""
+    if is_control(dev, pin):
+        return f"{control_label(dev, pin)} (draws no DC bias current)"
+    if dev.kind == "instance" and dev.subcell is not None:
+        return f"{dev.display} port {pin} of {dev.subcell.label}"
+    if dev.kind == "behavioral" and not is_voltage_output(dev) and pin in ("p", "n"):
+        return f"{dev.display} (a current output: it fixes a current, not a voltage)"
+    if dev.kind in ("vcvs", "vccs", "switch", "behavioral") and pin not in ("p", "n"):
+        return f"{dev.display} control input {pin} (draws no current)"
+    why = _OPEN_WHY.get(dev.kind)
+    if why:
+        return f"{dev.display} ({dev.kind}, {why})"
+    return f"{dev.display} ({dev.kind}, pin {pin})"
+
+
+def unread_cells(ctx) -> frozenset[int]:
+    """Ids of cell views holding a card lintamp could not read (a parse error).
+
+    The nets of such a card are unknown, so a net there may look dangling or
+    floating only because the card that connects it was not read.  A missing or
+    refused include inside a ``.subckt`` body counts too (extracted cells include
+    their parasitic networks); a missing include at the top level does not (most
+    often a model library, which holds no connections).
+
+    Notes
+    -----
+    O(parse errors x cells).
+    """
+    def compute():
+        netlist = ctx.netlist
+        spans = [(c, c.location, c.end_location) for c in netlist.all_cells()
+                 if not c.is_top and c.end_location]
+        out: set[int] = set()
+        for diag in netlist.diagnostics:
+            if diag.rule == "parse-error" and diag.severity == "error":
+                pass
+            elif diag.rule in ("missing-include", "bad-include"):
+                pass  # inside a .subckt: the unread file holds part of the cell's body
+            else:
+                continue
+            loc = diag.location
+            best = netlist.top
+            for cell, start, end in spans:
+                if start.path == loc.path and start.line <= loc.line <= end.line:
+                    if best.is_top or best.location.line <= start.line:
+                        best = cell
+            if best.is_top and diag.rule != "parse-error":
+                continue  # a top-level include that is missing: most often model cards
+            out.add(id(ctx.design.views[id(best)]) if id(best) in ctx.design.views else 0)
+        return frozenset(out)
+
+    return ctx.memo("unread_cells", compute)

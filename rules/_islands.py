@@ -1,0 +1,89 @@
+"""Shared building of island findings for no-dc-path, unbiased-gate and current-cutset.
+
+Each DC island (a component with no path to ground, a defined global or a port) is
+reported exactly once, by the rule :func:`lintamp.analysis.dc_paths.island_rule`
+picks for it; bases and JFET gates that only their own junctions reach are added
+to unbiased-gate from the BIAS-mode analysis.
+"""
+
+from __future__ import annotations
+
+from lintamp.analysis.dc_paths import (BIAS, FULL, describe_terminal, island_rule, islands,
+                                       reaches_defined_level, unread_cells)
+from lintamp.findings import Related
+
+MAX_LISTED = 8
+
+
+def island_findings(ctx, rule: str):
+    """(view, island, bias_only) for every island the named rule reports."""
+    skip = unread_cells(ctx)
+    for view in ctx.cells():
+        if id(view) in skip:
+            continue
+        for island in islands(ctx, view, FULL):
+            if island_rule(island) == rule:
+                yield view, island, False
+        if rule != "unbiased-gate":
+            continue
+        for island in islands(ctx, view, BIAS):
+            if island.current_feeds or not island.controls:
+                continue
+            if not reaches_defined_level(ctx, view, island.nets[0], FULL):
+                continue  # already reported as a FULL island
+            yield view, island, True
+
+
+def listing(items, limit: int = MAX_LISTED) -> str:
+    items = list(items)
+    shown = ", ".join(items[:limit])
+    return shown + (f" and {len(items) - limit} more" if len(items) > limit else "")
+
+
+def net_phrase(island) -> str:
+    nets = island.nets
+    if len(nets) == 1:
+        return nets[0]
+    return f"{nets[0]} (with {listing(nets[1:], 5)})"
+
+
+def context_steps(view, island) -> list[str]:
+    steps = []
+    if not view.cell.is_top:
+        steps.append(f"ports of {view.label} count as biased from outside; "
+                     f"{'this net reaches' if len(island.nets) == 1 else 'these nets reach'} "
+                     "no port")
+    for name in island.undefined_globals:
+        steps.append(f"the global {name} is here, but no instantiated cell ties it to ground "
+                     "by a DC path")
+    return steps
+
+
+def terminal_lines(island, limit: int = MAX_LISTED) -> str:
+    seen = []
+    for dev, pin in island.terminals:
+        text = describe_terminal(dev, pin)
+        if text not in seen:
+            seen.append(text)
+    return listing(seen, limit)
+
+
+def related(island, skip=None) -> list[Related]:
+    out = []
+    seen = set()
+    for dev, pin in island.terminals:
+        if dev is skip or id(dev) in seen:
+            continue
+        seen.add(id(dev))
+        out.append(Related(dev.location, describe_terminal(dev, pin)))
+        if len(out) >= MAX_LISTED:
+            break
+    return out
+
+
+def elements(island) -> list[str]:
+    names = []
+    for dev, _ in island.terminals:
+        if dev.name not in names:
+            names.append(dev.name)
+    return names

@@ -1,0 +1,182 @@
+"""An NMOS body off the lowest rail, a PMOS body off the highest, or a forward-biased body junction.
+
+What it finds
+    Only on clear evidence, never on net names alone:
+
+    * an NMOS body on the highest supply rail of the deck (a PMOS body on the lowest),
+      where V sources fix the rail voltages and the body is not the device's own source;
+    * a body junction that the known rail voltages forward-bias by more than 0.3 V: an
+      NMOS body above its source or drain, a PMOS body below them;
+    * a floating body: a body net that touches nothing but bodies (and capacitors) and
+      is not a port;
+    * where no voltages are known, one body net shared by NMOS and PMOS devices: one of
+      the two kinds sits on the wrong side.
+
+    Not reported: a body on its own source, bodies on intermediate rails whose
+    junctions the known voltages do not forward-bias, bulk-driven or dynamic-threshold
+    designs (body on a signal net), MOS capacitors (drain = source = body), and SOI
+    devices (their fourth node is the substrate, not a body).
+
+Why it matters
+    A forward-biased source/drain-body junction conducts IS*exp(V/VT): the device leaks
+    into the body, the threshold shifts and, on silicon, latch-up can follow.  A
+    floating body lets the threshold wander with leakage.
+
+Example
+    ::
+
+        V1 vdd 0 1.8
+        M1 out in 0 vdd nch     <- NMOS body on the 1.8 V rail, source at 0 V
+
+Fix
+    NMOS bodies to the lowest rail, PMOS bodies to the highest, or to the device's own
+    source where the process gives it a separate well.
+"""
+
+from lintamp.analysis.rails import get_rails
+from lintamp.findings import Related, Severity
+
+NAME = "body-tie"
+CATEGORY = "connectivity"
+SEVERITY = Severity.WARNING
+SUMMARY = ("an NMOS body off the lowest rail, a PMOS body off the highest, or a "
+           "forward-biased body junction")
+
+FORWARD_V = 0.3  # junction forward bias worth reporting (analog-knowledge 4.7, common practice)
+
+
+def _is_mos_cap(dev) -> bool:
+    return dev.net("d") == dev.net("s") == dev.net("b")
+
+
+SOI_LEVELS = frozenset({9, 10, 55, 56, 57, 58, 70})  # ngspice BSIM3SOI / B4SOI levels
+
+
+def _is_soi(dev) -> bool:
+    """SOI models take the substrate (back gate) as the fourth node, not a body."""
+    if len(dev.nets) > 4:
+        return True
+    model = dev.model
+    if model is None:
+        return False
+    try:
+        return int(float(model.params.get("level", "1"))) in SOI_LEVELS
+    except ValueError:
+        return False
+
+
+def _transistors(view):
+    for dev in view.devices:
+        if (dev.kind in ("nmos", "pmos") and dev.net("b") is not None and not _is_mos_cap(dev)
+                and not _is_soi(dev)):
+            yield dev
+
+
+def _fmt(v: float) -> str:
+    return f"{v:g} V"
+
+
+def check(ctx):
+    rails = get_rails(ctx)
+    for view in ctx.cells():
+        known = rails.of(view)
+        low, high = rails.lowest_v, rails.highest_v
+        if not ctx.design.in_deck(view) or low is None:
+            local = list(known.volts.values())
+            low, high = (min(local), max(local)) if local else (None, None)
+        shared_done = set()
+        for dev in _transistors(view):
+            yield from _check_device(ctx, view, dev, known, low, high, shared_done)
+
+
+def _evidence(known, *nets):
+    return [f"{n} = {_fmt(known.volts[n])} (set by {known.source[n]})" for n in nets
+            if n in known.volts]
+
+
+def _check_device(ctx, view, dev, known, low, high, shared_done):
+    nmos = dev.kind == "nmos"
+    body, src, drn = dev.net("b"), dev.net("s"), dev.net("d")
+    if body == src:
+        return
+    kind = "NMOS" if nmos else "PMOS"
+    vb = known.volts.get(body)
+    base = dict(location=dev.location, subject=dev.name, view=view)
+    if vb is not None and low is not None and high is not None and high > low:
+        wrong_rail = high if nmos else low
+        if abs(vb - wrong_rail) < 1e-9:
+            yield ctx.finding(
+                **base, nets=[body], elements=[dev.name],
+                message=f"{kind} {dev.display} has its body on the "
+                        f"{'highest' if nmos else 'lowest'} rail {body} ({_fmt(vb)})",
+                explanation=[*_evidence(known, body, src, drn),
+                             f"rails of the deck span {_fmt(low)} to {_fmt(high)}",
+                             f"an {kind} body belongs on the {'lowest' if nmos else 'highest'} "
+                             "rail (or its own source): its source and drain junctions are "
+                             "then reverse-biased"],
+                fix=f"tie the body of {dev.display} to the {'lowest' if nmos else 'highest'} "
+                    "rail, or to its own source",
+                values={"body_v": vb, "rail_low_v": low, "rail_high_v": high})
+            return
+    if vb is not None:
+        for pin, net in (("source", src), ("drain", drn)):
+            v = known.volts.get(net)
+            if v is None:
+                continue
+            forward = (vb - v) if nmos else (v - vb)
+            if forward > FORWARD_V:
+                yield ctx.finding(
+                    **base, nets=[body, net], elements=[dev.name],
+                    message=f"the {pin}-body junction of {kind} {dev.display} is forward-"
+                            f"biased by {forward:g} V",
+                    explanation=[*_evidence(known, body, net),
+                                 f"{'body above' if nmos else 'body below'} the {pin} by "
+                                 f"{forward:g} V > {FORWARD_V} V: the junction diode conducts "
+                                 "IS*exp(V/VT)"],
+                    fix=f"tie the body of {dev.display} to the "
+                        f"{'lowest' if nmos else 'highest'} rail or to its source",
+                    values={"forward_v": forward, "body_v": vb, f"{pin}_v": v})
+                return
+        return
+    # no voltages known: structural evidence only
+    if view.is_external(body):
+        terms = view.net_terminals.get(body, [])
+    else:
+        terms = view.net_terminals.get(body, [])
+        if body not in shared_done and all(
+                (d.kind in ("nmos", "pmos", "mos") and p == "b") or d.kind == "capacitor"
+                for d, p in terms):
+            shared_done.add(body)
+            others = [d for d, _ in terms if d is not dev and d.kind != "capacitor"]
+            yield ctx.finding(
+                **base, nets=[body],
+                message=f"the body net {body} of {dev.display} floats: it touches only "
+                        "transistor bodies",
+                explanation=[f"{body} connects to: "
+                             + ", ".join(f"body of {d.display}" if d.kind != "capacitor"
+                                         else d.display for d, _ in terms[:8]),
+                             "a body reached only through its own junctions settles wherever "
+                             "their leakage puts it; the threshold voltage follows"],
+                fix=f"tie {body} to the {'lowest' if nmos else 'highest'} rail or to the source",
+                values={"bodies": len(terms)}, elements=[dev.name] + [d.name for d in others[:8]],
+                related=[Related(d.location, f"body of {d.display}") for d in others[:8]])
+            return
+    if body in shared_done or view.is_external(body) and not terms:
+        return
+    opposite = "pmos" if nmos else "nmos"
+    mixed = [d for d, p in terms if p == "b" and d.kind == opposite and not _is_mos_cap(d)
+             and d.net("s") != body]
+    if mixed and nmos:
+        shared_done.add(body)
+        yield ctx.finding(
+            **base, nets=[body], elements=[dev.name] + [d.name for d in mixed[:8]],
+            message=f"body net {body} is shared by NMOS {dev.display} and PMOS "
+                    f"{', '.join(d.display for d in mixed[:4])}",
+            explanation=["no V source fixes this net's voltage, so which side is wrong is "
+                         "not known",
+                         "an NMOS body belongs on the lowest rail and a PMOS body on the "
+                         "highest: on one net, one of the two junction sets is forward-biased "
+                         "or the rails are shorted"],
+            fix="tie NMOS bodies to the lowest rail and PMOS bodies to the highest",
+            values={"nmos": 1, "pmos": len(mixed)},
+            related=[Related(d.location, f"body of {d.display}") for d in mixed[:8]])

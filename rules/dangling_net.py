@@ -1,0 +1,70 @@
+"""A net touched by a single terminal.
+
+What it finds
+    A net that exactly one device terminal touches.  Inside a subcircuit a port counts
+    as connected from outside, so ports are not reported; nor are globals and ground.
+    A net whose one terminal is the output of a voltage source (V, E, H, B with
+    ``V=``) is a computed test signal, not a missed connection, and is not reported.
+    Cells with a card lintamp could not read are skipped: that card may be the
+    second terminal; so are nets on pins of unknown subcircuits or of devices lintamp
+    does not model (XSPICE code models, simulator-specific Y devices), and the top level of a
+    design netlist (no source, no analysis: its nets are the design's pins).
+
+Why it matters
+    A net with one end is nearly always a typo or a connection that was never made:
+    ``M1 d inn 0 0`` where ``in`` was meant leaves both ``in`` and ``inn`` half
+    connected.  Simulators accept it (or see a floating node) and the circuit is
+    silently different from the schematic.
+
+Example
+    ::
+
+        V2 in 0 dc 0.9
+        R1 vdd out 10k
+        M1 out inp 0 0 nch      <- 'inp': the one terminal on this net
+
+Fix
+    Connect the net where it was meant to go, or delete the unused element.
+"""
+
+from lintamp.analysis.dc_paths import (describe_terminal, interface_view, is_voltage_output,
+                                       unread_cells)
+from lintamp.findings import Severity
+
+NAME = "dangling-net"
+CATEGORY = "connectivity"
+SEVERITY = Severity.WARNING
+SUMMARY = "a net touched by a single terminal (inside a cell: not counting its ports' outside use)"
+
+
+def _is_voltage_output(dev, pin) -> bool:
+    if pin not in ("p", "n"):
+        return False
+    return dev.kind in ("vsource", "vcvs", "ccvs") or (
+        dev.kind == "behavioral" and is_voltage_output(dev))
+
+
+def check(ctx):
+    skip = unread_cells(ctx)
+    ground = ctx.design.ground
+    for view in ctx.cells():
+        if id(view) in skip or interface_view(ctx.design, view):
+            continue
+        roleless = {net for dev in view.devices for net in dev.nets[len(dev.pins):]}
+        for net, terminals in view.net_terminals.items():
+            if len(terminals) != 1 or view.is_external(net) or net in ground or net in roleless:
+                continue
+            dev, pin = terminals[0]
+            if _is_voltage_output(dev, pin) or dev.kind in ("xspice", "other"):
+                continue  # a computed test signal, or a device whose pins lintamp cannot judge
+            yield ctx.finding(
+                location=dev.location, subject=net, view=view, nets=[net], elements=[dev.name],
+                message=f"{net} is touched only by {describe_terminal(dev, pin)}",
+                explanation=[f"{net} has one terminal: {dev.display} pin {pin}",
+                             "a net needs at least two connections to carry a current; one "
+                             "end is usually a misspelt net name or a connection never made"]
+                            + ([] if view.cell.is_top else
+                               [f"{net} is not a port of {view.label}, so nothing outside "
+                                "reaches it"]),
+                fix=f"connect {net} where it was meant to go, or remove {dev.display}",
+                values={"terminals": 1})
