@@ -25,8 +25,8 @@ r1 a b 1k
 .end
 """
 WAIVED = """* a resistor left hanging
-* lintamp: waive dangling-net b -- probe point, left open on purpose
 v1 a 0 dc 1
+* lintamp: waive dangling-net b -- probe point, left open on purpose
 r1 a b 1k
 .end
 """
