@@ -58,6 +58,7 @@ Fix
 import math
 
 from lintamp.analysis.explain_steps import freq_words, looking_into_steps
+from lintamp.analysis.flat_places import prefix_of
 from lintamp.analysis.impedance_numbers import (Numbers, device_capacitance_at, impedance_numbers,
                                                 no_numbers_findings)
 from lintamp.analysis.ports import PortFinder
@@ -104,7 +105,7 @@ def check(ctx):
 
 
 def _judge(ctx, numbers, finder, port, margin, max_ohm):
-    band = signal_band(ctx, port.view)
+    band = signal_band(ctx, port.view, finder.views_of_net(port.net))
     c_cap, cap_names = finder.net_capacitance_f(port.net)
     c_dev, dev_names = device_capacitance_at(numbers, port.net)
     c_farad = c_cap + c_dev
@@ -156,7 +157,7 @@ def _judge(ctx, numbers, finder, port, margin, max_ohm):
                for d in [finder.by_name.get(b.elements[0]) if b.elements else None] if d is not None]
     return ctx.finding(
         location=port.location, subject=port.local, view=port.view, message=message,
-        nets=[port.local], elements=[e for b in expl.branches[:3] for e in b.elements],
+        nets=[port.local], elements=[_relative(e, port) for b in expl.branches[:3] for e in b.elements],
         explanation=steps, values=values, related=related,
         fix="terminate the current in a low impedance: a common-gate/common-base input stage "
             "(R_in ~ 1/(g_m+g_mb)), a shunt-feedback TIA (R_in = R_F/(1+A)) or a diode-connected mirror "
@@ -166,3 +167,9 @@ def _judge(ctx, numbers, finder, port, margin, max_ohm):
 
 def _ohm(z_ohm, is_open):
     return "an open node (no DC path)" if is_open else si(z_ohm, "Ω")
+
+
+def _relative(flat_name, port):
+    """An element's name as seen from the cell the finding points at."""
+    prefix = prefix_of(port.name) if not port.view.cell.is_top else ""
+    return flat_name[len(prefix):] if prefix and flat_name.startswith(prefix) else flat_name

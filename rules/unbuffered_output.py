@@ -50,6 +50,7 @@ Fix
 import math
 
 from lintamp.analysis.explain_steps import freq_words, looking_into_steps
+from lintamp.analysis.flat_places import prefix_of
 from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings
 from lintamp.analysis.ports import PortFinder
 from lintamp.analysis.signal_band import signal_band
@@ -109,7 +110,7 @@ def _load_caps(finder, port) -> tuple[float, list[str]]:
 
 
 def _judge(ctx, numbers, finder, port, max_loss, margin):
-    band = signal_band(ctx, port.view)
+    band = signal_band(ctx, port.view, finder.views_of_net(port.net))
     freq_hz = band.hz if band else SPOT_HZ
     c_load, cap_names = _load_caps(finder, port)
     resistive = [n for n in port.detach if n not in cap_names]
@@ -167,9 +168,15 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     message = problems[0][0] if len(problems) == 1 else problems[0][0] + "; and " + problems[1][0].split(": ", 1)[1]
     return ctx.finding(
         location=port.location, subject=port.local, view=port.view, message=message,
-        nets=[port.local], elements=sorted(port.detach), explanation=steps,
+        nets=[port.local], elements=sorted(_relative(e, port) for e in port.detach), explanation=steps,
         values={k: v for k, v in values.items() if not (isinstance(v, float) and math.isinf(v))},
         related=related,
         fix="buffer the output: a source follower or emitter follower (R_out ~ 1/(g_m+g_mb)), a push-pull "
             "stage or an op-amp buffer; or close a feedback loop around the stage (R_out/(1+loop gain)); "
             "or raise the load impedance")
+
+
+def _relative(flat_name, port):
+    """An element's name as seen from the cell the finding points at."""
+    prefix = prefix_of(port.name) if not port.view.cell.is_top else ""
+    return flat_name[len(prefix):] if prefix and flat_name.startswith(prefix) else flat_name

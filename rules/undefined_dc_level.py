@@ -142,18 +142,19 @@ def _judge(ctx, numbers, finder, node, mismatch, vce_min):
     delta_i = mismatch * current_a
     delta_v = delta_i * z_dc
     first = min(rooms, key=lambda n: rooms[n][0])
+    first_local = local_name(first)
     room_v = rooms[first][0]
     out_of_sat = [n for n, r in rooms.items() if r[0] <= 0]
     v_node = numbers.op.node_voltages_v.get(net_name)
     owner = transistors[0]
     view = finder.view_of(owner.name)
     local = local_name(net_name)
-    names = ", ".join(d.name for d in node.devices)
+    names = ", ".join(local_name(d.name) for d in node.devices)
     values = {"v_node_v": v_node, "current_a": current_a, "z_ohm": z_dc, "mismatch": mismatch,
-              "delta_v": delta_v, "headroom_v": room_v, "device": first}
+              "delta_v": delta_v, "headroom_v": room_v, "device": first_local}
     if out_of_sat:
-        dev = out_of_sat[0]
-        r = rooms[dev]
+        r = rooms[out_of_sat[0]]
+        dev = local_name(out_of_sat[0])
         message = (f"{local} has no DC feedback and only the opposing currents of {names} set its level; "
                    f"at the operating point {dev} is already out of saturation "
                    f"({_vds_words(dev, r)}), so the node sits where the mismatch pushed it"
@@ -163,7 +164,7 @@ def _judge(ctx, numbers, finder, node, mismatch, vce_min):
         values["mismatch_to_leave"] = to_leave
         message = (f"{local} has no DC feedback and only the opposing currents of {names} set its level: "
                    f"a {mismatch * 100:g} % mismatch moves it {si(delta_v, 'V')} "
-                   f"(dI x |Z| = {si(delta_i, 'A')} x {si(z_dc, 'Ω')}, |Z| ~ r_o1 || r_o2); {first} leaves saturation "
+                   f"(dI x |Z| = {si(delta_i, 'A')} x {si(z_dc, 'Ω')}, |Z| ~ r_o1 || r_o2); {first_local} leaves saturation "
                    f"at {to_leave * 100:.2g} % (headroom {si(room_v, 'V')})")
     steps = [f"{local} connects, at DC, only to current-source-like terminals: "
              + "; ".join(_terminal_words(d) for d in node.devices)]
@@ -179,12 +180,12 @@ def _judge(ctx, numbers, finder, node, mismatch, vce_min):
     steps.append(f"a {mismatch * 100:g} % mismatch (threshold dc-level-mismatch) of {si(current_a, 'A')} is "
                  f"dI = {si(delta_i, 'A')}; the node moves dI x |Z| = {si(delta_v, 'V')}")
     steps.append("headroom before leaving saturation: " + "; ".join(
-        f"{n}: {_vds_words(n, r)}, {si(r[0], 'V')}" for n, r in rooms.items()))
+        f"{local_name(n)}: {_vds_words(n, r)}, {si(r[0], 'V')}" for n, r in rooms.items()))
     steps.append(f"numbers from {numbers.source_words}")
-    related = [Related(d.location, f"{d.name}: {_terminal_words(d)}") for d in node.devices]
+    related = [Related(d.location, _terminal_words(d)) for d in node.devices]
     return ctx.finding(
         location=owner.location, subject=local, view=view, message=message, nets=[local],
-        elements=[d.name for d in node.devices], explanation=steps,
+        elements=[local_name(d.name) for d in node.devices], explanation=steps,
         values={k: v for k, v in values.items() if v is not None and not (isinstance(v, float) and math.isinf(v))},
         related=related,
         fix="give the node a DC feedback path: close the loop around the amplifier (follower, unity or "
@@ -201,7 +202,7 @@ def _vds_words(name, room):
 
 def _terminal_words(dev):
     if dev.kind in ("nmos", "pmos"):
-        return f"drain of {dev.name} ({dev.kind.upper()}, gate on another net)"
+        return f"drain of {local_name(dev.name)} ({dev.kind.upper()}, gate on another net)"
     if dev.kind in ("npn", "pnp"):
-        return f"collector of {dev.name} ({dev.kind.upper()})"
-    return f"{dev.kind} {dev.name}"
+        return f"collector of {local_name(dev.name)} ({dev.kind.upper()})"
+    return f"{dev.kind} {local_name(dev.name)}"

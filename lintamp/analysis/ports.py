@@ -117,6 +117,17 @@ class PortFinder:
         return view_of_path(self.design, prefix_of(flat_name).rstrip("/").split("/")
                             if "/" in flat_name else []) or self.design.top
 
+    def views_of_net(self, net: int) -> list[CellView]:
+        """The cells whose port (or internal net) this is, deepest first."""
+        names = sorted(self.aliases.get(net, []), key=lambda n: -n.count("/"))
+        out = []
+        for name in names:
+            if "/" in name:
+                view = self.view_of(name)
+                if view not in out:
+                    out.append(view)
+        return out
+
     def first_location(self, net: int, prefix: str) -> Location:
         for dev in self.on_net.get(net, []):
             if prefix_of(dev.name) == prefix:

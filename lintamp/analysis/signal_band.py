@@ -60,20 +60,25 @@ def _ac_stop(ctx) -> SignalBand | None:
     return None
 
 
-def signal_band(ctx, view: CellView | None = None) -> SignalBand | None:
+def signal_band(ctx, view: CellView | None = None, also=()) -> SignalBand | None:
     """The band for findings in ``view`` (the top level when None), or None.
+
+    ``also``: further cells the judged net belongs to (the cells whose ports it
+    is, deepest first); the first of them with a bandwidth pragma wins over the
+    top level, so a cell's own band applies to its input port however it is fed.
 
     Notes
     -----
-    O(pragmas of the cell and the top level + analysis cards).
+    O(pragmas of the cells and the top level + analysis cards).
     """
     cli = parse_frequency_text((ctx.options or {}).get("bandwidth"))
     if cli is not None:
         return SignalBand(cli, f"--bandwidth {ctx.options['bandwidth']}")
-    if view is not None and not view.cell.is_top:
-        band = _pragma_band(view)
-        if band is not None:
-            return band
+    for cell_view in (view, *also):
+        if cell_view is not None and not cell_view.cell.is_top:
+            band = _pragma_band(cell_view)
+            if band is not None:
+                return band
     band = _pragma_band(ctx.design.top)
     if band is not None:
         return band
