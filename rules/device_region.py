@@ -13,9 +13,15 @@ What it finds
     * a follower (source or emitter follower) cut off;
     * a diode-connected device or mirror reference cut off (no current).
 
-    Devices used as switches -- a gate driven by a pulse or other waveform, or
-    tied straight to ground or a supply rail -- and devices with drain tied to
-    source (MOS capacitors) are not judged.
+    Devices used as switches -- a gate driven by a pulse or other waveform
+    (directly or through up to three resistors), or tied straight to ground or a
+    supply rail -- devices with drain tied to source (MOS capacitors), and
+    devices whose drain or collector a source holds (a characterisation bench:
+    V_DS is the stimulus) are not judged.  When most transistors of the deck are
+    cut off (supplies at 0 V, a sweep start, a logic state) the operating point
+    is not a working point and cut-off devices are not reported; a deck driven
+    by waveforms where most transistors sit fully on or off is a logic or
+    switching circuit and is not judged at all.
 
 Why it matters
     The small-signal picture of every impedance rule, and the designer's gain,
@@ -72,6 +78,7 @@ NEEDS_CURRENT = ("common drain (source follower)", "emitter follower", "diode-co
 def _switch_gates(circuit, op, fixed) -> set[int]:
     """Nets that drive gates as switches: waveform sources, ground and the supply rails."""
     rails = {0}
+    rails.update(_driven_through_resistors(circuit))
     volts = [v for v in op.node_voltages_v.values()]
     top, bottom = (max(volts), min(volts)) if volts else (0.0, 0.0)
     for dev in circuit.devices:
@@ -88,6 +95,56 @@ def _switch_gates(circuit, op, fixed) -> set[int]:
     return rails
 
 
+def _switching_deck(circuit, op, transistors) -> bool:
+    """A deck driven by waveforms where most transistors sit fully on or off: logic or
+    switching, whose operating point is a logic state, not a bias point."""
+    if not any(d.source is not None and d.source.time_varying for d in circuit.devices):
+        return False
+    analog = sum(1 for d in transistors if op.devices[d.name].region in ("saturation", "forward-active")
+                 and not (d.kind in ("npn", "pnp") and op.devices[d.name].region == "saturation"))
+    return analog * 2 < len(transistors)
+
+
+def _dc_conduction_count(circuit) -> dict[int, int]:
+    """How many element terminals conduct DC at each net (gates and capacitors do not)."""
+    count: dict[int, int] = {}
+    for dev in circuit.devices:
+        if dev.kind == "capacitor":
+            continue
+        pins = dev.nodes[:2]
+        if dev.kind in ("nmos", "pmos"):
+            pins = (dev.nodes[0], dev.nodes[2])
+        elif dev.kind in ("vcvs", "vccs"):
+            pins = dev.nodes[:2]
+        elif dev.kind in ("npn", "pnp"):
+            pins = dev.nodes[:3]
+        for n in set(pins):
+            count[n] = count.get(n, 0) + 1
+    return count
+
+
+def _driven_through_resistors(circuit, hops: int = 3) -> set[int]:
+    """Nets within a few resistors of a waveform source: a logic input drives them."""
+    start = set()
+    for dev in circuit.devices:
+        if dev.kind == "vsource" and dev.source is not None and dev.source.time_varying:
+            start.update(n for n in dev.nodes[:2] if n != 0)
+    by_net: dict[int, list] = {}
+    for dev in circuit.devices:
+        if dev.kind == "resistor":
+            for n in dev.nodes[:2]:
+                by_net.setdefault(n, []).append(dev)
+    seen, frontier = set(start), set(start)
+    for _ in range(hops):
+        nxt = set()
+        for net in frontier:
+            for r in by_net.get(net, []):
+                nxt.update(n for n in r.nodes[:2] if n not in seen and n != 0)
+        seen |= nxt
+        frontier = nxt
+    return seen
+
+
 def check(ctx):
     numbers = impedance_numbers(ctx)
     if not isinstance(numbers, Numbers):
@@ -98,6 +155,13 @@ def check(ctx):
     margin = ctx.threshold(SAT_MARGIN.name, SAT_MARGIN.default)
     vce_min = ctx.threshold(VCE_MIN.name, VCE_MIN.default)
     switches = _switch_gates(circuit, op, numbers.ac_ground)
+    transistors = [d for d in circuit.devices if d.kind in ("nmos", "pmos", "npn", "pnp") and d.name in op.devices]
+    off = sum(1 for d in transistors if op.devices[d.name].region == "cutoff")
+    # most devices off: supplies at 0 V, a sweep or a logic state -- not a working point
+    judge_cutoff = off * 2 <= len(transistors)
+    if _switching_deck(circuit, op, transistors):
+        return
+    dc_nets = _dc_conduction_count(circuit)
     seen = set()
     for dev in circuit.devices:
         if dev.kind not in ("nmos", "pmos", "npn", "pnp"):
@@ -108,8 +172,12 @@ def check(ctx):
             continue
         if dev.nodes[1] in switches and stage.role not in NEEDS_CURRENT:
             continue
+        if dc_nets.get(dev.nodes[0], 0) < 2:
+            continue  # nothing else conducts DC at the drain: the connectivity rules report that
+        if stage.role in NEEDS_SATURATION and dev.nodes[0] in numbers.ac_ground:
+            continue  # drain held by a source: a device-characterisation bench, V_DS is the stimulus
         problem = _problem(dev, stage.role, dop, margin, vce_min)
-        if problem is None:
+        if problem is None or (problem[2].get("region") == "cutoff" and not judge_cutoff):
             continue
         message, steps, values = problem
         view, local = finder.view_of(dev.name), dev.name.rsplit("/", 1)[-1]

@@ -60,7 +60,7 @@ import math
 from lintamp.analysis.explain_steps import freq_words, looking_into_steps
 from lintamp.analysis.flat_places import prefix_of
 from lintamp.analysis.impedance_numbers import (Numbers, device_capacitance_at, impedance_numbers,
-                                                no_numbers_findings)
+                                                no_numbers_findings, safely)
 from lintamp.analysis.ports import PortFinder
 from lintamp.analysis.signal_band import signal_band
 from lintamp.config import register_threshold
@@ -98,13 +98,15 @@ def check(ctx):
         key = (id(port.view), port.local)
         if key in seen:
             continue
-        finding = _judge(ctx, numbers, finder, port, margin, max_ohm)
+        finding = safely(_judge, ctx, numbers, finder, port, margin, max_ohm)
         if finding is not None:
             seen.add(key)
             yield finding
 
 
 def _judge(ctx, numbers, finder, port, margin, max_ohm):
+    if not finder.has_active_driver(port, any_terminal=True):
+        return None  # a current into a passive network is no stage input
     band = signal_band(ctx, port.view, finder.views_of_net(port.net))
     c_cap, cap_names = finder.net_capacitance_f(port.net)
     c_dev, dev_names = device_capacitance_at(numbers, port.net)
@@ -155,7 +157,10 @@ def _judge(ctx, numbers, finder, port, margin, max_ohm):
     steps.append(f"numbers from {numbers.source_words}")
     related = [Related(d.location, f"{d.name}: {b.via}") for b in expl.branches[:3]
                for d in [finder.by_name.get(b.elements[0]) if b.elements else None] if d is not None]
+    weak = band is not None and band.weak and "band_hz" in values and (
+        "pole_hz" in values or values.get("freq_hz") == band.hz)
     return ctx.finding(
+        severity=Severity.INFO if weak else None,
         location=port.location, subject=port.local, view=port.view, message=message,
         nets=[port.local], elements=[_relative(e, port) for b in expl.branches[:3] for e in b.elements],
         explanation=steps, values=values, related=related,

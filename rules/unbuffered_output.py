@@ -51,7 +51,7 @@ import math
 
 from lintamp.analysis.explain_steps import freq_words, looking_into_steps
 from lintamp.analysis.flat_places import prefix_of
-from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings
+from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
 from lintamp.analysis.ports import PortFinder
 from lintamp.analysis.signal_band import signal_band
 from lintamp.config import register_threshold
@@ -89,7 +89,7 @@ def check(ctx):
         key = (id(port.view), port.local)
         if key in seen:
             continue
-        finding = _judge(ctx, numbers, finder, port, max_loss, margin)
+        finding = safely(_judge, ctx, numbers, finder, port, max_loss, margin)
         if finding is not None:
             seen.add(key)
             yield finding
@@ -114,8 +114,12 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     freq_hz = band.hz if band else SPOT_HZ
     c_load, cap_names = _load_caps(finder, port)
     resistive = [n for n in port.detach if n not in cap_names]
+    if not finder.has_active_driver(port):
+        return None  # a passive network is not a driver whose output could be buffered
     z_out = numbers.z(port.name, freq_hz, port.detach)
     r_out = abs(z_out)
+    if r_out >= 1e11:
+        return None  # nothing drives the node at all (the connectivity rules say so)
     values = {"z_ohm": r_out, "freq_hz": freq_hz}
     problems = []
     if resistive:
@@ -166,7 +170,10 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     related += [Related(d.location, f"{d.name}: {b.via}") for b in expl.branches[:2]
                 for d in [finder.by_name.get(b.elements[0]) if b.elements else None] if d is not None]
     message = problems[0][0] if len(problems) == 1 else problems[0][0] + "; and " + problems[1][0].split(": ", 1)[1]
+    weak = band is not None and band.weak and "band_hz" in values and (
+        "pole_hz" in values or values.get("freq_hz") == band.hz)
     return ctx.finding(
+        severity=Severity.INFO if weak else None,
         location=port.location, subject=port.local, view=port.view, message=message,
         nets=[port.local], elements=sorted(_relative(e, port) for e in port.detach), explanation=steps,
         values={k: v for k, v in values.items() if not (isinstance(v, float) and math.isinf(v))},

@@ -54,7 +54,7 @@ import math
 from lintamp.analysis.dc_feedback import current_defined_nodes, feedback_path, influence_graph
 from lintamp.analysis.explain_steps import looking_into_steps
 from lintamp.analysis.flat_places import local_name
-from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings
+from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
 from lintamp.analysis.ports import PortFinder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
@@ -88,7 +88,7 @@ def check(ctx):
     for node in current_defined_nodes(circuit, fixed):
         if feedback_path(graph, node.net, node.controllers, fixed) is not None:
             continue
-        finding = _judge(ctx, numbers, finder, node, mismatch, vce_min)
+        finding = safely(_judge, ctx, numbers, finder, node, mismatch, vce_min)
         if finding is None:
             continue
         key = (finding.cell, finding.subject, finding.location)

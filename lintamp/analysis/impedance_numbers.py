@@ -22,6 +22,8 @@ from lintamp.circuit.flat import FlatCircuit
 from lintamp.findings import Severity
 from lintamp.report.si import si
 
+# what the engine may raise on odd but legal decks; a rule then skips that node, never the file
+ENGINE_ERRORS = (SmallSignalError, ArithmeticError, ValueError, IndexError, KeyError, RuntimeError)
 MAX_ELEMENTS = 20_000  # past this the built-in solve is not the right tool; a table is
 GEOMETRY = ("w", "l")
 
@@ -106,8 +108,22 @@ def _compute(ctx) -> Numbers | NoNumbers | None:
     except FlattenLimit:
         return NoNumbers(f"more than {MAX_ELEMENTS} elements after flattening; "
                          "give the operating point with --op for decks this size")
+    except ENGINE_ERRORS as exc:
+        return NoNumbers(f"the deck could not be flattened ({type(exc).__name__}: {exc})")
     if not circuit.devices:
         return None
+    if not any(d.kind in ("nmos", "pmos", "npn", "pnp") or "PDK" in d.kind_detail for d in circuit.devices):
+        quiet = True  # no stages to judge: say nothing when numbers are missing
+    else:
+        quiet = False
+    result = _numbers_for(ctx, circuit)
+    if isinstance(result, NoNumbers) and quiet:
+        result.reported_elsewhere = True
+    return result
+
+
+def _numbers_for(ctx, circuit):
+    from lintamp.analysis.impedance_report import resolve_operating_point
     table, table_error = _load_table(ctx)
     if table_error:
         return NoNumbers(table_error)
@@ -122,7 +138,7 @@ def _compute(ctx) -> Numbers | NoNumbers | None:
         return NoNumbers(f"elements lintamp does not simulate: {shown}")
     try:
         op, source, notes = resolve_operating_point(circuit, table)
-    except (ValueError, ArithmeticError, SmallSignalError) as exc:
+    except ENGINE_ERRORS as exc:
         return NoNumbers(f"no operating point: {exc}")
     if op is None:
         return NoNumbers("no operating point: " + ("; ".join(notes) or "the DC solve failed"))
@@ -180,3 +196,11 @@ def device_capacitance_at(numbers: Numbers, net: int) -> tuple[float, list[str]]
                 if name not in names:
                     names.append(name)
     return total, names
+
+
+def safely(judge, *args):
+    """``judge(*args)``, or None when the engine cannot solve that case."""
+    try:
+        return judge(*args)
+    except ENGINE_ERRORS:
+        return None

@@ -313,6 +313,29 @@ class PortFinder:
         roles = [self.roles.get(d.name) for d in drivers]
         return not others and all(r is not None and r.role in CURRENT_OUTPUT_ROLES for r in roles)
 
+    def has_active_driver(self, port: PortNet, hops: int = 2, any_terminal: bool = False) -> bool:
+        """A transistor or controlled source on the net, or a resistor or two away
+        (an op amp's output resistor), not counting the load elements.  With
+        ``any_terminal`` a gate, base or control input counts too (a stage input)."""
+        skip = set(port.detach)
+        frontier, seen = {port.net}, {port.net}
+        for _ in range(hops + 1):
+            nxt = set()
+            for net in frontier:
+                for dev in self.on_net.get(net, []):
+                    if dev.name in skip:
+                        continue
+                    if dev.kind in ("nmos", "pmos", "npn", "pnp") and (
+                            any_terminal or net in (dev.nodes[0], dev.nodes[2])):
+                        return True
+                    if dev.kind in ("vcvs", "vccs", "cccs", "ccvs") and (any_terminal or net in dev.nodes[:2]):
+                        return True
+                    if dev.kind in ("resistor", "inductor"):
+                        nxt.update(n for n in dev.nodes[:2] if n not in seen and n not in self.ac_ground)
+            seen |= nxt
+            frontier = nxt
+        return False
+
     def _pragma_loads(self) -> set[str]:
         out = set()
         for prefix, view in self.prefixes:
