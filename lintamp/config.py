@@ -28,6 +28,11 @@ Example::
     [thresholds]
     some-threshold-name = 10.0   # names that rules declare with register_threshold
 
+    [ports]                      # net / element name globs for the impedance rules
+    voltage-output = ["out", "vout*"]
+    current-input = ["iin*"]
+    load = ["rload*", "cload*"]
+
 Globs
 -----
 ``include`` and ``exclude`` and the ``[per-file-ignores]`` keys are matched against
@@ -188,6 +193,7 @@ class Config:
     per_file_ignores: dict[str, tuple[str, ...]] = field(default_factory=dict)
     devices: tuple[DeviceMapping, ...] = ()
     thresholds: dict[str, float] = field(default_factory=dict)
+    ports: dict[str, tuple[str, ...]] = field(default_factory=dict)  # kind -> name globs
 
     # ---- rules
 
@@ -265,6 +271,7 @@ class Config:
             "per_file_ignores": {k: list(v) for k, v in sorted(self.per_file_ignores.items())},
             "devices": [[d.pattern, d.kind, list(d.pins), d.value] for d in self.devices],
             "thresholds": dict(sorted(self.thresholds.items())),
+            "ports": {k: list(v) for k, v in sorted(self.ports.items())},
             "root": str(self.root),
         }
         text = json.dumps(data, sort_keys=True, separators=(",", ":"))
@@ -445,7 +452,8 @@ def load_config(path: Path | None, *, isolated: bool = False, start: Path,
 
 
 _TOP_KEYS = ("include", "exclude", "select", "ignore", "fail-on", "bandwidth", "include-paths",
-             "severity", "per-file-ignores", "devices", "thresholds")
+             "severity", "per-file-ignores", "devices", "thresholds", "ports")
+PORT_KINDS = ("voltage-output", "current-input", "load")
 
 
 def parse_config(data: dict, *, source: Path, prefix: str = "",
@@ -485,6 +493,8 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
         config.devices = check.devices(data["devices"], "devices")
     if "thresholds" in data:
         config.thresholds = check.thresholds(data["thresholds"], "thresholds")
+    if "ports" in data:
+        config.ports = check.ports(data["ports"], "ports")
     return config
 
 
@@ -642,6 +652,15 @@ class _Checker:
             if number != number or number in (float("inf"), float("-inf")):
                 raise self.fail(sub, f"is {number!r}", "a finite number")
             out[name] = float(number)
+        return out
+
+
+    def ports(self, value, key: str) -> dict[str, tuple[str, ...]]:
+        out: dict[str, tuple[str, ...]] = {}
+        for kind, globs in self.table(value, key).items():
+            if kind not in PORT_KINDS:
+                raise self.fail(f"{key}.{kind}", "unknown port kind", "one of " + ", ".join(PORT_KINDS))
+            out[kind] = tuple(g.lower() for g in self.globs(globs, f"{key}.{kind}"))
         return out
 
 

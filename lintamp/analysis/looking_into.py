@@ -147,7 +147,7 @@ class _Explainer:
         if abs(gain) < 1e-3:
             return Branch(f"{label} to {far}", f"{symbol} + Z({far})", _as_number(z_e + z_th), 0, terms)
         terms["A_v"] = _mag(gain)
-        value = (z_e + z_th) / (1 - gain)
+        value = (z_e + z_th) / (1 - gain) if gain != 1 else INF  # bootstrapped: no current
         if gain.real < 0 and abs(z_th) < 0.01 * abs(z_e):
             formula = f"{symbol}/(1 + A), A = -v({far})/v({here})"
             terms["A_v"] = -gain.real

@@ -246,7 +246,7 @@ def compile_circuit(
         ids = [idx(k, -1) for k in keys]
         # every terminal pair of a nonlinear device conducts at DC (junction GMIN),
         # except a MOS gate
-        conducting = ids if dev.kind not in ("nmos", "pmos") else [ids[0], ids[2], ids[3]]
+        conducting = ids if dev.kind not in ("nmos", "pmos") else [ids[0], *ids[2:4]]  # 3-pin VDMOS too
         for a in conducting[1:]:
             connect_dc(conducting[0], a)
     return CompiledCircuit(

@@ -120,6 +120,7 @@ def _flat_device(dev: Device, prefix: str, nodes: tuple[int, ...], scope: Scope,
             time_varying=src.waveform is not None)
         if src.dc is None and src.waveform in ("pulse", "pwl", "exp", "sin", "sine") and src.waveform_args:
             # the DC value of a waveform is its initial value (SPICE convention)
-            first = src.waveform_args[1 if src.waveform in ("pwl",) else 0]
+            at = 1 if src.waveform in ("pwl",) else 0
+            first = src.waveform_args[at] if len(src.waveform_args) > at else None
             flat.source.dc = scope.value(first) or 0.0
     return flat

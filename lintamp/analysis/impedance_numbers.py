@@ -1,0 +1,206 @@
+"""Numbers for the impedance rules, computed once per netlist and shared via ``ctx.memo``.
+
+One flat circuit, one operating point (``--op FILE`` table, else lintamp's
+level-1 solve), and small-signal solvers per (frequency, detached elements).
+Numbers are only handed out when they can be trusted: every nonlinear device
+has a model lintamp evaluates (or a table row), no geometry stayed symbolic,
+and the DC solve converged.  Otherwise the rules get a :class:`NoNumbers` with
+the reason, and one ``info`` finding per file says so.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from lintamp.analysis.flat_places import locate_device
+from lintamp.analysis.looking_into import NodeExplanation, ac_ground_nets, explain_node
+from lintamp.analysis.operating_point import OperatingPoint
+from lintamp.analysis.small_signal import NONLINEAR, ImpedanceSolver, SmallSignalError
+from lintamp.circuit.flat import FlatCircuit
+from lintamp.findings import Severity
+from lintamp.report.si import si
+
+# what the engine may raise on odd but legal decks; a rule then skips that node, never the file
+ENGINE_ERRORS = (SmallSignalError, ArithmeticError, ValueError, IndexError, KeyError, RuntimeError)
+MAX_ELEMENTS = 20_000  # past this the built-in solve is not the right tool; a table is
+GEOMETRY = ("w", "l")
+
+
+@dataclass
+class NoNumbers:
+    reason: str
+    reported_elsewhere: bool = False  # another rule already explains it (unknown model, parse error)
+
+
+@dataclass
+class Numbers:
+    """The flat circuit with its operating point and cached small-signal solvers."""
+
+    circuit: FlatCircuit
+    op: OperatingPoint
+    source: str  # "table" or "level1"
+    ac_ground: set[int]
+    _solvers: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def source_words(self) -> str:
+        return "the --op table" if self.source == "table" else "lintamp's level-1 operating point"
+
+    def solver(self, freq_hz: float, detach=()) -> ImpedanceSolver:
+        key = (float(freq_hz), tuple(sorted(set(detach))))
+        if key not in self._solvers:
+            if len(self._solvers) > 256:  # bounded memory on big decks with many ports
+                self._solvers.clear()
+            self._solvers[key] = ImpedanceSolver(self.circuit, self.op, freq_hz, detach=key[1])
+        return self._solvers[key]
+
+    def z(self, net: str, freq_hz: float, detach=()) -> complex:
+        return self.solver(freq_hz, detach).z(net)
+
+    def explain(self, net: str, freq_hz: float, detach=()) -> NodeExplanation:
+        return explain_node(self.circuit, net, freq_hz, self.op, tuple(sorted(set(detach))))
+
+    def net_name(self, idx: int) -> str:
+        return self.circuit.nets[idx]
+
+
+def _untrusted_devices(ctx, circuit: FlatCircuit) -> list[str]:
+    """Nonlinear devices whose numbers would be SPICE defaults, not the designer's."""
+    out = []
+    for dev in circuit.devices:
+        if dev.kind not in NONLINEAR:
+            continue
+        if dev.model is None:
+            why = dev.kind_detail if "PDK" in dev.kind_detail else "model not found"
+            out.append(f"{dev.name} ({why})")
+            continue
+        if dev.kind in ("nmos", "pmos"):
+            _view, design_dev = locate_device(ctx.design, dev.name)
+            if design_dev is not None:
+                written = [k for k in GEOMETRY if k in design_dev.element.params]
+                symbolic = [k for k in written if k not in dev.params]
+                if symbolic:
+                    out.append(f"{dev.name} (symbolic {', '.join(k.upper() for k in symbolic)})")
+    return out
+
+
+def _load_table(ctx):
+    op_file = (ctx.options or {}).get("op_file")
+    if not op_file:
+        return None, ""
+    from lintamp.analysis.op_table import load_op_table
+    try:
+        return load_op_table(Path(op_file).read_text(encoding="utf-8"), str(op_file)), ""
+    except (OSError, ValueError) as exc:
+        return None, f"--op {op_file}: {exc}"
+
+
+def _compute(ctx) -> Numbers | NoNumbers | None:
+    from lintamp.analysis.impedance_report import resolve_operating_point
+    from lintamp.circuit.flatten import FlattenLimit, flatten
+
+    if not ctx.design.top.devices:
+        return None  # a cell library: nothing is simulated without a deck
+    try:
+        circuit = flatten(ctx.design, limit=MAX_ELEMENTS)
+    except FlattenLimit:
+        return NoNumbers(f"more than {MAX_ELEMENTS} elements after flattening; "
+                         "give the operating point with --op for decks this size")
+    except ENGINE_ERRORS as exc:
+        return NoNumbers(f"the deck could not be flattened ({type(exc).__name__}: {exc})")
+    if not circuit.devices:
+        return None
+    if not any(d.kind in ("nmos", "pmos", "npn", "pnp") or "PDK" in d.kind_detail for d in circuit.devices):
+        quiet = True  # no stages to judge: say nothing when numbers are missing
+    else:
+        quiet = False
+    result = _numbers_for(ctx, circuit)
+    if isinstance(result, NoNumbers) and quiet:
+        result.reported_elsewhere = True
+    return result
+
+
+def _numbers_for(ctx, circuit):
+    from lintamp.analysis.impedance_report import resolve_operating_point
+    table, table_error = _load_table(ctx)
+    if table_error:
+        return NoNumbers(table_error)
+    untrusted = [u for u in _untrusted_devices(ctx, circuit) if table is None or u.split(" ")[0] not in table]
+    if untrusted:
+        shown = ", ".join(untrusted[:6]) + (f" and {len(untrusted) - 6} more" if len(untrusted) > 6 else "")
+        missing_models = all(u.endswith("(model not found)") for u in untrusted)
+        return NoNumbers(f"devices lintamp cannot evaluate: {shown}", reported_elsewhere=missing_models)
+    others = [d.name for d in circuit.devices if d.kind == "other"]
+    if others:
+        shown = ", ".join(others[:6]) + (" ..." if len(others) > 6 else "")
+        return NoNumbers(f"elements lintamp does not simulate: {shown}")
+    try:
+        op, source, notes = resolve_operating_point(circuit, table)
+    except ENGINE_ERRORS as exc:
+        return NoNumbers(f"no operating point: {exc}")
+    if op is None:
+        return NoNumbers("no operating point: " + ("; ".join(notes) or "the DC solve failed"))
+    if source == "level1" and any(not math.isfinite(v) for v in op.node_voltages_v.values()):
+        return NoNumbers("the DC solve returned non-finite node voltages")
+    return Numbers(circuit, op, source, ac_ground_nets(circuit))
+
+
+def impedance_numbers(ctx) -> Numbers | NoNumbers | None:
+    """The shared numbers, or why there are none (None: no deck to simulate)."""
+    return ctx.memo("impedance-numbers", lambda: _compute(ctx))
+
+
+def no_numbers_findings(ctx, numbers) -> list:
+    """At most one info finding per file saying the impedance rules had no numbers."""
+    if not isinstance(numbers, NoNumbers) or numbers.reported_elsewhere:
+        return []
+    broken = [d for d in (*ctx.netlist.diagnostics, *ctx.design.diagnostics) if d.severity == "error"]
+    if broken:
+        return []  # the deck does not simulate as written; its errors say why
+    box = ctx.memo("impedance-numbers-reported", lambda: [False])
+    if box[0]:
+        return []
+    box[0] = True
+    top = ctx.design.top
+    location = top.devices[0].location if top.devices else top.cell.location
+    return [ctx.finding(
+        location=location, subject="(operating point)", severity=Severity.INFO,
+        message=f"impedance rules skipped: no trusted numbers ({numbers.reason})",
+        explanation=[
+            "high-z-current-input, unbuffered-output, undefined-dc-level and device-region need "
+            "an operating point and small-signal values",
+            "lintamp solves level-1 MOS, Gummel-Poon BJT and diode models itself; other models, "
+            "PDK devices without their model cards and symbolic sizes give no numbers it trusts",
+        ],
+        fix="give the operating point from your simulator with --op FILE (CSV/JSON of gm, gds, gmb, "
+            "ids, region per device), or include the model library",
+        values={"reason": numbers.reason})]
+
+
+def fmt_ohm(z) -> str:
+    m = abs(z) if z is not None else math.inf
+    return "open" if not math.isfinite(m) or m >= 1e11 else si(m, "Ω")
+
+
+def device_capacitance_at(numbers: Numbers, net: int) -> tuple[float, list[str]]:
+    """Model capacitances (gate, junction) from ``net`` to AC ground at the operating point."""
+    total, names = 0.0, []
+    for name, dop in numbers.op.devices.items():
+        keys = dop.terminals
+        for a, b, c_f in dop.capacitances_f:
+            ka, kb = keys[a], keys[b]
+            if (ka == net and kb in numbers.ac_ground) or (kb == net and ka in numbers.ac_ground):
+                total += c_f
+                if name not in names:
+                    names.append(name)
+    return total, names
+
+
+def safely(judge, *args):
+    """``judge(*args)``, or None when the engine cannot solve that case."""
+    try:
+        return judge(*args)
+    except ENGINE_ERRORS:
+        return None

@@ -1,0 +1,311 @@
+"""The impedance rules: fixtures, both directions, and every printed number against ngspice-39.
+
+Fixture folders ``tests/fixtures/rules/<rule>/{bad,good}.sp`` list the findings they
+expect in header lines ``* expect: RULE SUBJECT``; ``good.sp`` expects none from
+these four rules.
+
+Reference checks (source: "ngspice-39 AC analysis" and "ngspice-39 operating
+point"): the same deck text goes to ngspice with every AC stimulus zeroed and a
+1 A AC probe into the node (tests/ngspice_harness.py).  A detached capacitor is
+removed (it carries no DC current); a detached resistor gets a 1e9 H inductor in
+series, so it still carries its DC current but is open at the analysis frequency.
+Tolerance 2 %.  Textbook forms named in the rule docs: Razavi, *Design of Analog
+CMOS Integrated Circuits*, ch. 3 (CG input (R_D + r_o)/(1 + (g_m+g_mb) r_o), CS
+output r_o1 || r_o2); Baker, *CMOS Circuit Design* 3rd ed. pp. 867-871 (dueling
+current sources, dI (r_o1 || r_o2)); analog-knowledge section 3 (10 % divider loss,
+pole 3-10x above the band, R_in <= 1/(2 pi BW C_in)) -- common practice.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from pathlib import Path
+
+import pytest
+
+import ngspice_harness as ng
+from lintamp.analysis.context import Context
+from lintamp.api import load_design, read_options
+from lintamp.config import Config, with_overrides
+from lintamp.netlist.parser import parse_file, parse_text
+from lintamp.netlist.reader import ReadOptions
+from lintamp.registry import all_rules
+
+FIXTURES = Path(__file__).parent / "fixtures" / "rules"
+RULES = ("high-z-current-input", "unbuffered-output", "undefined-dc-level", "device-region")
+EXPECT = re.compile(r"^\*\s*expect:\s*(\S+)\s+(\S+)", re.I | re.M)
+TOLERANCE = 0.02
+
+
+def run_rules(ctx) -> list:
+    out = []
+    for name in RULES:
+        rule = all_rules()[name]
+        ctx.rule = rule
+        out.extend(rule.check(ctx))
+    return out
+
+
+def check_file(path: Path, options=None, config=None) -> list:
+    config = config or Config()
+    netlist = parse_file(path, read_options(path, config))
+    return run_rules(Context(netlist, load_design(netlist, config), config=config, options=options or {}))
+
+
+def check_deck(text: str, options=None, config=None) -> list:
+    config = config or Config()
+    netlist = parse_text(text, "<deck>", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
+    return run_rules(Context(netlist, load_design(netlist, config), config=config, options=options or {}))
+
+
+def expected(path: Path) -> set[tuple[str, str]]:
+    return {(r.lower(), s.lower()) for r, s in EXPECT.findall(path.read_text())}
+
+
+# -- fixtures -------------------------------------------------------------------------
+@pytest.mark.parametrize("rule", RULES)
+def test_bad_fixture_gives_exactly_the_expected_findings(rule):
+    bad = FIXTURES / rule / "bad.sp"
+    found = {(f.rule, f.subject) for f in check_file(bad)}
+    assert found == expected(bad)
+
+
+@pytest.mark.parametrize("rule", RULES)
+def test_good_fixture_is_clean(rule):
+    assert check_file(FIXTURES / rule / "good.sp") == []
+
+
+# -- deck editing for the reference runs --------------------------------------------
+def zero_ac(text: str) -> str:
+    """Every AC stimulus off (the probe is the only AC source)."""
+    return "\n".join(re.sub(r"\s+ac\s+\S+", "", line, flags=re.I) if line[:1].lower() in "vi" else line
+                     for line in text.splitlines())
+
+
+def detach_at_ac(text: str, names) -> str:
+    names = {n.rsplit("/", 1)[-1].lower() for n in names}
+    out = []
+    for line in text.splitlines():
+        words = line.split()
+        key = words[0].lower() if words else ""
+        if key in names and key[0] == "c":
+            continue
+        if key in names and key[0] == "r":
+            out.append(f"{words[0]} {words[1]} det_{key} {' '.join(words[3:])}")
+            out.append(f"ldet_{key} det_{key} {words[2]} 1e9")
+            continue
+        out.append(line)
+    return "\n".join(out)
+
+
+def ng_z(text: str, node: str, freq_hz: float) -> float:
+    return abs(ng.impedance(zero_ac(text), node, [max(freq_hz, 1.0)])[0])
+
+
+def ng_pole(text: str, node: str, low_hz: float) -> float:
+    """-3 dB frequency of the node's impedance (ngspice-39 AC sweep + meas)."""
+    z0 = ng_z(text, node, low_hz)
+    deck = zero_ac(text) + f"\niprobe_lintamp 0 {node} dc 0 ac 1\n"
+    raw = ng.run_deck(deck, [f"ac dec 400 {low_hz:g} 1e10", f"meas ac f3 when vm({node})={z0 / math.sqrt(2):.9g} fall=1"])
+    return raw["f3"]
+
+
+def close(a, b, tol=TOLERANCE):
+    return abs(a - b) <= tol * max(abs(b), 1e-30)
+
+
+def finding(findings, rule, subject):
+    hits = [f for f in findings if f.rule == rule and f.subject == subject]
+    assert hits, f"no {rule} finding on {subject}"
+    return hits[0]
+
+
+# -- ngspice reference values ---------------------------------------------------------
+# (subject, node in ngspice, elements detached at AC)
+HIGH_Z = [("sense", "sense", ["ctouch"]), ("iin", "pd", ["cpd"]), ("emit", "emit", ["csig"])]
+
+
+@pytest.mark.parametrize("subject,node,detached", HIGH_Z)
+def test_high_z_numbers_agree_with_ngspice(subject, node, detached):
+    ng.require_ngspice()
+    text = (FIXTURES / "high-z-current-input" / "bad.sp").read_text()
+    f = finding(check_file(FIXTURES / "high-z-current-input" / "bad.sp"), "high-z-current-input", subject)
+    v = f.values
+    # ngspice-39 AC analysis: |Z_in| at the band with the node capacitor removed
+    assert close(v["z_ohm"], ng_z(detach_at_ac(text, detached), node, v["freq_hz"]))
+    # ngspice-39 AC sweep: the node's -3 dB frequency with its capacitance in place
+    # equals the printed 1/(2 pi |Z_in| C) (single pole; Razavi optical-receiver TIA chapter form)
+    assert close(v["pole_hz"], ng_pole(text, node, v["freq_hz"] / 1e4))
+    assert close(v["limit_ohm"], 1 / (2 * math.pi * v["band_hz"] * v["c_farad"]), 1e-9)  # definition
+
+
+def test_high_z_cg_matches_razavi_form():
+    # Razavi ch. 3, CG input: R_in = (R_D + r_o)/(1 + (g_m+g_mb) r_o) with the ngspice-39 op values
+    # of analog-knowledge 5.3 (g_m 676.4 uS, g_mb 150.6 uS, g_ds 8.742 uS) and R_D = 1 Mohm
+    f = finding(check_file(FIXTURES / "high-z-current-input" / "bad.sp"), "high-z-current-input", "iin")
+    ro = 1 / 8.742e-6
+    assert close(f.values["z_ohm"], (1e6 + ro) / (1 + (676.4e-6 + 150.6e-6) * ro))
+
+
+# (subject, node, loads detached at AC, load caps)
+UNBUFFERED = [("out", "out", ["cc"], []), ("vout", "vout", ["rload"], []), ("ifout", "ifout", ["ccable"], ["ccable"])]
+
+
+@pytest.mark.parametrize("subject,node,loads,caps", UNBUFFERED)
+def test_unbuffered_numbers_agree_with_ngspice(subject, node, loads, caps):
+    ng.require_ngspice()
+    path = FIXTURES / "unbuffered-output" / "bad.sp"
+    text = path.read_text()
+    v = finding(check_file(path), "unbuffered-output", subject).values
+    # ngspice-39 AC analysis: R_out with the load open at AC
+    z_out = ng_z(detach_at_ac(text, loads), node, v["freq_hz"])
+    assert close(v["z_ohm"], z_out)
+    if "loss" in v:
+        z_tot = ng_z(detach_at_ac(text, caps), node, v["freq_hz"])
+        assert close(1 - v["loss"], z_tot / z_out)  # divider R_L/(R_L+R_out), common practice
+        assert close(v["load_ohm"], 1 / abs(1 / z_tot - 1 / z_out), 0.05)
+    if "pole_hz" in v:
+        # ngspice-39 AC sweep: -3 dB of the loaded node equals 1/(2 pi R_out C_L)
+        assert close(v["pole_hz"], ng_pole(text, node, v["band_hz"] / 1e4))
+
+
+# (subject, node, devices as ngspice names)
+UNDEFINED = [("ifout", "ifout", ["m1", "m2"])]
+
+
+def test_undefined_dc_level_numbers_agree_with_ngspice():
+    ng.require_ngspice()
+    path = FIXTURES / "undefined-dc-level" / "bad.sp"
+    text = path.read_text()
+    v = finding(check_file(path), "undefined-dc-level", "ifout").values
+    # ngspice-39 AC analysis at 1 Hz: r_o1 || r_o2 seen at the node (Baker pp. 867-871 form)
+    assert close(v["z_ohm"], ng_z(text, "ifout", 1.0))
+    op = ng.operating_point(zero_ac(text), ["ifout"], [("m1", "id"), ("m2", "vdsat"), ("m2", "vds"),
+                                                         ("m1", "vdsat"), ("m1", "vds")])
+    assert close(v["current_a"], abs(op["@m1[id]"]))  # ngspice-39 operating point
+    headroom = min(abs(op["@m1[vds]"]) - abs(op["@m1[vdsat]"]), abs(op["@m2[vds]"]) - abs(op["@m2[vdsat]"]))
+    assert close(v["headroom_v"], headroom)
+    assert close(v["delta_v"], 0.01 * abs(op["@m1[id]"]) * ng_z(text, "ifout", 1.0))
+
+
+REGION = [("m1", "m1", None), ("m1b", "m.xcasc.m1b", None), ("msf", "msf", None), ("q1", None, ("col", None))]
+
+
+def test_device_region_numbers_agree_with_ngspice():
+    ng.require_ngspice()
+    path = FIXTURES / "device-region" / "bad.sp"
+    text = zero_ac(path.read_text())
+    found = check_file(path)
+    op = ng.operating_point(text, ["col"], [("m1", "vds"), ("m1", "vdsat"), ("m.xcasc.m1b", "vds"),
+                                            ("m.xcasc.m1b", "vdsat"), ("msf", "id")])
+    for name in ("m1", "m.xcasc.m1b"):  # ngspice-39 operating point: V_DS and V_DSAT
+        v = finding(found, "device-region", name.rsplit(".", 1)[-1]).values
+        assert close(v["vds_v"], abs(op[f"@{name}[vds]"]))
+        assert close(v["vdsat_v"], abs(op[f"@{name}[vdsat]"]))
+    assert close(finding(found, "device-region", "q1").values["vce_v"], op["col"])  # emitter at ground
+    assert abs(op["@msf[id]"]) < 1e-9  # ngspice agrees the follower carries no current
+    assert finding(found, "device-region", "msf").values["region"] == "cutoff"
+
+
+# -- both directions: broken fires, fixed is silent --------------------------------------
+NCH = ".model nch nmos level=1 vto=0.5 kp=200u gamma=0.5 phi=0.7 lambda=0.1\n"
+PCH = ".model pch pmos level=1 vto=-0.5 kp=100u gamma=0.4 phi=0.8 lambda=0.1\n"
+
+
+def rules_of(findings):
+    return {(f.rule, f.subject) for f in findings}
+
+
+def test_photodiode_into_gate_fires_and_a_shunt_feedback_tia_fixes_it():
+    base = ("pd\n" + NCH + "* lintamp: bandwidth 10meg\nvdd vdd 0 3\nipd vdd pd dc 0 ac 1\ncpd pd 0 1p\n"
+            "rd vdd out 10k\nm1 out pd 0 0 nch w=10u l=1u\n")
+    broken = base + "rb pd vb 1meg\nvb vb 0 0.7\n"
+    fixed = base + "rf out pd 20k\n"  # shunt feedback: R_F/(1+A), a gate but a virtual ground
+    assert ("high-z-current-input", "pd") in rules_of(check_deck(broken))
+    assert rules_of(check_deck(fixed)) == set()
+
+
+def test_cg_input_passes_with_resistor_load_and_fires_with_current_source_load():
+    # analog-knowledge 5.3 decks: 1.30 kohm vs 11.7 kohm at the source with 1 pF, band 20 MHz
+    head = "cg\n" + NCH + "* lintamp: bandwidth 20meg\nvdd vdd 0 3\nvg g 0 1.5\ni1 s 0 100u\n" \
+        "ipd s 0 dc 0 ac 1\ncpd s 0 1p\nm1 d g s 0 nch w=10u l=1u\n"
+    assert rules_of(check_deck(head + "rd vdd d 10k\n")) == set()
+    assert ("high-z-current-input", "s") in rules_of(check_deck(head + "id vdd d 100u\nrd d vb 1meg\nvb vb 0 2\n"))
+
+
+def test_cs_output_into_low_ohm_load_fires_and_a_follower_fixes_it():
+    head = "hp\n" + NCH + "* lintamp: bandwidth 20k\nvdd vdd 0 5\nvin in 0 dc 0.75 ac 1\nrd vdd d 10k\n" \
+        "m1 d in 0 0 nch w=10u l=1u\n"
+    broken = head + "rload d 0 10k\n* lintamp: voltage-output d\n"
+    fixed = head + "m2 vdd d out 0 nch w=200u l=1u\nisf out 0 2m\nrload out 0 10k\n* lintamp: voltage-output out\n"
+    assert ("unbuffered-output", "d") in rules_of(check_deck(broken))
+    assert rules_of(check_deck(fixed)) == set()
+
+
+def test_open_loop_ota_fires_and_unity_feedback_fixes_it():
+    ota = ("ota\n" + NCH + PCH + "vdd vdd 0 3\nvin inp 0 dc 1.5 ac 1\nvbn vbn 0 0.8\n"
+           "mt tail vbn 0 0 nch w=10u l=1u\nm1 mir inp tail 0 nch w=10u l=1u\nm2 out {inn} tail 0 nch w=10u l=1u\n"
+           "m3 mir mir vdd vdd pch w=20u l=1u\nm4 out mir vdd vdd pch w=20u l=1u\n")
+    broken = ota.replace("{inn}", "inn") + "vinn inn 0 1.5\n"
+    fixed = ota.replace("{inn}", "out")
+    assert ("undefined-dc-level", "out") in rules_of(check_deck(broken))
+    assert rules_of(check_deck(fixed)) == set()
+
+
+def test_feedback_through_a_resistive_divider_is_found():
+    # the OTA closed with a gain-of-2 divider back to the inverting gate
+    deck = ("ota\n" + NCH + PCH + "vdd vdd 0 3\nvin inp 0 dc 1.0 ac 1\nvbn vbn 0 0.8\n"
+            "mt tail vbn 0 0 nch w=10u l=1u\nm1 mir inp tail 0 nch w=10u l=1u\nm2 out inn tail 0 nch w=10u l=1u\n"
+            "m3 mir mir vdd vdd pch w=20u l=1u\nm4 out mir vdd vdd pch w=20u l=1u\n"
+            "rf out inn 100k\nrg inn 0 100k\n")
+    assert not any(f.rule == "undefined-dc-level" for f in check_deck(deck))
+
+
+def test_current_sink_in_triode_fires_and_a_smaller_pull_up_fixes_it():
+    head = "cs\n" + NCH + "vdd vdd 0 3\nvb vb 0 1.0\nm1 x vb 0 0 nch w=10u l=1u\n"
+    assert ("device-region", "m1") in rules_of(check_deck(head + "rp vdd x 100k\n"))
+    assert rules_of(check_deck(head + "rp vdd x 5k\n")) == set()
+
+
+# -- bands, thresholds, no numbers -------------------------------------------------------
+def test_band_sources_in_order():
+    deck = ("b\n" + NCH + "* lintamp: bandwidth 1meg\nvdd vdd 0 3\nipd vdd pd dc 0 ac 1\ncpd pd 0 1p\n"
+            "rb pd vb 100k\nvb vb 0 0.7\nm1 out pd 0 0 nch w=10u l=1u\nrd vdd out 10k\n.ac dec 10 1 1g\n")
+    # 100 kohm and 1 pF: pole 1.59 MHz; above a 1 MHz band, below 2 MHz from --bandwidth
+    assert check_deck(deck) == []
+    f = check_deck(deck, options={"bandwidth": "2meg"})[0]
+    assert f.values["band_hz"] == 2e6 and "--bandwidth" in " ".join(f.explanation)
+    # without the pragma the .ac stop frequency (1 GHz) is the (weak) band
+    f = check_deck(deck.replace("* lintamp: bandwidth 1meg\n", ""))[0]
+    assert f.values["band_hz"] == 1e9 and ".ac sweep" in " ".join(f.explanation)
+
+
+def test_thresholds_come_from_the_config():
+    deck = ("t\n" + NCH + "* lintamp: bandwidth 1meg\nvdd vdd 0 3\nipd vdd pd dc 0 ac 1\ncpd pd 0 1p\n"
+            "rb pd vb 100k\nvb vb 0 0.7\nm1 out pd 0 0 nch w=10u l=1u\nrd vdd out 10k\n")
+    config = with_overrides(Config(), thresholds={"current-input-pole-margin": 2.0})
+    f = check_deck(deck, config=config)[0]
+    assert f.values["margin"] == 2.0
+
+
+def test_no_numbers_gives_one_info_per_file():
+    deck = ("n\n.model nch nmos level=54\nvdd vdd 0 3\nipd vdd pd dc 0 ac 1\ncpd pd 0 1p\n"
+            "m1 out pd 0 0 nch w=1u l=1u\nrd vdd out 10k\n")
+    found = check_deck(deck)
+    assert len(found) == 1 and found[0].severity.label == "info"
+    assert "level 54" in found[0].values["reason"]
+
+
+def test_config_port_patterns_pick_outputs_and_loads():
+    deck = ("p\n" + NCH + "* lintamp: bandwidth 20k\nvdd vdd 0 5\nvin in 0 dc 0.75 ac 1\nrd vdd lineo 10k\n"
+            "m1 lineo in 0 0 nch w=10u l=1u\nrjack lineo 0 1k\n")
+    assert check_deck(deck) == []
+    config = with_overrides(Config(), ports={"voltage-output": ("line?",), "load": ("rjack",)})
+    assert rules_of(check_deck(deck, config=config)) == {("unbuffered-output", "lineo")}
+
+
+def test_garbage_and_missing_models_do_not_crash():
+    for deck in ("x\nm1 a b c d nomodel\n", "x\nr1 a 0 {undefined}\ni1 a 0 ac 1\nc1 a 0 1p\n", "x\n.end\n",
+                 "x\nq1 c b e missing\nvcc c 0 5\n"):
+        check_deck(deck)
