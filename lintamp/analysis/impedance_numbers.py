@@ -159,6 +159,8 @@ def no_numbers_findings(ctx, numbers) -> list:
     broken = [d for d in (*ctx.netlist.diagnostics, *ctx.design.diagnostics) if d.severity == "error"]
     if broken:
         return []  # the deck does not simulate as written; its errors say why
+    if "singular matrix" in numbers.reason:
+        return []  # a floating node or a source loop: the connectivity rules report it
     box = ctx.memo("impedance-numbers-reported", lambda: [False])
     if box[0]:
         return []
