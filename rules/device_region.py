@@ -40,9 +40,9 @@ Why it matters
 Example
     ::
 
-        vb vb 0 1.0
-        m1 out vb 0 0 nch w=10u l=1u      <- a 0.5 V overdrive current sink
-        rl vdd out 100k                    <- drops almost all of VDD: V_DS = 0.2 V < V_DSAT
+        vbias vb 0 1.0
+        m1 sink vb 0 0 nch w=10u l=1u      <- a 0.5 V overdrive current sink
+        rpull vdd sink 100k                 <- leaves it 30 mV: V_DS < V_DSAT = 0.5 V
 
 Fix
     Re-bias: lower the load drop or the cascode gate voltage so V_DS clears

@@ -41,11 +41,11 @@ Why it matters
 Example
     ::
 
-        * lintamp: bandwidth 1meg
-        ipd vdd pd dc 0 ac 1
-        cpd pd 0 2p
-        rbias pd 0 1meg           <- the only DC path: Z_in = 1 MOhm, pole 80 kHz
-        m1 out pd 0 0 nch w=10u l=1u
+        * lintamp: bandwidth 100k
+        rbias sense vbias 1meg     <- the only DC path: Z_in = 1 MOhm
+        m1 out sense 0 0 nch w=10u l=1u
+        itouch vdd sense dc 0 ac 1
+        ctouch sense 0 5p          <- pole 1/(2 pi 1 MOhm 5 pF) = 31.8 kHz, below the band
 
 Fix
     Terminate the current in a low impedance: a common-gate (common-base) input

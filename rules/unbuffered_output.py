@@ -35,11 +35,11 @@ Why it matters
 Example
     ::
 
-        * lintamp: voltage-output out
         * lintamp: bandwidth 20k
-        m2 out vbp vdd vdd pch w=40u l=1u   <- current-source load
-        m1 out in 0 0 nch w=20u l=1u         <- CS: R_out = r_o1 || r_o2 ~ 100 kOhm
-        rload out 0 32                       <- headphone: 99.97 % of the signal lost
+        rd vdd out 10k                 <- common source: R_out = R_D || r_o
+        m1 out in 0 0 nch w=10u l=1u
+        cc out hp 220u
+        rhp hp 0 32                    <- a 32 ohm headphone: almost all the signal is lost
 
 Fix
     Buffer the output: a source follower or emitter follower, a push-pull output

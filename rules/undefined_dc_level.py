@@ -37,10 +37,9 @@ Why it matters
 Example
     ::
 
-        vbn vbn 0 0.7
         vbp vbp 0 2.3
-        m1 out vbn 0 0 nch w=10u l=1u         <- sets 40 uA
-        m2 out vbp vdd vdd pch w=20u l=1u     <- sets 40 uA too, nominally
+        m2 ifout vbp vdd vdd pch w=20u l=1u   <- a current source set by a bias voltage
+        m1 ifout ifin 0 0 nch w=10u l=1u      <- a second one, set by the input's DC level
 
 Fix
     Give the node a DC feedback path: close the loop around the amplifier

@@ -58,14 +58,15 @@ def test_json_report_shape(tmp_path):
     assert code == 1
     assert data["tool"] == "lintamp" and data["schema"] == 1 and data["version"] == __version__
     rules = sorted(f["rule"] for f in data["findings"])
-    # review_typos.sp's four slips, and the impedance samples' deliberate mistakes
-    assert rules == ["duplicate-name", "high-z-current-input", "pin-mismatch", "unbuffered-output",
-                     "undefined-param", "unknown-model"]
+    # review_typos.sp's four slips, mic_preamp.sp's two unbiased gates, and the impedance
+    # samples' deliberate mistakes
+    assert rules == ["duplicate-name", "high-z-current-input", "pin-mismatch", "unbiased-gate",
+                     "unbiased-gate", "unbuffered-output", "undefined-param", "unknown-model"]
     fields = {"rule", "severity", "path", "line", "column", "cell", "instances", "subject", "nets",
               "elements", "message", "explanation", "fix", "values", "related", "fingerprint"}
     for finding in data["findings"]:
         assert fields <= set(finding)
-    assert data["summary"]["errors"] == 4
+    assert data["summary"]["errors"] == 6
 
 
 def test_text_report_lines():

@@ -2,7 +2,7 @@
 
 A folder named after a rule must hold ``bad.sp`` and ``good.sp``.  The bad file lists
 its expected findings in header comments, ``* expect: RULE SUBJECT``; it must produce
-exactly those (rule, subject) pairs for that rule, and the good file none of it.
+exactly the listed (rule, subject) pairs of the folder's rule, and the good file none.
 The scenarios are our own; the expected findings follow the reasoning of
 analog-knowledge.md section 4 (common practice).
 """
@@ -36,9 +36,10 @@ def test_folder_is_a_rule_with_both_examples(folder):
 @pytest.mark.parametrize("folder", FOLDERS, ids=[p.name for p in FOLDERS])
 def test_bad_example_gives_exactly_the_expected_findings(folder):
     bad = folder / "bad.sp"
-    expected = {(r.lower(), s.lower()) for r, s in EXPECT.findall(bad.read_text())}
-    assert expected, f"{bad} has no '* expect: RULE SUBJECT' lines"
-    assert all(r == folder.name for r, _ in expected)
+    # the file may expect findings of other rules too; each rule's own test checks those
+    expected = {(r.lower(), s.lower()) for r, s in EXPECT.findall(bad.read_text())
+                if r.lower() == folder.name}
+    assert expected, f"{bad} has no '* expect: {folder.name} SUBJECT' lines"
     assert _pairs(bad, folder.name) == expected
 
 
