@@ -200,8 +200,9 @@ def code_fingerprint() -> str:
         import lintamp
         import lintamp.rules
         digest = hashlib.sha256()
-        for folder in {*lintamp.__path__, *lintamp.rules.__path__}:
-            for path in sorted(Path(folder).rglob("*.py")):
+        folders = {Path(lintamp.__file__).parent, Path(lintamp.rules.__file__).parent}
+        for folder in sorted(folders):
+            for path in sorted(folder.rglob("*.py")):
                 st = path.stat()
                 digest.update(f"{path}:{st.st_size}:{st.st_mtime_ns};".encode())
         _CODE_KEY = digest.hexdigest()[:16]
