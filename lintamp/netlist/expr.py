@@ -639,7 +639,9 @@ def _operator(pattern: str, name: str) -> pp.ParserElement:
     )
 
 
-_NUMBER_PATTERN = r"(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?[^\W\d_]*"
+# \d+(?:\.\d*)? rather than \d+\.?\d*: the same numbers without two adjacent digit runs,
+# whose backtracking made a failed full match of a long digit string quadratic.
+_NUMBER_PATTERN = r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?[^\W\d_]*"
 
 
 def _make_atom(text: str, loc: int, tokens: pp.ParseResults) -> _Node:
