@@ -45,7 +45,7 @@ from lintamp.analysis.devices_mos import (
     mos_limit,
     mos_params,
 )
-from lintamp.analysis.mna import CompiledCircuit, compile_circuit, floating_groups
+from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
 
 
@@ -318,7 +318,10 @@ def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = N
     """
     opts = options or SolveOptions()
     series = _series_resistances(circuit)
-    cc = compile_circuit(circuit, series_resistances=series)
+    try:
+        cc = compile_circuit(circuit, series_resistances=series)
+    except CircuitError as exc:  # e.g. an F/H source whose controlling source is absent
+        raise OperatingPointError(f"cannot set up the circuit: {exc}") from None
     if cc.unsupported:
         raise CannotEvaluateError(cc.unsupported)
     devs = _DeviceSet(cc, circuit.temperature_c)
