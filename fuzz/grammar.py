@@ -68,13 +68,13 @@ def expression(r: random.Random, depth: int = 0) -> str:
         return f"({expression(r, depth + 1)})"
     if roll < 0.88:
         return f"{expression(r, depth + 1)} ? {expression(r, depth + 1)} : {expression(r, depth + 1)}"
-    if roll < 0.94:
+    if roll < 0.99:
         return r.choice(("-", "+", "!", "--", "!!")) + expression(r, depth + 1)
-    return deep_expression(r)
+    return deep_expression(r, (30, 33, 64, 200))
 
 
-def deep_expression(r: random.Random) -> str:
-    n = r.choice((30, 33, 64, 200, 1000, 5000))
+def deep_expression(r: random.Random, sizes=(30, 33, 64, 200, 1000, 5000)) -> str:
+    n = r.choice(sizes)
     kind = r.randint(0, 4)
     if kind == 0:
         return "(" * n + "1" + ")" * n
