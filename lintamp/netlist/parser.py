@@ -14,8 +14,8 @@ from pathlib import Path
 
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
-from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, read,
-                                    read_text)
+from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt,
+                                    open_regular, read, read_text)
 from lintamp.netlist.statements import (Analysis, Cell, Diagnostic, Element, FuncDef, Model,
                                         Netlist, ParamDef, Pragma, Source)
 
@@ -756,15 +756,15 @@ def parse_file(path: Path, opts: ReadOptions | None = None) -> Netlist:
     """Read and parse a netlist file and everything it includes."""
     opts = opts or ReadOptions()
     shown = _display(path, opts)
+    # The reader streams the file; only its first line is needed here.  A file that
+    # cannot be read is reported by the reader.
     try:
-        data = path.read_bytes()
-    except OSError as exc:
-        netlist = Netlist(path=shown, title="", top=Cell("", (), Location(shown, 1, 1)))
-        netlist.diagnostics.append(Diagnostic("parse-error", Location(shown, 1, 1),
-                                              f"cannot read {shown}: {exc.strerror or exc}"))
-        return netlist
-    first = data.split(b"\n", 1)[0].decode("latin-1")
-    result = read(path, opts, data=data, title=not is_fragment(first))
+        with open_regular(path) as handle:
+            head = handle.read(4096).removeprefix(b"\xef\xbb\xbf")
+    except OSError:
+        head = b""
+    first = re.split(rb"[\r\n]", head, maxsplit=1)[0].decode("latin-1")
+    result = read(path, opts, title=not is_fragment(first))
     return parse_read(result, shown)
 
 
