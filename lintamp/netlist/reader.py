@@ -571,20 +571,32 @@ class _Reader:
         else:
             candidates.append(including.parent / target_path)
             candidates.extend(p / target_path for p in self.opts.include_paths)
+        # A candidate is judged by where it really is (symlinks followed) before
+        # anything about it is looked at, so nothing outside the sandbox is read,
+        # nor even told apart as present or absent.
+        outside = False
+        not_files = []  # inside, existing, but folders, devices or pipes
         for cand in candidates:
             try:
-                if cand.is_file():
-                    real = cand.resolve()
-                    if not self.inside_sandbox(real):
-                        if not quiet:
-                            self._diag("bad-include", loc,
-                                       f"'{excerpt(target)}' resolves outside the project root and the "
-                                       "include paths; not read (add its folder with --include-path "
-                                       "if it is trusted)", subject=target)
-                        return None
+                real = cand.resolve()
+                if not self.inside_sandbox(real):
+                    outside = True
+                    continue
+                if real.is_file():
                     return real
-            except OSError:
+                if real.exists():
+                    not_files.append(real)
+            except (OSError, ValueError, RuntimeError):  # NUL in the name, symlink loop
                 continue
+        if not_files or outside:
+            if quiet:
+                return None
+            if not_files:
+                self._diag("bad-include", loc, f"'{excerpt(target)}' is a folder, device or pipe, "
+                           "not a netlist file; not read", subject=target)
+            else:
+                self._outside(target, loc)
+            return None
         if not quiet:
             self._diag("missing-include", loc,
                        f"include file '{excerpt(target)}' not found (looked beside "
@@ -592,12 +604,18 @@ class _Reader:
                        + "); checking goes on without it", severity="warning", subject=target)
         return None
 
+    def _outside(self, target: str, loc: Location) -> None:
+        self._diag("bad-include", loc,
+                   f"'{excerpt(target)}' resolves outside the project root and the "
+                   "include paths; not read (add its folder with --include-path "
+                   "if it is trusted)", subject=target)
+
     def _enter(self, real: Path, section: str | None, loc: Location) -> bool:
         key = (str(real), section or "")
         if key in self.stack:
             chain = " -> ".join(self.display(Path(p)) + (f"[{s}]" if s else "") for p, s in self.stack)
-            self._diag("bad-include", loc, f"include cycle: {chain} -> {self.display(real)}; "
-                       "not read again", subject=self.display(real))
+            self._diag("bad-include", loc, f"include cycle: {excerpt(chain, 200)} -> "
+                       f"{excerpt(self.display(real))}; not read again", subject=self.display(real))
             return False
         if len(self.stack) >= MAX_INCLUDE_DEPTH:
             self._diag("bad-include", loc, f"includes nested more than {MAX_INCLUDE_DEPTH} deep; "
