@@ -57,6 +57,7 @@ from lintamp.netlist.units import SUFFIXES, parse_number
 
 __all__ = [
     "BUILTIN_FUNCTIONS",
+    "CircularDefinition",
     "Expr",
     "ExprError",
     "MAX_CALL_DEPTH",
@@ -130,6 +131,13 @@ class UndefinedName(ExprError):
         moved = UndefinedName(self.name, self.offset + delta, self.kind)
         moved.message = self.message
         return moved
+
+
+class CircularDefinition(ExprError):
+    """A parameter defined in terms of itself, directly or through others."""
+
+    def shifted(self, delta: int) -> "CircularDefinition":
+        return CircularDefinition(self.message, self.offset + delta)
 
 
 # --------------------------------------------------------------------------- nodes
@@ -1002,7 +1010,7 @@ def evaluate_params(
                         message = "circular definition: " + " -> ".join(names)
                     for member, user in zip(cycle, cycle[1:] + [dep]):
                         offset = compiled[member].offset_of(user) + shift.get(member, 0)
-                        errors.setdefault(member, ExprError(message, offset))
+                        errors.setdefault(member, CircularDefinition(message, offset))
                 elif seen is None:
                     state[dep] = 1
                     path.append(dep)
