@@ -157,8 +157,9 @@ def _flat_device(dev: Device, prefix: str, nodes: tuple[int, ...], scope: Scope,
             ac_mag=(scope.value(src.ac_mag) or 0.0) if src.ac_mag else 0.0,
             ac_phase_deg=(scope.value(src.ac_phase) or 0.0) if src.ac_phase else 0.0,
             time_varying=src.waveform is not None)
-        if src.dc is None and src.waveform in ("pulse", "pwl", "exp", "sin", "sine") and src.waveform_args:
+        initial = 1 if src.waveform == "pwl" else 0  # PWL: t0 v0 ...; the others: v0 ...
+        if (src.dc is None and src.waveform in ("pulse", "pwl", "exp", "sin", "sine")
+                and len(src.waveform_args) > initial):  # 'PWL file x.pwl' has no v0 here
             # the DC value of a waveform is its initial value (SPICE convention)
-            first = src.waveform_args[1 if src.waveform in ("pwl",) else 0]
-            flat.source.dc = scope.value(first) or 0.0
+            flat.source.dc = scope.value(src.waveform_args[initial]) or 0.0
     return flat
