@@ -273,6 +273,13 @@ def test_engine_refuses_unevaluable_devices_with_a_note(name):
     assert any("cannot" in note for note in report["notes"]), report["notes"]
 
 
+def test_pwl_from_a_file_has_no_initial_value_to_take(tmp_path):
+    # found in a real deck (Xyce regression netlist 'VIN IN 0 PWL file ./table.pwl'):
+    # flatten indexed the missing first PWL value (IndexError)
+    circuit = flat_circuit_from_text("* t\nvin in 0 pwl file ./table.pwl\nr1 in 0 1k\n")
+    assert circuit.device("vin").source.dc == 0.0
+
+
 def test_impedance_command_detaching_a_controlling_source_is_a_clear_exit_2(tmp_path, capsys):
     # found: SmallSignalError escaped `lintamp impedance` as a traceback (exit 1)
     deck = tmp_path / "f.sp"
