@@ -291,9 +291,9 @@ class ParseContext:
         cell.end_location = card.location
         if len(tokens) > 1 and tokens[1].text.lower() != cell.name:
             self.error(card, tokens[1].offset,
-                       f".ends {excerpt(tokens[1].text)} closes .subckt {cell.label} "
+                       f".ends {excerpt(tokens[1].text)} closes .subckt {excerpt(cell.label)} "
                        f"(opened at line {cell.location.line})", severity="warning",
-                       expected=f".ends {cell.label}", subject=cell.name, rule="mismatched-ends")
+                       expected=f".ends {excerpt(cell.label)}", subject=cell.name, rule="mismatched-ends")
 
     def model(self, card: Card, tokens: list[Token]) -> None:
         if len(tokens) < 3:
@@ -339,7 +339,7 @@ class ParseContext:
             cell = self.stack.pop()
             self.netlist.diagnostics.append(Diagnostic(
                 "parse-error", cell.location,
-                f".subckt {cell.label} is never closed", expected=f".ends {cell.label}",
+                f".subckt {excerpt(cell.label)} is never closed", expected=f".ends {excerpt(cell.label)}",
                 subject=cell.name))
         return self.netlist
 
