@@ -280,6 +280,26 @@ def test_pwl_from_a_file_has_no_initial_value_to_take(tmp_path):
     assert circuit.device("vin").source.dc == 0.0
 
 
+def test_subckt_names_in_ends_messages_are_excerpted():
+    # found: mismatched-ends and 'never closed' messages quoted a 1 000-character .subckt name
+    name = "s" * 5000
+    found = check_text(f"* t\n.subckt {name} a\n.ends other\n.subckt {name}x b\n", "f.sp", CONFIG).findings
+    assert {f.rule for f in found} >= {"mismatched-ends", "parse-error"}
+    assert max(len(f.message) for f in found) < 300
+
+
+def test_singular_matrix_description_survives_an_overflowed_matrix():
+    # found: numpy's SVD raised LinAlgError on a matrix holding nan (an overflowed
+    # junction value) while the operating point was describing why it was singular
+    import numpy as np
+    import scipy.sparse as sparse
+    from lintamp.analysis.mna import compile_circuit
+    from lintamp.analysis.operating_point import describe_singular
+    cc = compile_circuit(flat_circuit_from_text("* t\nv1 a 0 1\nr1 a 0 1k\n"))
+    matrix = sparse.csr_matrix(np.full((cc.size, cc.size), np.nan))
+    assert describe_singular(cc, matrix).startswith("singular matrix")
+
+
 def test_impedance_command_detaching_a_controlling_source_is_a_clear_exit_2(tmp_path, capsys):
     # found: SmallSignalError escaped `lintamp impedance` as a traceback (exit 1)
     deck = tmp_path / "f.sp"
