@@ -19,6 +19,8 @@ from pathlib import Path
 
 import pytest
 
+from lintamp.findings import Severity
+
 from lintamp.api import check_text, load_design
 from lintamp.circuit.flatten import FlattenLimit, flat_element_count, flatten
 from lintamp.config import Config
@@ -105,7 +107,9 @@ def test_exponential_hierarchy_is_counted_not_enumerated(levels):
     assert flat_element_count(design.top) == 10 ** levels + 1
     with pytest.raises(FlattenLimit, match=f"has {10 ** levels + 1} elements"):
         flatten(design)
-    assert check_text(_hierarchy(levels, 10), "h.sp", Config()).findings == []
+    # nothing wrong with it; at most the note that impedance rules skip a deck this size
+    findings = check_text(_hierarchy(levels, 10), "h.sp", Config()).findings
+    assert [f.rule for f in findings if f.severity > Severity.INFO] == []
     assert time.perf_counter() - start < CEILING_S
 
 
