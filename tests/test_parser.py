@@ -94,6 +94,9 @@ def test_controlled_sources():
     assert gp.model == "poly" and gp.nodes == ("0", "n1", "a", "0", "b", "0")
     hp = only("H1 o 0 POLY(2) v1 v2 0 1 1\n")
     assert hp.controls == ("v1", "v2")
+    # HSPICE writes the kind after the output nodes (spice-syntax.md 2, from memory)
+    ek = only("E2 vgout vg VCVS net9 vcm 1\n")
+    assert ek.nodes == ("vgout", "vg", "net9", "vcm") and ek.value == "1"
 
 
 def test_behavioural_source():

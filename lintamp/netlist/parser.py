@@ -477,6 +477,8 @@ def parse_controlled(ctx, card, tokens):
             el.model = "value"
             return el
     words = [t.text.lower() for t in rest]
+    if words and words[0] in ("vcvs", "vccs", "cccs", "ccvs"):
+        rest, words = rest[1:], words[1:]  # HSPICE names the kind: 'E1 o 0 VCVS a b 10'
     if words and words[0] in ("table", "laplace", "freq", "and", "or", "nand", "nor"):
         text = card.text
         ctl = _controlled_nodes_from_expr(text)
