@@ -8,7 +8,9 @@ What it finds
     Cells with a card lintamp could not read are skipped: that card may be the
     second terminal; so are nets on pins of unknown subcircuits or of devices lintamp
     does not model (XSPICE code models, simulator-specific Y devices), and the top level of a
-    design netlist (no source, no analysis: its nets are the design's pins).
+    design netlist (no source, no analysis: its nets are the design's pins).  A top-level
+    net that ``.print``, ``.plot``, ``.save``, ``.meas`` or a ``.control`` script looks at
+    (``v(out)``) is an observed output, not a forgotten one.
 
 Why it matters
     A net with one end is nearly always a typo or a connection that was never made:
@@ -51,8 +53,11 @@ def check(ctx):
         if id(view) in skip or interface_view(ctx.design, view):
             continue
         roleless = {net for dev in view.devices for net in dev.nets[len(dev.pins):]}
+        # a top-level net that .print/.plot/.save or a .control script looks at is observed
+        observed = ctx.netlist.observed if view.cell.is_top else set()
         for net, terminals in view.net_terminals.items():
-            if len(terminals) != 1 or view.is_external(net) or net in ground or net in roleless:
+            if (len(terminals) != 1 or view.is_external(net) or net in ground or net in roleless
+                    or net in observed):
                 continue
             dev, pin = terminals[0]
             if _is_voltage_output(dev, pin) or dev.kind in ("xspice", "other"):

@@ -299,3 +299,15 @@ def test_json_findings_have_every_interface_field(tmp_path, capsys):
         rules.add(f["rule"])
     assert {"dangling-net", "no-dc-path", "unbiased-gate", "source-loop", "current-cutset",
             "shorted-device", "body-tie", "unused-port"} <= rules
+
+
+def test_dangling_net_observed_by_the_deck_is_not_reported():
+    # a testbench output that only the simulation commands look at (common practice)
+    deck = ("ring\nvdd vdd 0 1.8\nrl vdd x 1k\nm1 x x 0 0 nch\nm2 out x 0 0 nch\n"
+            ".model nch nmos\n")
+    rules = lambda text: [f.subject for f in check_text(text, "t.sp").findings
+                          if f.rule == "dangling-net"]
+    assert rules(deck) == ["out"]
+    assert rules(deck + ".control\nrun\nplot v(out)\n.endc\n") == []
+    assert rules(deck + ".print tran v(out)\n") == []
+    assert rules(deck + ".save out\n") == []

@@ -15,7 +15,7 @@ from pathlib import Path
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt,
-                                    open_regular, read, read_text)
+                                    open_regular, probed_nets, read, read_text)
 from lintamp.netlist.statements import (Analysis, Cell, Diagnostic, Element, FuncDef, Model,
                                         Netlist, ParamDef, Pragma, Source)
 
@@ -242,6 +242,8 @@ class ParseContext:
         elif word == ".temp":
             if len(tokens) > 1:
                 nl.temperature_c = tokens[1].text
+        elif word in (".print", ".plot", ".save", ".probe", ".meas", ".measure", ".four"):
+            nl.observed.update(probed_nets(card.text))
         elif word in ANALYSES:
             nl.analyses.append(Analysis(word[1:], tuple(t.text for t in tokens[1:]), card.location))
         elif word == ".title":
@@ -749,6 +751,7 @@ def parse_read(result: ReadResult, path: str) -> Netlist:
         ctx.card(card)
     netlist = ctx.finish()
     netlist.files = list(result.files)
+    netlist.observed |= result.observed
     netlist.diagnostics[:0] = result.diagnostics
     attach_comments(netlist, result.comments, ctx.element_cards)
     return netlist

@@ -101,7 +101,24 @@ class ReadResult:
     diagnostics: list[Diagnostic] = field(default_factory=list)
     files: list[str] = field(default_factory=list)
     title: str = ""
+    observed: set[str] = field(default_factory=set)  # nets a .control script probes
     # cards of each included file are spliced in order; which file each came from is in card.path
+
+
+_PROBE = re.compile(r"\b[vi]\w*\s*\(\s*([^,()\s]+)\s*(?:,\s*([^,()\s]+)\s*)?\)", re.I)
+_PROBE_COMMANDS = {"plot", "print", "save", "wrdata", "write", "meas", "measure", "probe",
+                   ".print", ".plot", ".save", ".probe", ".meas", ".measure", ".four"}
+
+
+def probed_nets(line: str) -> set[str]:
+    """Net names a simulation command looks at: ``v(out)``, ``v(a,b)``, and the bare
+    names after ``plot``/``print``/``save`` (a net used only there is observed, not
+    forgotten)."""
+    names = {n.lower() for m in _PROBE.finditer(line[:4096]) for n in m.groups() if n}
+    words = line[:4096].split()
+    if words and words[0].lower() in _PROBE_COMMANDS:
+        names.update(w.lower() for w in words[1:] if w.replace("_", "").replace("!", "").isalnum())
+    return names
 
 
 def decode(data: bytes) -> str:
@@ -433,6 +450,8 @@ class _Reader:
             if in_control:
                 if lowered.startswith(".endc"):
                     in_control = False
+                else:
+                    self.result.observed.update(probed_nets(stripped))
                 continue
             if in_data:
                 if lowered.startswith(".enddata"):

@@ -159,6 +159,7 @@ class Netlist:
     diagnostics: list[Diagnostic] = field(default_factory=list)
     files: list[str] = field(default_factory=list)  # every file read, the top one first
     cdl: dict[str, list[str]] = field(default_factory=dict)  # *.PININFO, *.GLOBAL, ... metadata
+    observed: set[str] = field(default_factory=set)  # nets .print/.plot/.save/.control look at
 
     def all_cells(self):
         """Every cell, depth first: the top level, then each subcircuit definition."""
