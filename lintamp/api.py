@@ -244,9 +244,20 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
             results = list(pool.map(_check_one, work, chunksize=max(1, len(work) // (4 * jobs))))
     else:
         results = [_check_one(job) for job in work]
+    seen: set[tuple] = set()
+    seen_pragmas: set[tuple] = set()
     for result in results:
-        findings.extend(result.findings)
-        pragmas.extend(result.pragmas)
+        # a file included by several checked files yields its findings once
+        for finding in result.findings:
+            key = (finding.fingerprint, finding.location, finding.message)
+            if key not in seen:
+                seen.add(key)
+                findings.append(finding)
+        for pragma in result.pragmas:
+            key = (pragma.location, pragma.verb, pragma.args)
+            if key not in seen_pragmas:
+                seen_pragmas.add(key)
+                pragmas.append(pragma)
         errors.extend(result.internal_errors)
     report = decide(findings, pragmas, config, baseline)
     report.files = [_display(f) for f in files]

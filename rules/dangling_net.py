@@ -10,7 +10,9 @@ What it finds
     does not model (XSPICE code models, simulator-specific Y devices), and the top level of a
     design netlist (no source, no analysis: its nets are the design's pins).  A top-level
     net that ``.print``, ``.plot``, ``.save``, ``.meas`` or a ``.control`` script looks at
-    (``v(out)``) is an observed output, not a forgotten one.
+    (``v(out)``) is an observed output, not a forgotten one.  A net whose one terminal
+    is a subcircuit port that drives it inside (an unused complementary output) is
+    reported as information only.
 
 Why it matters
     A net with one end is nearly always a typo or a connection that was never made:
@@ -46,6 +48,21 @@ def _is_voltage_output(dev, pin) -> bool:
         dev.kind == "behavioral" and is_voltage_output(dev))
 
 
+CONTROL_PINS = {"g", "b", "cp", "cn"}  # gates, bases, control inputs: no current flows in
+
+
+def _drives_port(dev, pin) -> bool:
+    """Inside the cell ``dev`` instantiates, does port ``pin`` reach a terminal that
+    can drive it (a drain, an emitter, a resistor ...), not only gates and bases?"""
+    sub = dev.subcell
+    if sub is None:
+        return False
+    terminals = sub.net_terminals.get(pin, [])
+    return any(p not in CONTROL_PINS or d.kind not in ("nmos", "pmos", "mos", "npn", "pnp", "bjt",
+                                                       "njf", "pjf", "jfet", "vcvs", "vccs")
+               for d, p in terminals)
+
+
 def check(ctx):
     skip = unread_cells(ctx)
     ground = ctx.design.ground
@@ -62,6 +79,22 @@ def check(ctx):
             dev, pin = terminals[0]
             if _is_voltage_output(dev, pin) or dev.kind in ("xspice", "other"):
                 continue  # a computed test signal, or a device whose pins lintamp cannot judge
+            if dev.kind == "line" and pin.startswith("t"):
+                continue  # a pin of a many-conductor line lintamp does not name
+            if dev.kind == "instance" and _drives_port(dev, pin):
+                # an output pin left open (an unused complementary output) is common and
+                # harmless; say so quietly
+                yield ctx.finding(
+                    location=dev.location, subject=net, view=view, nets=[net],
+                    elements=[dev.name], severity=Severity.INFO,
+                    message=f"{net} is an open output: only {describe_terminal(dev, pin)} touches it",
+                    explanation=[f"inside {dev.subcell.label}, port {pin} reaches terminals that "
+                                 "drive it, so this is an output nothing uses",
+                                 "harmless when meant (an unused complementary output); a "
+                                 "misspelt net name when not"],
+                    fix=f"connect {net} to its load, or leave it and waive this finding",
+                    values={"terminals": 1})
+                continue
             yield ctx.finding(
                 location=dev.location, subject=net, view=view, nets=[net], elements=[dev.name],
                 message=f"{net} is touched only by {describe_terminal(dev, pin)}",

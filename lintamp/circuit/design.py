@@ -349,6 +349,8 @@ def recognise(element: Element, cell: Cell, devmap: DeviceMap,
         mtype = model.type if model else ""
         if mtype in ("njf", "pjf"):
             kind, polarity_from = mtype, "model"
+    if letter == "u" and (model is None or model.type != "urc"):
+        kind = "other"  # a PSPICE digital primitive (U ... LOGICEXP ...), not an RC line
     pins = PINS.get(kind, ())
     n = len(element.nodes)
     if kind in BJT_KINDS and n == 3:
