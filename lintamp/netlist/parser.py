@@ -651,12 +651,13 @@ def parse_y(ctx, card, tokens):
     name = tokens[0].text.lower()
     # Xyce writes 'YTYPE NAME NODES ...': the letters after Y name the device type
     if len(name) > 3 and name[1:].isalpha() and name[1:4] != "txl":
-        if len(positional) < 3:
-            ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected an instance name, nodes and a model",
-                      expected="YTYPE NAME NODES ... MODEL", subject=name)
+        if len(positional) < 2:
+            ctx.error(card, tokens[-1].offset, f"{tokens[0].text}: expected an instance name and nodes",
+                      expected="YTYPE NAME NODES ... [MODEL]", subject=name)
             return None
-        el = _element(ctx, card, tokens, positional[1:-1], model=positional[-1].text.lower(),
-                      params=_params(pairs))
+        # whether a model follows the nodes depends on the device type; keep every
+        # positional as a node: the device is not simulated and its pins are not judged
+        el = _element(ctx, card, tokens, positional[1:], params=_params(pairs))
         el.name = tokens[0].text + "!" + positional[0].text
         return el
     if len(positional) < 5:
