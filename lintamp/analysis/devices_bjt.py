@@ -65,6 +65,12 @@ def bjt_params(dev: FlatDevice, temp_c: float = 27.0) -> BjtParams:
     for key in ("ikf", "ik", "ikr", "irb", "ptf", "xtf", "itf", "vtf"):
         if p.get(key, 0.0):
             raise UnsupportedModel(f"model parameter {key.upper()} (high-level/transit-time effect) is not evaluated")
+    level = int(p.get("level", 1))
+    if level != 1:
+        raise UnsupportedModel(f"BJT model level {level} (only the level-1 Gummel-Poon model is evaluated)")
+    for key in ("nf", "nr", "bf", "br", "is"):
+        if key in p and not p[key] > 0:
+            raise UnsupportedModel(f"model parameter {key.upper()} = {p[key]:g} is not positive")
     area = _area_factor(dev)
     vaf = _model_value(p, "vaf", "va", default=0.0)
     var = _model_value(p, "var", "vb", default=0.0)

@@ -20,7 +20,7 @@ from lintamp.analysis.devices_common import (
     safe_exp,
     thermal_voltage,
 )
-from lintamp.analysis.devices_mos import _area_factor, _model_value
+from lintamp.analysis.devices_mos import UnsupportedModel, _area_factor, _model_value
 from lintamp.circuit.flat import FlatDevice
 
 
@@ -41,6 +41,12 @@ class DiodeParams:
 
 def diode_params(dev: FlatDevice, temp_c: float = 27.0) -> DiodeParams:
     p = dict(dev.model.params) if dev.model is not None else {}
+    level = int(p.get("level", 1))
+    if level != 1:
+        raise UnsupportedModel(f"diode model level {level} (only the level-1 junction diode is evaluated)")
+    for key in ("n", "is"):
+        if key in p and not p[key] > 0:
+            raise UnsupportedModel(f"model parameter {key.upper()} = {p[key]:g} is not positive")
     area = _area_factor(dev)
     bv = _model_value(p, "bv")
     return DiodeParams(
