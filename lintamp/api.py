@@ -17,6 +17,7 @@ from lintamp.analysis.context import Context
 from lintamp.circuit.design import Design, elaborate
 from lintamp.circuit.devicemap import DeviceMap
 from lintamp.findings import Finding, Report, Severity
+from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.parser import parse_file, parse_text
 from lintamp.netlist.reader import ReadOptions
@@ -116,8 +117,9 @@ def analyse(netlist: Netlist, config=None, *, top: str | None = None,
 def check_file(path: Path, config=None, *, top: str | None = None,
                include_paths: Iterable[Path] = (), options: dict | None = None) -> FileResult:
     config = config or default_config()
-    netlist = parse_file(path, read_options(path, config, include_paths))
-    return analyse(netlist, config, top=top, options=options)
+    with paused_gc():  # see lintamp.gcpause: millions of live objects, almost no cycles
+        netlist = parse_file(path, read_options(path, config, include_paths))
+        return analyse(netlist, config, top=top, options=options)
 
 
 def check_text(text: str, path: str = "<text>", config=None, *, top: str | None = None,
@@ -127,7 +129,8 @@ def check_text(text: str, path: str = "<text>", config=None, *, top: str | None 
     config = config or default_config()
     opts = ReadOptions(root=Path.cwd(), include_paths=tuple(getattr(config, "include_paths", ())),
                        display_root=Path.cwd())
-    result = analyse(parse_text(text, path, opts), config, top=top, options=options)
+    with paused_gc():
+        result = analyse(parse_text(text, path, opts), config, top=top, options=options)
     report = decide(result.findings, result.pragmas, config)
     report.files = [path]
     return report
