@@ -204,6 +204,28 @@ class TerminalTable:
         self.net_start = np.zeros(len(self.nets) + 1, dtype=np.int64)
         np.cumsum(per_net, out=self.net_start[1:])
 
+    def repeated_net_devices(self) -> list[int]:
+        """Numbers of the devices with one net on two or more of their terminals.
+
+        Notes
+        -----
+        O(terminals) array work; devices with more than 8 terminals are listed
+        without being compared.
+        """
+        import numpy as np
+
+        start, ids = self.dev_start, self.net_ids
+        counts = np.diff(start)
+        repeated = counts > 8
+        for a in range(8):
+            for b in range(a + 1, 8):
+                has = np.flatnonzero(counts > b)
+                if not len(has):
+                    break
+                base = start[has]
+                repeated[has] |= ids[base + a] == ids[base + b]
+        return np.flatnonzero(repeated).tolist()
+
     def degree(self, i: int) -> int:
         """Number of terminals on net number ``i``."""
         return int(self.net_start[i + 1] - self.net_start[i])
@@ -482,16 +504,32 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
         views[id(cell)] = view
     for cell in cells:
         view = views[id(cell)]
+        devices = view.devices
+        # recognise() depends only on (letter, model, node count) within one cell for
+        # every letter but X, and for R/C/L only when no model name is written (a
+        # model name there may be a parameter): remember those answers
+        known: dict[tuple, tuple] = {}
         for element in cell.elements:
-            subcell = None
-            if element.letter == "x" and element.model:
-                subcell = find_cell(cell, element.model)
-            kind, pins, model, spec, polarity_from = recognise(element, cell, devmap, subcell)
-            dev = Device(name=element.key, kind=kind, pins=pins, nets=element.nodes,
-                         element=element, model=model, spec=spec, polarity_from=polarity_from)
+            letter = element.letter
+            if letter == "x":
+                subcell = find_cell(cell, element.model) if element.model else None
+                recognised = recognise(element, cell, devmap, subcell)
+            else:
+                subcell = None
+                key = (letter, element.model, len(element.nodes))
+                recognised = known.get(key)
+                if recognised is None:
+                    recognised = recognise(element, cell, devmap, None)
+                    if letter not in "rcl" or element.model is None:
+                        known[key] = recognised
+            kind, pins, model, spec, polarity_from = recognised
+            name = element.name
+            low = name.lower()
+            dev = Device(name if low == name else low, kind, pins, element.nodes, element, model,
+                         None, spec, polarity_from)
             if kind == "instance" and subcell is not None:
                 dev.subcell = views[id(subcell)]
-            view.devices.append(dev)
+            devices.append(dev)
     _cut_recursion(views, diagnostics)
     top_view, roots = _choose_top(netlist, views, top, diagnostics)
     design = Design(netlist=netlist, views=views, top=top_view, roots=roots,

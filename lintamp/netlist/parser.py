@@ -57,9 +57,10 @@ _TOKEN = re.compile(
     re.VERBOSE,
 )
 _FAST = re.compile(r"[{}'\"(),=]")
-# a card :meth:`ParseContext.plain_element` may read: R/C/L/M name, no {}'"(), and
-# every '=' inside a field (not 'w = 1u')
-_PLAIN_CARD = re.compile(r"[rRcClLmM][^\s{}'\"(),=]*\s(?:[^{}'\"(),=]|(?<=\S)=(?=\S))*\Z")
+# a card :meth:`ParseContext.plain_element` may read starts with one of these letters
+# and holds none of the delimiters the tokenizer treats specially
+_PLAIN_LETTERS = frozenset("rRcClLmM")
+_NOT_PLAIN = re.compile(r"[{}'\"(),]")
 
 
 @dataclass(slots=True)
@@ -202,7 +203,7 @@ class ParseContext:
     # -- dispatch --------------------------------------------------------------
     def card(self, card: Card) -> None:
         text = card.text
-        if _PLAIN_CARD.match(text) is not None:
+        if text[:1] in _PLAIN_LETTERS and _NOT_PLAIN.search(text) is None:
             element = self.plain_element(card, text)
             if element is not None:
                 self.cell.elements.append(element)
@@ -236,13 +237,15 @@ class ParseContext:
         """The element of a plain R/C/L or MOS card, or None to take the general path.
 
         Plain: ``R1 a b 10.5``, ``C1 a b 1.2f``, ``M1 d g s b nch w=1u l=0.15u`` -- no
-        braces, quotes, parentheses or commas, ``key=value`` written without blanks
-        and after every positional field.  The result is what the letter's parser
+        braces, quotes, parentheses or commas (the caller checks), ``key=value``
+        written without blanks and after every positional field.  The result is what the letter's parser
         would make of the card; anything else (a model on an R, a number for a MOS
         model, a stray field) returns None and the general parser decides.
         """
         fields = text.split()
         n_pos = len(fields)
+        if n_pos < 2 or "=" in fields[0]:
+            return None
         params: dict[str, str] = {}
         if "=" in text:
             for k in range(1, n_pos):

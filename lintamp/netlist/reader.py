@@ -221,14 +221,14 @@ class _Reader:
             return
         if shown not in self.result.files:
             self.result.files.append(shown)
-        text = decode(data)
-        self._read_lines(text, shown, path, top_level=top_level, section=section)
+        self._read_lines(decode(data), shown, path, top_level=top_level, section=section)
 
     def _read_lines(self, text: str, shown: str, path: Path, *, top_level: bool,
                     section: str | None) -> None:
         opts = self.opts
         sink = self.sink
         lines = text.split("\n")
+        del text  # lines are dropped as they are read: a big file is not held twice
         current: list | None = None  # [pieces, segments, first_comment, last_line]
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
         in_control = False
@@ -263,6 +263,7 @@ class _Reader:
         n = len(lines)
         while i < n:
             raw = lines[i]
+            lines[i] = None
             i += 1
             lineno = i
             if raw.endswith("\r"):
