@@ -192,12 +192,33 @@ def _write_manifest(cache, key_paths, included: list[Path]) -> None:
     cache.put(key_paths, [], marks)
 
 
+_CODE_KEY: str | None = None
+
+
+def code_fingerprint() -> str:
+    """Size and modification time of every module of lintamp and its rules: a cache
+    written by other code (an edited checkout, another install) is never reused."""
+    global _CODE_KEY
+    if _CODE_KEY is None:
+        import hashlib
+        import lintamp
+        import lintamp.rules
+        digest = hashlib.sha256()
+        folders = {Path(lintamp.__file__).parent, Path(lintamp.rules.__file__).parent}
+        for folder in sorted(folders):
+            for path in sorted(folder.rglob("*.py")):
+                st = path.stat()
+                digest.update(f"{path}:{st.st_size}:{st.st_mtime_ns};".encode())
+        _CODE_KEY = digest.hexdigest()[:16]
+    return _CODE_KEY
+
+
 def _check_one(job) -> FileResult:
     path, config, top, include_paths, options, use_cache = job
     if use_cache:
         from lintamp.cache import Cache, config_key
         cache = Cache(Path(getattr(config, "root", Path.cwd())),
-                      config_key(config, [r.name for r in enabled_rules(config)]) + repr(
+                      config_key(config, [r.name for r in enabled_rules(config)]) + code_fingerprint() + repr(
                           (top, [str(p) for p in include_paths], sorted((options or {}).items()))))
         return _cached_check(path, config, cache, top, include_paths, options)
     return check_file(path, config, top=top, include_paths=include_paths, options=options)

@@ -66,6 +66,8 @@ class Cache:
             digest.update(part.encode("utf-8") + b"\0")
         for path in paths:
             try:
+                if not Path(path).is_file():  # a pipe or device would block or never end
+                    return None
                 data = Path(path).read_bytes()
             except OSError:
                 return None

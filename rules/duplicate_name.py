@@ -21,6 +21,7 @@ Fix
 
 from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Related, Severity
+from lintamp.netlist.reader import excerpt
 
 NAME = "duplicate-name"
 CATEGORY = "references"
@@ -44,7 +45,7 @@ def check(ctx):
             others = f" (and {len(devs) - 2} more)" if len(devs) > 2 else ""
             yield ctx.finding(
                 location=second.location, subject=name, view=view, elements=[name],
-                message=f"{second.display} has the name of the element at line "
+                message=f"{excerpt(second.display)} has the name of the element at line "
                         f"{first.location.line}{others}",
                 explanation=["SPICE names are case-insensitive and unique within a cell",
                              "a simulator rejects the deck (ngspice: 'device already exists') "

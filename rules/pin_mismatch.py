@@ -22,6 +22,7 @@ Fix
 """
 
 from lintamp.findings import Related, Severity
+from lintamp.netlist.reader import excerpt
 
 NAME = "pin-mismatch"
 CATEGORY = "references"
@@ -35,11 +36,11 @@ def check(ctx):
             if dev.kind == "instance" and dev.subcell is not None:
                 ports = dev.subcell.ports
                 where = dev.subcell.cell.location
-                what = f".subckt {dev.subcell.label}"
+                what = f".subckt {excerpt(dev.subcell.label)}"
             elif dev.spec is not None:
                 ports = dev.spec.pins
                 where = None
-                what = f"the device map entry '{dev.spec.pattern}'"
+                what = f"the device map entry '{excerpt(dev.spec.pattern)}'"
             else:
                 continue
             given = len(dev.nets)
@@ -50,10 +51,10 @@ def check(ctx):
                 continue
             yield ctx.finding(
                 location=dev.location, subject=dev.name, view=view, elements=[dev.name],
-                message=f"{dev.display} connects {given} net(s), but {what} has "
+                message=f"{excerpt(dev.display)} connects {given} net(s), but {what} has "
                         f"{len(ports)} port(s)",
-                explanation=[f"ports: {' '.join(ports) or '(none)'}",
-                             f"nets given: {' '.join(dev.element.raw_nodes) or '(none)'}"],
+                explanation=[f"ports: {excerpt(' '.join(ports), 200) or '(none)'}",
+                             f"nets given: {excerpt(' '.join(dev.element.raw_nodes), 200) or '(none)'}"],
                 fix="connect one net per port, in the order of the .subckt line",
                 values={"nets_given": given, "ports": len(ports)},
                 related=[Related(where, f"{what} is defined here")] if where else [])

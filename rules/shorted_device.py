@@ -7,7 +7,9 @@ What it finds
     intentional: a diode-connected MOS (gate = drain) or BJT (base = collector), a
     MOS capacitor (drain = source = body, gate on another net), and any MOS with
     drain = source but its gate elsewhere -- the shape of a layout dummy (gate at the
-    off rail) as well as of a MOS capacitor, common in extracted netlists.
+    off rail) as well as of a MOS capacitor, common in extracted netlists -- or with
+    all four terminals on one net (a dummy tied to its rail, as schematic flows
+    write edge dummies).
 
 Why it matters
     The device does nothing (a dead element, a transistor that can never carry
@@ -52,6 +54,8 @@ def shorted_pins(dev) -> tuple[str, str] | None:
             return None
         if net("g") != d:
             return None  # a MOS capacitor or a layout dummy: gate against the tied channel
+        if net("b") == d:
+            return None  # every terminal on one net: a layout dummy tied to its rail
         return "d", "s"
     if dev.kind in BJT_KINDS:
         c, e = net("c"), net("e")

@@ -75,9 +75,8 @@ def check(ctx):
         else:
             has_cap = any(d.kind == "capacitor" for d, _ in island.terminals)
             if _only_controls(island):
-                message = (f"{net} touches only the {controls_phrase(island.controls)}; "
-                           f"a gate draws no DC current, so nothing sets {net}'s voltage; "
-                           "a simulator stops here with a singular matrix")
+                message = (f"{net} touches only the {controls_phrase(island.controls)}: "
+                           f"nothing sets its DC voltage")
             else:
                 message = f"{net_phrase(island)} drives {controls} with no DC bias"
             steps = [f"on {'this net' if len(island.nets) == 1 else 'these nets'}: "

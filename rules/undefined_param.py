@@ -27,6 +27,7 @@ import difflib
 from lintamp.circuit.design import visible_params
 from lintamp.circuit.values import BadExpression, undefined_names
 from lintamp.findings import Severity
+from lintamp.netlist.reader import excerpt
 
 NAME = "undefined-param"
 CATEGORY = "syntax"
@@ -42,8 +43,9 @@ def check(ctx):
             element, key, error = use.element, use.key, use.error
             yield ctx.finding(
                 location=use.location, subject=(element.key if element else key), view=view,
-                message=f"cannot read the expression of {key}"
-                        + (f" of {element.name}" if element else "") + f": {error}",
+                message=f"cannot read the expression of {excerpt(key)}"
+                        + (f" of {excerpt(element.name)}" if element else "")
+                        + f": {excerpt(str(error), 120)}",
                 severity=Severity.ERROR,
                 explanation=["the value stays unknown, so nothing that depends on it is computed"],
                 elements=[element.key] if element else [])
@@ -51,23 +53,26 @@ def check(ctx):
         if use.symbolic_size:
             symbolic.setdefault(id(view), [view]).append(use)
             continue
-        where = f"{use.key} of {use.element.name}" if use.element else use.key
-        close = difflib.get_close_matches(use.name, visible_params(use.cell), n=1) if use.cell else []
-        hint = f"; did you mean '{close[0]}'?" if close else ""
+        where = excerpt(f"{use.key} of {use.element.name}" if use.element else use.key)
+        # a name longer than any real one has no close match worth the quadratic search
+        close = (difflib.get_close_matches(use.name, visible_params(use.cell), n=1)
+                 if use.cell and len(use.name) <= 60 else [])
+        hint = f"; did you mean '{excerpt(close[0])}'?" if close else ""
+        shown = excerpt(use.name)
         yield ctx.finding(
             location=use.location, subject=use.name, view=view,
-            message=f"'{use.name}' in {where} is not a defined parameter{hint}",
+            message=f"'{shown}' in {where} is not a defined parameter{hint}",
             elements=[use.element.key] if use.element else [],
-            explanation=[f"no .param, .subckt parameter or built-in constant named '{use.name}' "
+            explanation=[f"no .param, .subckt parameter or built-in constant named '{shown}' "
                          "is visible here", "the value stays symbolic; a simulator rejects the deck"],
-            fix=f"define it (.param {use.name}=...), pass it as a subcircuit parameter, "
+            fix=f"define it (.param {shown}=...), pass it as a subcircuit parameter, "
                 "or correct the spelling")
     for view, *uses in symbolic.values():
         names = sorted({u.name for u in uses})
         first = min(uses, key=lambda u: (u.location.line, u.location.column))
         yield ctx.finding(
             location=first.location, subject="symbolic sizes", view=view, severity=Severity.INFO,
-            message=f"device sizes are symbolic ({', '.join(names[:6])}"
+            message=f"device sizes are symbolic ({', '.join(excerpt(n, 20) for n in names[:6])}"
                     f"{', ...' if len(names) > 6 else ''}): {len(uses)} value(s) stay unsized",
             explanation=["bare names used as W, L, M or NF with no definition: an unsized netlist",
                          "checks that need sizes (operating point, impedances) skip these devices"],

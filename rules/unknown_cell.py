@@ -27,6 +27,7 @@ import difflib
 from lintamp.circuit.design import scopes
 from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Severity
+from lintamp.netlist.reader import excerpt
 
 NAME = "unknown-cell"
 CATEGORY = "references"
@@ -42,20 +43,22 @@ def check(ctx):
         for dev in view.devices:
             if dev.kind != "instance" or dev.subcell is not None or not dev.element.model:
                 continue
-            name = dev.element.model
             names = [c for scope in scopes(view.cell) for c in scope.cells]
-            close = difflib.get_close_matches(name, names, n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
+            # a name longer than any real one has no close match worth the quadratic search
+            close = (difflib.get_close_matches(dev.element.model, names, n=1)
+                     if len(dev.element.model) <= 60 else [])
+            hint = f"; did you mean '{excerpt(close[0])}'?" if close else ""
+            name, shown = excerpt(dev.element.model), excerpt(dev.display)
             yield ctx.finding(
                 location=dev.location, subject=dev.name, view=view, elements=[dev.name],
                 severity=Severity.WARNING if incomplete or library else None,
-                message=f"{dev.display} instantiates '{name}', which no .subckt defines{hint}",
+                message=f"{shown} instantiates '{name}', which no .subckt defines{hint}",
                 explanation=[f"no .subckt {name} in this cell, its enclosing cells or the top level"
                              + (" (some include files were not found, and it may be defined there)"
                                 if incomplete else "")
                              + (" (this is a library cell: the netlist it is used with may define it)"
                                 if library and not incomplete else ""),
-                             f"the {len(dev.nets)} nets on {dev.display} are treated as connected "
+                             f"the {len(dev.nets)} nets on {shown} are treated as connected "
                              "to an unknown block"],
                 fix=f"include the file that defines {name}, correct the name, or map it as a "
                     "device in [devices]")

@@ -26,6 +26,7 @@ import difflib
 
 from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
+from lintamp.netlist.reader import excerpt
 
 NAME = "unknown-model"
 CATEGORY = "references"
@@ -49,14 +50,16 @@ def check(ctx):
             if el.letter not in _NEEDS_MODEL or not el.model or dev.model is not None:
                 continue
             names = [m for scope in scopes(view.cell) for m in scope.models]
-            close = difflib.get_close_matches(el.model, names, n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
+            # a name longer than any real one has no close match worth the quadratic search
+            close = difflib.get_close_matches(el.model, names, n=1) if len(el.model) <= 60 else []
+            hint = f"; did you mean '{excerpt(close[0])}'?" if close else ""
+            model = excerpt(el.model)
             polarity = f"; its type is guessed as {dev.kind} from the name" if dev.polarity_from == "name" else ""
             yield ctx.finding(
                 location=el.location, subject=dev.name, view=view, elements=[dev.name],
                 severity=Severity.WARNING if incomplete else None,
-                message=f"{el.name} names model '{el.model}', which no .model defines{hint}",
-                explanation=[f"no .model {el.model} in this cell, its enclosing cells or the top level"
+                message=f"{excerpt(el.name)} names model '{model}', which no .model defines{hint}",
+                explanation=[f"no .model {model} in this cell, its enclosing cells or the top level"
                              + (" (some include files were not found, and it may be defined there)"
                                 if incomplete else "") + polarity,
                              "no operating point is computed for this device"],

@@ -14,6 +14,9 @@ from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic, Netlist
 
 
+MAX_MESSAGE_CHARS = 400
+
+
 class Context:
     """Shared facts about one netlist for every rule.
 
@@ -70,6 +73,8 @@ class Context:
         if view is not None and not view.cell.is_top:
             cell = view.cell.label
             instances = tuple("/".join(p) for p in self.design.instances(view) if p)
+        if len(message) > MAX_MESSAGE_CHARS:  # one sentence; the detail belongs in explanation
+            message = message[: MAX_MESSAGE_CHARS - 3] + "..."
         return Finding(
             rule=self.rule.name, severity=severity or self.rule.severity, location=location,
             subject=subject, message=message, cell=cell, instances=instances,

@@ -23,7 +23,7 @@ from lintamp.analysis.devices_common import (
     safe_exp,
     thermal_voltage,
 )
-from lintamp.analysis.devices_mos import UnsupportedModel, _model_value
+from lintamp.analysis.devices_mos import UnsupportedModel, _area_factor, _model_value
 from lintamp.circuit.flat import FlatDevice
 
 NEPER_E = np.e
@@ -65,7 +65,7 @@ def bjt_params(dev: FlatDevice, temp_c: float = 27.0) -> BjtParams:
     for key in ("ikf", "ik", "ikr", "irb", "ptf", "xtf", "itf", "vtf"):
         if p.get(key, 0.0):
             raise UnsupportedModel(f"model parameter {key.upper()} (high-level/transit-time effect) is not evaluated")
-    area = float(dev.params.get("area", 1.0)) * float(dev.params.get("m", 1.0))
+    area = _area_factor(dev)
     vaf = _model_value(p, "vaf", "va", default=0.0)
     var = _model_value(p, "var", "vb", default=0.0)
     sign = -1.0 if dev.kind == "pnp" else 1.0

@@ -20,7 +20,7 @@ from lintamp.analysis.devices_common import (
     safe_exp,
     thermal_voltage,
 )
-from lintamp.analysis.devices_mos import _model_value
+from lintamp.analysis.devices_mos import _area_factor, _model_value
 from lintamp.circuit.flat import FlatDevice
 
 
@@ -41,7 +41,7 @@ class DiodeParams:
 
 def diode_params(dev: FlatDevice, temp_c: float = 27.0) -> DiodeParams:
     p = dict(dev.model.params) if dev.model is not None else {}
-    area = float(dev.params.get("area", 1.0)) * float(dev.params.get("m", 1.0))
+    area = _area_factor(dev)
     bv = _model_value(p, "bv")
     return DiodeParams(
         name=dev.name,

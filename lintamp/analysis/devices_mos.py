@@ -72,6 +72,14 @@ class MosParams:
     fc: float
 
 
+def _area_factor(dev: FlatDevice) -> float:
+    """``area`` times ``m``; junction parasitics divide by it, so it must be positive."""
+    area = float(dev.params.get("area", 1.0)) * float(dev.params.get("m", 1.0))
+    if not area > 0.0:  # also false for nan
+        raise UnsupportedModel(f"area x m is {area:g}; a device needs a positive area")
+    return area
+
+
 def _model_value(p: dict[str, float], *names: str, default: float | None = None) -> float | None:
     for n in names:
         if n in p:

@@ -29,13 +29,19 @@ def _finite(z) -> bool:
     return not (isinstance(z, float) and math.isinf(z))
 
 
+def over_or_open(numerator, denominator):
+    """numerator / denominator, an open (inf) when the denominator is zero: a device
+    with no transconductance (cut off, gm = gds = 0) presents no 1/gm path."""
+    return INF if denominator == 0 else numerator / denominator
+
+
 def cg_input_ohm(gm, gmb, ro, rd):
     """Source of a common-gate device, drain load ``rd``: (rd + ro)/(1 + (gm+gmb) ro)."""
     if not _finite(rd):
         return INF
     if not _finite(ro):
-        return 1 / (gm + gmb)
-    return (rd + ro) / (1 + (gm + gmb) * ro)
+        return over_or_open(1, gm + gmb)
+    return over_or_open(rd + ro, 1 + (gm + gmb) * ro)
 
 
 def degenerated_drain_ohm(gm, gmb, ro, rs):
@@ -55,17 +61,17 @@ def diode_connected_ohm(gm, gmb, gds, rs=0.0):
 
     (1 + (gm+gmb+gds) rs)/(gm + gds); with rs = 0 this is 1/gm || ro.
     """
-    return (1 + (gm + gmb + gds) * rs) / (gm + gds)
+    return over_or_open(1 + (gm + gmb + gds) * rs, gm + gds)
 
 
 def source_with_gate_at_drain_ohm(gm, gmb, gds, rd):
     """Source of a device whose gate is tied to its drain, drain load ``rd``."""
-    return (1 + (gm + gds) * rd) / (gm + gmb + gds)
+    return over_or_open(1 + (gm + gds) * rd, gm + gmb + gds)
 
 
 def follower_output_ohm(gm, gmb, ro, rl=INF):
     """Source-follower output: 1/(gm+gmb) || ro || rl."""
-    return parallel(1 / (gm + gmb), ro, rl)
+    return parallel(over_or_open(1, gm + gmb), ro, rl)
 
 
 def bjt_base_ohm(gm, rpi, ro, re):
@@ -79,7 +85,7 @@ def bjt_emitter_ohm(gm, rpi, ro, rb):
     beta = gm * rpi
     if not _finite(rb):
         return ro
-    return parallel((rb + rpi) / (beta + 1), ro)
+    return parallel(over_or_open(rb + rpi, beta + 1), ro)
 
 
 def bjt_collector_ohm(gm, rpi, ro, re):
@@ -92,9 +98,9 @@ def bjt_collector_ohm(gm, rpi, ro, re):
 
 def bjt_diode_ohm(gm, rpi, ro):
     """Diode-connected bipolar (base tied to collector): 1/gm || r_pi || ro."""
-    return parallel(1 / gm, rpi, ro)
+    return parallel(over_or_open(1, gm), rpi, ro)
 
 
 def shunt_feedback_ohm(rf, gain, z_out=0.0):
     """Resistor ``rf`` to a node driven with voltage gain -gain: (rf + z_out)/(1 + gain)."""
-    return (rf + z_out) / (1 + gain)
+    return over_or_open(rf + z_out, 1 + gain)

@@ -169,8 +169,10 @@ def no_numbers_findings(ctx, numbers) -> list:
     location = top.devices[0].location if top.devices else top.cell.location
     return [ctx.finding(
         location=location, subject="(operating point)", severity=Severity.INFO,
-        message=f"impedance rules skipped: no trusted numbers ({numbers.reason})",
+        message="impedance rules skipped: no trusted numbers ("
+                + (numbers.reason if len(numbers.reason) <= 100 else numbers.reason[:100] + "...") + ")",
         explanation=[
+            f"why: {numbers.reason if len(numbers.reason) <= 400 else numbers.reason[:400] + '...'}",
             "high-z-current-input, unbuffered-output, undefined-dc-level and device-region need "
             "an operating point and small-signal values",
             "lintamp solves level-1 MOS, Gummel-Poon BJT and diode models itself; other models, "

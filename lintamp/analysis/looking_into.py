@@ -147,7 +147,7 @@ class _Explainer:
         if abs(gain) < 1e-3:
             return Branch(f"{label} to {far}", f"{symbol} + Z({far})", _as_number(z_e + z_th), 0, terms)
         terms["A_v"] = _mag(gain)
-        value = (z_e + z_th) / (1 - gain) if gain != 1 else INF  # bootstrapped: no current
+        value = fm.over_or_open(z_e + z_th, 1 - gain)
         if gain.real < 0 and abs(z_th) < 0.01 * abs(z_e):
             formula = f"{symbol}/(1 + A), A = -v({far})/v({here})"
             terms["A_v"] = -gain.real
@@ -183,7 +183,7 @@ class _Explainer:
             a_g = self.gain(node, g, k)
             if abs(a_g) > 1e-3:
                 terms["A_gate"] = _mag(a_g)
-                z = _as_number(1 / (gds + gm * a_g))
+                z = _as_number(fm.over_or_open(1, gds + gm * a_g))
                 return Branch(f"drain of {k} (its gate follows the drain)", "r_o || 1/(g_m A_gate), A_gate = v(gate)/v(drain)",
                               z, 0, terms)
         if at == {"d"}:

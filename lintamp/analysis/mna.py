@@ -129,6 +129,10 @@ def compile_circuit(
     for dev in devices:
         if dev.kind in NONLINEAR_KINDS:
             terms = TERMINALS[dev.kind]
+            if len(dev.nodes) < len(terms):  # e.g. a MOS written without its body node
+                unsupported.append((dev.name, f"{len(dev.nodes)} nodes, a {dev.kind} needs "
+                                              f"{len(terms)} ({' '.join(terms)})"))
+                continue
             keys = []
             rs = series_resistances.get(dev.name, {})
             for t, net in zip(terms, dev.nodes[: len(terms)]):

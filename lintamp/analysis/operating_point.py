@@ -45,8 +45,9 @@ from lintamp.analysis.devices_mos import (
     mos_limit,
     mos_params,
 )
-from lintamp.analysis.mna import CompiledCircuit, compile_circuit, floating_groups
+from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
+from lintamp.netlist.reader import excerpt
 
 
 class OperatingPointError(RuntimeError):
@@ -241,14 +242,21 @@ def describe_singular(cc: CompiledCircuit, matrix=None) -> str:
     """A message naming the nodes or branches that make the MNA matrix singular."""
     groups = floating_groups(cc)
     if groups:
-        shown = "; ".join(", ".join(g[:8]) + (" ..." if len(g) > 8 else "") for g in groups[:5])
+        shown = "; ".join(", ".join(excerpt(n) for n in g[:8]) + (" ..." if len(g) > 8 else "")
+                          for g in groups[:5])
         return f"singular matrix: no DC path to ground from node(s) {shown}"
-    if matrix is not None and cc.size <= 3000:
-        dense = matrix.toarray()
-        _u, s, vt = np.linalg.svd(dense)
-        null = np.abs(vt[-1])
-        involved = [cc.unknown_names[i] for i in np.argsort(-null)[:6] if null[i] > 0.1 * null.max()]
-        return "singular matrix: check " + ", ".join(involved) + " (a loop of voltage sources/inductors, or a cut set of current sources)"
+    dense = matrix.toarray() if matrix is not None and cc.size <= 3000 else None
+    if dense is not None and np.isfinite(dense).all():  # an overflowed value has no SVD
+        try:
+            _u, s, vt = np.linalg.svd(dense)
+        except np.linalg.LinAlgError:
+            vt = None
+        if vt is not None:
+            null = np.abs(vt[-1])
+            involved = [excerpt(cc.unknown_names[i]) for i in np.argsort(-null)[:6]
+                        if null[i] > 0.1 * null.max()]
+            return ("singular matrix: check " + ", ".join(involved)
+                    + " (a loop of voltage sources/inductors, or a cut set of current sources)")
     return "singular matrix (a loop of voltage sources/inductors, or a cut set of current sources)"
 
 
@@ -318,7 +326,10 @@ def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = N
     """
     opts = options or SolveOptions()
     series = _series_resistances(circuit)
-    cc = compile_circuit(circuit, series_resistances=series)
+    try:
+        cc = compile_circuit(circuit, series_resistances=series)
+    except CircuitError as exc:  # e.g. an F/H source whose controlling source is absent
+        raise OperatingPointError(f"cannot set up the circuit: {exc}") from None
     if cc.unsupported:
         raise CannotEvaluateError(cc.unsupported)
     devs = _DeviceSet(cc, circuit.temperature_c)

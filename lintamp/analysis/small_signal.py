@@ -19,7 +19,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
-from lintamp.analysis.mna import CompiledCircuit, compile_circuit, floating_groups
+from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.analysis.operating_point import OperatingPoint, solve_operating_point
 from lintamp.circuit.flat import FlatCircuit
 
@@ -76,9 +76,12 @@ class ImpedanceSolver:
                 raise SmallSignalError(f"no net named {name!r}")
             grounded_nets.append(idx)
         series = op.series_resistances if op is not None else {}
-        self.compiled: CompiledCircuit = compile_circuit(
-            circuit, detach=self.detach, grounded=grounded_nets, series_resistances=series
-        )
+        try:
+            self.compiled: CompiledCircuit = compile_circuit(
+                circuit, detach=self.detach, grounded=grounded_nets, series_resistances=series
+            )
+        except CircuitError as exc:  # e.g. the controlling source of an F/H was detached
+            raise SmallSignalError(f"cannot build the small-signal model: {exc}") from None
         cc = self.compiled
         if cc.unsupported:
             missing = [n for n, _ in cc.unsupported]

@@ -440,8 +440,11 @@ def recognise(element: Element, cell: Cell, devmap: DeviceMap,
             polarity_from = "map"
             return kind, pins[: len(element.nodes)] + tuple(
                 f"x{i}" for i in range(len(pins), len(element.nodes))), None, spec, polarity_from
+        # one pin per net given, named after the subcircuit's ports where it has them,
+        # so that an unknown cell's or a mismatched instance's nets keep their terminals
         ports = subcell.ports if subcell is not None else ()
-        return "instance", ports, None, None, ""
+        pins = tuple(ports[i] if i < len(ports) else f"x{i}" for i in range(len(element.nodes)))
+        return "instance", pins, None, None, ""
     if letter in "eg" and element.model in ("value", "table", "laplace", "freq", "poly"):
         kind = "behavioral"
     if letter in "fh" and element.model == "poly":

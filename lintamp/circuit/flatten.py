@@ -10,6 +10,7 @@ from __future__ import annotations
 from lintamp.circuit.design import DEFAULT_FLATTEN_LIMIT, CellView, Design, Device
 from lintamp.circuit.flat import FlatCircuit, FlatDevice, ModelCard, SourceValues
 from lintamp.circuit.values import Scope, cell_scope, instance_overrides, top_scope
+from lintamp.netlist.reader import excerpt
 
 ENGINE_KINDS = frozenset({"resistor", "capacitor", "inductor", "vsource", "isource", "vcvs",
                           "vccs", "cccs", "ccvs", "diode", "npn", "pnp", "njf", "pjf", "nmos",
@@ -34,17 +35,54 @@ def _model_card(dev: Device, scope: Scope) -> ModelCard | None:
     return ModelCard(name=model.name, type=model.type, params=params, level=level)
 
 
+_MAX_DEPTH = 100  # instances nested deeper than this are not flattened (as in walk)
+
+
+def flat_element_count(root: CellView) -> int:
+    """How many elements flattening ``root`` would give, without flattening it.
+
+    Notes
+    -----
+    O(cells + devices): each cell's count is computed once and multiplied by its
+    instances, so 10 levels of 10 instances (10^10 leaves) cost 100 steps.
+    """
+    memo: dict[tuple[int, int], int] = {}
+    # explicit stack: a chain of hundreds of cells must not exhaust Python's recursion
+    stack: list[tuple[CellView, int, bool]] = [(root, 0, False)]
+    while stack:
+        view, depth, ready = stack.pop()
+        key = (id(view), depth)
+        if key in memo and not ready:
+            continue
+        subs = [d.subcell for d in view.devices if d.kind == "instance" and d.subcell is not None]
+        if not ready:
+            stack.append((view, depth, True))
+            if depth < _MAX_DEPTH:
+                stack.extend((sub, depth + 1, False) for sub in subs
+                             if (id(sub), depth + 1) not in memo)
+            continue
+        own = sum(1 for d in view.devices if not (d.kind == "instance" and d.subcell is not None))
+        below = sum(memo[(id(sub), depth + 1)] for sub in subs) if depth < _MAX_DEPTH else 0
+        memo[key] = own + below
+    return memo[(id(root), 0)]
+
+
 def flatten(design: Design, *, root: CellView | None = None,
             limit: int = DEFAULT_FLATTEN_LIMIT) -> FlatCircuit:
     """The whole design below ``root`` (default: the top) as one flat circuit.
 
-    Raises :class:`FlattenLimit` past ``limit`` elements.
+    Raises :class:`FlattenLimit` past ``limit`` elements, before building anything
+    (the count comes from :func:`flat_element_count`).
 
     Notes
     -----
     O(elements after flattening); cells are visited once per instance.
     """
     netlist = design.netlist
+    size = flat_element_count(root or design.top)
+    if size > limit:
+        raise FlattenLimit(f"the design has {size} elements after flattening, more than the "
+                           f"limit of {limit}; check a sub-block with --top CELL")
     circuit = FlatCircuit()
     temp = top_scope(netlist).value(netlist.temperature_c) if netlist.temperature_c else None
     if temp is not None:
@@ -68,8 +106,9 @@ def flatten(design: Design, *, root: CellView | None = None,
         for dev in view.devices:
             nodes = tuple(net_index(n, prefix, mapping, view) for n in dev.nets)
             if dev.kind == "instance" and dev.subcell is not None:
-                if depth > 100:
-                    continue
+                if depth >= _MAX_DEPTH:  # silently dropping the rest would mislead
+                    raise FlattenLimit(f"subcircuit instances are nested more than {_MAX_DEPTH} "
+                                       f"deep (at {excerpt(prefix + dev.name, 120)})")
                 sub = dev.subcell
                 child_map = {port: nodes[i] for i, port in enumerate(sub.ports) if i < len(nodes)}
                 for port, index in child_map.items():  # 'x1/in' names the parent's net too
@@ -118,9 +157,9 @@ def _flat_device(dev: Device, prefix: str, nodes: tuple[int, ...], scope: Scope,
             ac_mag=(scope.value(src.ac_mag) or 0.0) if src.ac_mag else 0.0,
             ac_phase_deg=(scope.value(src.ac_phase) or 0.0) if src.ac_phase else 0.0,
             time_varying=src.waveform is not None)
-        if src.dc is None and src.waveform in ("pulse", "pwl", "exp", "sin", "sine") and src.waveform_args:
+        initial = 1 if src.waveform == "pwl" else 0  # PWL: t0 v0 ...; the others: v0 ...
+        if (src.dc is None and src.waveform in ("pulse", "pwl", "exp", "sin", "sine")
+                and len(src.waveform_args) > initial):  # 'PWL file x.pwl' has no v0 here
             # the DC value of a waveform is its initial value (SPICE convention)
-            at = 1 if src.waveform in ("pwl",) else 0
-            first = src.waveform_args[at] if len(src.waveform_args) > at else None
-            flat.source.dc = scope.value(first) or 0.0
+            flat.source.dc = scope.value(src.waveform_args[initial]) or 0.0
     return flat

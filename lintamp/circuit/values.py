@@ -12,8 +12,8 @@ from dataclasses import dataclass
 from typing import Iterator, Mapping
 
 from lintamp.location import Location
-from lintamp.netlist.expr import (ExprError, UndefinedName, UserFunc, compile_expr,
-                                  evaluate_params, evaluate_value, parse_number,
+from lintamp.netlist.expr import (CircularDefinition, ExprError, UndefinedName, UserFunc,
+                                  compile_expr, evaluate_params, evaluate_value, parse_number,
                                   strip_delimiters)
 from lintamp.netlist.statements import Cell, Element, Netlist
 
@@ -158,6 +158,42 @@ def _names_in(text: str) -> tuple[frozenset[str], ExprError | None]:
         return frozenset(), exc
 
 
+class _AnyOuterValue(Mapping):
+    """Every name outside the scope reads as 1.0: only the scope's own definitions
+    decide whether they form a cycle."""
+
+    def __getitem__(self, key):
+        return 1.0
+
+    def __contains__(self, key):
+        return True
+
+    def __iter__(self):
+        return iter(())
+
+    def __len__(self):
+        return 0
+
+
+def circular_params(cell: Cell) -> Iterator[tuple[str, CircularDefinition]]:
+    """The ``.param`` names of ``cell`` that are defined in terms
+    of themselves, with the error naming the cycle.
+
+    Notes
+    -----
+    One evaluation of the cell's definitions: O(total size of their texts).
+    """
+    # Header defaults are left out: they bind in the caller's scope, so a default such
+    # as mult='mult' (HSPICE, Xyce) takes the caller's value and is no cycle.
+    defs = [(p.name, p.text) for p in cell.params if p.name not in cell.defaults]
+    if not defs:
+        return
+    _, errors = evaluate_params(defs, _AnyOuterValue())
+    for name, error in errors.items():
+        if isinstance(error, CircularDefinition):
+            yield name, error
+
+
 def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
     """Every use of a parameter name that no scope defines, cell by cell.
 
@@ -176,6 +212,9 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             known.update(c.defaults)
             known.update(c.funcs)
             c = c.parent
+        where = {p.name: p.location for p in cell.params}
+        for name, error in circular_params(cell):
+            yield BadExpression(None, f".param {name}", error, where.get(name, cell.location), cell)
         for p in cell.params:
             if p.text.startswith('"'):
                 continue  # a string parameter

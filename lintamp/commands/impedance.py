@@ -41,6 +41,8 @@ def parse_frequency(text: str) -> float:
 
 def cmd_impedance(args) -> int:
     from lintamp.analysis.impedance_report import impedance_report
+    from lintamp.analysis.operating_point import OperatingPointError
+    from lintamp.analysis.small_signal import SmallSignalError
     from lintamp.cli import EXIT_OK, EXIT_TROUBLE, UsageError
 
     path = Path(args.netlist)
@@ -69,6 +71,8 @@ def cmd_impedance(args) -> int:
                                   table=table)
     except _Usage as exc:
         raise UsageError(str(exc)) from None
+    except (OperatingPointError, SmallSignalError) as exc:  # the engine's documented refusals
+        raise UsageError(f"{args.netlist}: {exc}") from None
     for diag in problems:
         print(f"lintamp: {diag.location}: {diag.message} (the impedance is computed without it)",
               file=sys.stderr)

@@ -57,6 +57,7 @@ from lintamp.netlist.units import SUFFIXES, parse_number
 
 __all__ = [
     "BUILTIN_FUNCTIONS",
+    "CircularDefinition",
     "Expr",
     "ExprError",
     "MAX_CALL_DEPTH",
@@ -89,6 +90,13 @@ _MAX_TREE_DEPTH = 400
 _MAX_EVAL_DEPTH = 600
 
 _IDENT = r"[A-Za-z_][A-Za-z0-9_]*"
+# Longest piece of expression text (a name, a number) quoted in a message: the text
+# is untrusted and may be a 60 000-character name.
+_SHOWN_CHARS = 40
+
+
+def _shown(text: str) -> str:
+    return text if len(text) <= _SHOWN_CHARS else text[:_SHOWN_CHARS] + "..."
 
 
 class ExprError(Exception):
@@ -114,7 +122,7 @@ class UndefinedName(ExprError):
     """A parameter (or function, ``kind="function"``) that nothing defines."""
 
     def __init__(self, name: str, offset: int = 0, kind: str = "parameter"):
-        super().__init__(f"undefined {kind} '{name}'", offset)
+        super().__init__(f"undefined {kind} '{_shown(name)}'", offset)
         self.name = name
         self.kind = kind
         self.args = (name, offset, kind)  # so that the error pickles (--jobs)
@@ -123,6 +131,13 @@ class UndefinedName(ExprError):
         moved = UndefinedName(self.name, self.offset + delta, self.kind)
         moved.message = self.message
         return moved
+
+
+class CircularDefinition(ExprError):
+    """A parameter defined in terms of itself, directly or through others."""
+
+    def shifted(self, delta: int) -> "CircularDefinition":
+        return CircularDefinition(self.message, self.offset + delta)
 
 
 # --------------------------------------------------------------------------- nodes
@@ -383,14 +398,14 @@ class _UserCall(_Node):
             raise UndefinedName(self.name, self.offset, kind="function")
         if len(self.args) != len(func.args):
             raise ExprError(
-                f"{self.name}() takes {len(func.args)} argument(s), {len(self.args)} given",
+                f"{_shown(self.name)}() takes {len(func.args)} argument(s), {len(self.args)} given",
                 self.offset,
             )
         calls = ctx.calls + 1
         depth = ctx.depth + func.body.depth
         if calls > MAX_CALL_DEPTH or depth > _MAX_EVAL_DEPTH:
             error = ExprError(
-                f"function calls nested too deeply in {self.name}() "
+                f"function calls nested too deeply in {_shown(self.name)}() "
                 f"(more than {MAX_CALL_DEPTH}; does it call itself?)",
                 self.offset,
             )
@@ -407,7 +422,7 @@ class _UserCall(_Node):
 
 
 def _at_call(error: ExprError, func_name: str, offset: int) -> ExprError:
-    suffix = "" if getattr(error, "in_body", False) else f" (in the body of {func_name}())"
+    suffix = "" if getattr(error, "in_body", False) else f" (in the body of {_shown(func_name)}())"
     if isinstance(error, UndefinedName):
         moved: ExprError = UndefinedName(error.name, offset, error.kind)
         moved.message = error.message + suffix
@@ -639,7 +654,9 @@ def _operator(pattern: str, name: str) -> pp.ParserElement:
     )
 
 
-_NUMBER_PATTERN = r"(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?[^\W\d_]*"
+# \d+(?:\.\d*)? rather than \d+\.?\d*: the same numbers without two adjacent digit runs,
+# whose backtracking made a failed full match of a long digit string quadratic.
+_NUMBER_PATTERN = r"(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?[^\W\d_]*"
 
 
 def _make_atom(text: str, loc: int, tokens: pp.ParseResults) -> _Node:
@@ -647,7 +664,7 @@ def _make_atom(text: str, loc: int, tokens: pp.ParseResults) -> _Node:
     if token[0].isdigit() or token[0] == ".":
         value = parse_number(token)
         if value is None:  # the pattern only matches numbers, so this is an overflow
-            raise ExprError(f"number '{token}' is out of range", loc)
+            raise ExprError(f"number '{_shown(token)}' is out of range", loc)
         return _Number(value)
     return _Name(token.lower(), loc)
 
@@ -895,12 +912,12 @@ def define_func(name: str, args: Sequence[str], body: str) -> UserFunc:
     lowered = name.lower()
     for item in (name, *args):
         if _IDENT_RE.fullmatch(item) is None:
-            raise ExprError(f"'{item}' is not a valid name", 0)
+            raise ExprError(f"'{_shown(item)}' is not a valid name", 0)
     if lowered in BUILTIN_FUNCTIONS:
         raise ExprError(f"'{name}' is a built-in function and cannot be redefined", 0)
     arg_names = tuple(arg.lower() for arg in args)
     if len(set(arg_names)) != len(arg_names):
-        raise ExprError(f"{name}() names an argument twice", 0)
+        raise ExprError(f"{_shown(name)}() names an argument twice", 0)
     inner = strip_delimiters(body)
     try:
         compiled = compile_expr(inner)
@@ -964,7 +981,7 @@ def evaluate_params(
         for dep in deps[name]:
             if dep in errors:
                 errors[name] = ExprError(
-                    f"'{name}' depends on '{dep}', which has an error",
+                    f"'{_shown(name)}' depends on '{_shown(dep)}', which has an error",
                     expr.offset_of(dep) + shift.get(name, 0),
                 )
                 return
@@ -985,12 +1002,15 @@ def evaluate_params(
                 if seen == 1:
                     cycle = path[path.index(dep) :]
                     if len(cycle) == 1:
-                        message = f"'{dep}' is defined in terms of itself"
-                    else:
-                        message = "circular definition: " + " -> ".join(cycle + [dep])
+                        message = f"'{_shown(dep)}' is defined in terms of itself"
+                    else:  # a long cycle is named by its ends, not listed whole
+                        names = [_shown(n) for n in cycle + [dep]]
+                        if len(names) > 8:
+                            names[4:-3] = [f"... ({len(cycle) - 6} more)"]
+                        message = "circular definition: " + " -> ".join(names)
                     for member, user in zip(cycle, cycle[1:] + [dep]):
                         offset = compiled[member].offset_of(user) + shift.get(member, 0)
-                        errors.setdefault(member, ExprError(message, offset))
+                        errors.setdefault(member, CircularDefinition(message, offset))
                 elif seen is None:
                     state[dep] = 1
                     path.append(dep)

@@ -15,8 +15,8 @@ from pathlib import Path
 from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
-from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, read,
-                                    read_text)
+from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt,
+                                    open_regular, read, read_text)
 from lintamp.netlist.statements import (Analysis, Cell, Diagnostic, Element, FuncDef, Model,
                                         Netlist, ParamDef, Pragma, Source)
 
@@ -352,9 +352,9 @@ class ParseContext:
         cell.end_location = card.location
         if len(tokens) > 1 and tokens[1].text.lower() != cell.name:
             self.error(card, tokens[1].offset,
-                       f".ends {excerpt(tokens[1].text)} closes .subckt {cell.label} "
+                       f".ends {excerpt(tokens[1].text)} closes .subckt {excerpt(cell.label)} "
                        f"(opened at line {cell.location.line})", severity="warning",
-                       expected=f".ends {cell.label}", subject=cell.name, rule="mismatched-ends")
+                       expected=f".ends {excerpt(cell.label)}", subject=cell.name, rule="mismatched-ends")
 
     def model(self, card: Card, tokens: list[Token]) -> None:
         if len(tokens) < 3:
@@ -400,7 +400,7 @@ class ParseContext:
             cell = self.stack.pop()
             self.netlist.diagnostics.append(Diagnostic(
                 "parse-error", cell.location,
-                f".subckt {cell.label} is never closed", expected=f".ends {cell.label}",
+                f".subckt {excerpt(cell.label)} is never closed", expected=f".ends {excerpt(cell.label)}",
                 subject=cell.name))
         return self.netlist
 
@@ -829,17 +829,16 @@ def parse_file(path: Path, opts: ReadOptions | None = None) -> Netlist:
 
 def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
     shown = _display(path, opts)
+    # The reader streams the file; only its first line is needed here.  A file that
+    # cannot be read is reported by the reader.
     try:
-        data = path.read_bytes()
-    except OSError as exc:
-        netlist = Netlist(path=shown, title="", top=Cell("", (), Location(shown, 1, 1)))
-        netlist.diagnostics.append(Diagnostic("parse-error", Location(shown, 1, 1),
-                                              f"cannot read {shown}: {exc.strerror or exc}"))
-        return netlist
-    first = data.split(b"\n", 1)[0].decode("latin-1")
+        with open_regular(path) as handle:
+            head = handle.read(4096).removeprefix(b"\xef\xbb\xbf")
+    except OSError:
+        head = b""
+    first = re.split(rb"[\r\n]", head, maxsplit=1)[0].decode("latin-1")
     ctx = ParseContext(shown, "")
-    result = read(path, opts, data=data, title=not is_fragment(first), sink=ctx.card)
-    del data
+    result = read(path, opts, title=not is_fragment(first), sink=ctx.card)
     return parse_read(result, shown, ctx)
 
 

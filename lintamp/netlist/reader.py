@@ -14,9 +14,10 @@ from __future__ import annotations
 
 import os
 import re
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable, Iterator
+from typing import BinaryIO, Callable, Iterable, Iterator
 
 from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic
@@ -24,7 +25,15 @@ from lintamp.netlist.statements import Diagnostic
 MAX_INCLUDE_DEPTH = 40
 MAX_FILE_BYTES = 256 * 1024 * 1024
 MAX_CARD_CHARS = 4 * 1024 * 1024  # a logical card longer than this is refused, not parsed
+# A physical line longer than this is skipped unread: it is never held in memory whole,
+# so a 100 MB one-line file costs one read buffer, not 100 MB (real lines are < 10 KB).
+MAX_LINE_BYTES = 1024 * 1024
 EXCERPT_CHARS = 60
+_READ_CHUNK_BYTES = 256 * 1024
+_HEAD_BYTES = 8192
+# Byte-order marks of encodings simulators do not read (UTF-8's own BOM is skipped).
+_FOREIGN_BOMS = ((b"\x00\x00\xfe\xff", "UTF-32"), (b"\xff\xfe\x00\x00", "UTF-32"),
+                 (b"\xfe\xff", "UTF-16"), (b"\xff\xfe", "UTF-16"))
 
 _PLACEHOLDER = re.compile(r"\$\{|\$[A-Za-z_]|@@|@[A-Za-z_]|\{[A-Za-z_]\w*\}")
 
@@ -103,6 +112,114 @@ def decode(data: bytes) -> str:
         return data.decode("utf-8")
     except UnicodeDecodeError:
         return data.decode("latin-1")
+
+
+def foreign_encoding(head: bytes) -> str | None:
+    """The name of a UTF-16/32 encoding announced by a byte-order mark, else None."""
+    for bom, name in _FOREIGN_BOMS:
+        if head.startswith(bom):
+            return name
+    return None
+
+
+# Line ends as Python's universal newlines: LF, CR LF, and a lone CR (old Mac files;
+# editors show it as a break too).
+_BREAK_BYTES = re.compile(rb"\r\n|\r|\n")
+_BREAK_TEXT = re.compile("\r\n|\r|\n")
+
+
+def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, int]]:
+    """``(line number, text, length in bytes)`` for each line of a byte stream.
+
+    Each line is decoded on its own (UTF-8 when valid, else latin-1), so the whole
+    file is never held in memory.  A line longer than :data:`MAX_LINE_BYTES` is
+    skipped without being kept: its text is None.
+
+    Notes
+    -----
+    O(bytes) time; memory O(MAX_LINE_BYTES + chunk size), whatever the file size.
+    """
+    lineno = 0
+    pending = bytearray()
+    skipping = 0  # > 0: inside an over-long line, this many bytes so far
+    carry = b""  # a CR at a chunk's end may be the first half of CR LF
+    first = True
+
+    def take(piece: bytes) -> None:
+        nonlocal pending, skipping
+        if skipping:
+            skipping += len(piece)
+        elif len(pending) + len(piece) > MAX_LINE_BYTES:
+            skipping = len(pending) + len(piece)
+            pending = bytearray()
+        else:
+            pending += piece
+
+    def line() -> tuple[int, str | None, int]:
+        nonlocal pending, skipping, lineno
+        lineno += 1
+        if skipping:
+            out = (lineno, None, skipping)
+        else:
+            out = (lineno, decode(bytes(pending)), len(pending))
+        pending, skipping = bytearray(), 0
+        return out
+
+    for chunk in chunks:
+        if first:
+            first = False
+            if chunk.startswith(b"\xef\xbb\xbf"):
+                chunk = chunk[3:]
+        chunk = carry + chunk
+        carry = b""
+        if chunk.endswith(b"\r"):
+            carry, chunk = b"\r", chunk[:-1]
+        start = 0
+        for match in _BREAK_BYTES.finditer(chunk):
+            take(chunk[start:match.start()])
+            yield line()
+            start = match.end()
+        take(chunk[start:])
+    if carry or pending or skipping or lineno == 0:
+        yield line()
+
+
+def _chunks(handle: BinaryIO, head: bytes) -> Iterator[bytes]:
+    if head:
+        yield head
+    while True:
+        chunk = handle.read(_READ_CHUNK_BYTES)
+        if not chunk:
+            return
+        yield chunk
+
+
+def open_regular(path: Path) -> BinaryIO:
+    """Open ``path`` for reading only if it is a regular file.
+
+    Opened non-blocking so that a FIFO cannot stall the open itself; then the
+    open file (not the name, which could be swapped) must be a regular file.
+
+    Raises
+    ------
+    OSError
+        The file cannot be opened; or it is a folder, device, pipe or socket
+        (``strerror`` says which).
+    """
+    fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
+    try:
+        mode = os.fstat(fd).st_mode
+        if not stat.S_ISREG(mode):
+            what = ("a folder" if stat.S_ISDIR(mode) else "a pipe" if stat.S_ISFIFO(mode)
+                    else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "not a regular file")
+            raise OSError(0, f"it is {what}, not a netlist file" if what != "not a regular file"
+                          else "it is not a regular file")
+        if hasattr(os, "set_blocking"):
+            os.set_blocking(fd, True)
+        return os.fdopen(fd, "rb")
+    except BaseException:
+        os.close(fd)
+        raise
 
 
 def looks_binary(data: bytes) -> bool:
@@ -202,33 +319,57 @@ class _Reader:
     def _read_file(self, path: Path, *, top_level: bool, section: str | None,
                    data: bytes | None, at: Location | None) -> None:
         shown = self.display(path)
-        if data is None:
-            try:
-                size = path.stat().st_size
-                if size > MAX_FILE_BYTES:
-                    self._diag("bad-include" if at else "parse-error", at or Location(shown, 1, 1),
-                               f"{shown}: file is {size} bytes, over the {MAX_FILE_BYTES}-byte limit; not read")
-                    return
-                data = path.read_bytes()
-            except OSError as exc:
-                self._diag("missing-include" if at else "parse-error", at or Location(shown, 1, 1),
-                           f"cannot read {shown}: {exc.strerror or exc}", severity="warning" if at else "error")
+        if data is not None:
+            if self._refuse(data[:_HEAD_BYTES], shown, at):
                 return
-        if looks_binary(data):
+            self._note_file(shown)
+            self._read_lines(physical_lines((data,)), shown, path, top_level=top_level,
+                             section=section)
+            return
+        try:
+            handle = open_regular(path)
+        except OSError as exc:
+            self._diag("missing-include" if at else "parse-error", at or Location(shown, 1, 1),
+                       f"cannot read {shown}: {exc.strerror or exc}", severity="warning" if at else "error")
+            return
+        with handle:
+            size = os.fstat(handle.fileno()).st_size
+            if size > MAX_FILE_BYTES:
+                self._diag("bad-include" if at else "parse-error", at or Location(shown, 1, 1),
+                           f"{shown}: file is {size} bytes, over the {MAX_FILE_BYTES}-byte limit; not read")
+                return
+            head = handle.read(_HEAD_BYTES)
+            if self._refuse(head, shown, at):
+                return
+            self._note_file(shown)
+            self._read_lines(physical_lines(_chunks(handle, head)), shown, path,
+                             top_level=top_level, section=section)
+
+    def _note_file(self, shown: str) -> None:
+        if shown not in self.result.files:
+            self.result.files.append(shown)
+
+    def _refuse(self, head: bytes, shown: str, at: Location | None) -> bool:
+        """Say why a file is not netlist text (judged by its first bytes), or return False."""
+        encoding = foreign_encoding(head)
+        if encoding is not None:
+            self._diag("parse-error", at or Location(shown, 1, 1),
+                       f"{shown} is {encoding} text (byte-order mark); lintamp, like SPICE "
+                       "simulators, reads UTF-8 or latin-1 netlists: save it as UTF-8; not read",
+                       expected="UTF-8 or latin-1 text")
+            return True
+        if looks_binary(head):
             self._diag("parse-error", at or Location(shown, 1, 1),
                        f"{shown} looks like a binary file, not netlist text; not read",
                        expected="SPICE netlist text")
-            return
-        if shown not in self.result.files:
-            self.result.files.append(shown)
-        self._read_lines(decode(data), shown, path, top_level=top_level, section=section)
+            return True
+        return False
 
-    def _read_lines(self, text: str, shown: str, path: Path, *, top_level: bool,
-                    section: str | None) -> None:
+    def _read_lines(self, source: Iterable[tuple[int, str | None, int]], shown: str, path: Path, *,
+                    top_level: bool, section: str | None) -> None:
         opts = self.opts
         sink = self.sink
-        lines = text.split("\n")
-        del text  # lines are dropped as they are read: a big file is not held twice
+        lines = iter(source)
         current: list | None = None  # [pieces, segments, first_comment, last_line]
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
         in_control = False
@@ -236,11 +377,12 @@ class _Reader:
         spectre = False
         in_section = section is None
         section_depth = 0
-        start = 0
         if top_level:
-            first = lines[0].rstrip("\r") if lines else ""
-            self.result.title = first.strip()
-            start = 1
+            _, first, length = next(lines, (1, "", 0))
+            if first is None:
+                self._too_long(shown, 1, length)
+                first = ""
+            self.result.title = excerpt(first.strip(), 200)
             pragma = _pragma_text(first.lstrip("*$ \t"))
             if pragma is not None and first.lstrip()[:1] in "*$":
                 self.result.comments.append(CommentLine(pragma, Location(shown, 1, 1), "pragma"))
@@ -248,26 +390,31 @@ class _Reader:
         def flush():
             nonlocal current
             if current is not None:
-                pieces, segs, comment, last = current
-                card_text = "".join(pieces)
-                if len(card_text) > MAX_CARD_CHARS:
+                pieces, segs, comment, last, size = current
+                if size > MAX_CARD_CHARS:
                     self._diag("parse-error", Location(shown, segs[0][1], segs[0][2]),
-                               f"statement is {len(card_text)} characters long, over the "
-                               f"{MAX_CARD_CHARS} limit; skipped")
+                               f"statement is over the {MAX_CARD_CHARS}-character limit "
+                               f"(lines {segs[0][1]} to {last}); skipped")
                 else:
                     self.n_cards += 1
-                    sink(Card(card_text, shown, segs, comment, last))
+                    sink(Card("".join(pieces), shown, segs, comment, last))
                 current = None
 
-        i = start
-        n = len(lines)
-        while i < n:
-            raw = lines[i]
-            lines[i] = None
-            i += 1
-            lineno = i
-            if raw.endswith("\r"):
-                raw = raw[:-1]
+        pushed_back: tuple[int, str | None, int] | None = None
+        while True:
+            if pushed_back is not None:
+                lineno, raw, length = pushed_back
+                pushed_back = None
+            else:
+                got = next(lines, None)
+                if got is None:
+                    break
+                lineno, raw, length = got
+            if raw is None:
+                flush()
+                cdl_open = None
+                self._too_long(shown, lineno, length)
+                continue
             stripped = raw.lstrip()
             if not stripped:
                 continue
@@ -282,7 +429,7 @@ class _Reader:
                 cdl_open = None
                 if current is not None:
                     flush()
-                current = [[stripped], [(0, lineno, indent + 1)], "", lineno]
+                current = [[stripped], [(0, lineno, indent + 1)], "", lineno, len(stripped)]
                 continue
             # whole-line comments: keep pragmas and CDL directives
             if head == "*" or (head == "$" and (len(stripped) == 1 or stripped[1] in " \t$")) \
@@ -323,11 +470,17 @@ class _Reader:
                 continue
             code, comment = _strip_inline_comment(stripped, opts)
             # trailing backslash continues onto the next line (HSPICE / Spectre style)
-            while code.rstrip().endswith("\\") and i < n and not code.rstrip().endswith("\\\\\\"):
+            while code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
+                got = next(lines, None)
+                if got is None:
+                    break
+                if got[1] is None:  # an over-long line ends the statement; said below
+                    pushed_back = got
+                    break
                 code = code.rstrip()[:-1] + " "
-                nxt = lines[i].rstrip("\r")
-                i += 1
-                more, _ = _strip_inline_comment(nxt.lstrip(), opts)
+                if len(code) > MAX_CARD_CHARS:  # a statement that never ends: stop joining
+                    break
+                more, _ = _strip_inline_comment(got[1].lstrip(), opts)
                 code += more
             if head == "+" and cdl_open is not None:
                 cdl_open.text += " " + code[1:].strip()
@@ -340,9 +493,12 @@ class _Reader:
                                    "continuation line '+' with no statement before it",
                                    expected="a statement before the '+' line")
                     continue
+                if current[4] > MAX_CARD_CHARS:
+                    continue  # already refused when flushed; stop growing it
+                offset = current[4] + 1
                 current[0].append(" ")
-                offset = sum(len(p) for p in current[0])
                 current[0].append(code[1:])
+                current[4] = offset + len(code) - 1
                 current[1].append((offset, lineno, indent + 2))
                 current[3] = lineno
                 if comment and _pragma_text(comment) is not None:
@@ -369,13 +525,18 @@ class _Reader:
             if word in (".include", ".inc", ".incl", ".includes"):
                 self._include(code, shown, path, lineno, indent)
                 continue
-            current = [[code], [(0, lineno, indent + 1)], comment, lineno]
+            current = [[code], [(0, lineno, indent + 1)], comment, lineno, len(code)]
             if comment:
                 pragma = _pragma_text(comment)
                 if pragma is not None:
                     self.result.comments.append(
                         CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma-inline"))
         flush()
+
+    def _too_long(self, shown: str, lineno: int, length: int) -> None:
+        self._diag("parse-error", Location(shown, lineno, 1),
+                   f"line is {length} bytes long, over the {MAX_LINE_BYTES}-byte limit; skipped "
+                   "unread", expected=f"lines under {MAX_LINE_BYTES} bytes ('+' continues a statement)")
 
     # -- .lib sections ---------------------------------------------------------
     def _section_card(self, stripped, code, shown, path, lineno, indent, section,
@@ -426,20 +587,32 @@ class _Reader:
         else:
             candidates.append(including.parent / target_path)
             candidates.extend(p / target_path for p in self.opts.include_paths)
+        # A candidate is judged by where it really is (symlinks followed) before
+        # anything about it is looked at, so nothing outside the sandbox is read,
+        # nor even told apart as present or absent.
+        outside = False
+        not_files = []  # inside, existing, but folders, devices or pipes
         for cand in candidates:
             try:
-                if cand.is_file():
-                    real = cand.resolve()
-                    if not self.inside_sandbox(real):
-                        if not quiet:
-                            self._diag("bad-include", loc,
-                                       f"'{excerpt(target)}' resolves outside the project root and the "
-                                       "include paths; not read (add its folder with --include-path "
-                                       "if it is trusted)", subject=target)
-                        return None
+                real = cand.resolve()
+                if not self.inside_sandbox(real):
+                    outside = True
+                    continue
+                if real.is_file():
                     return real
-            except OSError:
+                if real.exists():
+                    not_files.append(real)
+            except (OSError, ValueError, RuntimeError):  # NUL in the name, symlink loop
                 continue
+        if not_files or outside:
+            if quiet:
+                return None
+            if not_files:
+                self._diag("bad-include", loc, f"'{excerpt(target)}' is a folder, device or pipe, "
+                           "not a netlist file; not read", subject=target)
+            else:
+                self._outside(target, loc)
+            return None
         if not quiet:
             self._diag("missing-include", loc,
                        f"include file '{excerpt(target)}' not found (looked beside "
@@ -447,12 +620,18 @@ class _Reader:
                        + "); checking goes on without it", severity="warning", subject=target)
         return None
 
+    def _outside(self, target: str, loc: Location) -> None:
+        self._diag("bad-include", loc,
+                   f"'{excerpt(target)}' resolves outside the project root and the "
+                   "include paths; not read (add its folder with --include-path "
+                   "if it is trusted)", subject=target)
+
     def _enter(self, real: Path, section: str | None, loc: Location) -> bool:
         key = (str(real), section or "")
         if key in self.stack:
             chain = " -> ".join(self.display(Path(p)) + (f"[{s}]" if s else "") for p, s in self.stack)
-            self._diag("bad-include", loc, f"include cycle: {chain} -> {self.display(real)}; "
-                       "not read again", subject=self.display(real))
+            self._diag("bad-include", loc, f"include cycle: {excerpt(chain, 200)} -> "
+                       f"{excerpt(self.display(real))}; not read again", subject=self.display(real))
             return False
         if len(self.stack) >= MAX_INCLUDE_DEPTH:
             self._diag("bad-include", loc, f"includes nested more than {MAX_INCLUDE_DEPTH} deep; "
@@ -493,12 +672,13 @@ class _Reader:
                        f"'{excerpt(section)}'", severity="warning", subject=section)
 
     def _has_section(self, real: Path, section: str) -> bool:
+        pattern = re.compile(r"\s*\.lib\s+" + re.escape(section) + r"\s*", re.I)
         try:
-            text = decode(real.read_bytes())
+            with open_regular(real) as handle:
+                return any(text is not None and pattern.fullmatch(text)
+                           for _, text, _ in physical_lines(_chunks(handle, b"")))
         except OSError:
             return False
-        pattern = re.compile(r"^\s*\.lib\s+" + re.escape(section) + r"\s*$", re.I | re.M)
-        return bool(pattern.search(text))
 
 
 def _split_path_tokens(code: str) -> list[str]:
@@ -527,8 +707,14 @@ def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
     opts = opts or ReadOptions()
     reader = _Reader(opts, sink)
     reader.result.files.append(path)
-    reader._read_lines(text, path, Path(path), top_level=True, section=None)
+    reader._read_lines(_text_lines(text), path, Path(path), top_level=True, section=None)
     return reader.result
+
+
+def _text_lines(text: str) -> Iterator[tuple[int, str | None, int]]:
+    """:func:`physical_lines` for text already in memory (same line ends and limit)."""
+    for lineno, line in enumerate(_BREAK_TEXT.split(text), 1):
+        yield (lineno, None, len(line)) if len(line) > MAX_LINE_BYTES else (lineno, line, len(line))
 
 
 def iter_cards(result: ReadResult) -> Iterator[Card]:

@@ -46,9 +46,15 @@ _DECIMAL_EXPONENT: dict[str, int] = {
 
 # mantissa, optional exponent (e or d), then an optional tail that starts with a letter
 # and runs over letters, digits and underscores ([^\W\d] is "a letter or _").
+# The mantissa is written \d+(?:\.\d*)? rather than \d+\.?\d*: the same language, but
+# without two adjacent digit runs, whose backtracking made a failed match of a long
+# digit string quadratic (20 000 digits then a '=' took 15 s).
 _NUMBER_RE = re.compile(
-    r"([+-]?(?:\d+\.?\d*|\.\d+))(?:[eEdD]([+-]?\d+))?([^\W\d]\w*)?"
+    r"([+-]?(?:\d+(?:\.\d*)?|\.\d+))(?:[eEdD]([+-]?\d+))?([^\W\d]\w*)?"
 )
+# An exponent with more digits than this is out of range whatever its mantissa (and
+# int() refuses strings past 4300 digits).
+_MAX_EXPONENT_DIGITS = 12
 
 
 def parse_number(text: str) -> float | None:
@@ -81,6 +87,8 @@ def parse_number(text: str) -> float | None:
     if match is None:
         return None
     mantissa, exponent, tail = match.groups()
+    if exponent is not None and len(exponent) > _MAX_EXPONENT_DIGITS:
+        return None
     exp10 = 0
     if tail is not None:
         first = tail[0].lower()
