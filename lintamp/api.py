@@ -17,8 +17,8 @@ from lintamp.analysis.context import Context
 from lintamp.circuit.design import Design, elaborate
 from lintamp.circuit.devicemap import DeviceMap
 from lintamp.findings import Finding, Report, Severity
+from lintamp.gcpause import paused_gc
 from lintamp.location import Location
-from lintamp.netlist.parser import parse_file, parse_text
 from lintamp.netlist.reader import ReadOptions
 from lintamp.netlist.statements import Netlist, Pragma
 
@@ -115,19 +115,23 @@ def analyse(netlist: Netlist, config=None, *, top: str | None = None,
 
 def check_file(path: Path, config=None, *, top: str | None = None,
                include_paths: Iterable[Path] = (), options: dict | None = None) -> FileResult:
+    from lintamp.netlist.parser import parse_file  # here: a cache hit never needs the parser
     config = config or default_config()
-    netlist = parse_file(path, read_options(path, config, include_paths))
-    return analyse(netlist, config, top=top, options=options)
+    with paused_gc():  # see lintamp.gcpause: millions of live objects, almost no cycles
+        netlist = parse_file(path, read_options(path, config, include_paths))
+        return analyse(netlist, config, top=top, options=options)
 
 
 def check_text(text: str, path: str = "<text>", config=None, *, top: str | None = None,
                options: dict | None = None) -> Report:
     """Check netlist text held in memory; includes resolve from the current folder."""
     from lintamp.decide import decide
+    from lintamp.netlist.parser import parse_text
     config = config or default_config()
     opts = ReadOptions(root=Path.cwd(), include_paths=tuple(getattr(config, "include_paths", ())),
                        display_root=Path.cwd())
-    result = analyse(parse_text(text, path, opts), config, top=top, options=options)
+    with paused_gc():
+        result = analyse(parse_text(text, path, opts), config, top=top, options=options)
     report = decide(result.findings, result.pragmas, config)
     report.files = [path]
     return report
@@ -275,6 +279,7 @@ def _display(path: Path) -> str:
 def flat_circuit_from_text(text: str, path: str = "<text>", config=None, *, top: str | None = None):
     """Parse, elaborate and flatten netlist text into the engine's numeric circuit."""
     from lintamp.circuit.flatten import flatten
+    from lintamp.netlist.parser import parse_text
     config = config or default_config()
     netlist = parse_text(text, path, ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
     return flatten(load_design(netlist, config, top=top))

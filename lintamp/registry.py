@@ -9,9 +9,11 @@ Third-party rules register modules under the entry-point group ``lintamp.rules``
 
 from __future__ import annotations
 
+import ast
 import importlib
 import pkgutil
 from dataclasses import dataclass
+from pathlib import Path
 from types import ModuleType
 from typing import Callable, Iterable
 
@@ -51,6 +53,60 @@ def _from_module(module: ModuleType) -> RuleInfo:
     )
 
 
+def _lazy_check(module_name: str) -> Callable[..., Iterable[Finding]]:
+    """``check`` of a rule module, imported on the first call."""
+    def check(ctx):
+        return importlib.import_module(module_name).check(ctx)
+
+    check.__qualname__ = check.__name__ = f"{module_name}.check"
+    return check
+
+
+def _from_source(module_name: str, path: Path) -> RuleInfo | None:
+    """A built-in rule's metadata read from its source, without importing it.
+
+    Listing the rules (``lintamp rules``, a cache hit, the decision layer) then costs
+    no import of the analyses the rule uses (numpy, scipy, the parser).  Only plain
+    literal assignments are read; anything else returns None and the module is
+    imported as usual.
+    """
+    try:
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+    except (OSError, SyntaxError, UnicodeDecodeError):
+        return None
+    values: dict[str, object] = {}
+    has_check = False
+    for node in tree.body:
+        if isinstance(node, ast.FunctionDef) and node.name == "check":
+            has_check = True
+        elif isinstance(node, (ast.Assign, ast.AnnAssign)):
+            targets = node.targets if isinstance(node, ast.Assign) else [node.target]
+            for target in targets:
+                if not isinstance(target, ast.Name):
+                    continue
+                if target.id == "check":
+                    return None  # check bound some other way: import the module
+                if target.id not in ("NAME", "CATEGORY", "SEVERITY", "SUMMARY"):
+                    continue
+                value = node.value
+                if (target.id == "SEVERITY" and isinstance(value, ast.Attribute)
+                        and isinstance(value.value, ast.Name) and value.value.id == "Severity"
+                        and value.attr in Severity.__members__):
+                    values["SEVERITY"] = Severity[value.attr]
+                    continue
+                try:
+                    values[target.id] = ast.literal_eval(value)
+                except (ValueError, TypeError, SyntaxError):
+                    return None
+    if set(values) != {"NAME", "CATEGORY", "SEVERITY", "SUMMARY"} or not all(
+            isinstance(values[k], str) for k in ("NAME", "CATEGORY", "SUMMARY")):
+        return None
+    return RuleInfo(
+        name=values["NAME"], category=values["CATEGORY"], severity=values["SEVERITY"],
+        summary=values["SUMMARY"], doc=(ast.get_docstring(tree, clean=False) or "").strip(),
+        check=_lazy_check(module_name) if has_check else None, module=module_name)
+
+
 _cache: dict[str, RuleInfo] | None = None
 
 
@@ -65,10 +121,14 @@ def all_rules() -> dict[str, RuleInfo]:
     for info in sorted(pkgutil.iter_modules(package.__path__), key=lambda m: m.name):
         if info.name.startswith("_"):
             continue
-        module = importlib.import_module(f"{package.__name__}.{info.name}")
-        if hasattr(module, "NAME"):
+        name = f"{package.__name__}.{info.name}"
+        rule = _from_source(name, Path(package.__path__[0]) / f"{info.name}.py")
+        if rule is None:
+            module = importlib.import_module(name)
+            if not hasattr(module, "NAME"):
+                continue
             rule = _from_module(module)
-            found[rule.name] = rule
+        found[rule.name] = rule
     found.update(_plugin_rules(found))
     _cache = dict(sorted(found.items()))
     return _cache

@@ -69,13 +69,14 @@ def check(ctx):
     for view in ctx.cells():
         if id(view) in skip or interface_view(ctx.design, view):
             continue
-        roleless = {net for dev in view.devices for net in dev.nets[len(dev.pins):]}
+        roleless = {net for dev in view.devices if len(dev.nets) > len(dev.pins)
+                    for net in dev.nets[len(dev.pins):]}
         # a top-level net that .print/.plot/.save or a .control script looks at is observed
         observed = ctx.netlist.observed if view.cell.is_top else set()
-        for net, terminals in view.net_terminals.items():
-            if (len(terminals) != 1 or view.is_external(net) or net in ground or net in roleless
-                    or net in observed):
+        for net in view.net_terminals.with_degree(1):
+            if view.is_external(net) or net in ground or net in roleless or net in observed:
                 continue
+            terminals = view.net_terminals[net]
             dev, pin = terminals[0]
             if _is_voltage_output(dev, pin) or dev.kind in ("xspice", "other"):
                 continue  # a computed test signal, or a device whose pins lintamp cannot judge

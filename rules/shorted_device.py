@@ -66,7 +66,10 @@ def shorted_pins(dev) -> tuple[str, str] | None:
 
 def check(ctx):
     for view in ctx.cells():
-        for dev in view.devices:
+        devices = view.devices
+        # only a device with one net on two terminals can be shorted: the terminal
+        # table finds those with array operations
+        for dev in [devices[d] for d in view.terminal_table.repeated_net_devices()]:
             pins = shorted_pins(dev)
             if pins is None:
                 continue

@@ -220,22 +220,19 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     One pass over the devices and one sparse connected-components call:
     O(terminals) time and memory, integer indices only.
     """
-    index: dict[str, int] = {}
-    for net in view.net_terminals:
-        index[net] = len(index)
-    for dev in view.devices:  # nets on pins without a role (an unknown cell's pins)
-        if len(dev.nets) > len(dev.pins):
-            for net in dev.nets[len(dev.pins):]:
-                index.setdefault(net, len(index))
-    nets = list(index)
+    table = view.terminal_table
+    index = table.index
+    nets = table.nets
     n = len(nets)
+    net_ids, dev_start = table.net_ids, table.dev_start
+    row_parts: list[np.ndarray] = []
+    col_parts: list[np.ndarray] = []
     rows: list[int] = []
     cols: list[int] = []
     controls = np.zeros(n, dtype=np.int64)
     currents_at: list[tuple[Device, int]] = []
     unknown = np.zeros(n, dtype=bool)
     inner_controls: dict[int, list[str]] = {}
-    plans: dict[tuple, DevicePlan] = {}
     inst_currents: list[int] = []
     inst_controlled: list[int] = []
     sensed = np.zeros(n, dtype=bool)
@@ -247,12 +244,62 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             rows.append(first)
             cols.append(other)
 
-    for dev in view.devices:
-        # only nets with a pin role are terminals (an instance with too many nets: pin-mismatch)
-        ids = [index[net] for net in dev.nets[:len(dev.pins)]]
-        for net in dev.nets[len(dev.pins):]:
-            unknown[index[net]] = True  # a pin lintamp knows no role for
-        if dev.kind == "instance" and dev.subcell is not None:
+    # devices of one plan key share their DC roles: handle each such batch with
+    # array operations on the terminal table instead of a Python step per device
+    devices = view.devices
+    plan_code: dict[tuple, int] = {}
+    codes = np.fromiter(
+        (plan_code.setdefault((dev.kind, dev.pins, dev.element.letter, dev.element.model),
+                              len(plan_code)) for dev in devices),
+        dtype=np.int64, count=len(devices))
+    batches = np.argsort(codes, kind="stable")
+    bounds = np.searchsorted(codes[batches], np.arange(len(plan_code) + 1))
+    current_plans: dict[int, tuple[int, ...]] = {}
+    for key, code in plan_code.items():
+        members = batches[bounds[code]:bounds[code + 1]]
+        kind = key[0]
+        if kind == "instance":
+            continue  # below, one by one (their roles come from the subcell's summary)
+        plan = device_plan(devices[int(members[0])])
+        base = dev_start[members]
+
+        def pin_ids(p):  # net number of pin ``p`` of every device of the batch
+            return net_ids[base + p]
+
+        for group in plan.groups + (plan.full_only if mode == FULL else ()):
+            if len(group) > 1:
+                first = pin_ids(group[0])
+                for other in group[1:]:
+                    row_parts.append(first)
+                    col_parts.append(pin_ids(other))
+        for p in plan.controls:
+            np.add.at(controls, pin_ids(p), 1)
+        for p in plan.unknown:
+            unknown[pin_ids(p)] = True
+        for p in plan.senses:
+            sensed[pin_ids(p)] = True
+        if plan.currents:
+            current_plans[code] = plan.currents
+    if current_plans:  # current feeds in netlist order: the findings list them so
+        feeding = np.zeros(len(plan_code), dtype=bool)
+        feeding[list(current_plans)] = True
+        for d in np.flatnonzero(feeding[codes]).tolist():
+            dev = devices[d]
+            for p in current_plans[int(codes[d])]:
+                currents_at.append((dev, p))
+    for dev in devices:
+        if len(dev.nets) > len(dev.pins):
+            for net in dev.nets[len(dev.pins):]:
+                unknown[index[net]] = True  # a pin lintamp knows no role for
+    if "instance" in {key[0] for key in plan_code}:
+        for dev in devices:
+            if dev.kind != "instance":
+                continue
+            ids = [index[net] for net in dev.nets[:len(dev.pins)]]
+            if dev.subcell is None:
+                for i in ids:
+                    unknown[i] = True
+                continue
             groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
             if groups is None:
                 for i in ids:
@@ -274,39 +321,20 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
                     sensed[members[0]] = True
                 if group.unknown:
                     unknown[members[0]] = True
-            continue
-        if dev.kind == "instance":
-            for i in ids:
-                unknown[i] = True
-            continue
-        key = (dev.kind, dev.pins, dev.element.letter, dev.element.model)
-        plan = plans.get(key)
-        if plan is None:
-            plan = plans[key] = device_plan(dev)
-        for group in plan.groups:
-            if len(group) > 1:
-                join([ids[p] for p in group])
-        if mode == FULL:
-            for group in plan.full_only:
-                if len(group) > 1:
-                    join([ids[p] for p in group])
-        for p in plan.controls:
-            controls[ids[p]] += 1
-        for p in plan.currents:
-            currents_at.append((dev, p))
-        for p in plan.unknown:
-            unknown[ids[p]] = True
-        for p in plan.senses:
-            sensed[ids[p]] = True
-        if dev.element.controls and dev.kind != "coupling":
-            # F, H, W and POLY forms sense the current of a V source: its nets are observed
-            if by_name is None:
-                by_name = {d.name: d for d in view.devices}
-            for name in dev.element.controls:
-                ctl = by_name.get(name)
-                if ctl is not None:
-                    for net in ctl.nets:
-                        sensed[index[net]] = True
+    # F, H, W and POLY forms sense the current of a V source: its nets are observed
+    for dev in [d for d in devices if d.element.controls and d.kind != "coupling"
+                and d.kind != "instance"]:
+        if by_name is None:
+            by_name = {d.name: d for d in devices}
+        for name in dev.element.controls:
+            ctl = by_name.get(name)
+            if ctl is not None:
+                for net in ctl.nets:
+                    sensed[index[net]] = True
+    row_parts.append(np.asarray(rows, dtype=np.int64))
+    col_parts.append(np.asarray(cols, dtype=np.int64))
+    rows = np.concatenate(row_parts)
+    cols = np.concatenate(col_parts)
 
     if n:
         graph = coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)), shape=(n, n))

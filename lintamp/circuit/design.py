@@ -12,7 +12,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Iterable, Iterator
+from typing import Iterable, Iterator, Mapping
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
 from lintamp.location import Location
@@ -114,13 +114,19 @@ class CellView:
         return self.cell.label
 
     @cached_property
-    def net_terminals(self) -> dict[str, list[tuple[Device, str]]]:
-        """Each net with the (device, pin) terminals on it, in netlist order."""
-        nets: dict[str, list[tuple[Device, str]]] = {p: [] for p in self.ports}
-        for dev in self.devices:
-            for pin, net in dev.terminals():
-                nets.setdefault(net, []).append((dev, pin))
-        return nets
+    def terminal_table(self) -> "TerminalTable":
+        """The cell's terminals as integer arrays (see :class:`TerminalTable`)."""
+        return TerminalTable(self)
+
+    @cached_property
+    def net_terminals(self) -> "NetTerminals":
+        """Each net with the (device, pin) terminals on it, in netlist order.
+
+        A read-only mapping net -> list of (device, pin); the lists are made on
+        lookup from :attr:`terminal_table`, so a million-element cell holds integers,
+        not a tuple per terminal.  Ports come first (with ``[]`` when unused).
+        """
+        return NetTerminals(self.terminal_table)
 
     @property
     def nets(self) -> list[str]:
@@ -150,6 +156,130 @@ class CellView:
                 else:
                     g.add_edge(dev, net, pins=(pin,))
         return g
+
+
+class TerminalTable:
+    """A cell's connectivity as small integers, built once per cell.
+
+    ``nets``: every net name, ports first, then in order of first use (nets on
+    pins that have a role), then nets only on pins without a role (an instance with
+    more nets than its cell has ports); ``index`` maps a name to its position and
+    ``n_role_nets`` counts the nets before those last.  Per device ``d``, its
+    terminals (the nets with a pin role, ``min(len(nets), len(pins))`` of them) are
+    ``net_ids[dev_start[d]:dev_start[d + 1]]``.  ``term_order`` lists terminal
+    numbers grouped by net (netlist order inside a net) and ``net_start`` delimits
+    each net's group, so a net's terminals are found without a Python list per net.
+
+    Notes
+    -----
+    O(terminals) time; 4 integers per terminal and 1 per net of memory.
+    """
+
+    __slots__ = ("devices", "nets", "index", "n_role_nets", "net_ids", "dev_start",
+                 "term_dev", "term_order", "net_start")
+
+    def __init__(self, view: "CellView"):
+        import numpy as np
+
+        devices = view.devices
+        self.devices = devices
+        role_nets = [dev.nets if len(dev.nets) <= len(dev.pins) else dev.nets[:len(dev.pins)]
+                     for dev in devices]
+        flat = [net for nets in role_nets for net in nets]
+        names = dict.fromkeys(view.ports)
+        names.update(dict.fromkeys(flat))
+        self.n_role_nets = len(names)
+        for dev in devices:  # nets on pins without a role
+            if len(dev.nets) > len(dev.pins):
+                names.update(dict.fromkeys(dev.nets[len(dev.pins):]))
+        self.nets = list(names)
+        self.index = {net: i for i, net in enumerate(self.nets)}
+        counts = np.fromiter(map(len, role_nets), dtype=np.int64, count=len(role_nets))
+        self.dev_start = np.zeros(len(devices) + 1, dtype=np.int64)
+        np.cumsum(counts, out=self.dev_start[1:])
+        self.net_ids = np.fromiter(map(self.index.__getitem__, flat), dtype=np.int64, count=len(flat))
+        self.term_dev = np.repeat(np.arange(len(devices), dtype=np.int64), counts)
+        self.term_order = np.argsort(self.net_ids, kind="stable")
+        per_net = np.bincount(self.net_ids, minlength=len(self.nets))
+        self.net_start = np.zeros(len(self.nets) + 1, dtype=np.int64)
+        np.cumsum(per_net, out=self.net_start[1:])
+
+    def repeated_net_devices(self) -> list[int]:
+        """Numbers of the devices with one net on two or more of their terminals.
+
+        Notes
+        -----
+        O(terminals) array work; devices with more than 8 terminals are listed
+        without being compared.
+        """
+        import numpy as np
+
+        start, ids = self.dev_start, self.net_ids
+        counts = np.diff(start)
+        repeated = counts > 8
+        for a in range(8):
+            for b in range(a + 1, 8):
+                has = np.flatnonzero(counts > b)
+                if not len(has):
+                    break
+                base = start[has]
+                repeated[has] |= ids[base + a] == ids[base + b]
+        return np.flatnonzero(repeated).tolist()
+
+    def degree(self, i: int) -> int:
+        """Number of terminals on net number ``i``."""
+        return int(self.net_start[i + 1] - self.net_start[i])
+
+    def terminals_of(self, i: int) -> list[tuple["Device", str]]:
+        """(device, pin) terminals on net number ``i``, in netlist order."""
+        terms = self.term_order[self.net_start[i]:self.net_start[i + 1]].tolist()
+        devices, dev_start, term_dev = self.devices, self.dev_start, self.term_dev
+        out = []
+        for t in terms:
+            d = int(term_dev[t])
+            dev = devices[d]
+            out.append((dev, dev.pins[t - int(dev_start[d])]))
+        return out
+
+
+class NetTerminals(Mapping):
+    """Read-only mapping net -> [(device, pin), ...] over a :class:`TerminalTable`."""
+
+    __slots__ = ("table",)
+
+    def __init__(self, table: TerminalTable):
+        self.table = table
+
+    def __getitem__(self, net: str) -> list[tuple["Device", str]]:
+        i = self.table.index[net]
+        if i >= self.table.n_role_nets:
+            raise KeyError(net)
+        return self.table.terminals_of(i)
+
+    def __contains__(self, net) -> bool:
+        i = self.table.index.get(net)
+        return i is not None and i < self.table.n_role_nets
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self.table.nets[:self.table.n_role_nets])
+
+    def __len__(self) -> int:
+        return self.table.n_role_nets
+
+    def degree(self, net: str) -> int:
+        """How many terminals ``net`` has (0 for an unknown name), without building them."""
+        i = self.table.index.get(net)
+        if i is None or i >= self.table.n_role_nets:
+            return 0
+        return self.table.degree(i)
+
+    def with_degree(self, count: int) -> list[str]:
+        """The nets with exactly ``count`` terminals, in net order."""
+        import numpy as np
+
+        table = self.table
+        per_net = np.diff(table.net_start[:table.n_role_nets + 1])
+        return [table.nets[i] for i in np.flatnonzero(per_net == count).tolist()]
 
 
 @dataclass
@@ -379,16 +509,32 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
         views[id(cell)] = view
     for cell in cells:
         view = views[id(cell)]
+        devices = view.devices
+        # recognise() depends only on (letter, model, node count) within one cell for
+        # every letter but X, and for R/C/L only when no model name is written (a
+        # model name there may be a parameter): remember those answers
+        known: dict[tuple, tuple] = {}
         for element in cell.elements:
-            subcell = None
-            if element.letter == "x" and element.model:
-                subcell = find_cell(cell, element.model)
-            kind, pins, model, spec, polarity_from = recognise(element, cell, devmap, subcell)
-            dev = Device(name=element.key, kind=kind, pins=pins, nets=element.nodes,
-                         element=element, model=model, spec=spec, polarity_from=polarity_from)
+            letter = element.letter
+            if letter == "x":
+                subcell = find_cell(cell, element.model) if element.model else None
+                recognised = recognise(element, cell, devmap, subcell)
+            else:
+                subcell = None
+                key = (letter, element.model, len(element.nodes))
+                recognised = known.get(key)
+                if recognised is None:
+                    recognised = recognise(element, cell, devmap, None)
+                    if letter not in "rcl" or element.model is None:
+                        known[key] = recognised
+            kind, pins, model, spec, polarity_from = recognised
+            name = element.name
+            low = name.lower()
+            dev = Device(name if low == name else low, kind, pins, element.nodes, element, model,
+                         None, spec, polarity_from)
             if kind == "instance" and subcell is not None:
                 dev.subcell = views[id(subcell)]
-            view.devices.append(dev)
+            devices.append(dev)
     _cut_recursion(views, diagnostics)
     top_view, roots = _choose_top(netlist, views, top, diagnostics)
     design = Design(netlist=netlist, views=views, top=top_view, roots=roots,

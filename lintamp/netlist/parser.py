@@ -12,6 +12,7 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
+from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt,
@@ -56,6 +57,10 @@ _TOKEN = re.compile(
     re.VERBOSE,
 )
 _FAST = re.compile(r"[{}'\"(),=]")
+# a card :meth:`ParseContext.plain_element` may read starts with one of these letters
+# and holds none of the delimiters the tokenizer treats specially
+_PLAIN_LETTERS = frozenset("rRcClLmM")
+_NOT_PLAIN = re.compile(r"[{}'\"(),]")
 
 
 @dataclass(slots=True)
@@ -177,7 +182,9 @@ class ParseContext:
         self.top = Cell(name="", ports=(), location=Location(path, 1, 1))
         self.netlist = Netlist(path=path, title=title, top=self.top)
         self.stack: list[Cell] = [self.top]
-        self.element_cards: list[tuple[Element, Card]] = []
+        self.element_cards: list[Element] = []  # every element, for the pragmas to find
+        self.title_card = False
+        self._names: dict[str, str] = {}  # one string object per distinct net name
         # device cards whose model could not be told from a node: parsed again at
         # the end, once every .model name is known
         self.deferred: list = []
@@ -196,6 +203,12 @@ class ParseContext:
     # -- dispatch --------------------------------------------------------------
     def card(self, card: Card) -> None:
         text = card.text
+        if text[:1] in _PLAIN_LETTERS and _NOT_PLAIN.search(text) is None:
+            element = self.plain_element(card, text)
+            if element is not None:
+                self.cell.elements.append(element)
+                self.element_cards.append(element)
+                return
         stripped = text.lstrip()
         if not stripped:
             return
@@ -218,7 +231,54 @@ class ParseContext:
         element = parse(self, card, tokens)
         if element is not None:
             self.cell.elements.append(element)
-            self.element_cards.append((element, card))
+            self.element_cards.append(element)
+
+    def plain_element(self, card: Card, text: str) -> Element | None:
+        """The element of a plain R/C/L or MOS card, or None to take the general path.
+
+        Plain: ``R1 a b 10.5``, ``C1 a b 1.2f``, ``M1 d g s b nch w=1u l=0.15u`` -- no
+        braces, quotes, parentheses or commas (the caller checks), ``key=value``
+        written without blanks and after every positional field.  The result is what the letter's parser
+        would make of the card; anything else (a model on an R, a number for a MOS
+        model, a stray field) returns None and the general parser decides.
+        """
+        fields = text.split()
+        n_pos = len(fields)
+        if n_pos < 2 or "=" in fields[0]:
+            return None
+        params: dict[str, str] = {}
+        if "=" in text:
+            for k in range(1, n_pos):
+                if "=" in fields[k]:
+                    for item in fields[k:]:
+                        key, _, value = item.partition("=")
+                        if not key or not value or "=" in value:
+                            return None
+                        params[key.lower()] = value
+                    n_pos = k
+                    break
+        name = fields[0]
+        letter = name[0].lower()
+        if letter == "m":
+            if not 5 <= n_pos <= 9:
+                return None
+            model = fields[n_pos - 1].lower()
+            if model in DEVICE_FLAGS or is_value_token(model):
+                return None
+            raw = fields[1:n_pos - 1]
+            value = None
+        else:  # r, c, l
+            if n_pos != 4 or parse_number(fields[3]) is None:
+                return None
+            value = fields[3]
+            raw = fields[1:3]
+            model = None
+        names = self._names
+        nodes = tuple([names.setdefault(low, low) for low in map(str.lower, raw)])
+        raw = tuple(raw)
+        _, line, col = card.segments[0]
+        return Element(name, letter, nodes, Location(card.path, line, col), model, value, params,
+                       (), None, None, nodes if nodes == raw else raw)
 
     # -- dot cards -------------------------------------------------------------
     def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:
@@ -248,6 +308,7 @@ class ParseContext:
             nl.analyses.append(Analysis(word[1:], tuple(t.text for t in tokens[1:]), card.location))
         elif word == ".title":
             nl.title = card.text.strip()[6:].strip()
+            self.title_card = True
         elif word == ".end":
             pass
         elif word in IGNORED_DOT:
@@ -336,7 +397,7 @@ class ParseContext:
                 element = parse(self, card, tokens, models)
                 if element is not None:
                     cell.elements.insert(index, element)
-                    self.element_cards.append((element, card))
+                    self.element_cards.append(element)
         while len(self.stack) > 1:
             cell = self.stack.pop()
             self.netlist.diagnostics.append(Diagnostic(
@@ -350,7 +411,9 @@ class ParseContext:
 def _element(ctx: ParseContext, card: Card, tokens: list[Token], nodes: list[Token],
              **kw) -> Element:
     name = tokens[0].text
-    return Element(name=name, letter=name[0].lower(), nodes=tuple(t.text.lower() for t in nodes),
+    names = ctx._names
+    return Element(name=name, letter=name[0].lower(),
+                   nodes=tuple(names.setdefault(low, low) for low in (t.text.lower() for t in nodes)),
                    raw_nodes=tuple(t.text for t in nodes), location=card.location, **kw)
 
 
@@ -694,11 +757,13 @@ ELEMENT_PARSERS = {
 
 # -- pragmas and CDL comments ----------------------------------------------------
 def attach_comments(netlist: Netlist, comments: list[CommentLine],
-                    element_cards: list[tuple[Element, Card]]) -> None:
+                    elements: list[Element]) -> None:
     """Turn ``lintamp:`` comments into pragmas in the cell that holds them."""
+    if not comments:
+        return
     by_line: dict[tuple[str, int], Element] = {}
-    for element, card in element_cards:
-        by_line[(card.path, card.segments[0][1])] = element
+    for element in elements:  # an element's location is its card's first line
+        by_line[(element.location.path, element.location.line)] = element
     cells = list(netlist.all_cells())
     # which cell holds a line: the innermost .subckt whose span contains it
     spans = [(c, c.location, c.end_location) for c in cells if not c.is_top and c.end_location]
@@ -746,10 +811,14 @@ def is_fragment(first_line: str) -> bool:
     return bool(_FRAGMENT_FIRST.match(first_line))
 
 
-def parse_read(result: ReadResult, path: str) -> Netlist:
-    ctx = ParseContext(path, result.title)
-    for card in result.cards:
-        ctx.card(card)
+def parse_read(result: ReadResult, path: str, ctx: ParseContext | None = None) -> Netlist:
+    """The netlist of a read result; ``ctx`` when its cards were already fed to it."""
+    if ctx is None:
+        ctx = ParseContext(path, result.title)
+        for card in result.cards:
+            ctx.card(card)
+    elif not ctx.title_card:
+        ctx.netlist.title = result.title
     netlist = ctx.finish()
     netlist.files = list(result.files)
     netlist.observed |= result.observed
@@ -760,7 +829,11 @@ def parse_read(result: ReadResult, path: str) -> Netlist:
 
 def parse_file(path: Path, opts: ReadOptions | None = None) -> Netlist:
     """Read and parse a netlist file and everything it includes."""
-    opts = opts or ReadOptions()
+    with paused_gc():
+        return _parse_file(path, opts or ReadOptions())
+
+
+def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
     shown = _display(path, opts)
     # The reader streams the file; only its first line is needed here.  A file that
     # cannot be read is reported by the reader.
@@ -770,13 +843,16 @@ def parse_file(path: Path, opts: ReadOptions | None = None) -> Netlist:
     except OSError:
         head = b""
     first = re.split(rb"[\r\n]", head, maxsplit=1)[0].decode("latin-1")
-    result = read(path, opts, title=not is_fragment(first))
-    return parse_read(result, shown)
+    ctx = ParseContext(shown, "")
+    result = read(path, opts, title=not is_fragment(first), sink=ctx.card)
+    return parse_read(result, shown, ctx)
 
 
 def parse_text(text: str, path: str = "<text>", opts: ReadOptions | None = None) -> Netlist:
     """Parse netlist text held in memory (its first line is the title)."""
-    return parse_read(read_text(text, path, opts), path)
+    ctx = ParseContext(path, "")
+    with paused_gc():
+        return parse_read(read_text(text, path, opts, sink=ctx.card), path, ctx)
 
 
 def _display(path: Path, opts: ReadOptions) -> str:

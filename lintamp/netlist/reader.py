@@ -17,7 +17,7 @@ import re
 import stat
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import BinaryIO, Iterable, Iterator
+from typing import BinaryIO, Callable, Iterable, Iterator
 
 from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic
@@ -294,9 +294,13 @@ def _pragma_text(comment: str) -> str | None:
 
 
 class _Reader:
-    def __init__(self, opts: ReadOptions):
+    def __init__(self, opts: ReadOptions, sink: Callable[[Card], None] | None = None):
         self.opts = opts
         self.result = ReadResult()
+        # where finished cards go: the result's list, or a consumer that handles each
+        # card as it is read (the parser), so that a big file never holds all its cards
+        self.sink = sink or self.result.cards.append
+        self.n_cards = 0
         self.stack: list[tuple[str, str]] = []  # (realpath, section) being read
         self.allowed = [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
 
@@ -381,7 +385,7 @@ class _Reader:
     def _read_lines(self, source: Iterable[tuple[int, str | None, int]], shown: str, path: Path, *,
                     top_level: bool, section: str | None) -> None:
         opts = self.opts
-        cards = self.result.cards
+        sink = self.sink
         lines = iter(source)
         current: list | None = None  # [pieces, segments, first_comment, last_line]
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
@@ -409,7 +413,8 @@ class _Reader:
                                f"statement is over the {MAX_CARD_CHARS}-character limit "
                                f"(lines {segs[0][1]} to {last}); skipped")
                 else:
-                    cards.append(Card("".join(pieces), shown, segs, comment, last))
+                    self.n_cards += 1
+                    sink(Card("".join(pieces), shown, segs, comment, last))
                 current = None
 
         pushed_back: tuple[int, str | None, int] | None = None
@@ -432,6 +437,17 @@ class _Reader:
                 continue
             indent = len(raw) - len(stripped)
             head = stripped[0]
+            if head.isalpha() and in_section and not (in_control or in_data or spectre) and not (
+                    ";" in stripped or "$" in stripped or "/" in stripped or "\\" in stripped) and not (
+                    head in "sS" and stripped[:9].lower() == "simulator"):
+                # the commonest line by far, an element card with no comment, no
+                # continuation marker and no directive: what the general path below
+                # would do with it, without its checks
+                cdl_open = None
+                if current is not None:
+                    flush()
+                current = [[stripped], [(0, lineno, indent + 1)], "", lineno, len(stripped)]
+                continue
             # whole-line comments: keep pragmas and CDL directives
             if head == "*" or (head == "$" and (len(stripped) == 1 or stripped[1] in " \t$")) \
                     or stripped.startswith("//"):
@@ -665,12 +681,12 @@ class _Reader:
         if not self._enter(real, section, loc):
             return
         self.stack.append((str(real), section))
-        before = len(self.result.cards)
+        before = self.n_cards
         try:
             self._read_file(real, top_level=False, section=section, data=None, at=loc)
         finally:
             self.stack.pop()
-        if len(self.result.cards) == before and not self._has_section(real, section):
+        if self.n_cards == before and not self._has_section(real, section):
             self._diag("missing-include", loc, f"library {self.display(real)} has no section "
                        f"'{excerpt(section)}'", severity="warning", subject=section)
 
@@ -694,15 +710,21 @@ def _split_path_tokens(code: str) -> list[str]:
 
 
 def read(path: Path, opts: ReadOptions | None = None, *, data: bytes | None = None,
-         title: bool = True) -> ReadResult:
-    """Read a netlist file and its includes; with ``title`` its first line is the title."""
-    return _Reader(opts or ReadOptions()).read_top(path, data, title)
+         title: bool = True, sink: Callable[[Card], None] | None = None) -> ReadResult:
+    """Read a netlist file and its includes; with ``title`` its first line is the title.
+
+    With ``sink`` each card goes to ``sink(card)`` as soon as it is complete, in file
+    order, instead of into ``ReadResult.cards`` (which then stays empty): a consumer
+    that handles cards one by one never holds a whole big file's cards at once.
+    """
+    return _Reader(opts or ReadOptions(), sink).read_top(path, data, title)
 
 
-def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None) -> ReadResult:
-    """Read netlist text held in memory (first line is the title)."""
+def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
+              sink: Callable[[Card], None] | None = None) -> ReadResult:
+    """Read netlist text held in memory (first line is the title); ``sink`` as in :func:`read`."""
     opts = opts or ReadOptions()
-    reader = _Reader(opts)
+    reader = _Reader(opts, sink)
     reader.result.files.append(path)
     reader._read_lines(_text_lines(text), path, Path(path), top_level=True, section=None)
     return reader.result
