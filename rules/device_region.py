@@ -51,7 +51,7 @@ Fix
 """
 
 from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings
-from lintamp.analysis.ports import PortFinder
+from lintamp.analysis.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
 from lintamp.report.si import si
@@ -151,7 +151,7 @@ def check(ctx):
         yield from no_numbers_findings(ctx, numbers)
         return
     circuit, op = numbers.circuit, numbers.op
-    finder = ctx.memo("impedance-ports", lambda: PortFinder(ctx, circuit, numbers.ac_ground, op))
+    finder = port_finder(ctx, numbers)
     margin = ctx.threshold(SAT_MARGIN.name, SAT_MARGIN.default)
     vce_min = ctx.threshold(VCE_MIN.name, VCE_MIN.default)
     switches = _switch_gates(circuit, op, numbers.ac_ground)

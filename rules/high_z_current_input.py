@@ -61,7 +61,7 @@ from lintamp.analysis.explain_steps import freq_words, looking_into_steps
 from lintamp.analysis.flat_places import prefix_of
 from lintamp.analysis.impedance_numbers import (Numbers, device_capacitance_at, impedance_numbers,
                                                 no_numbers_findings, safely)
-from lintamp.analysis.ports import PortFinder
+from lintamp.analysis.ports import port_finder
 from lintamp.analysis.signal_band import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
@@ -80,9 +80,6 @@ MAX_OHM = register_threshold(
     "highest |Z_in| of a current input when the node capacitance or the band is unknown")
 OPEN_OHM = 1e11
 
-
-def port_finder(ctx, numbers: Numbers) -> PortFinder:
-    return ctx.memo("impedance-ports", lambda: PortFinder(ctx, numbers.circuit, numbers.ac_ground, numbers.op))
 
 
 def check(ctx):

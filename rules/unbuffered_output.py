@@ -52,7 +52,7 @@ import math
 from lintamp.analysis.explain_steps import freq_words, looking_into_steps
 from lintamp.analysis.flat_places import prefix_of
 from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
-from lintamp.analysis.ports import PortFinder
+from lintamp.analysis.ports import port_finder
 from lintamp.analysis.signal_band import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
@@ -71,9 +71,6 @@ POLE_MARGIN = register_threshold(
     "the load pole 1/(2 pi R_out C_L) must be at least this many times the band edge")
 SPOT_HZ = 1e3  # without a band the divider is judged at 1 kHz, the usual spot frequency
 
-
-def port_finder(ctx, numbers: Numbers) -> PortFinder:
-    return ctx.memo("impedance-ports", lambda: PortFinder(ctx, numbers.circuit, numbers.ac_ground, numbers.op))
 
 
 def check(ctx):

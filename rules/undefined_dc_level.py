@@ -54,7 +54,7 @@ from lintamp.analysis.dc_feedback import current_defined_nodes, feedback_path, i
 from lintamp.analysis.explain_steps import looking_into_steps
 from lintamp.analysis.flat_places import local_name
 from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
-from lintamp.analysis.ports import PortFinder
+from lintamp.analysis.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
 from lintamp.report.si import si
@@ -82,7 +82,7 @@ def check(ctx):
     circuit = numbers.circuit
     fixed = numbers.ac_ground
     graph = influence_graph(circuit)
-    finder = ctx.memo("impedance-ports", lambda: PortFinder(ctx, circuit, fixed, numbers.op))
+    finder = port_finder(ctx, numbers)
     seen = set()
     for node in current_defined_nodes(circuit, fixed):
         if feedback_path(graph, node.net, node.controllers, fixed) is not None:

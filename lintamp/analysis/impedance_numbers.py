@@ -98,7 +98,6 @@ def _load_table(ctx):
 
 
 def _compute(ctx) -> Numbers | NoNumbers | None:
-    from lintamp.analysis.impedance_report import resolve_operating_point
     from lintamp.circuit.flatten import FlattenLimit, flatten
 
     if not ctx.design.top.devices:

@@ -28,7 +28,7 @@ from dataclasses import dataclass, field
 
 from lintamp.analysis import formulas as fm
 from lintamp.analysis.operating_point import OperatingPoint
-from lintamp.analysis.small_signal import NONLINEAR, ImpedanceSolver
+from lintamp.analysis.small_signal import ImpedanceSolver
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
 MISMATCH_LIMIT = 0.05
@@ -252,7 +252,7 @@ class _Explainer:
             br.terms.update({f"r_d_{n}_ohm": v["rd_ohm"]})
             return br
         if kind == "vsource":
-            return self.two_terminal(dev, node, 0.0, f"voltage source {n} (AC short)", f"0")
+            return self.two_terminal(dev, node, 0.0, f"voltage source {n} (AC short)", "0")
         if kind == "isource":
             return Branch(f"current source {n}", "open (ideal current source)", INF, 0, {})
         if kind in ("vcvs", "ccvs"):

@@ -373,3 +373,9 @@ class PortFinder:
                 loads.add(dev.name)
                 why.append(f"{dev.name}: AC coupling into a passive network to AC ground")
         return loads, why
+
+
+def port_finder(ctx, numbers) -> PortFinder:
+    """The netlist's one :class:`PortFinder`, built on first use (memoised on ``ctx``)."""
+    return ctx.memo("impedance-ports",
+                    lambda: PortFinder(ctx, numbers.circuit, numbers.ac_ground, numbers.op))

@@ -127,7 +127,7 @@ def compute_rails(ctx) -> Rails:
                 bucket = port_votes.setdefault(id(sub), {})
                 for pos in range(min(len(sub.ports), len(dev.nets))):
                     bucket.setdefault(pos, []).append(rails.volts.get(dev.nets[pos]))
-        global_volts = {g: (next(iter(v)), f"the global's source") for g, v in found_globals.items()
+        global_volts = {g: (next(iter(v)), "the global's source") for g, v in found_globals.items()
                         if len(v) == 1}
     known = [v for view_id, r in cells.items() if view_id in design.deck_cells
              for v in r.volts.values()]

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 from typing import Iterator, Mapping
 
 from lintamp.location import Location
-from lintamp.netlist.expr import (CircularDefinition, ExprError, UndefinedName, UserFunc,
+from lintamp.netlist.expr import (CircularDefinition, ExprError, UserFunc,
                                   compile_expr, evaluate_params, evaluate_value, parse_number,
                                   strip_delimiters)
 from lintamp.netlist.statements import Cell, Element, Netlist

@@ -43,7 +43,7 @@ def cmd_impedance(args) -> int:
     from lintamp.analysis.impedance_report import impedance_report
     from lintamp.analysis.operating_point import OperatingPointError
     from lintamp.analysis.small_signal import SmallSignalError
-    from lintamp.cli import EXIT_OK, EXIT_TROUBLE, UsageError
+    from lintamp.cli import EXIT_OK, UsageError
 
     path = Path(args.netlist)
     if not path.is_file():
