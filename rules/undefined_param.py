@@ -72,7 +72,7 @@ def check(ctx):
         first = min(uses, key=lambda u: (u.location.line, u.location.column))
         yield ctx.finding(
             location=first.location, subject="symbolic sizes", view=view, severity=Severity.INFO,
-            message=f"device sizes are symbolic ({', '.join(excerpt(n, 20) for n in names[:6])}"
+            message=f"device sizes and values are symbolic ({', '.join(excerpt(n, 20) for n in names[:6])}"
                     f"{', ...' if len(names) > 6 else ''}): {len(uses)} value(s) stay unsized",
             explanation=["bare names used as W, L, M or NF with no definition: an unsized netlist",
                          "checks that need sizes (operating point, impedances) skip these devices"],

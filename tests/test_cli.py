@@ -120,3 +120,18 @@ def test_impedance_command_text_and_errors():
     assert bad.returncode == 2 and "no net 'nowhere'" in bad.stderr
     port = run("impedance", "samples/bias_block.sp", "xbias/nbias")
     assert port.returncode == 0
+
+
+def test_undefined_param_knows_instance_passed_and_unsized_names():
+    from lintamp.api import check_text
+    # HSPICE and Xyce let an instance pass a parameter the .subckt line does not declare
+    passed = ("t\n.subckt inv a y w1=1u\nm1 y a 0 0 nch w={wn}\n.ends\n"
+              "x1 in out inv wn=2u\nv1 in 0 1\n.model nch nmos\n")
+    assert [f for f in check_text(passed).findings if f.rule == "undefined-param"] == []
+    # a netlist with no parameter definitions at all is unsized: bare names are symbolic
+    unsized = "t\nr1 a 0 res=rK\nm1 a a 0 0 nch w=WA l=LA\n.model nch nmos\n"
+    found = [f for f in check_text(unsized).findings if f.rule == "undefined-param"]
+    assert [f.severity.label for f in found] == ["info"]
+    # with parameters defined, a bare undefined name is a slip
+    slip = ".param rval=1k\n".join(["t\n", "r1 a 0 rvla\n"])
+    assert [f.subject for f in check_text(slip).findings if f.rule == "undefined-param"] == ["rvla"]

@@ -184,3 +184,9 @@ def test_cdl_names():
     # CDL: '!' globals, '#' and '<>' in names (spice-syntax.md 2)
     m = only("MM1 net<3> a_n2577_n5175# vss! vss! nch w=1u l=1u\n")
     assert m.nodes == ("net<3>", "a_n2577_n5175#", "vss!", "vss!")
+
+
+def test_coupling_with_a_core_model():
+    # Xyce: 'K1 L1 L2 1 nlcore' -- the nonlinear core's model follows the factor
+    k = only("K1 L1 L2 1 nlcore\n")
+    assert k.controls == ("l1", "l2") and k.value == "1" and k.model == "nlcore"

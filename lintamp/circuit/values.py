@@ -204,8 +204,13 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
     -----
     One pass over every value of every element: O(total value tokens).
     """
+    passed = _passed_params(netlist)
+    model_names = {name for c in netlist.all_cells() for name in c.models}
+    # a netlist with no parameter definitions at all is unsized: its bare names
+    # (w=WA, res=rK) are symbolic values, not misspellings
+    unsized = not any(c.params or c.defaults for c in netlist.all_cells())
     for cell in netlist.all_cells():
-        known = set(BUILTIN_NAMES)
+        known = set(BUILTIN_NAMES) | passed.get(id(cell), set())
         c = cell
         while c is not None:
             known.update(p.name for p in c.params)
@@ -225,6 +230,14 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             for name in sorted(names - known):
                 yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
         for element in cell.elements:
+            if element.letter in "yan":
+                continue  # simulator-specific devices: their parameters are not expressions
+            if (element.letter in "rcl" and element.value is None and element.model
+                    and element.model not in model_names and element.model not in known
+                    and not (element.params.keys() & {"l", "w", "r", "c", "value"})):
+                # 'R1 a b rvla': neither a .model nor a parameter of that name
+                yield UndefinedUse(element.model, element, "value", element.location, unsized, cell)
+                continue
             fields = []
             if element.value is not None and element.source is None:
                 fields.append(("value", element.value))
@@ -248,4 +261,19 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
                 unknown = names - known - element.params.keys()
                 for name in sorted(unknown):
                     yield UndefinedUse(name, element, key, element.location,
-                                       bare and key in GEOMETRY_PARAMS, cell)
+                                       bare and (key in GEOMETRY_PARAMS or unsized
+                                                 and _IDENTIFIER.fullmatch(text) is not None), cell)
+
+
+def _passed_params(netlist: Netlist) -> dict[int, set[str]]:
+    """For each cell, the parameter names its instances pass (HSPICE and Xyce let an
+    instance give a parameter the .subckt line does not declare)."""
+    from lintamp.circuit.design import find_cell
+    passed: dict[int, set[str]] = {}
+    for cell in netlist.all_cells():
+        for element in cell.elements:
+            if element.letter == "x" and element.params and element.model:
+                target = find_cell(cell, element.model)
+                if target is not None:
+                    passed.setdefault(id(target), set()).update(element.params)
+    return passed

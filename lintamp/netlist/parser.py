@@ -461,10 +461,16 @@ def parse_passive(ctx: ParseContext, card: Card, tokens: list[Token]) -> Element
 
 
 def parse_coupling(ctx, card, tokens):
+    """K: ``L1 L2 [...] k [model]`` (a nonlinear-core model may follow the factor)."""
     positional, pairs, _ = split_fields(tokens[1:])
     if not _need(ctx, card, tokens, positional, 3, "two inductor names and a coupling factor"):
         return None
-    return _element(ctx, card, tokens, [], value=positional[-1].text,
+    model = None
+    if len(positional) >= 4 and not is_value_token(positional[-1].text) and is_value_token(
+            positional[-2].text):
+        model = positional[-1].text.lower()
+        positional = positional[:-1]
+    return _element(ctx, card, tokens, [], value=positional[-1].text, model=model,
                     controls=tuple(t.text.lower() for t in positional[:-1]), params=_params(pairs))
 
 
