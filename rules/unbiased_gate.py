@@ -87,8 +87,17 @@ def check(ctx):
                      *context_steps(view, island),
                      "a simulator stops here with a singular matrix (ngspice-39: "
                      f"'singular matrix: check node {net}')"]
-            fix = ("bias the gate: a resistor to a defined level for an AC-coupled input, or "
-                   "the diode connection (gate to drain) of the mirror's reference device")
+            if has_cap:
+                fix = (f"bias {net}: a resistor from it to a defined level (the coupling "
+                       "capacitor and that resistor set the input's high-pass corner, "
+                       "1/(2 pi R C))")
+            elif _only_controls(island) and len(island.controls) > 1:
+                fix = ("diode-connect the mirror's reference device (its gate to its own "
+                       "drain, which the reference current feeds), or drive the net from a "
+                       "bias generator")
+            else:
+                fix = (f"give {net} a DC path: a resistor to a defined level, or the diode "
+                       "connection of the device that should set it")
         yield ctx.finding(
             location=first.location, subject=net, view=view, nets=island.nets,
             elements=elements(island), message=message, explanation=steps, fix=fix,
