@@ -40,12 +40,12 @@ their nets *unknown*, and a component holding an unknown net is never reported.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-
-import numpy as np
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
+from typing import TYPE_CHECKING
 
 from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, CellView, Device
+
+if TYPE_CHECKING:  # numpy is imported only where a large cell needs it
+    import numpy as np
 
 FULL = "full"
 BIAS = "bias"
@@ -168,26 +168,27 @@ class CellDC:
     ``labels[i]`` is the component of net ``nets[i]``.  Per component: ``ground``
     (holds a ground net), ``port`` (holds a port), ``unknown``, ``controls`` and
     ``currents`` counts (own terminals plus those reached through instances), and
-    ``globals`` (names) where any.
+    ``globals`` (names) where any.  Per-net and per-component values are numpy
+    arrays, or plain lists for a small cell (see :func:`_small_cell_dc`).
     """
 
     view: CellView
     mode: str
     nets: list[str]
     index: dict[str, int]
-    labels: np.ndarray
+    labels: "np.ndarray | list"
     n_components: int
-    ground: np.ndarray
-    port: np.ndarray
-    unknown: np.ndarray
-    controls: np.ndarray
-    currents: np.ndarray
+    ground: "np.ndarray | list"
+    port: "np.ndarray | list"
+    unknown: "np.ndarray | list"
+    controls: "np.ndarray | list"
+    currents: "np.ndarray | list"
     globals: dict[int, set[str]] = field(default_factory=dict)
     # net index -> descriptions of gate/base terminals reached through instance ports
     inner_controls: dict[int, list[str]] = field(default_factory=dict)
     current_feeds: list[tuple[Device, int]] = field(default_factory=list)  # (device, pin pos)
-    controlled: np.ndarray | None = None  # per component: controlled current feeds
-    sensed: np.ndarray | None = None      # per component: observed by a control input
+    controlled: "np.ndarray | list | None" = None  # per component: controlled current feeds
+    sensed: "np.ndarray | list | None" = None      # per component: observed by a control input
 
 
 def _instance_groups(dev: Device, summary: CellSummary | None):
@@ -218,9 +219,16 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     Notes
     -----
     One pass over the devices and one sparse connected-components call:
-    O(terminals) time and memory, integer indices only.
+    O(terminals) time and memory, integer indices only.  A small cell (plain-list
+    terminal table) takes :func:`_small_cell_dc`, a union-find with the same result.
     """
     table = view.terminal_table
+    if table.small:
+        return _small_cell_dc(view, mode, ground_names, summaries)
+    import numpy as np
+    from scipy.sparse import coo_matrix
+    from scipy.sparse.csgraph import connected_components
+
     index = table.index
     nets = table.nets
     n = len(nets)
@@ -401,6 +409,186 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         comp_sensed[labels[sensed]] = True
     return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
                   n_components=int(n_comp), ground=ground, port=port, unknown=comp_unknown,
+                  controls=comp_controls, currents=comp_currents, globals=comp_globals,
+                  inner_controls=inner_controls, current_feeds=feeds,
+                  controlled=comp_controlled, sensed=comp_sensed)
+
+
+def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
+                   summaries: dict[int, CellSummary | None]) -> CellDC:
+    """:func:`cell_dc` of a small cell in plain Python: per-component values are lists.
+
+    The same joins and flags as the array version, in the same order (a device's DC
+    roles come from the first device of its plan key, as there), so every component,
+    flag and count is the same; only the numbering of components may differ, and no
+    caller depends on it.
+
+    Notes
+    -----
+    Union-find with path halving over net numbers: O(terminals x alpha(nets)).
+    """
+    table = view.terminal_table
+    index = table.index
+    nets = table.nets
+    n = len(nets)
+    net_ids, dev_start = table.net_ids, table.dev_start
+    parent = list(range(n))
+
+    def find(x):
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    def join(ids):
+        root = find(ids[0])
+        for other in ids[1:]:
+            r = find(other)
+            if r != root:
+                parent[r] = root
+
+    controls = [0] * n
+    unknown = [False] * n
+    sensed = [False] * n
+    currents_at: list[tuple[Device, int]] = []
+    inner_controls: dict[int, list[str]] = {}
+    inst_currents: list[int] = []
+    inst_controlled: list[int] = []
+    devices = view.devices
+    plans: dict[tuple, DevicePlan] = {}
+    has_instances = False
+    for d, dev in enumerate(devices):
+        if dev.kind == "instance":
+            has_instances = True
+            continue
+        key = (dev.kind, dev.pins, dev.element.letter, dev.element.model)
+        plan = plans.get(key)
+        if plan is None:
+            plan = plans[key] = device_plan(dev)
+        base = dev_start[d]
+        for group in plan.groups + (plan.full_only if mode == FULL else ()):
+            if len(group) > 1:
+                join([net_ids[base + p] for p in group])
+        for p in plan.controls:
+            controls[net_ids[base + p]] += 1
+        for p in plan.unknown:
+            unknown[net_ids[base + p]] = True
+        for p in plan.senses:
+            sensed[net_ids[base + p]] = True
+        for p in plan.currents:
+            currents_at.append((dev, p))
+    for dev in devices:
+        if len(dev.nets) > len(dev.pins):
+            for net in dev.nets[len(dev.pins):]:
+                unknown[index[net]] = True  # a pin lintamp knows no role for
+    if has_instances:
+        for dev in devices:
+            if dev.kind != "instance":
+                continue
+            ids = [index[net] for net in dev.nets[:len(dev.pins)]]
+            if dev.subcell is None:
+                for i in ids:
+                    unknown[i] = True
+                continue
+            groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+            if groups is None:
+                for i in ids:
+                    unknown[i] = True
+                continue
+            for pins, group in groups:
+                members = [ids[p] for p in pins]
+                if len(members) > 1:
+                    join(members)
+                if group.n_controls:
+                    controls[members[0]] += group.n_controls
+                    inner_controls.setdefault(members[0], []).extend(
+                        f"{c} inside {dev.display} ({dev.subcell.label})" for c in group.controls)
+                if group.currents:
+                    inst_currents.append(members[0])
+                if group.controlled:
+                    inst_controlled.append(members[0])
+                if group.sensed:
+                    sensed[members[0]] = True
+                if group.unknown:
+                    unknown[members[0]] = True
+    by_name: dict[str, Device] | None = None
+    for dev in [d for d in devices if d.element.controls and d.kind != "coupling"
+                and d.kind != "instance"]:
+        if by_name is None:
+            by_name = {d.name: d for d in devices}
+        for name in dev.element.controls:
+            ctl = by_name.get(name)
+            if ctl is not None:
+                for net in ctl.nets:
+                    sensed[index[net]] = True
+
+    # components numbered in order of their first net
+    number: dict[int, int] = {}
+    labels = [0] * n
+    for i in range(n):
+        labels[i] = number.setdefault(find(i), len(number))
+    n_comp = len(number)
+
+    def ids_of(dev, pos):  # noqa: E306 - a small local accessor
+        return index[dev.nets[pos]]
+
+    ground = [False] * n_comp
+    port = [False] * n_comp
+    comp_globals: dict[int, set[str]] = {}
+    for net, i in index.items():
+        if net in ground_names:
+            ground[labels[i]] = True
+        elif net in view.globals:
+            comp_globals.setdefault(labels[i], set()).add(net)
+        if net in view.ports:
+            port[labels[i]] = True
+    for dev in view.devices:
+        if dev.kind != "instance" or dev.subcell is None:
+            continue
+        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+        if not groups:
+            continue
+        for pins, group in groups:
+            comp = labels[ids_of(dev, pins[0])]
+            if group.ground:
+                ground[comp] = True
+            if group.globals:
+                comp_globals.setdefault(comp, set()).update(group.globals)
+    comp_unknown = [False] * n_comp
+    comp_controls = [0] * n_comp
+    comp_sensed = [False] * n_comp
+    for i in range(n):
+        if unknown[i]:
+            comp_unknown[labels[i]] = True
+        if controls[i]:
+            comp_controls[labels[i]] += controls[i]
+        if sensed[i]:
+            comp_sensed[labels[i]] = True
+    comp_currents = [0] * n_comp
+    comp_controlled = [0] * n_comp
+    feeds: list[tuple[Device, int]] = []
+    by_dev: dict[int, list[int]] = {}
+    for dev, p in currents_at:
+        by_dev.setdefault(id(dev), []).append(p)
+    seen: set[int] = set()
+    for dev, p in currents_at:
+        if id(dev) in seen:
+            continue
+        seen.add(id(dev))
+        pins = by_dev[id(dev)]
+        comps = [labels[ids_of(dev, q)] for q in pins]
+        for q, comp in zip(pins, comps):
+            if any(other != comp for other in comps):  # a feed from outside the component
+                comp_currents[comp] += 1
+                if dev.kind != "isource":
+                    comp_controlled[comp] += 1
+                feeds.append((dev, q))
+    for i in inst_currents:
+        comp_currents[labels[i]] += 1
+    for i in inst_controlled:
+        comp_controlled[labels[i]] += 1
+    return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
+                  n_components=n_comp, ground=ground, port=port, unknown=comp_unknown,
                   controls=comp_controls, currents=comp_currents, globals=comp_globals,
                   inner_controls=inner_controls, current_feeds=feeds,
                   controlled=comp_controlled, sensed=comp_sensed)
@@ -601,11 +789,14 @@ class Island:
         return min(devices, key=lambda d: (d.location.path, d.location.line, d.location.column))
 
 
-def anchored(ddc: DesignDC, design, dc: CellDC) -> np.ndarray:
+def anchored(ddc: DesignDC, design, dc: CellDC):
     """Per component: something outside the component defines its DC level."""
-    anchor = dc.ground | dc.port | dc.unknown
+    if isinstance(dc.ground, list):
+        anchor = [g or p or u for g, p, u in zip(dc.ground, dc.port, dc.unknown)]
+    else:
+        anchor = dc.ground | dc.port | dc.unknown
     if interface_view(design, dc.view):
-        anchor[:] = True
+        anchor[:] = [True] * len(anchor) if isinstance(anchor, list) else True
         return anchor
     if dc.globals:
         everything = ddc.library or not design.in_deck(dc.view)
@@ -628,7 +819,7 @@ def islands(ctx, view: CellView, mode: str = FULL) -> list[Island]:
         if dc is None or dc.n_components == 0:
             return []
         anchor = anchored(ddc, ctx.design, dc)
-        if anchor.all():
+        if all(anchor) if isinstance(anchor, list) else anchor.all():
             return []
         out: dict[int, Island] = {}
         for net, i in dc.index.items():

@@ -13,12 +13,16 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
+from lintamp.analysis.engine_kinds import NONLINEAR, SmallSignalError
 from lintamp.analysis.flat_places import locate_device
 from lintamp.analysis.looking_into import NodeExplanation, ac_ground_nets, explain_node
-from lintamp.analysis.operating_point import OperatingPoint
-from lintamp.analysis.small_signal import NONLINEAR, ImpedanceSolver, SmallSignalError
 from lintamp.circuit.flat import FlatCircuit
+
+if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are computed
+    from lintamp.analysis.operating_point import OperatingPoint
+    from lintamp.analysis.small_signal import ImpedanceSolver
 from lintamp.findings import Severity
 from lintamp.report.si import si
 
@@ -51,6 +55,7 @@ class Numbers:
     def solver(self, freq_hz: float, detach=()) -> ImpedanceSolver:
         key = (float(freq_hz), tuple(sorted(set(detach))))
         if key not in self._solvers:
+            from lintamp.analysis.small_signal import ImpedanceSolver
             if len(self._solvers) > 256:  # bounded memory on big decks with many ports
                 self._solvers.clear()
             self._solvers[key] = ImpedanceSolver(self.circuit, self.op, freq_hz, detach=key[1])
@@ -122,7 +127,6 @@ def _compute(ctx) -> Numbers | NoNumbers | None:
 
 
 def _numbers_for(ctx, circuit):
-    from lintamp.analysis.impedance_report import resolve_operating_point
     table, table_error = _load_table(ctx)
     if table_error:
         return NoNumbers(table_error)
@@ -135,6 +139,8 @@ def _numbers_for(ctx, circuit):
     if others:
         shown = ", ".join(others[:6]) + (" ..." if len(others) > 6 else "")
         return NoNumbers(f"elements lintamp does not simulate: {shown}")
+    # the engine (numpy, scipy) is imported here, once there is something to solve
+    from lintamp.analysis.impedance_report import resolve_operating_point
     try:
         op, source, notes = resolve_operating_point(circuit, table)
     except ENGINE_ERRORS as exc:

@@ -25,11 +25,13 @@ from __future__ import annotations
 import cmath
 import math
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from lintamp.analysis import formulas as fm
-from lintamp.analysis.operating_point import OperatingPoint
-from lintamp.analysis.small_signal import ImpedanceSolver
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
+
+if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when a node is explained
+    from lintamp.analysis.operating_point import OperatingPoint
 
 MISMATCH_LIMIT = 0.05
 INF = math.inf
@@ -101,6 +103,7 @@ class _Explainer:
         self.freq_hz = freq_hz
         self.detach = tuple(detach)
         self.omega = 2 * math.pi * freq_hz
+        from lintamp.analysis.small_signal import ImpedanceSolver
         self.solver = ImpedanceSolver(circuit, op, freq_hz, detach=self.detach)
         self.op = self.solver.op
         self.ac_ground = ac_ground_nets(circuit, self.detach)
@@ -112,6 +115,7 @@ class _Explainer:
     def aux_solver(self, extra_detach=(), grounded=(), driven=None):
         key = (tuple(sorted(extra_detach)), tuple(sorted(grounded)), driven)
         if key not in self._aux:
+            from lintamp.analysis.small_signal import ImpedanceSolver
             self._aux[key] = ImpedanceSolver(
                 self.circuit, self.op, self.freq_hz, detach=self.detach + tuple(extra_detach),
                 grounded=grounded, driven=driven,

@@ -19,19 +19,15 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
+from lintamp.analysis.engine_kinds import NONLINEAR, SmallSignalError  # noqa: F401 - re-exported
 from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.analysis.operating_point import OperatingPoint, solve_operating_point
 from lintamp.circuit.flat import FlatCircuit
 
 OPEN_SHUNT_S = 1e-12  # added per node only when Y is singular (a node with no AC path)
-NONLINEAR = ("nmos", "pmos", "npn", "pnp", "diode")
 # minimum degree on A^T + A suits MNA matrices (structurally near-symmetric):
 # less fill than COLAMD on netlist-like circuits
 PERMC_SPEC = "COLAMD"
-
-
-class SmallSignalError(RuntimeError):
-    """The small-signal system cannot be set up (message says why)."""
 
 
 class ImpedanceSolver:

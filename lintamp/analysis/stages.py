@@ -11,9 +11,12 @@ waveform (a source with ``AC`` or a waveform is taken as a signal input).
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from lintamp.analysis.looking_into import ac_ground_nets
-from lintamp.analysis.operating_point import OperatingPoint
+
+if TYPE_CHECKING:
+    from lintamp.analysis.operating_point import OperatingPoint
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
 MOS = ("nmos", "pmos")

@@ -20,6 +20,9 @@ from lintamp.netlist.statements import Cell, Diagnostic, Element, Model, Netlist
 
 GROUND_NAMES = frozenset({"0", "gnd", "gnd!"})
 DEFAULT_FLATTEN_LIMIT = 2_000_000
+# below this many terminals a cell's tables are plain lists and its connectivity is a
+# pure-Python union-find: cheaper than importing numpy for a pre-commit run on a small deck
+SMALL_TABLE_TERMINALS = 4096
 
 # pin roles by device kind (the order of the element's nodes)
 PINS = {
@@ -169,18 +172,19 @@ class TerminalTable:
     ``net_ids[dev_start[d]:dev_start[d + 1]]``.  ``term_order`` lists terminal
     numbers grouped by net (netlist order inside a net) and ``net_start`` delimits
     each net's group, so a net's terminals are found without a Python list per net.
+    These are numpy int64 arrays, or plain lists when ``small`` (fewer than
+    :data:`SMALL_TABLE_TERMINALS` terminals); the methods below accept both.
 
     Notes
     -----
-    O(terminals) time; 4 integers per terminal and 1 per net of memory.
+    O(terminals) time; 4 integers per terminal and 1 per net of memory
+    (O(terminals log terminals) for the stable sort of a small table).
     """
 
     __slots__ = ("devices", "nets", "index", "n_role_nets", "net_ids", "dev_start",
-                 "term_dev", "term_order", "net_start")
+                 "term_dev", "term_order", "net_start", "small")
 
     def __init__(self, view: "CellView"):
-        import numpy as np
-
         devices = view.devices
         self.devices = devices
         role_nets = [dev.nets if len(dev.nets) <= len(dev.pins) else dev.nets[:len(dev.pins)]
@@ -194,11 +198,42 @@ class TerminalTable:
                 names.update(dict.fromkeys(dev.nets[len(dev.pins):]))
         self.nets = list(names)
         self.index = {net: i for i, net in enumerate(self.nets)}
+        # a small cell keeps plain lists: importing numpy would cost more than the work
+        self.small = len(flat) < SMALL_TABLE_TERMINALS
+        if self.small:
+            self._build_lists(role_nets, flat)
+        else:
+            self._build_arrays(role_nets, flat)
+
+    def _build_lists(self, role_nets, flat) -> None:
+        counts = list(map(len, role_nets))
+        start = [0] * (len(counts) + 1)
+        total = 0
+        for d, count in enumerate(counts):
+            total += count
+            start[d + 1] = total
+        self.dev_start = start
+        self.net_ids = list(map(self.index.__getitem__, flat))
+        self.term_dev = [d for d, count in enumerate(counts) for _ in range(count)]
+        self.term_order = sorted(range(len(flat)), key=self.net_ids.__getitem__)  # stable
+        per_net = [0] * len(self.nets)
+        for i in self.net_ids:
+            per_net[i] += 1
+        net_start = [0] * (len(self.nets) + 1)
+        total = 0
+        for i, count in enumerate(per_net):
+            total += count
+            net_start[i + 1] = total
+        self.net_start = net_start
+
+    def _build_arrays(self, role_nets, flat) -> None:
+        import numpy as np
+
         counts = np.fromiter(map(len, role_nets), dtype=np.int64, count=len(role_nets))
-        self.dev_start = np.zeros(len(devices) + 1, dtype=np.int64)
+        self.dev_start = np.zeros(len(role_nets) + 1, dtype=np.int64)
         np.cumsum(counts, out=self.dev_start[1:])
         self.net_ids = np.fromiter(map(self.index.__getitem__, flat), dtype=np.int64, count=len(flat))
-        self.term_dev = np.repeat(np.arange(len(devices), dtype=np.int64), counts)
+        self.term_dev = np.repeat(np.arange(len(role_nets), dtype=np.int64), counts)
         self.term_order = np.argsort(self.net_ids, kind="stable")
         per_net = np.bincount(self.net_ids, minlength=len(self.nets))
         self.net_start = np.zeros(len(self.nets) + 1, dtype=np.int64)
@@ -212,9 +247,16 @@ class TerminalTable:
         O(terminals) array work; devices with more than 8 terminals are listed
         without being compared.
         """
+        start, ids = self.dev_start, self.net_ids
+        if self.small:
+            out = []
+            for d in range(len(start) - 1):
+                a, b = start[d], start[d + 1]
+                if b - a > 8 or len(set(ids[a:b])) < b - a:
+                    out.append(d)
+            return out
         import numpy as np
 
-        start, ids = self.dev_start, self.net_ids
         counts = np.diff(start)
         repeated = counts > 8
         for a in range(8):
@@ -232,7 +274,9 @@ class TerminalTable:
 
     def terminals_of(self, i: int) -> list[tuple["Device", str]]:
         """(device, pin) terminals on net number ``i``, in netlist order."""
-        terms = self.term_order[self.net_start[i]:self.net_start[i + 1]].tolist()
+        terms = self.term_order[self.net_start[i]:self.net_start[i + 1]]
+        if not self.small:
+            terms = terms.tolist()
         devices, dev_start, term_dev = self.devices, self.dev_start, self.term_dev
         out = []
         for t in terms:
@@ -275,10 +319,14 @@ class NetTerminals(Mapping):
 
     def with_degree(self, count: int) -> list[str]:
         """The nets with exactly ``count`` terminals, in net order."""
+        table = self.table
+        start = table.net_start
+        if table.small:
+            return [table.nets[i] for i in range(table.n_role_nets)
+                    if start[i + 1] - start[i] == count]
         import numpy as np
 
-        table = self.table
-        per_net = np.diff(table.net_start[:table.n_role_nets + 1])
+        per_net = np.diff(start[:table.n_role_nets + 1])
         return [table.nets[i] for i in np.flatnonzero(per_net == count).tolist()]
 
 
