@@ -303,32 +303,8 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         for dev in devices:
             if dev.kind != "instance":
                 continue
-            ids = [index[net] for net in dev.nets[:len(dev.pins)]]
-            if dev.subcell is None:
-                for i in ids:
-                    unknown[i] = True
-                continue
-            groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
-            if groups is None:
-                for i in ids:
-                    unknown[i] = True
-                continue
-            for pins, group in groups:
-                members = [ids[p] for p in pins]
-                if len(members) > 1:
-                    join(members)
-                if group.n_controls:
-                    controls[members[0]] += group.n_controls
-                    inner_controls.setdefault(members[0], []).extend(
-                        f"{c} inside {dev.display} ({dev.subcell.label})" for c in group.controls)
-                if group.currents:
-                    inst_currents.append(members[0])
-                if group.controlled:
-                    inst_controlled.append(members[0])
-                if group.sensed:
-                    sensed[members[0]] = True
-                if group.unknown:
-                    unknown[members[0]] = True
+            _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
+                          inst_currents, inst_controlled, sensed)
     # F, H, W and POLY forms sense the current of a V source: its nets are observed
     for dev in [d for d in devices if d.element.controls and d.kind != "coupling"
                 and d.kind != "instance"]:
@@ -414,6 +390,42 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
                   controlled=comp_controlled, sensed=comp_sensed)
 
 
+
+def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
+                  inst_currents, inst_controlled, sensed) -> None:
+    """Fold one instance's port summary into its cell's components (both cell paths).
+
+    ``unknown``, ``controls`` and ``sensed`` are per-net sequences (numpy arrays or
+    lists); ``join`` merges a list of net indices into one component.
+    """
+    ids = [index[net] for net in dev.nets[:len(dev.pins)]]
+    if dev.subcell is None:
+        for i in ids:
+            unknown[i] = True
+        return
+    groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+    if groups is None:
+        for i in ids:
+            unknown[i] = True
+        return
+    for pins, group in groups:
+        members = [ids[p] for p in pins]
+        if len(members) > 1:
+            join(members)
+        if group.n_controls:
+            controls[members[0]] += group.n_controls
+            inner_controls.setdefault(members[0], []).extend(
+                f"{c} inside {dev.display} ({dev.subcell.label})" for c in group.controls)
+        if group.currents:
+            inst_currents.append(members[0])
+        if group.controlled:
+            inst_controlled.append(members[0])
+        if group.sensed:
+            sensed[members[0]] = True
+        if group.unknown:
+            unknown[members[0]] = True
+
+
 def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
                    summaries: dict[int, CellSummary | None]) -> CellDC:
     """:func:`cell_dc` of a small cell in plain Python: per-component values are lists.
@@ -485,32 +497,8 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         for dev in devices:
             if dev.kind != "instance":
                 continue
-            ids = [index[net] for net in dev.nets[:len(dev.pins)]]
-            if dev.subcell is None:
-                for i in ids:
-                    unknown[i] = True
-                continue
-            groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
-            if groups is None:
-                for i in ids:
-                    unknown[i] = True
-                continue
-            for pins, group in groups:
-                members = [ids[p] for p in pins]
-                if len(members) > 1:
-                    join(members)
-                if group.n_controls:
-                    controls[members[0]] += group.n_controls
-                    inner_controls.setdefault(members[0], []).extend(
-                        f"{c} inside {dev.display} ({dev.subcell.label})" for c in group.controls)
-                if group.currents:
-                    inst_currents.append(members[0])
-                if group.controlled:
-                    inst_controlled.append(members[0])
-                if group.sensed:
-                    sensed[members[0]] = True
-                if group.unknown:
-                    unknown[members[0]] = True
+            _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
+                          inst_currents, inst_controlled, sensed)
     by_name: dict[str, Device] | None = None
     for dev in [d for d in devices if d.element.controls and d.kind != "coupling"
                 and d.kind != "instance"]:
