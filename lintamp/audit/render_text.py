@@ -69,8 +69,10 @@ def render_text(data: dict) -> str:
                 line += f"  = {h['formula']}"
             out.append(line)
         for i in p.get("interfaces", []):
-            out.append(f"    at {i['net']:<8} ({i['role']}, {i['signal']}) Z_out {w.ohm(i['z_out_ohm'])} vs "
-                       f"Z_in {w.ohm(i['z_in_ohm'])}: {i['verdict']}")
+            band = i["role"] != "input" and "z_in_band_ohm" in i  # judged in the band
+            z_out, z_in = (i["z_out_band_ohm"], i["z_in_band_ohm"]) if band else (i["z_out_ohm"], i["z_in_ohm"])
+            out.append(f"    at {i['net']:<8} ({i['role']}, {i['signal']}) Z_out {w.ohm(z_out)} vs "
+                       f"Z_in {w.ohm(z_in)}{' at the band' if band else ''}: {i['verdict']}")
         for note in p.get("notes", []):
             out.append(f"    note: {note}")
     out.append("")

@@ -383,7 +383,13 @@ def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, c
     row["f3db_low_hz"] = corner.low_hz
     row["f3db_reference"] = corner.reference
     if corner.high_hz is None and corner.reference == "dc":
-        row["notes"].append("no -3 dB point between 1 Hz and 1 THz (no capacitance limits this path)")
+        h1 = probe(1.0)
+        if abs(h1) < abs(h0) / math.sqrt(2) or abs(h1) > abs(h0) * math.sqrt(2):
+            row["notes"].append(
+                "the gain at DC and above 1 Hz differ (a coupling capacitor changes the load "
+                "below 1 Hz); no -3 dB point between 1 Hz and 1 THz")
+        else:
+            row["notes"].append("no -3 dB point between 1 Hz and 1 THz (no capacitance limits this path)")
     # poles of the excitation the path uses
     if pin.signal == "current":
         s0, s1 = solves.solver(0.0, tuple(detach)), solves.solver(1.0, tuple(detach))
@@ -494,6 +500,15 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
             row["interfaces"].append(entry)
             continue
+        if role == "output" and receiver:
+            # a load reached through a coupling element (cout into an earpiece) is received
+            # through that element: it belongs to the receiving side
+            load_nets = {n for d in circuit.devices if d.name in receiver for n in d.nodes} - {0}
+            receiver = receiver + [d.name for d in circuit.devices
+                                   if net_idx in d.nodes and d.name not in receiver
+                                   and d.name not in base and len(d.nodes) == 2
+                                   and d.kind in ("capacitor", "resistor", "inductor")
+                                   and (set(d.nodes) - {net_idx}) & load_nets]
         others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
                   and d.name not in base]
         z_out = solves.z(net, 0.0, base + tuple(receiver))
@@ -506,7 +521,10 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
             entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
                                       if receiver else None)
-        entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
+            # judged in the signal band, where an AC-coupled load is connected
+            entry.update(_verdict(signal, entry["z_out_band_ohm"], entry["z_in_band_ohm"]))
+        else:
+            entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
         row["interfaces"].append(entry)
 
 

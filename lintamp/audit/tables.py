@@ -52,10 +52,12 @@ def paths_table(data: dict):
 def interfaces_table(path: dict):
     rows = []
     for i in path.get("interfaces", []):
-        rows.append([i["net"], i["role"], i["signal"], w.ohm(i["z_out_ohm"]), w.ohm(i["z_in_ohm"]),
-                     i["suits"], i["verdict"]])
+        band = i["role"] != "input" and "z_in_band_ohm" in i  # judged in the band
+        z_out, z_in = (i["z_out_band_ohm"], i["z_in_band_ohm"]) if band else (i["z_out_ohm"], i["z_in_ohm"])
+        rows.append([i["net"], i["role"], i["signal"], w.ohm(z_out), w.ohm(z_in),
+                     "band" if band else "DC", i["suits"], i["verdict"]])
     return (f"Interfaces {path['from']} → {path['to']}",
-            ["net", "where", "signal", "Z_out (driver)", "Z_in (next)", "wants", "verdict"], rows)
+            ["net", "where", "signal", "Z_out (driver)", "Z_in (next)", "at", "wants", "verdict"], rows)
 
 
 def chain_table(path: dict):
