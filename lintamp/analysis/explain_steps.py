@@ -45,7 +45,8 @@ def looking_into_steps(expl: NodeExplanation, label: str, detached=()) -> list[s
         if br.z_ohm is not None and "open" not in br.formula:
             line += f" = {_ohm(br.z_ohm)}"
         terms = _terms(br.terms)
-        if terms:
+        only_term = len(br.terms) == 1 and next(iter(br.terms)).rsplit("_", 1)[0] in br.formula
+        if terms and not only_term:  # the formula alone already is the number
             line += f" with {terms}"
         if br.note:
             line += f" ({br.note})"
