@@ -340,18 +340,8 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         if net in view.ports:
             port[labels[i]] = True
     # instance groups that reach ground / globals inside anchor their component here
-    for dev in view.devices:
-        if dev.kind != "instance" or dev.subcell is None:
-            continue
-        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
-        if not groups:
-            continue
-        for pins, group in groups:
-            comp = int(labels[ids_of(dev, pins[0])])
-            if group.ground:
-                ground[comp] = True
-            if group.globals:
-                comp_globals.setdefault(comp, set()).update(group.globals)
+    _anchor_instances(view, summaries, lambda dev, pin: int(labels[ids_of(dev, pin)]),
+                      ground, comp_globals)
     comp_unknown = np.zeros(n_comp, dtype=bool)
     if n:
         comp_unknown[labels[unknown]] = True
@@ -389,6 +379,23 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
                   inner_controls=inner_controls, current_feeds=feeds,
                   controlled=comp_controlled, sensed=comp_sensed)
 
+
+
+def _anchor_instances(view, summaries, component_of, ground, comp_globals) -> None:
+    """Mark components that an instance joins to ground or to globals inside it
+    (both cell paths); ``component_of(dev, pin)`` gives a pin's component."""
+    for dev in view.devices:
+        if dev.kind != "instance" or dev.subcell is None:
+            continue
+        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+        if not groups:
+            continue
+        for pins, group in groups:
+            comp = component_of(dev, pins[0])
+            if group.ground:
+                ground[comp] = True
+            if group.globals:
+                comp_globals.setdefault(comp, set()).update(group.globals)
 
 
 def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
@@ -530,18 +537,8 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             comp_globals.setdefault(labels[i], set()).add(net)
         if net in view.ports:
             port[labels[i]] = True
-    for dev in view.devices:
-        if dev.kind != "instance" or dev.subcell is None:
-            continue
-        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
-        if not groups:
-            continue
-        for pins, group in groups:
-            comp = labels[ids_of(dev, pins[0])]
-            if group.ground:
-                ground[comp] = True
-            if group.globals:
-                comp_globals.setdefault(comp, set()).update(group.globals)
+    _anchor_instances(view, summaries, lambda dev, pin: labels[ids_of(dev, pin)],
+                      ground, comp_globals)
     comp_unknown = [False] * n_comp
     comp_controls = [0] * n_comp
     comp_sensed = [False] * n_comp
