@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from lintamp.analysis.devices_common import (
+    field_arrays,
     GMIN_S,
     critical_voltage,
     depletion_capacitance,
@@ -109,9 +110,7 @@ class BjtGroup:
     def __init__(self, params: list[BjtParams]):
         self.params = params
         self.names = [q.name for q in params]
-        for field in BjtParams.__slots__:
-            if field != "name":
-                setattr(self, field, np.array([getattr(q, field) for q in params], dtype=float))
+        field_arrays(self, BjtParams, params)
         self.vcrit_v = critical_voltage(self.vt_v, self.is_a)
 
     def __len__(self) -> int:

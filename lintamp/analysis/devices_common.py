@@ -112,3 +112,12 @@ def depletion_capacitance(v, c0_f, vj_v, m, fc=0.5):
 
 def safe_exp(x):
     return np.exp(np.minimum(x, MAX_EXP_ARG))
+
+
+def field_arrays(target, record_type, params: list) -> None:
+    """Set on ``target`` one float array per field of ``record_type`` (a dataclass
+    with slots) over the records ``params``, skipping ``name``: a device group's columns."""
+    import numpy as np
+    for field in record_type.__slots__:
+        if field != "name":
+            setattr(target, field, np.array([getattr(q, field) for q in params], dtype=float))

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from lintamp.analysis.devices_common import (
+    field_arrays,
     GMIN_S,
     critical_voltage,
     depletion_capacitance,
@@ -68,9 +69,7 @@ class DiodeGroup:
     def __init__(self, params: list[DiodeParams]):
         self.params = params
         self.names = [q.name for q in params]
-        for field in DiodeParams.__slots__:
-            if field != "name":
-                setattr(self, field, np.array([getattr(q, field) for q in params], dtype=float))
+        field_arrays(self, DiodeParams, params)
         self.vte_v = self.vt_v * self.n
         self.vcrit_v = critical_voltage(self.vte_v, self.is_a)
 
