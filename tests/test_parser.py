@@ -190,3 +190,9 @@ def test_coupling_with_a_core_model():
     # Xyce: 'K1 L1 L2 1 nlcore' -- the nonlinear core's model follows the factor
     k = only("K1 L1 L2 1 nlcore\n")
     assert k.controls == ("l1", "l2") and k.value == "1" and k.model == "nlcore"
+
+
+def test_subcircuit_spelled_out():
+    # '.subcircuit' for '.subckt' occurs in schematic exports (corpus: OpenFASOC lc-dco)
+    netlist = parse(".subcircuit ind_top outp outn vdd\nL1 outp outn 1n\n.ends\n")
+    assert "ind_top" in netlist.top.cells and not netlist.diagnostics

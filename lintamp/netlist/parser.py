@@ -283,7 +283,7 @@ class ParseContext:
     # -- dot cards -------------------------------------------------------------
     def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:
         nl = self.netlist
-        if word == ".subckt" or word == ".macro":
+        if word in (".subckt", ".subcircuit", ".macro"):
             self.subckt(card, tokens)
         elif word in (".ends", ".eom"):
             self.ends(card, tokens)
@@ -808,7 +808,7 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
         cell.pragmas.append(pragma)
 
 
-_FRAGMENT_FIRST = re.compile(r"\s*\.(subckt|model|lib|include|inc|param|global|option|options|func|macro)\b",
+_FRAGMENT_FIRST = re.compile(r"\s*\.(subckt|subcircuit|model|lib|include|inc|param|global|option|options|func|macro)\b",
                              re.I)
 
 
