@@ -17,8 +17,6 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.linalg import splu
 
 from lintamp.analysis.devices_bjt import (
     BjtGroup,
@@ -45,6 +43,7 @@ from lintamp.analysis.devices_mos import (
     mos_limit,
     mos_params,
 )
+from lintamp.analysis.linear import assemble, factor, to_dense
 from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
 from lintamp.netlist.reader import excerpt
@@ -233,9 +232,7 @@ def _assemble(cc: CompiledCircuit, devs: _DeviceSet, dev_vals, gshunt):
         rows.append(diag)
         cols.append(diag)
         vals.append(np.full(cc.n_nodes, gshunt))
-    return sp.csc_matrix(
-        (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=(cc.size, cc.size)
-    )
+    return assemble(np.concatenate(rows), np.concatenate(cols), np.concatenate(vals), cc.size)
 
 
 def describe_singular(cc: CompiledCircuit, matrix=None) -> str:
@@ -245,7 +242,7 @@ def describe_singular(cc: CompiledCircuit, matrix=None) -> str:
         shown = "; ".join(", ".join(excerpt(n) for n in g[:8]) + (" ..." if len(g) > 8 else "")
                           for g in groups[:5])
         return f"singular matrix: no DC path to ground from node(s) {shown}"
-    dense = matrix.toarray() if matrix is not None and cc.size <= 3000 else None
+    dense = to_dense(matrix) if matrix is not None and cc.size <= 3000 else None
     if dense is not None and np.isfinite(dense).all():  # an overflowed value has no SVD
         try:
             _u, s, vt = np.linalg.svd(dense)
@@ -260,9 +257,9 @@ def describe_singular(cc: CompiledCircuit, matrix=None) -> str:
     return "singular matrix (a loop of voltage sources/inductors, or a cut set of current sources)"
 
 
-def _factor(cc, matrix):
+def _solve(cc, matrix, rhs):
     try:
-        return splu(matrix)
+        return factor(matrix).solve(rhs)
     except RuntimeError as exc:
         raise OperatingPointError(describe_singular(cc, matrix)) from exc
 
@@ -291,8 +288,7 @@ def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state)
         evs = devs.evaluate(limited)
         vals, rhs_dev = devs.linearised(limited, evs, cc.size)
         matrix = _assemble(cc, devs, vals, gshunt)
-        lu = _factor(cc, matrix)
-        x_new = lu.solve(rhs_src + rhs_dev)
+        x_new = _solve(cc, matrix, rhs_src + rhs_dev)
         if not np.all(np.isfinite(x_new)):
             return None
         tol = opts.reltol * np.maximum(np.abs(x_new), np.abs(x)) + np.where(is_node, opts.vntol_v, opts.abstol_a)

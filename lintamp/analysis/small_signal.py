@@ -16,10 +16,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.linalg import splu
 
 from lintamp.analysis.engine_kinds import NONLINEAR, SmallSignalError  # noqa: F401 - re-exported
+from lintamp.analysis.linear import add_to_diagonal, assemble, factor, to_sparse
 from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.analysis.operating_point import OperatingPoint, solve_operating_point
 from lintamp.circuit.flat import FlatCircuit
@@ -97,17 +96,13 @@ class ImpedanceSolver:
                 owner = np.concatenate([owner[keep], [-1]])
                 self._driven = k
         self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
-        matrix = sp.csc_matrix((vals, (rows, cols)), shape=(cc.size, cc.size), dtype=complex)
+        matrix = assemble(rows, cols, vals, cc.size, dtype=complex)
         try:
-            self._lu = splu(matrix, permc_spec=PERMC_SPEC)
+            self._lu = factor(matrix, PERMC_SPEC, eager=True)
         except RuntimeError:
             groups = floating_groups(cc)
-            shunt = sp.csc_matrix(
-                (np.full(cc.n_nodes, OPEN_SHUNT_S, dtype=complex), (np.arange(cc.n_nodes), np.arange(cc.n_nodes))),
-                shape=(cc.size, cc.size),
-            )
             try:
-                self._lu = splu(matrix + shunt, permc_spec=PERMC_SPEC)
+                self._lu = factor(add_to_diagonal(matrix, cc.n_nodes, OPEN_SHUNT_S), PERMC_SPEC, eager=True)
             except RuntimeError as exc:
                 raise SmallSignalError(
                     "singular small-signal matrix even with a shunt on every node "
@@ -158,14 +153,14 @@ class ImpedanceSolver:
             self._device_owner = {}
         return (np.concatenate(rows), np.concatenate(cols), np.concatenate(vals), np.concatenate(owners))
 
-    def admittance_matrix(self) -> sp.csc_matrix:
+    def admittance_matrix(self):
         """The assembled small-signal matrix Y at this frequency (sparse CSC, complex).
 
         Without the 1e-12 S shunt a singular Y receives for factorisation; with
         ``driven`` its row is the driven net's ``v = 1`` constraint.
         """
         size = self.compiled.size
-        return sp.csc_matrix((self._vals, (self._rows, self._cols)), shape=(size, size), dtype=complex)
+        return to_sparse(assemble(self._rows, self._cols, self._vals, size, dtype=complex))
 
     # -- lookups -----------------------------------------------------------
     def unknown(self, node: str) -> int:
