@@ -32,3 +32,46 @@ def test_byte_identical_twice(rich_finding, tmp_path):
     first = render("json", sample_report(rich_finding, tmp_path))
     rich_finding.values = dict(reversed(list(rich_finding.values.items())))  # rule-side order must not matter
     assert render("json", sample_report(rich_finding, tmp_path)) == first
+
+
+# The JSON writer must give exactly the text of the standard library's
+# json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) (Python
+# documentation, json module: "indent" and "ensure_ascii"), which it replaces for speed.
+TRICKY = [
+    {}, [], "", 0, -1, 10**30, 0.1, -0.0, 1e-300, 1e300, 5e-324, True, False, None,
+    {"a": [], "b": {}, "c": [[]], "d": [{}]},
+    {"quote\"back\\slash": "tab\tnewline\ncr\rnul\x00bell\x07del\x7f", "é": "Ω µ ✓ \u2028 \u2029"},
+    {"surrogate": "\ud800", "emoji": "\U0001f50c"},
+    [1, [2, [3, [4, {"deep": [5.5, "x"]}]]]],
+    {"values": {"z_ohm": 1e12, "open": "inf", "count": 3, "flag": True, "none": None}},
+]
+
+
+def test_writer_matches_the_standard_library_on_tricky_values():
+    from lintamp.report.json_text import dumps_indented
+    for doc in TRICKY:
+        assert dumps_indented(doc) == json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)
+
+
+def test_writer_refuses_non_finite_floats_like_the_standard_library():
+    import pytest
+    from lintamp.report.json_text import dumps_indented
+    for bad in (float("nan"), float("inf"), [float("-inf")]):
+        with pytest.raises(ValueError):
+            json.dumps(bad, allow_nan=False)
+        with pytest.raises(ValueError):
+            dumps_indented(bad)
+
+
+def test_writer_hands_unusual_data_to_the_standard_library():
+    from lintamp.report.json_text import dumps_indented
+    for doc in ({1: "int key"}, ("a", "tuple"), {"k": (1, 2)}):
+        assert dumps_indented(doc) == json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)
+
+
+def test_writer_matches_on_real_reports(rich_finding, tmp_path):
+    from lintamp.report.json_report import report_document
+    from lintamp.report.json_text import dumps_indented
+    report = sample_report(rich_finding, tmp_path)
+    doc = report_document(report, report.findings, "0.1.0")
+    assert dumps_indented(doc) == json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)

@@ -230,20 +230,26 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             for name in sorted(names - known):
                 yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
         for element in cell.elements:
-            if element.letter in "yan":
+            letter = element.letter
+            if letter in "yan":
                 continue  # simulator-specific devices: their parameters are not expressions
-            if (element.letter in "rcl" and element.value is None and element.model
+            value, params, src = element.value, element.params, element.source
+            if not params and src is None:
+                # the common case of an extracted deck: 'R1 a b 326.1', one numeric value
+                if value is None or parse_number(value) is not None:
+                    if value is not None or letter not in "rcl" or not element.model:
+                        continue
+            if (letter in "rcl" and value is None and element.model
                     and element.model not in model_names and element.model not in known
-                    and not (element.params.keys() & {"l", "w", "r", "c", "value"})):
+                    and not (params.keys() & {"l", "w", "r", "c", "value"})):
                 # 'R1 a b rvla': neither a .model nor a parameter of that name
                 yield UndefinedUse(element.model, element, "value", element.location, unsized, cell)
                 continue
             fields = []
-            if element.value is not None and element.source is None:
-                fields.append(("value", element.value))
-            fields.extend((k, v) for k, v in element.params.items() if k not in NON_NUMERIC_KEYS)
-            if element.source is not None:
-                src = element.source
+            if value is not None and src is None:
+                fields.append(("value", value))
+            fields.extend((k, v) for k, v in params.items() if k not in NON_NUMERIC_KEYS)
+            if src is not None:
                 fields.extend(("dc" if k == "dc" else k, v) for k, v in
                               (("dc", src.dc), ("ac", src.ac_mag), ("acphase", src.ac_phase)) if v)
             for key, text in fields:

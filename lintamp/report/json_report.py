@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-import json
-
 from lintamp.findings import Report, Waived
 from lintamp.report.base import Reporter, finding_data
+from lintamp.report.json_text import dumps_indented
 
 SCHEMA = 1
 
@@ -30,4 +29,4 @@ def report_document(report: Report, findings, tool_version: str) -> dict:
 class JsonReporter(Reporter):
     def finish(self, report: Report) -> None:
         doc = report_document(report, self.findings, self.tool_version)
-        self.stream.write(json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n")
+        self.stream.write(dumps_indented(doc) + "\n")
