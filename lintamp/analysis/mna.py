@@ -39,12 +39,19 @@ class CircuitError(ValueError):
 
 @dataclass
 class Stamps:
-    """Triplet lists; ``owner`` is the index of the element in ``element_names``."""
+    """Triplet lists; ``owner`` is the index of the element in ``element_names``.
+
+    Two-terminal elements (the resistors and capacitors that make up most of an
+    extracted deck) are added in bulk as arrays with :meth:`add_pairs`; each pair
+    stamps ``+v`` on both diagonals and ``-v`` on both off-diagonals.
+    """
 
     rows: list[int] = field(default_factory=list)
     cols: list[int] = field(default_factory=list)
     vals: list[float] = field(default_factory=list)
     owner: list[int] = field(default_factory=list)
+    pairs: list[tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]] = field(default_factory=list)
+    _arrays: tuple | None = field(default=None, repr=False)
 
     def add(self, r: int, c: int, v: float, owner: int) -> None:
         if r >= 0 and c >= 0 and v != 0:
@@ -52,14 +59,32 @@ class Stamps:
             self.cols.append(c)
             self.vals.append(v)
             self.owner.append(owner)
+            self._arrays = None
+
+    def add_pairs(self, a, b, v, owner) -> None:
+        """Stamp ``v[k]`` between unknowns ``a[k]`` and ``b[k]`` (-1 = ground, dropped)."""
+        self.pairs.append((np.asarray(a, dtype=np.int64), np.asarray(b, dtype=np.int64),
+                           np.asarray(v, dtype=float), np.asarray(owner, dtype=np.int64)))
+        self._arrays = None
 
     def arrays(self):
-        return (
-            np.asarray(self.rows, dtype=np.int64),
-            np.asarray(self.cols, dtype=np.int64),
-            np.asarray(self.vals, dtype=float),
-            np.asarray(self.owner, dtype=np.int64),
-        )
+        """(rows, cols, vals, owner) as arrays; computed once until the next add."""
+        if self._arrays is None:
+            rows = [np.asarray(self.rows, dtype=np.int64)]
+            cols = [np.asarray(self.cols, dtype=np.int64)]
+            vals = [np.asarray(self.vals, dtype=float)]
+            owner = [np.asarray(self.owner, dtype=np.int64)]
+            for a, b, v, o in self.pairs:
+                r = np.concatenate([a, b, a, b])
+                c = np.concatenate([a, b, b, a])
+                w = np.concatenate([v, v, -v, -v])
+                keep = (r >= 0) & (c >= 0) & (w != 0)
+                rows.append(r[keep])
+                cols.append(c[keep])
+                vals.append(w[keep])
+                owner.append(np.tile(o, 4)[keep])
+            self._arrays = tuple(np.concatenate(x) for x in (rows, cols, vals, owner))
+        return self._arrays
 
 
 @dataclass
@@ -178,6 +203,15 @@ def compile_circuit(
         elif ia >= 0 and ib >= 0:
             dc_edges.append((ia, ib))
 
+    # resistors and capacitors, stamped in bulk after the loop
+    r_a: list[int] = []
+    r_b: list[int] = []
+    r_g: list[float] = []
+    r_o: list[int] = []
+    c_a: list[int] = []
+    c_b: list[int] = []
+    c_v: list[float] = []
+    c_o: list[int] = []
     for owner, dev in enumerate(devices):
         kind = dev.kind
         if kind in NONLINEAR_KINDS or kind not in LINEAR_KINDS:
@@ -194,17 +228,17 @@ def compile_circuit(
                 g.add(in_, br, -1.0, owner)
                 g.add(br, ip, 1.0, owner)
                 g.add(br, in_, -1.0, owner)
-            elif dev.value < 0 or not np.isfinite(dev.value):
-                conductance(p, n, 1.0 / dev.value, owner)
             else:
-                conductance(p, n, 1.0 / dev.value, owner)
+                r_a.append(ip)
+                r_b.append(in_)
+                r_g.append(1.0 / dev.value)
+                r_o.append(owner)
             connect_dc(ip, in_)
         elif kind == "capacitor":
-            ca = c
-            ca.add(ip, ip, dev.value, owner)
-            ca.add(in_, in_, dev.value, owner)
-            ca.add(ip, in_, -dev.value, owner)
-            ca.add(in_, ip, -dev.value, owner)
+            c_a.append(ip)
+            c_b.append(in_)
+            c_v.append(dev.value)
+            c_o.append(owner)
         elif kind in ("vsource", "inductor", "vcvs", "ccvs"):
             br = branch_index[dev.name]
             g.add(ip, br, 1.0, owner)
@@ -242,6 +276,8 @@ def compile_circuit(
                 raise CircuitError(f"{dev.name}: controlling source {dev.control!r} not found or detached")
             g.add(ip, ctrl, dev.value, owner)
             g.add(in_, ctrl, -dev.value, owner)
+    g.add_pairs(r_a, r_b, r_g, r_o)
+    c.add_pairs(c_a, c_b, c_v, c_o)
     base = len(devices)
     for k, (_name, net, key, r) in enumerate(internal_resistors):
         conductance(net, key, 1.0 / r, base + k)
