@@ -1,0 +1,66 @@
+"""Fast paths of the reader and parser agree with the general code they shortcut.
+
+Each fast path (plain decimal numbers, plain element cards, whole blocks of ASCII
+lines) must give exactly what the general path gives, including where it refuses.
+The tokens and cards below are chosen to sit on the edges of the fast paths; the
+SPICE number syntax they probe is the ngspice manual's (section 2.3, "Numbers":
+integer or floating point, optional exponent, optional scale factor, letters after
+it ignored), the rest is from memory of what real decks hold.
+"""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from lintamp.netlist.units import _read_by_pattern, parse_number
+
+
+def same_number(a: float | None, b: float | None) -> bool:
+    """Equal values, None alike, and the sign of a zero alike."""
+    if a is None or b is None:
+        return a is b
+    return a == b and math.copysign(1.0, a) == math.copysign(1.0, b)
+
+
+# ngspice manual 2.3 (numbers and scale factors) for the forms; the edge cases
+# (what float() takes but a SPICE number field does not) from memory of Python's float().
+TRICKY_TOKENS = [
+    "0", "1", "-0", "+0", "-0.0", "326.145", "1.", ".5", "-.5", "+.5", ".", "-", "+", "",
+    "1e", "1e3", "1E3", "1e+3", "1e-3", "1e+", "1e-", "e3", "E3", ".e3", "1.e3", "1e3.", "1e3e",
+    "1ee3", "1e3k", "1e+3k", "1E-3m", "1d3", "1D-3", "1.5.3", "1..2", "+-1", "-+1", "--1", "1-",
+    "1+2", "2*3", "inf", "-inf", "+inf", "nan", "NaN", "infinity", "Infinity", "1_0", "1_000",
+    "_1", " 1", "1 ", "\t1", "1\n", "1MEG", "1meg", "1Meg", "1mil", "1MIL", "1m", "1M", "10M",
+    "1k", "1K", "4.7f", "4.7F", "1.350f", "2.2u", "2.2U", "3n", "3N", "5p", "5P", "1t", "1T",
+    "1g", "1G", "1\u00b5", "1\u03bc", "1\u039c", "k", ".k", "1..2k", "-k", "+1k", "-2.5u",
+    "10uF", "5kohm", "1x", "1a", "3k3", "0x10", "0X10", "0b1", "0o7", "1j", "1e400", "-1e999",
+    "1e308", "1.8e308", "1e-400", "1e-330", "2.5e-3k", "1e000000000001", "1e0000000000001",
+    "1e+00000000001", "1e+000000000001", "1e-00000000001", "1e-000000000001",
+    "9" * 400, "9" * 308, "0." + "0" * 400 + "1", "1" + "0" * 400 + "e-400", "9" * 5000 + "=",
+    "1e" + "9" * 5000, "\u0661\u0662", "\uff11", "\u0661.5", "1\u00b2", "\u00bd", "1,5",
+]
+
+
+@pytest.mark.parametrize("token", TRICKY_TOKENS)
+def test_parse_number_fast_paths_agree_with_the_pattern(token):
+    assert same_number(parse_number(token), _read_by_pattern(token))
+
+
+def test_parse_number_fast_paths_keep_the_refusals():
+    # ngspice manual 2.3: a number is digits with an optional point, exponent and scale
+    # factor; Python's float() would also take these (from memory): not SPICE numbers
+    for token in ("inf", "nan", "infinity", " 1", "1 ", "1e400", "1e0000000000001", "e3", "."):
+        assert parse_number(token) is None, token
+    # and these are read as ngspice reads a number field (see tests/test_expr.py)
+    assert parse_number("1_0") == 1.0 and parse_number("1e") == 1.0
+    assert parse_number("1MEG") == 1e6 and parse_number("1mil") == pytest.approx(25.4e-6)
+    assert parse_number("0x10") == 0.0 and parse_number("1.350f") == 1.350e-15
+
+
+@settings(max_examples=500, deadline=None)
+@given(st.text(alphabet="0123456789.eEdD+-_ kKmMgGfFuUnNpPtTaxil\u00b5\u0661", max_size=14))
+def test_parse_number_fast_paths_agree_on_random_tokens(token):
+    assert same_number(parse_number(token), _read_by_pattern(token))
