@@ -11,11 +11,13 @@ it ignored), the rest is from memory of what real decks hold.
 from __future__ import annotations
 
 import math
+import re
 
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from lintamp.netlist import reader
 from lintamp.netlist.units import _read_by_pattern, parse_number
 
 
@@ -64,3 +66,49 @@ def test_parse_number_fast_paths_keep_the_refusals():
 @given(st.text(alphabet="0123456789.eEdD+-_ kKmMgGfFuUnNpPtTaxil\u00b5\u0661", max_size=14))
 def test_parse_number_fast_paths_agree_on_random_tokens(token):
     assert same_number(parse_number(token), _read_by_pattern(token))
+
+
+# ------------------------------------------------------------------ physical lines
+
+def lines_by_definition(data: bytes, limit: int) -> list[tuple[int, str | None, int]]:
+    """What :func:`physical_lines` promises, computed on the whole stream at once: line
+    ends as Python's universal newlines (CR LF, CR, LF), a UTF-8 byte-order mark
+    dropped, each line UTF-8 when valid else latin-1, a line over ``limit`` bytes
+    skipped (None), and no empty line after a final line end."""
+    if data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    pieces = re.split(rb"\r\n|\r|\n", data)
+    if len(pieces) > 1 and pieces[-1] == b"":
+        pieces.pop()
+    return [(number, None if len(piece) > limit else reader.decode(piece), len(piece))
+            for number, piece in enumerate(pieces, 1)]
+
+
+PIECES_ASCII = [b"r1 a b 1k", b"+ w=1u", b"a", b" ", b"\n", b"\r", b"\r\n", b"* c"]
+PIECES_ANY = PIECES_ASCII + [b"\xc3\xa9", b"\xc3", b"\xff", b"\xef\xbb\xbf", b"\xb5"]
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.data())
+def test_physical_lines_agree_with_their_definition(data):
+    pieces = data.draw(st.sampled_from([PIECES_ASCII, PIECES_ANY]))
+    stream = b"".join(data.draw(st.lists(st.sampled_from(pieces), max_size=40)))
+    limit = data.draw(st.sampled_from([3, 8, 20, reader.MAX_LINE_BYTES]))
+    chunk_bytes = data.draw(st.sampled_from([4, 7, 64, reader._READ_CHUNK_BYTES]))
+    cuts = sorted(data.draw(st.sets(st.integers(3, max(3, len(stream) - 1)), max_size=6)))
+    chunks = [stream[a:b] for a, b in zip([0] + cuts, cuts + [len(stream)])]
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(reader, "MAX_LINE_BYTES", limit)
+        patch.setattr(reader, "_READ_CHUNK_BYTES", chunk_bytes)
+        got = list(reader.physical_lines(chunks))
+    assert got == lines_by_definition(stream, limit)
+
+
+def test_physical_lines_of_a_big_ascii_file_in_one_chunk():
+    # bytes held in memory come as one chunk; lines cross the fast path's block ends
+    text = "".join(f"r{i} n{i} n{i + 1} {i}.5\r\n" if i % 7 else f"c{i} a 0 1f\n"
+                   for i in range(40_000))
+    stream = text.encode() + b"\rlast"
+    got = list(reader.physical_lines([stream]))
+    assert got == lines_by_definition(stream, reader.MAX_LINE_BYTES)
+    assert got[-1] == (40_002, "last", 4) and got[-2] == (40_001, "", 0)
