@@ -112,3 +112,65 @@ def test_physical_lines_of_a_big_ascii_file_in_one_chunk():
     got = list(reader.physical_lines([stream]))
     assert got == lines_by_definition(stream, reader.MAX_LINE_BYTES)
     assert got[-1] == (40_002, "last", 4) and got[-2] == (40_001, "", 0)
+
+
+# ------------------------------------------------------------------ plain element cards
+
+# Cards on both sides of the plain-card fast path (ngspice manual ch. 3 element lines:
+# R/C/L 'n+ n- value', M 'nd ng ns nb model params'; the odd ones from memory of decks).
+CARDS = [
+    "r1 a b 10.5", "R1 A B 10K", "Rload Out 0 1MEG", "c1 a 0 1.2f", "C2 a b 4.7e-15",
+    "l1 a b 1u", "r2 a b", "r3 a", "r4 a b 1k 2k", "r5 a b rmod", "r6 a b 10 tc1=1e-3",
+    "r7 a b r=5k", "r8 a b 1k m=2 w=1u", "r9 a b 1k m=", "r10 a b 1k =3", "r11 a b 1k a==b",
+    "r12 a b 1k tc1 = 1", "r13=1 a b 1k", "c3 a b 1e400", "c4 a b inf", "c5 a b 1_0",
+    "c6 a b .5", "c7 a b 1.", "c8 a b -0", "c9 a b 10uF", "c10 a b 1e", "r14 a b 1k3",
+    "m1 d g s b nch w=1u l=0.15u", "M2 D G S B PCH", "m3 d g s b nch", "m4 d g s nch",
+    "m5 d g s b nch off", "m6 d g s b 2n7000", "m7 d g s b nch 1u 0.15u", "m8 d g s b e f g h nch",
+    "m9 d g s b nch w=1u l", "m10 d g s b {mod}", "m11 d g s b nch w = 1u", "mx", "m12 d g s",
+    "M13 d g s b NCH W=1U L=0.15U AD=1P nf=2", "m14 d g s b 1k", "m15 d g s b thermal",
+    "r15 a b 1k ; comment", "r16 a b 1k $ comment", "r17 a b {rval}", "r18 a b 'rval*2'",
+    "c11 a b 1p ic=0", "r19 N1 n1 5", "l2 a b 1n k=1",
+]
+
+
+def parsed(text: str, plain: bool):
+    from lintamp.netlist.parser import ParseContext, parse_text
+    with pytest.MonkeyPatch.context() as patch:
+        if not plain:
+            patch.setattr(ParseContext, "plain_element", lambda self, card, text: None)
+        netlist = parse_text(text, "deck.sp")
+    return ([(e, dict(e.params)) for e in netlist.top.elements],
+            [(d.rule, d.location, d.message) for d in netlist.diagnostics])
+
+
+def test_plain_cards_parse_as_the_general_parser_parses_them():
+    deck = "title\n.model nch nmos\n.model 2n7000 nmos\n" + "\n".join(CARDS) + "\n.end\n"
+    fast, general = parsed(deck, plain=True), parsed(deck, plain=False)
+    assert fast == general
+    assert len(fast[0]) > 40  # most of them are elements
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.sampled_from(["r1", "C2", "m3", "L4", "a", "B", "0", "n1", "1k", "2.5e-15",
+                                 "4.7f", "10", "nch", "w=1u", "L=0.15U", "m=2", "=", "x=", "off",
+                                 "1e", "inf"]), min_size=1, max_size=9))
+def test_random_plain_cards_parse_as_the_general_parser_parses_them(words):
+    deck = "title\n.model nch nmos\n" + " ".join(words) + "\n"
+    assert parsed(deck, plain=True) == parsed(deck, plain=False)
+
+
+def test_elements_without_params_share_one_read_only_dict():
+    import copy
+    import pickle
+
+    from lintamp.netlist.parser import parse_text
+    from lintamp.netlist.statements import NO_PARAMS
+    elements = parse_text("title\nr1 a b 1k\nc1 a 0 1p\nr2 a b 1k tc1=0\n").top.elements
+    assert elements[0].params is elements[1].params is NO_PARAMS and NO_PARAMS == {}
+    assert elements[2].params == {"tc1": "0"}
+    with pytest.raises(TypeError):
+        elements[0].params["r"] = "2k"
+    assert pickle.loads(pickle.dumps(elements[0])).params is NO_PARAMS
+    assert copy.deepcopy(elements[0]).params is NO_PARAMS
+    assert elements[0].location == elements[0].location  # built on demand, equal each time
+    assert (elements[1].location.line, elements[1].location.column) == (3, 1)
