@@ -420,7 +420,9 @@ class _Reader:
         opts = self.opts
         sink = self.sink
         lines = iter(source)
-        current: list | None = None  # [pieces, segments, first_comment, last_line]
+        # the statement being read: a Card when it is one plain line (the commonest by
+        # far), else [pieces, segments, first_comment, last_line, size] as it grows
+        current: Card | list | None = None
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
         in_control = False
         in_data = False
@@ -439,7 +441,11 @@ class _Reader:
 
         def flush():
             nonlocal current
-            if current is not None:
+            if current.__class__ is Card:
+                self.n_cards += 1
+                sink(current)
+                current = None
+            elif current is not None:
                 pieces, segs, comment, last, size = current
                 if size > MAX_CARD_CHARS:
                     self._diag("parse-error", Location(shown, segs[0][1], segs[0][2]),
@@ -451,15 +457,16 @@ class _Reader:
                 current = None
 
         pushed_back: tuple[int, str | None, int] | None = None
+        next_line = lines.__next__
         while True:
             if pushed_back is not None:
                 lineno, raw, length = pushed_back
                 pushed_back = None
             else:
-                got = next(lines, None)
-                if got is None:
+                try:
+                    lineno, raw, length = next_line()
+                except StopIteration:
                     break
-                lineno, raw, length = got
             if raw is None:
                 flush()
                 cdl_open = None
@@ -475,11 +482,16 @@ class _Reader:
                     head in "sS" and stripped[:9].lower() == "simulator"):
                 # the commonest line by far, an element card with no comment, no
                 # continuation marker and no directive: what the general path below
-                # would do with it, without its checks
+                # would do with it, without its checks (one line is under MAX_LINE_BYTES,
+                # so never over MAX_CARD_CHARS): a Card at once, handed on at the next
+                # statement unless a '+' line continues it
                 cdl_open = None
-                if current is not None:
+                if current.__class__ is Card:
+                    self.n_cards += 1
+                    sink(current)
+                elif current is not None:
                     flush()
-                current = [[stripped], [(0, lineno, indent + 1)], "", lineno, len(stripped)]
+                current = Card(stripped, shown, [(0, lineno, indent + 1)], "", lineno)
                 continue
             # whole-line comments: keep pragmas and CDL directives
             if head == "*" or (head == "$" and (len(stripped) == 1 or stripped[1] in " \t$")) \
@@ -539,6 +551,9 @@ class _Reader:
                 continue
             cdl_open = None
             if head == "+":
+                if current.__class__ is Card:  # a plain line is continued after all
+                    current = [[current.text], current.segments, current.comment, current.last_line,
+                               len(current.text)]
                 if current is None:
                     if in_section:
                         self._diag("parse-error", Location(shown, lineno, indent + 1),
