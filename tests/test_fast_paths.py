@@ -2,10 +2,12 @@
 
 Each fast path (plain decimal numbers, plain element cards, whole blocks of ASCII
 lines) must give exactly what the general path gives, including where it refuses.
-The tokens and cards below are chosen to sit on the edges of the fast paths; the
-SPICE number syntax they probe is the ngspice manual's (section 2.3, "Numbers":
-integer or floating point, optional exponent, optional scale factor, letters after
-it ignored), the rest is from memory of what real decks hold.
+The tokens and cards below are chosen to sit on the edges of the fast paths.  Sources:
+SPICE number syntax (integer or floating point, optional exponent, optional scale
+factor, letters after it ignored) from the ngspice manual as summarised in
+../shared/reference/spice-syntax.md section 3, "Numbers and units"; element lines from
+its section 2 (ngspice manual ch. 3); what Python's float() accepts beyond that
+('inf', 'nan', '1_0', blanks, other scripts' digits) from memory.
 """
 
 from __future__ import annotations
@@ -28,8 +30,8 @@ def same_number(a: float | None, b: float | None) -> bool:
     return a == b and math.copysign(1.0, a) == math.copysign(1.0, b)
 
 
-# ngspice manual 2.3 (numbers and scale factors) for the forms; the edge cases
-# (what float() takes but a SPICE number field does not) from memory of Python's float().
+# spice-syntax.md section 3 (ngspice numbers and scale factors) for the forms; the edge
+# cases (what float() takes but a SPICE number field does not) from memory of float().
 TRICKY_TOKENS = [
     "0", "1", "-0", "+0", "-0.0", "326.145", "1.", ".5", "-.5", "+.5", ".", "-", "+", "",
     "1e", "1e3", "1E3", "1e+3", "1e-3", "1e+", "1e-", "e3", "E3", ".e3", "1.e3", "1e3.", "1e3e",
@@ -52,8 +54,8 @@ def test_parse_number_fast_paths_agree_with_the_pattern(token):
 
 
 def test_parse_number_fast_paths_keep_the_refusals():
-    # ngspice manual 2.3: a number is digits with an optional point, exponent and scale
-    # factor; Python's float() would also take these (from memory): not SPICE numbers
+    # spice-syntax.md section 3: a number is digits with an optional point, exponent and
+    # scale factor; Python's float() would also take these (from memory): not SPICE numbers
     for token in ("inf", "nan", "infinity", " 1", "1 ", "1e400", "1e0000000000001", "e3", "."):
         assert parse_number(token) is None, token
     # and these are read as ngspice reads a number field (see tests/test_expr.py)
