@@ -17,8 +17,8 @@ from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt,
                                     open_regular, probed_nets, read, read_text)
-from lintamp.netlist.statements import (Analysis, Cell, Diagnostic, Element, FuncDef, Model,
-                                        Netlist, ParamDef, Pragma, Source)
+from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
+                                        Model, Netlist, ParamDef, Pragma, Source)
 
 WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
              "pat", "pwl_file"}
@@ -206,7 +206,7 @@ class ParseContext:
         if text[:1] in _PLAIN_LETTERS and _NOT_PLAIN.search(text) is None:
             element = self.plain_element(card, text)
             if element is not None:
-                self.cell.elements.append(element)
+                self.stack[-1].elements.append(element)
                 self.element_cards.append(element)
                 return
         stripped = text.lstrip()
@@ -244,10 +244,11 @@ class ParseContext:
         """
         fields = text.split()
         n_pos = len(fields)
-        if n_pos < 2 or "=" in fields[0]:
-            return None
-        params: dict[str, str] = {}
+        name = fields[0]  # the caller saw a letter first
         if "=" in text:
+            if n_pos < 2 or "=" in name:
+                return None
+            params: dict[str, str] = {}
             for k in range(1, n_pos):
                 if "=" in fields[k]:
                     for item in fields[k:]:
@@ -257,28 +258,35 @@ class ParseContext:
                         params[key.lower()] = value
                     n_pos = k
                     break
-        name = fields[0]
+        else:
+            params = NO_PARAMS
         letter = name[0].lower()
+        intern = self._names.setdefault  # one string object per distinct net name
         if letter == "m":
             if not 5 <= n_pos <= 9:
                 return None
             model = fields[n_pos - 1].lower()
             if model in DEVICE_FLAGS or is_value_token(model):
                 return None
-            raw = fields[1:n_pos - 1]
+            raw = tuple(fields[1:n_pos - 1])
+            nodes = tuple([intern(low, low) for low in map(str.lower, raw)])
+            if nodes == raw:
+                raw = nodes
             value = None
-        else:  # r, c, l
+        else:  # r, c, l: two nodes and a number
             if n_pos != 4 or parse_number(fields[3]) is None:
                 return None
             value = fields[3]
-            raw = fields[1:3]
+            a = fields[1]
+            b = fields[2]
+            low_a = a.lower()
+            low_b = b.lower()
+            nodes = (intern(low_a, low_a), intern(low_b, low_b))
+            raw = nodes if a == low_a and b == low_b else (a, b)
             model = None
-        names = self._names
-        nodes = tuple([names.setdefault(low, low) for low in map(str.lower, raw)])
-        raw = tuple(raw)
         _, line, col = card.segments[0]
-        return Element(name, letter, nodes, Location(card.path, line, col), model, value, params,
-                       (), None, None, nodes if nodes == raw else raw)
+        return Element(name, letter, nodes, card.path, line, col, model, value, params,
+                       (), None, None, raw)
 
     # -- dot cards -------------------------------------------------------------
     def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:
@@ -412,9 +420,11 @@ def _element(ctx: ParseContext, card: Card, tokens: list[Token], nodes: list[Tok
              **kw) -> Element:
     name = tokens[0].text
     names = ctx._names
+    _, line, column = card.segments[0]
     return Element(name=name, letter=name[0].lower(),
                    nodes=tuple(names.setdefault(low, low) for low in (t.text.lower() for t in nodes)),
-                   raw_nodes=tuple(t.text for t in nodes), location=card.location, **kw)
+                   raw_nodes=tuple(t.text for t in nodes), path=card.path, line=line, column=column,
+                   **kw)
 
 
 def _need(ctx, card, tokens, positional, count, what) -> bool:
@@ -769,7 +779,7 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
         return
     by_line: dict[tuple[str, int], Element] = {}
     for element in elements:  # an element's location is its card's first line
-        by_line[(element.location.path, element.location.line)] = element
+        by_line[(element.path, element.line)] = element
     cells = list(netlist.all_cells())
     # which cell holds a line: the innermost .subckt whose span contains it
     spans = [(c, c.location, c.end_location) for c in cells if not c.is_top and c.end_location]

@@ -155,12 +155,13 @@ def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, i
     Notes
     -----
     O(bytes) time; memory O(MAX_LINE_BYTES + chunk size), whatever the file size.
+    A chunk whose whole lines are ASCII (the common case) is decoded and split in
+    one step rather than line by line.
     """
     lineno = 0
     pending = bytearray()
     skipping = 0  # > 0: inside an over-long line, this many bytes so far
     carry = b""  # a CR at a chunk's end may be the first half of CR LF
-    first = True
 
     def take(piece: bytes) -> None:
         nonlocal pending, skipping
@@ -182,15 +183,30 @@ def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, i
         pending, skipping = bytearray(), 0
         return out
 
-    for chunk in chunks:
-        if first:
-            first = False
-            if chunk.startswith(b"\xef\xbb\xbf"):
-                chunk = chunk[3:]
+    for chunk in _bounded(chunks):
         chunk = carry + chunk
         carry = b""
         if chunk.endswith(b"\r"):
             carry, chunk = b"\r", chunk[:-1]
+        if not skipping:
+            # The common case, a chunk of ASCII lines: decode the chunk's whole lines at
+            # once and hand them out without a step per line (ASCII is valid UTF-8, so
+            # each line decodes to the same text alone, and its length in bytes is its
+            # length in characters).
+            cut = max(chunk.rfind(b"\n"), chunk.rfind(b"\r")) + 1
+            if cut:
+                block = bytes(pending) + chunk[:cut] if pending else chunk[:cut]
+                if block.isascii():
+                    text = block.decode("ascii")
+                    found = _BREAK_TEXT.split(text) if "\r" in text else text.split("\n")
+                    found.pop()  # the '' after the block's last line end
+                    if len(block) <= MAX_LINE_BYTES or max(map(len, found)) <= MAX_LINE_BYTES:
+                        yield from zip(range(lineno + 1, lineno + 1 + len(found)), found,
+                                       map(len, found))
+                        lineno += len(found)
+                        pending = bytearray()
+                        take(chunk[cut:])
+                        continue
         start = 0
         for match in _BREAK_BYTES.finditer(chunk):
             take(chunk[start:match.start()])
@@ -199,6 +215,23 @@ def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, i
         take(chunk[start:])
     if carry or pending or skipping or lineno == 0:
         yield line()
+
+
+def _bounded(chunks: Iterable[bytes]) -> Iterator[bytes]:
+    """``chunks`` without a UTF-8 byte-order mark at the start, and cut to at most
+    :data:`_READ_CHUNK_BYTES` each (bytes already in memory are handed in as one
+    chunk; no step of :func:`physical_lines` copies more than this)."""
+    first = True
+    for chunk in chunks:
+        if first:
+            first = False
+            if chunk.startswith(b"\xef\xbb\xbf"):
+                chunk = chunk[3:]
+        if len(chunk) <= _READ_CHUNK_BYTES:
+            yield chunk
+        else:
+            for start in range(0, len(chunk), _READ_CHUNK_BYTES):
+                yield chunk[start:start + _READ_CHUNK_BYTES]
 
 
 def _chunks(handle: BinaryIO, head: bytes) -> Iterator[bytes]:
@@ -387,7 +420,9 @@ class _Reader:
         opts = self.opts
         sink = self.sink
         lines = iter(source)
-        current: list | None = None  # [pieces, segments, first_comment, last_line]
+        # the statement being read: a Card when it is one plain line (the commonest by
+        # far), else [pieces, segments, first_comment, last_line, size] as it grows
+        current: Card | list | None = None
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
         in_control = False
         in_data = False
@@ -406,7 +441,11 @@ class _Reader:
 
         def flush():
             nonlocal current
-            if current is not None:
+            if current.__class__ is Card:
+                self.n_cards += 1
+                sink(current)
+                current = None
+            elif current is not None:
                 pieces, segs, comment, last, size = current
                 if size > MAX_CARD_CHARS:
                     self._diag("parse-error", Location(shown, segs[0][1], segs[0][2]),
@@ -418,15 +457,16 @@ class _Reader:
                 current = None
 
         pushed_back: tuple[int, str | None, int] | None = None
+        next_line = lines.__next__
         while True:
             if pushed_back is not None:
                 lineno, raw, length = pushed_back
                 pushed_back = None
             else:
-                got = next(lines, None)
-                if got is None:
+                try:
+                    lineno, raw, length = next_line()
+                except StopIteration:
                     break
-                lineno, raw, length = got
             if raw is None:
                 flush()
                 cdl_open = None
@@ -442,11 +482,16 @@ class _Reader:
                     head in "sS" and stripped[:9].lower() == "simulator"):
                 # the commonest line by far, an element card with no comment, no
                 # continuation marker and no directive: what the general path below
-                # would do with it, without its checks
+                # would do with it, without its checks (one line is under MAX_LINE_BYTES,
+                # so never over MAX_CARD_CHARS): a Card at once, handed on at the next
+                # statement unless a '+' line continues it
                 cdl_open = None
-                if current is not None:
+                if current.__class__ is Card:
+                    self.n_cards += 1
+                    sink(current)
+                elif current is not None:
                     flush()
-                current = [[stripped], [(0, lineno, indent + 1)], "", lineno, len(stripped)]
+                current = Card(stripped, shown, [(0, lineno, indent + 1)], "", lineno)
                 continue
             # whole-line comments: keep pragmas and CDL directives
             if head == "*" or (head == "$" and (len(stripped) == 1 or stripped[1] in " \t$")) \
@@ -506,6 +551,9 @@ class _Reader:
                 continue
             cdl_open = None
             if head == "+":
+                if current.__class__ is Card:  # a plain line is continued after all
+                    current = [[current.text], current.segments, current.comment, current.last_line,
+                               len(current.text)]
                 if current is None:
                     if in_section:
                         self._diag("parse-error", Location(shown, lineno, indent + 1),

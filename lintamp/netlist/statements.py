@@ -50,20 +50,42 @@ class Source:
     waveform_args: tuple[str, ...] = ()
 
 
+class _NoParams(dict):
+    """The ``params`` of every element written without any: one shared empty dict that
+    refuses to change (a dict per element would cost 64 bytes each on a big netlist)."""
+
+    __slots__ = ()
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("NO_PARAMS is shared by elements without parameters; it cannot change")
+
+    __setitem__ = __delitem__ = __ior__ = clear = pop = popitem = setdefault = update = _refuse
+
+    def __reduce__(self) -> str:
+        return "NO_PARAMS"  # pickle and copy give back the one shared object
+
+
+NO_PARAMS = _NoParams()
+
+
 @dataclass(slots=True)
 class Element:
     """One element card.  ``letter`` is the lower-case first letter of the name.
 
     ``nodes`` are the positional nets; ``model`` the model or subcircuit name (or
     None); ``value`` the main value token (resistance, capacitance, gain ...);
-    ``params`` the ``key=value`` pairs, keys lower-cased, values as text;
+    ``params`` the ``key=value`` pairs, keys lower-cased, values as text (read-only
+    :data:`NO_PARAMS` for many elements without any);
     ``controls`` the controlling V-source names of F/H/W elements and POLY forms.
+    ``path``, ``line`` and ``column`` are where the card starts (``location``).
     """
 
     name: str
     letter: str
     nodes: tuple[str, ...]
-    location: Location
+    path: str
+    line: int
+    column: int
     model: str | None = None
     value: str | None = None
     params: dict[str, str] = field(default_factory=dict)
@@ -75,6 +97,12 @@ class Element:
     @property
     def key(self) -> str:
         return self.name.lower()
+
+    @property
+    def location(self) -> Location:
+        """Where the card starts; built when asked for (a big netlist holds millions of
+        elements, and few of them are ever reported)."""
+        return Location(self.path, self.line, self.column)
 
 
 @dataclass(slots=True)
