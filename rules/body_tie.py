@@ -94,6 +94,11 @@ def _evidence(known, *nets):
             if n in known.volts]
 
 
+def _where(dev, view) -> dict:
+    """The finding's place; built only for a device that is reported."""
+    return dict(location=dev.location, subject=dev.name, view=view)
+
+
 def _check_device(ctx, view, dev, known, low, high, shared_done):
     nmos = dev.kind == "nmos"
     body, src, drn = dev.net("b"), dev.net("s"), dev.net("d")
@@ -101,12 +106,11 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
         return
     kind = "NMOS" if nmos else "PMOS"
     vb = known.volts.get(body)
-    base = dict(location=dev.location, subject=dev.name, view=view)
     if vb is not None and low is not None and high is not None and high > low:
         wrong_rail = high if nmos else low
         if abs(vb - wrong_rail) < 1e-9:
             yield ctx.finding(
-                **base, nets=[body], elements=[dev.name],
+                **_where(dev, view), nets=[body], elements=[dev.name],
                 message=f"{kind} {dev.display} has its body on the "
                         f"{'highest' if nmos else 'lowest'} rail {body} ({_fmt(vb)})",
                 explanation=[*_evidence(known, body, src, drn),
@@ -126,7 +130,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
             forward = (vb - v) if nmos else (v - vb)
             if forward > FORWARD_V:
                 yield ctx.finding(
-                    **base, nets=[body, net], elements=[dev.name],
+                    **_where(dev, view), nets=[body, net], elements=[dev.name],
                     message=f"the {pin}-body junction of {kind} {dev.display} is forward-"
                             f"biased by {forward:g} V",
                     explanation=[*_evidence(known, body, net),
@@ -149,7 +153,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
             shared_done.add(body)
             others = [d for d, _ in terms if d is not dev and d.kind != "capacitor"]
             yield ctx.finding(
-                **base, nets=[body],
+                **_where(dev, view), nets=[body],
                 message=f"the body net {body} of {dev.display} floats: it touches only "
                         "transistor bodies",
                 explanation=[f"{body} connects to: "
@@ -169,7 +173,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
     if mixed and nmos:
         shared_done.add(body)
         yield ctx.finding(
-            **base, nets=[body], elements=[dev.name] + [d.name for d in mixed[:8]],
+            **_where(dev, view), nets=[body], elements=[dev.name] + [d.name for d in mixed[:8]],
             message=f"body net {body} is shared by NMOS {dev.display} and PMOS "
                     f"{', '.join(d.display for d in mixed[:4])}",
             explanation=["no V source fixes this net's voltage, so which side is wrong is "
