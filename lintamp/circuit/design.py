@@ -12,6 +12,8 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from functools import cached_property
+from itertools import chain, compress
+from operator import attrgetter, gt
 from typing import Iterable, Iterator, Mapping
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
@@ -122,6 +124,11 @@ class CellView:
         return TerminalTable(self)
 
     @cached_property
+    def device_classes(self) -> "DeviceClasses":
+        """The devices grouped by (kind, pins, letter, model) (see :class:`DeviceClasses`)."""
+        return DeviceClasses(self.devices)
+
+    @cached_property
     def net_terminals(self) -> "NetTerminals":
         """Each net with the (device, pin) terminals on it, in netlist order.
 
@@ -161,13 +168,77 @@ class CellView:
         return g
 
 
+class DeviceClasses:
+    """A cell's devices numbered by class: devices of one (kind, pins, element letter,
+    element model) share every role an analysis derives from those four.
+
+    ``keys[c]`` is class ``c``'s key and ``codes[d]`` the class of device ``d`` (a
+    numpy int64 array, or a list for fewer than :data:`SMALL_TABLE_TERMINALS`
+    devices).  :meth:`members` lists the devices of chosen classes in netlist order,
+    so an analysis visits only the devices it can act on.
+
+    Notes
+    -----
+    O(devices) time, one integer per device.
+    """
+
+    __slots__ = ("keys", "codes", "small")
+
+    def __init__(self, devices: list["Device"]):
+        numbering = _Numbering()
+        keys = zip(map(_KIND, devices), map(_PINS, devices), map(_LETTER, devices),
+                   map(_MODEL, devices))
+        self.small = len(devices) < SMALL_TABLE_TERMINALS
+        if self.small:
+            self.codes = list(map(numbering.__getitem__, keys))
+        else:
+            import numpy as np
+
+            self.codes = np.fromiter(map(numbering.__getitem__, keys), dtype=np.int64,
+                                     count=len(devices))
+        self.keys: list[tuple] = list(numbering)
+
+    def members(self, wanted) -> list[int]:
+        """Numbers of the devices whose class is in ``wanted``, in netlist order."""
+        wanted = set(wanted)
+        if not wanted:
+            return []
+        if len(wanted) == len(self.keys):
+            return list(range(len(self.codes)))
+        if self.small:
+            return [d for d, code in enumerate(self.codes) if code in wanted]
+        import numpy as np
+
+        chosen = np.zeros(len(self.keys), dtype=bool)
+        chosen[list(wanted)] = True
+        return np.flatnonzero(chosen[self.codes]).tolist()
+
+
+class _Numbering(dict):
+    """Names to 0, 1, 2 ... in order of first lookup (a missing name gets the next number)."""
+
+    __slots__ = ()
+
+    def __missing__(self, key: str) -> int:
+        number = self[key] = len(self)
+        return number
+
+
+_NETS = attrgetter("nets")
+_PINS = attrgetter("pins")
+_KIND = attrgetter("kind")
+_LETTER = attrgetter("element.letter")
+_MODEL = attrgetter("element.model")
+
+
 class TerminalTable:
     """A cell's connectivity as small integers, built once per cell.
 
     ``nets``: every net name, ports first, then in order of first use (nets on
     pins that have a role), then nets only on pins without a role (an instance with
     more nets than its cell has ports); ``index`` maps a name to its position and
-    ``n_role_nets`` counts the nets before those last.  Per device ``d``, its
+    ``n_role_nets`` counts the nets before those last; ``extra_devices`` lists the
+    devices with such nets, in netlist order.  Per device ``d``, its
     terminals (the nets with a pin role, ``min(len(nets), len(pins))`` of them) are
     ``net_ids[dev_start[d]:dev_start[d + 1]]``.  ``term_order`` lists terminal
     numbers grouped by net (netlist order inside a net) and ``net_start`` delimits
@@ -182,40 +253,59 @@ class TerminalTable:
     """
 
     __slots__ = ("devices", "nets", "index", "n_role_nets", "net_ids", "dev_start",
-                 "term_dev", "term_order", "net_start", "small")
+                 "term_dev", "term_order", "net_start", "small", "extra_devices")
 
     def __init__(self, view: "CellView"):
         devices = view.devices
         self.devices = devices
-        role_nets = [dev.nets if len(dev.nets) <= len(dev.pins) else dev.nets[:len(dev.pins)]
-                     for dev in devices]
-        flat = [net for nets in role_nets for net in nets]
-        names = dict.fromkeys(view.ports)
-        names.update(dict.fromkeys(flat))
-        self.n_role_nets = len(names)
-        for dev in devices:  # nets on pins without a role
-            if len(dev.nets) > len(dev.pins):
-                names.update(dict.fromkeys(dev.nets[len(dev.pins):]))
-        self.nets = list(names)
-        self.index = {net: i for i, net in enumerate(self.nets)}
-        # a small cell keeps plain lists: importing numpy would cost more than the work
-        self.small = len(flat) < SMALL_TABLE_TERMINALS
-        if self.small:
-            self._build_lists(role_nets, flat)
+        # one numbering pass over the terminals: looking a million net names up is
+        # bound by memory latency, so each name is looked up once, in netlist order
+        numbering = _Numbering()
+        for port in view.ports:
+            numbering[port]
+        n_nets = list(map(len, map(_NETS, devices)))
+        n_pins = list(map(len, map(_PINS, devices)))
+        extra = list(compress(range(len(devices)), map(gt, n_nets, n_pins)))
+        if extra:  # nets on pins without a role are numbered after all the others
+            counts = list(map(min, n_nets, n_pins))
+            stream = chain.from_iterable(dev.nets if len(dev.nets) <= len(dev.pins)
+                                         else dev.nets[:len(dev.pins)] for dev in devices)
         else:
-            self._build_arrays(role_nets, flat)
+            counts = n_nets
+            stream = chain.from_iterable(map(_NETS, devices))
+        n_terms = sum(counts)
+        # a small cell keeps plain lists: importing numpy would cost more than the work
+        self.small = n_terms < SMALL_TABLE_TERMINALS
+        if self.small:
+            net_ids = list(map(numbering.__getitem__, stream))
+        else:
+            import numpy as np
 
-    def _build_lists(self, role_nets, flat) -> None:
-        counts = list(map(len, role_nets))
+            net_ids = np.fromiter(map(numbering.__getitem__, stream), dtype=np.int64,
+                                  count=n_terms)
+        self.n_role_nets = len(numbering)
+        self.extra_devices = extra
+        for d in extra:
+            dev = devices[d]
+            for net in dev.nets[len(dev.pins):]:
+                numbering[net]
+        self.nets = list(numbering)
+        self.index = dict(numbering)  # a plain dict: an unknown name is a KeyError
+        self.net_ids = net_ids
+        if self.small:
+            self._build_lists(counts)
+        else:
+            self._build_arrays(counts)
+
+    def _build_lists(self, counts) -> None:
         start = [0] * (len(counts) + 1)
         total = 0
         for d, count in enumerate(counts):
             total += count
             start[d + 1] = total
         self.dev_start = start
-        self.net_ids = list(map(self.index.__getitem__, flat))
         self.term_dev = [d for d, count in enumerate(counts) for _ in range(count)]
-        self.term_order = sorted(range(len(flat)), key=self.net_ids.__getitem__)  # stable
+        self.term_order = sorted(range(total), key=self.net_ids.__getitem__)  # stable
         per_net = [0] * len(self.nets)
         for i in self.net_ids:
             per_net[i] += 1
@@ -226,14 +316,13 @@ class TerminalTable:
             net_start[i + 1] = total
         self.net_start = net_start
 
-    def _build_arrays(self, role_nets, flat) -> None:
+    def _build_arrays(self, counts) -> None:
         import numpy as np
 
-        counts = np.fromiter(map(len, role_nets), dtype=np.int64, count=len(role_nets))
-        self.dev_start = np.zeros(len(role_nets) + 1, dtype=np.int64)
+        counts = np.array(counts, dtype=np.int64)
+        self.dev_start = np.zeros(len(counts) + 1, dtype=np.int64)
         np.cumsum(counts, out=self.dev_start[1:])
-        self.net_ids = np.fromiter(map(self.index.__getitem__, flat), dtype=np.int64, count=len(flat))
-        self.term_dev = np.repeat(np.arange(len(role_nets), dtype=np.int64), counts)
+        self.term_dev = np.repeat(np.arange(len(counts), dtype=np.int64), counts)
         self.term_order = np.argsort(self.net_ids, kind="stable")
         per_net = np.bincount(self.net_ids, minlength=len(self.nets))
         self.net_start = np.zeros(len(self.nets) + 1, dtype=np.int64)
