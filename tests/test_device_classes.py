@@ -124,10 +124,12 @@ def test_corpus_agrees_with_plain_definitions(threshold, monkeypatch):
 
 
 def test_extra_nets_and_recursion_keep_their_roles(monkeypatch):
-    # an instance with more nets than its cell has ports, and a cell that instantiates
-    # itself (its instance becomes a recursive-instance: not an instance any more)
+    # an instance with more nets than its cell has ports, a cell that instantiates
+    # itself (its instance becomes a recursive-instance: not an instance any more),
+    # and resistors whose bare value is a parameter name (read as the value)
     text = ("* extra nets\n.subckt inv a y\nr1 a y 1k\nx1 a y inv\n.ends\n"
-            "x2 in out spare inv\nv1 in 0 1\nr0 out 0 0\nr9 spare 0 1e-400\n.end\n")
+            "x2 in out spare inv\nv1 in 0 1\nr0 out 0 0\nr9 spare 0 1e-400\n"
+            ".param rval=0\nr7 in out rval\nr8 out in rval\nr6 in 0 {rval}\n.end\n")
     for threshold in (0, 10 ** 9):
         monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", threshold)
         netlist = parse_text(text, "extra.sp", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))

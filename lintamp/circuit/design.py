@@ -184,11 +184,22 @@ class DeviceClasses:
 
     __slots__ = ("keys", "codes", "small")
 
-    def __init__(self, devices: list["Device"]):
+    def __init__(self, devices: list["Device"], known: tuple[list[int], list[tuple]] | None = None):
+        """``known``: (codes, keys) already numbered the same way (by :func:`elaborate`,
+        which meets every device's key as it recognises it)."""
+        self.small = len(devices) < SMALL_TABLE_TERMINALS
+        if known is not None:
+            codes, self.keys = known
+            if self.small:
+                self.codes = codes
+            else:
+                import numpy as np
+
+                self.codes = np.array(codes, dtype=np.int64)
+            return
         numbering = _Numbering()
         keys = zip(map(_KIND, devices), map(_PINS, devices), map(_LETTER, devices),
                    map(_MODEL, devices))
-        self.small = len(devices) < SMALL_TABLE_TERMINALS
         if self.small:
             self.codes = list(map(numbering.__getitem__, keys))
         else:
@@ -659,26 +670,39 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
     for cell in cells:
         view = CellView(cell=cell, ports=cell.ports, globals=globals_)
         views[id(cell)] = view
+    classes: dict[int, tuple[CellView, list[int], list[tuple]]] = {}
     for cell in cells:
         view = views[id(cell)]
         devices = view.devices
         # recognise() depends only on (letter, model, node count) within one cell for
         # every letter but X, and for R/C/L only when no model name is written (a
-        # model name there may be a parameter): remember those answers
-        known: dict[tuple, tuple] = {}
+        # model name there may be a parameter): remember those answers, and the
+        # number of the device class (kind, pins, letter, model) they make
+        known: dict[tuple, list] = {}
+        class_of = _Numbering()
+        codes: list[int] = []
         for element in cell.elements:
             letter = element.letter
             if letter == "x":
                 subcell = find_cell(cell, element.model) if element.model else None
                 recognised = recognise(element, cell, devmap, subcell)
+                code = class_of[(recognised[0], recognised[1], letter, element.model)]
             else:
                 subcell = None
                 key = (letter, element.model, len(element.nodes))
-                recognised = known.get(key)
-                if recognised is None:
+                hit = known.get(key)
+                if hit is None:
                     recognised = recognise(element, cell, devmap, None)
+                    # after recognise(): it may turn a bare parameter name into the value
+                    code = class_of[(recognised[0], recognised[1], letter, element.model)]
                     if letter not in "rcl" or element.model is None:
-                        known[key] = recognised
+                        # later hits keep their model name (key[1]): number them on first use
+                        known[key] = [recognised, code if element.model == key[1] else None]
+                else:
+                    recognised, code = hit
+                    if code is None:
+                        code = hit[1] = class_of[(recognised[0], recognised[1], letter, key[1])]
+            codes.append(code)
             kind, pins, model, spec, polarity_from = recognised
             name = element.name
             low = name.lower()
@@ -687,16 +711,23 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
             if kind == "instance" and subcell is not None:
                 dev.subcell = views[id(subcell)]
             devices.append(dev)
-    _cut_recursion(views, diagnostics)
+        classes[id(view)] = (view, codes, list(class_of))
+    for view_id in _cut_recursion(views, diagnostics):
+        del classes[view_id]  # a cut instance changed kind: number that cell afresh
+    for view, codes, keys in classes.values():
+        view.device_classes = DeviceClasses(view.devices, (codes, keys))
     top_view, roots = _choose_top(netlist, views, top, diagnostics)
     design = Design(netlist=netlist, views=views, top=top_view, roots=roots,
                     diagnostics=diagnostics, ground=ground)
     return design
 
 
-def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> None:
-    """A cell that instantiates itself (directly or not) cannot be elaborated."""
+def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> set[int]:
+    """A cell that instantiates itself (directly or not) cannot be elaborated.
+
+    Returns the ids of the views whose instances were cut."""
     state: dict[int, int] = {}
+    cut: set[int] = set()
 
     def visit(view: CellView, stack: list[CellView]):
         state[id(view)] = 1
@@ -714,6 +745,7 @@ def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) ->
                     subject=dev.name))
                 dev.subcell = None
                 dev.kind = "recursive-instance"
+                cut.add(id(view))
             elif state.get(id(sub)) is None:
                 if len(stack) > 500:
                     continue
@@ -724,6 +756,7 @@ def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) ->
     for view in list(views.values()):
         if id(view) not in state:
             visit(view, [])
+    return cut
 
 
 def _choose_top(netlist: Netlist, views: dict[int, CellView], top: str | None,
