@@ -74,6 +74,9 @@ def _check_view(netlist, design, view):
     for t, i in enumerate(net_ids):
         per_net.setdefault(i, []).append(t)
     assert list(table.term_order) == [t for i in range(len(nets)) for t in per_net.get(i, [])]
+    owner = [(dev, pin) for dev in view.devices for pin in dev.pins[:len(dev.nets)]]
+    for i in range(min(len(nets), 300)):
+        assert table.terminals_of(i) == [owner[t] for t in per_net.get(i, [])]
 
     classes = view.device_classes
     keys: dict[tuple, int] = {}

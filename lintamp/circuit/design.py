@@ -168,6 +168,12 @@ class CellView:
         return g
 
 
+def _index_dtype(count: int):
+    import numpy as np
+
+    return np.int32 if count < 2 ** 31 - 1 else np.int64
+
+
 class DeviceClasses:
     """A cell's devices numbered by class: devices of one (kind, pins, element letter,
     element model) share every role an analysis derives from those four.
@@ -269,13 +275,14 @@ class TerminalTable:
     ``net_ids[dev_start[d]:dev_start[d + 1]]``.  ``term_order`` lists terminal
     numbers grouped by net (netlist order inside a net) and ``net_start`` delimits
     each net's group, so a net's terminals are found without a Python list per net.
-    These are numpy int64 arrays, or plain lists when ``small`` (fewer than
-    :data:`SMALL_TABLE_TERMINALS` terminals); the methods below accept both.
+    These are numpy int32 arrays (int64 past 2**31 terminals), or plain lists when
+    ``small`` (fewer than :data:`SMALL_TABLE_TERMINALS` terminals); the methods
+    below accept both.  A small table also lists ``term_dev``, each terminal's device.
 
     Notes
     -----
-    O(terminals) time; 4 integers per terminal and 1 per net of memory
-    (O(terminals log terminals) for the stable sort of a small table).
+    O(terminals) time; 3 four-byte integers per terminal and 1 per device and per
+    net of memory (O(terminals log terminals) for the stable sort of a small table).
     """
 
     __slots__ = ("devices", "nets", "index", "n_role_nets", "net_ids", "dev_start",
@@ -307,7 +314,7 @@ class TerminalTable:
         else:
             import numpy as np
 
-            net_ids = np.fromiter(map(numbering.__getitem__, stream), dtype=np.int64,
+            net_ids = np.fromiter(map(numbering.__getitem__, stream), dtype=_index_dtype(n_terms),
                                   count=n_terms)
         self.n_role_nets = len(numbering)
         self.extra_devices = extra
@@ -345,13 +352,13 @@ class TerminalTable:
     def _build_arrays(self, counts) -> None:
         import numpy as np
 
-        counts = np.array(counts, dtype=np.int64)
-        self.dev_start = np.zeros(len(counts) + 1, dtype=np.int64)
-        np.cumsum(counts, out=self.dev_start[1:])
-        self.term_dev = np.repeat(np.arange(len(counts), dtype=np.int64), counts)
-        self.term_order = np.argsort(self.net_ids, kind="stable")
+        dtype = self.net_ids.dtype
+        self.dev_start = np.zeros(len(counts) + 1, dtype=dtype)
+        np.cumsum(np.array(counts, dtype=dtype), out=self.dev_start[1:])
+        self.term_dev = None  # found from dev_start when asked (see terminals_of)
+        self.term_order = np.argsort(self.net_ids, kind="stable").astype(dtype, copy=False)
         per_net = np.bincount(self.net_ids, minlength=len(self.nets))
-        self.net_start = np.zeros(len(self.nets) + 1, dtype=np.int64)
+        self.net_start = np.zeros(len(self.nets) + 1, dtype=dtype)
         np.cumsum(per_net, out=self.net_start[1:])
 
     def repeated_net_devices(self) -> list[int]:
@@ -390,14 +397,22 @@ class TerminalTable:
     def terminals_of(self, i: int) -> list[tuple["Device", str]]:
         """(device, pin) terminals on net number ``i``, in netlist order."""
         terms = self.term_order[self.net_start[i]:self.net_start[i + 1]]
-        if not self.small:
-            terms = terms.tolist()
-        devices, dev_start, term_dev = self.devices, self.dev_start, self.term_dev
+        dev_start = self.dev_start
+        if self.small:
+            owners = [self.term_dev[t] for t in terms]
+            offsets = [t - dev_start[d] for t, d in zip(terms, owners)]
+        else:
+            import numpy as np
+
+            # a terminal's device is the last whose first terminal is not after it
+            found = np.searchsorted(dev_start, terms, side="right") - 1
+            offsets = (terms - dev_start[found]).tolist()
+            owners = found.tolist()
+        devices = self.devices
         out = []
-        for t in terms:
-            d = int(term_dev[t])
+        for d, offset in zip(owners, offsets):
             dev = devices[d]
-            out.append((dev, dev.pins[t - int(dev_start[d])]))
+            out.append((dev, dev.pins[offset]))
         return out
 
 
