@@ -312,8 +312,8 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             if ctl is not None:
                 for net in ctl.nets:
                     sensed[index[net]] = True
-    row_parts.append(np.asarray(rows, dtype=np.int64))
-    col_parts.append(np.asarray(cols, dtype=np.int64))
+    row_parts.append(np.asarray(rows, dtype=net_ids.dtype))  # the table's (int32) width
+    col_parts.append(np.asarray(cols, dtype=net_ids.dtype))
     rows = np.concatenate(row_parts)
     cols = np.concatenate(col_parts)
 
