@@ -16,6 +16,7 @@ from pathlib import Path
 import pytest
 
 import lintamp.circuit.design as design_module
+from lintamp.analysis.dc_paths import MAX_DEPTH, bottom_up
 from lintamp.analysis.loops import _LazyScope, _plainly_nonzero, rigid_devices, rigid_pins
 from lintamp.analysis.rails import _named_nets, _of_kind
 from lintamp.api import load_design
@@ -99,10 +100,47 @@ def _check_view(netlist, design, view):
                 plain.append((dev, pins))
     assert rigid_devices(view, scope) == plain
 
+    assert view.instances() == [d for d in view.devices if d.subcell is not None]
     for kind in ("vsource", "instance"):
         assert _of_kind(view, kind) == [d for d in view.devices if d.kind == kind]
     names = design.ground | view.globals
     assert _named_nets(view, names) == [net for net in view.net_terminals if net in names]
+
+
+def _plain_bottom_up(views):
+    """Children first by depth-first search, a view's instances listed at every step."""
+    done, out = set(), []
+    for root in views:
+        if id(root) in done:
+            continue
+        stack, on_stack = [(root, 0)], {id(root)}
+        while stack:
+            view, child = stack[-1]
+            subs = [d.subcell for d in view.devices if d.subcell is not None]
+            advanced = False
+            while child < len(subs):
+                sub = subs[child]
+                child += 1
+                if id(sub) not in done and id(sub) not in on_stack and len(stack) < MAX_DEPTH:
+                    stack[-1] = (view, child)
+                    stack.append((sub, 0))
+                    on_stack.add(id(sub))
+                    advanced = True
+                    break
+            if advanced:
+                continue
+            stack.pop()
+            on_stack.discard(id(view))
+            if id(view) not in done:
+                done.add(id(view))
+                out.append(view)
+    return out
+
+
+def _check_design(netlist, design):
+    for view in design.cells:
+        _check_view(netlist, design, view)
+    assert bottom_up(design.cells) == _plain_bottom_up(design.cells)
 
 
 @pytest.mark.parametrize("threshold", [0, 10 ** 9], ids=["arrays", "lists"])
@@ -110,8 +148,7 @@ def test_fixtures_agree_with_plain_definitions(threshold, monkeypatch):
     monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", threshold)
     for path in DECKS:
         netlist, design = _design(path)
-        for view in design.cells:
-            _check_view(netlist, design, view)
+        _check_design(netlist, design)
 
 
 @pytest.mark.parametrize("threshold", [0, 10 ** 9], ids=["arrays", "lists"])
@@ -122,8 +159,7 @@ def test_corpus_agrees_with_plain_definitions(threshold, monkeypatch):
     monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", threshold)
     for path in files:
         netlist, design = _design(path)
-        for view in design.cells:
-            _check_view(netlist, design, view)
+        _check_design(netlist, design)
 
 
 def test_extra_nets_and_recursion_keep_their_roles(monkeypatch):
@@ -137,8 +173,7 @@ def test_extra_nets_and_recursion_keep_their_roles(monkeypatch):
         monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", threshold)
         netlist = parse_text(text, "extra.sp", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
         design = load_design(netlist)
-        for view in design.cells:
-            _check_view(netlist, design, view)
+        _check_design(netlist, design)
         kinds = [d.kind for d in design.view_of(netlist.top.cells["inv"]).devices]
         assert kinds == ["resistor", "recursive-instance"]
 

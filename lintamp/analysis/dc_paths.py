@@ -646,30 +646,35 @@ def control_label(dev: Device, pin: str) -> str:
     return f"{word} of {dev.display}"
 
 
+def _subcells(view: CellView) -> list[CellView]:
+    return [d.subcell for d in view.instances()]
+
+
 def bottom_up(views: list[CellView]) -> list[CellView]:
     """Cell views children first, each once, nesting bounded by :data:`MAX_DEPTH`.
 
     Notes
     -----
-    Iterative depth-first search: O(cells + instances).
+    Iterative depth-first search: O(cells + instances); a view's instances are
+    listed once per visit, not once per child it descends into.
     """
     done: set[int] = set()
     out: list[CellView] = []
     for root in views:
         if id(root) in done:
             continue
-        stack: list[tuple[CellView, int]] = [(root, 0)]
+        # each frame keeps its view's instantiated cells, listed once per visit
+        stack: list[tuple[CellView, list[CellView], int]] = [(root, _subcells(root), 0)]
         on_stack = {id(root)}
         while stack:
-            view, child = stack[-1]
-            subs = [d.subcell for d in view.devices if d.subcell is not None]
+            view, subs, child = stack[-1]
             advanced = False
             while child < len(subs):
                 sub = subs[child]
                 child += 1
                 if id(sub) not in done and id(sub) not in on_stack and len(stack) < MAX_DEPTH:
-                    stack[-1] = (view, child)
-                    stack.append((sub, 0))
+                    stack[-1] = (view, subs, child)
+                    stack.append((sub, _subcells(sub), 0))
                     on_stack.add(id(sub))
                     advanced = True
                     break

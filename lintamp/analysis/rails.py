@@ -137,10 +137,8 @@ def compute_rails(ctx) -> Rails:
                     found_globals.setdefault(net, set()).add(round(volts, 9))
             if not design.in_deck(view):
                 continue
-            for dev in _of_kind(view, "instance"):
+            for dev in view.instances():
                 sub = dev.subcell
-                if sub is None:
-                    continue
                 bucket = port_votes.setdefault(id(sub), {})
                 for pos in range(min(len(sub.ports), len(dev.nets))):
                     bucket.setdefault(pos, []).append(rails.volts.get(dev.nets[pos]))

@@ -128,6 +128,15 @@ class CellView:
         """The devices grouped by (kind, pins, letter, model) (see :class:`DeviceClasses`)."""
         return DeviceClasses(self.devices)
 
+    def instances(self) -> list[Device]:
+        """The devices that instantiate a cell view (``subcell`` set), in netlist order;
+        found by device class, without a step per device."""
+        classes = self.device_classes
+        devices = self.devices
+        wanted = [c for c, key in enumerate(classes.keys) if key[0] == "instance"]
+        return [dev for dev in map(devices.__getitem__, classes.members(wanted))
+                if dev.subcell is not None]
+
     @cached_property
     def net_terminals(self) -> "NetTerminals":
         """Each net with the (device, pin) terminals on it, in netlist order.
@@ -481,9 +490,9 @@ class Design:
         stack = [self.top]
         while stack:
             view = stack.pop()
-            for dev in view.devices:
+            for dev in view.instances():
                 sub = dev.subcell
-                if sub is not None and id(sub) not in seen:
+                if id(sub) not in seen:
                     seen.add(id(sub))
                     stack.append(sub)
         return frozenset(seen)
@@ -513,9 +522,8 @@ class Design:
             counts[id(root)] = counts.get(id(root), 0) + 1
         for view in order:
             n = counts.get(id(view), 0)
-            for dev in view.devices:
-                if dev.subcell is not None:
-                    counts[id(dev.subcell)] = counts.get(id(dev.subcell), 0) + n
+            for dev in view.instances():
+                counts[id(dev.subcell)] = counts.get(id(dev.subcell), 0) + n
         return counts
 
     @cached_property
@@ -523,13 +531,12 @@ class Design:
         paths: dict[int, list[tuple[str, ...]]] = {id(r): [()] for r in self.roots}
         for view in self._topological():
             mine = paths.get(id(view), [])
-            for dev in view.devices:
-                if dev.subcell is not None:
-                    bucket = paths.setdefault(id(dev.subcell), [])
-                    for p in mine:
-                        if len(bucket) >= 20:
-                            break
-                        bucket.append(p + (dev.name,))
+            for dev in view.instances():
+                bucket = paths.setdefault(id(dev.subcell), [])
+                for p in mine:
+                    if len(bucket) >= 20:
+                        break
+                    bucket.append(p + (dev.name,))
         return paths
 
     def _topological(self) -> list[CellView]:
@@ -541,9 +548,8 @@ class Design:
             if id(v) in seen or depth > 200:
                 return
             seen.add(id(v))
-            for d in v.devices:
-                if d.subcell is not None:
-                    visit(d.subcell, depth + 1)
+            for d in v.instances():
+                visit(d.subcell, depth + 1)
             out.append(v)
 
         for v in self.views.values():
@@ -787,6 +793,6 @@ def _choose_top(netlist: Netlist, views: dict[int, CellView], top: str | None,
     if top_view.devices or not netlist.top.cells:
         return top_view, [top_view]
     # a cell library: every cell that nobody instantiates is a root
-    used = {id(d.subcell) for v in views.values() for d in v.devices if d.subcell is not None}
+    used = {id(d.subcell) for v in views.values() for d in v.instances()}
     roots = [v for v in views.values() if id(v) not in used and not v.cell.is_top]
     return top_view, [top_view] + roots
