@@ -194,16 +194,26 @@ class CellDC:
     sensed: "np.ndarray | list | None" = None      # per component: observed by a control input
 
 
-def _instance_groups(dev: Device, summary: CellSummary | None):
-    """(pin positions joined, PortGroup) per group of the subcircuit's summary."""
+def _instance_groups(dev: Device, summary: CellSummary | None, memo: dict | None = None):
+    """(pin positions joined, PortGroup) per group of the subcircuit's summary.
+
+    ``memo`` (one cell's, while its summaries live) shares the answer between the
+    instances of one cell with one pin count; callers only read it."""
     if summary is None:
         return None
-    out = []
     n = min(len(dev.nets), len(dev.pins))
+    if memo is not None:
+        key = (id(summary), n)
+        out = memo.get(key)
+        if out is not None:
+            return out
+    out = []
     for group in summary.groups:
         pins = tuple(p for p in group.ports if p < n)
         if pins:
             out.append((pins, group))
+    if memo is not None:
+        memo[key] = out
     return out
 
 
@@ -300,9 +310,10 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         for net in dev.nets[len(dev.pins):]:
             unknown[index[net]] = True  # a pin lintamp knows no role for
     instances = [devices[d] for d in classes.members(instance_codes)]
+    groups_memo: dict = {}
     for dev in instances:
         _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
-                      inst_currents, inst_controlled, sensed)
+                      inst_currents, inst_controlled, sensed, groups_memo)
     # F, H, W and POLY forms sense the current of a V source: its nets are observed
     for dev in _sensing_devices(devices):
         if by_name is None:
@@ -340,7 +351,7 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         port[labels[index[net]]] = True
     # instance groups that reach ground / globals inside anchor their component here
     _anchor_instances(instances, summaries, lambda dev, pin: int(labels[ids_of(dev, pin)]),
-                      ground, comp_globals)
+                      ground, comp_globals, groups_memo)
     comp_unknown = np.zeros(n_comp, dtype=bool)
     if n:
         comp_unknown[labels[unknown]] = True
@@ -387,14 +398,15 @@ def _sensing_devices(devices: list[Device]) -> list[Device]:
             if d.kind != "coupling" and d.kind != "instance"]
 
 
-def _anchor_instances(instances, summaries, component_of, ground, comp_globals) -> None:
+def _anchor_instances(instances, summaries, component_of, ground, comp_globals,
+                      memo: dict | None = None) -> None:
     """Mark components that an instance joins to ground or to globals inside it
     (both cell paths); ``instances`` are the cell's devices of kind ``instance`` and
     ``component_of(dev, pin)`` gives a pin's component."""
     for dev in instances:
         if dev.subcell is None:
             continue
-        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+        groups = _instance_groups(dev, summaries.get(id(dev.subcell)), memo)
         if not groups:
             continue
         for pins, group in groups:
@@ -406,7 +418,7 @@ def _anchor_instances(instances, summaries, component_of, ground, comp_globals) 
 
 
 def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
-                  inst_currents, inst_controlled, sensed) -> None:
+                  inst_currents, inst_controlled, sensed, memo: dict | None = None) -> None:
     """Fold one instance's port summary into its cell's components (both cell paths).
 
     ``unknown``, ``controls`` and ``sensed`` are per-net sequences (numpy arrays or
@@ -417,7 +429,7 @@ def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls
         for i in ids:
             unknown[i] = True
         return
-    groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+    groups = _instance_groups(dev, summaries.get(id(dev.subcell)), memo)
     if groups is None:
         for i in ids:
             unknown[i] = True
