@@ -40,6 +40,8 @@ their nets *unknown*, and a component holding an unknown net is never reported.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from itertools import compress
+from operator import attrgetter
 from typing import TYPE_CHECKING
 
 from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, CellView, Device
@@ -56,6 +58,7 @@ TWO_TERMINAL_SHORTS = frozenset({"resistor", "inductor", "vsource", "ccvs", "swi
                                  "cswitch", "vcvs"})
 CURRENT_KINDS = frozenset({"isource", "vccs", "cccs"})
 UNKNOWN_KINDS = frozenset({"other", "xspice", "recursive-instance"})
+_CONTROLS = attrgetter("element.controls")
 
 
 # -- what one device does at DC ----------------------------------------------------------
@@ -191,16 +194,26 @@ class CellDC:
     sensed: "np.ndarray | list | None" = None      # per component: observed by a control input
 
 
-def _instance_groups(dev: Device, summary: CellSummary | None):
-    """(pin positions joined, PortGroup) per group of the subcircuit's summary."""
+def _instance_groups(dev: Device, summary: CellSummary | None, memo: dict | None = None):
+    """(pin positions joined, PortGroup) per group of the subcircuit's summary.
+
+    ``memo`` (one cell's, while its summaries live) shares the answer between the
+    instances of one cell with one pin count; callers only read it."""
     if summary is None:
         return None
-    out = []
     n = min(len(dev.nets), len(dev.pins))
+    if memo is not None:
+        key = (id(summary), n)
+        out = memo.get(key)
+        if out is not None:
+            return out
+    out = []
     for group in summary.groups:
         pins = tuple(p for p in group.ports if p < n)
         if pins:
             out.append((pins, group))
+    if memo is not None:
+        memo[key] = out
     return out
 
 
@@ -255,18 +268,17 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     # devices of one plan key share their DC roles: handle each such batch with
     # array operations on the terminal table instead of a Python step per device
     devices = view.devices
-    plan_code: dict[tuple, int] = {}
-    codes = np.fromiter(
-        (plan_code.setdefault((dev.kind, dev.pins, dev.element.letter, dev.element.model),
-                              len(plan_code)) for dev in devices),
-        dtype=np.int64, count=len(devices))
+    classes = view.device_classes
+    codes = np.asarray(classes.codes, dtype=np.int64)
     batches = np.argsort(codes, kind="stable")
-    bounds = np.searchsorted(codes[batches], np.arange(len(plan_code) + 1))
+    bounds = np.searchsorted(codes[batches], np.arange(len(classes.keys) + 1))
     current_plans: dict[int, tuple[int, ...]] = {}
-    for key, code in plan_code.items():
+    instance_codes: list[int] = []
+    for code, key in enumerate(classes.keys):
         members = batches[bounds[code]:bounds[code + 1]]
         kind = key[0]
         if kind == "instance":
+            instance_codes.append(code)
             continue  # below, one by one (their roles come from the subcell's summary)
         plan = device_plan(devices[int(members[0])])
         base = dev_start[members]
@@ -288,26 +300,22 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             sensed[pin_ids(p)] = True
         if plan.currents:
             current_plans[code] = plan.currents
-    if current_plans:  # current feeds in netlist order: the findings list them so
-        feeding = np.zeros(len(plan_code), dtype=bool)
-        feeding[list(current_plans)] = True
-        for d in np.flatnonzero(feeding[codes]).tolist():
-            dev = devices[d]
-            for p in current_plans[int(codes[d])]:
-                currents_at.append((dev, p))
-    for dev in devices:
-        if len(dev.nets) > len(dev.pins):
-            for net in dev.nets[len(dev.pins):]:
-                unknown[index[net]] = True  # a pin lintamp knows no role for
-    if "instance" in {key[0] for key in plan_code}:
-        for dev in devices:
-            if dev.kind != "instance":
-                continue
-            _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
-                          inst_currents, inst_controlled, sensed)
+    # current feeds in netlist order: the findings list them so
+    for d in classes.members(current_plans):
+        dev = devices[d]
+        for p in current_plans[int(codes[d])]:
+            currents_at.append((dev, p))
+    for d in table.extra_devices:
+        dev = devices[d]
+        for net in dev.nets[len(dev.pins):]:
+            unknown[index[net]] = True  # a pin lintamp knows no role for
+    instances = [devices[d] for d in classes.members(instance_codes)]
+    groups_memo: dict = {}
+    for dev in instances:
+        _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
+                      inst_currents, inst_controlled, sensed, groups_memo)
     # F, H, W and POLY forms sense the current of a V source: its nets are observed
-    for dev in [d for d in devices if d.element.controls and d.kind != "coupling"
-                and d.kind != "instance"]:
+    for dev in _sensing_devices(devices):
         if by_name is None:
             by_name = {d.name: d for d in devices}
         for name in dev.element.controls:
@@ -315,8 +323,8 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             if ctl is not None:
                 for net in ctl.nets:
                     sensed[index[net]] = True
-    row_parts.append(np.asarray(rows, dtype=np.int64))
-    col_parts.append(np.asarray(cols, dtype=np.int64))
+    row_parts.append(np.asarray(rows, dtype=net_ids.dtype))  # the table's (int32) width
+    col_parts.append(np.asarray(cols, dtype=net_ids.dtype))
     rows = np.concatenate(row_parts)
     cols = np.concatenate(col_parts)
 
@@ -332,16 +340,18 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     ground = np.zeros(n_comp, dtype=bool)
     port = np.zeros(n_comp, dtype=bool)
     comp_globals: dict[int, set[str]] = {}
-    for net, i in index.items():
+    # ground and global nets in net order (a few names looked up, not every net)
+    for i in sorted(i for i in map(index.get, ground_names | view.globals) if i is not None):
+        net = nets[i]
         if net in ground_names:
             ground[labels[i]] = True
-        elif net in view.globals:
+        else:
             comp_globals.setdefault(int(labels[i]), set()).add(net)
-        if net in view.ports:
-            port[labels[i]] = True
+    for net in view.ports:
+        port[labels[index[net]]] = True
     # instance groups that reach ground / globals inside anchor their component here
-    _anchor_instances(view, summaries, lambda dev, pin: int(labels[ids_of(dev, pin)]),
-                      ground, comp_globals)
+    _anchor_instances(instances, summaries, lambda dev, pin: int(labels[ids_of(dev, pin)]),
+                      ground, comp_globals, groups_memo)
     comp_unknown = np.zeros(n_comp, dtype=bool)
     if n:
         comp_unknown[labels[unknown]] = True
@@ -381,13 +391,22 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
 
 
 
-def _anchor_instances(view, summaries, component_of, ground, comp_globals) -> None:
+def _sensing_devices(devices: list[Device]) -> list[Device]:
+    """Devices whose element names controlling V sources (F, H, W, POLY forms), in
+    netlist order; a K coupling's inductors and an instance's names are not senses."""
+    return [d for d in compress(devices, map(_CONTROLS, devices))
+            if d.kind != "coupling" and d.kind != "instance"]
+
+
+def _anchor_instances(instances, summaries, component_of, ground, comp_globals,
+                      memo: dict | None = None) -> None:
     """Mark components that an instance joins to ground or to globals inside it
-    (both cell paths); ``component_of(dev, pin)`` gives a pin's component."""
-    for dev in view.devices:
-        if dev.kind != "instance" or dev.subcell is None:
+    (both cell paths); ``instances`` are the cell's devices of kind ``instance`` and
+    ``component_of(dev, pin)`` gives a pin's component."""
+    for dev in instances:
+        if dev.subcell is None:
             continue
-        groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+        groups = _instance_groups(dev, summaries.get(id(dev.subcell)), memo)
         if not groups:
             continue
         for pins, group in groups:
@@ -399,7 +418,7 @@ def _anchor_instances(view, summaries, component_of, ground, comp_globals) -> No
 
 
 def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
-                  inst_currents, inst_controlled, sensed) -> None:
+                  inst_currents, inst_controlled, sensed, memo: dict | None = None) -> None:
     """Fold one instance's port summary into its cell's components (both cell paths).
 
     ``unknown``, ``controls`` and ``sensed`` are per-net sequences (numpy arrays or
@@ -410,7 +429,7 @@ def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls
         for i in ids:
             unknown[i] = True
         return
-    groups = _instance_groups(dev, summaries.get(id(dev.subcell)))
+    groups = _instance_groups(dev, summaries.get(id(dev.subcell)), memo)
     if groups is None:
         for i in ids:
             unknown[i] = True
@@ -496,10 +515,10 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             sensed[net_ids[base + p]] = True
         for p in plan.currents:
             currents_at.append((dev, p))
-    for dev in devices:
-        if len(dev.nets) > len(dev.pins):
-            for net in dev.nets[len(dev.pins):]:
-                unknown[index[net]] = True  # a pin lintamp knows no role for
+    for d in table.extra_devices:
+        dev = devices[d]
+        for net in dev.nets[len(dev.pins):]:
+            unknown[index[net]] = True  # a pin lintamp knows no role for
     if has_instances:
         for dev in devices:
             if dev.kind != "instance":
@@ -507,8 +526,7 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
                           inst_currents, inst_controlled, sensed)
     by_name: dict[str, Device] | None = None
-    for dev in [d for d in devices if d.element.controls and d.kind != "coupling"
-                and d.kind != "instance"]:
+    for dev in _sensing_devices(devices):
         if by_name is None:
             by_name = {d.name: d for d in devices}
         for name in dev.element.controls:
@@ -537,7 +555,8 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             comp_globals.setdefault(labels[i], set()).add(net)
         if net in view.ports:
             port[labels[i]] = True
-    _anchor_instances(view, summaries, lambda dev, pin: labels[ids_of(dev, pin)],
+    _anchor_instances([d for d in devices if d.kind == "instance"], summaries,
+                      lambda dev, pin: labels[ids_of(dev, pin)],
                       ground, comp_globals)
     comp_unknown = [False] * n_comp
     comp_controls = [0] * n_comp
@@ -639,30 +658,35 @@ def control_label(dev: Device, pin: str) -> str:
     return f"{word} of {dev.display}"
 
 
+def _subcells(view: CellView) -> list[CellView]:
+    return [d.subcell for d in view.instances()]
+
+
 def bottom_up(views: list[CellView]) -> list[CellView]:
     """Cell views children first, each once, nesting bounded by :data:`MAX_DEPTH`.
 
     Notes
     -----
-    Iterative depth-first search: O(cells + instances).
+    Iterative depth-first search: O(cells + instances); a view's instances are
+    listed once per visit, not once per child it descends into.
     """
     done: set[int] = set()
     out: list[CellView] = []
     for root in views:
         if id(root) in done:
             continue
-        stack: list[tuple[CellView, int]] = [(root, 0)]
+        # each frame keeps its view's instantiated cells, listed once per visit
+        stack: list[tuple[CellView, list[CellView], int]] = [(root, _subcells(root), 0)]
         on_stack = {id(root)}
         while stack:
-            view, child = stack[-1]
-            subs = [d.subcell for d in view.devices if d.subcell is not None]
+            view, subs, child = stack[-1]
             advanced = False
             while child < len(subs):
                 sub = subs[child]
                 child += 1
                 if id(sub) not in done and id(sub) not in on_stack and len(stack) < MAX_DEPTH:
-                    stack[-1] = (view, child)
-                    stack.append((sub, 0))
+                    stack[-1] = (view, subs, child)
+                    stack.append((sub, _subcells(sub), 0))
                     on_stack.add(id(sub))
                     advanced = True
                     break
@@ -807,10 +831,15 @@ def islands(ctx, view: CellView, mode: str = FULL) -> list[Island]:
         if all(anchor) if isinstance(anchor, list) else anchor.all():
             return []
         out: dict[int, Island] = {}
-        for net, i in dc.index.items():
+        if isinstance(anchor, list):
+            loose = [i for i, comp in enumerate(dc.labels) if not anchor[comp]]
+        else:  # the nets of unanchored components, in net order, without a step per net
+            import numpy as np
+
+            loose = np.flatnonzero(~anchor[dc.labels]).tolist()
+        for i in loose:
+            net = dc.nets[i]
             comp = int(dc.labels[i])
-            if anchor[comp]:
-                continue
             isl = out.get(comp)
             if isl is None:
                 isl = out[comp] = Island(view=view, nets=[], terminals=[], controls=[],

@@ -68,10 +68,78 @@ def rigid_pins(dev: Device, scope) -> tuple[int, int] | None:
         pass
     else:
         return None
+    return _pn(dev)
+
+
+def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] | None]]:
+    """In netlist order: each device with a zero-impedance branch and its
+    :func:`rigid_pins`, and each instance of a known cell with ``None``.
+
+    The same devices as ``rigid_pins`` asked of every device, but decided once per
+    device class (:attr:`CellView.device_classes`): only resistors are looked at
+    one by one, for their value.
+
+    Notes
+    -----
+    O(devices) array work plus O(resistors + rigid devices + instances) Python steps.
+    """
+    devices = view.devices
+    classes = view.device_classes
+    always: dict[int, tuple[int, int] | None] = {}    # the class alone decides
+    by_value: dict[int, tuple[int, int] | None] = {}  # resistors: the value decides
+    wanted: set[int] = set()
+    for code, (key, first) in enumerate(zip(classes.keys, classes.first_members())):
+        kind = key[0]
+        dev = devices[first]
+        if kind == "instance":
+            wanted.add(code)
+        elif kind in RIGID_KINDS or (kind == "behavioral" and is_voltage_output(dev)):
+            always[code] = _pn(dev)
+            wanted.add(code)
+        elif kind == "resistor":
+            by_value[code] = _pn(dev)
+            wanted.add(code)
+    codes = classes.codes
+    zero_text: dict[str, bool] = {}
+    out: list[tuple[Device, tuple[int, int] | None]] = []
+    for d in classes.members(wanted):
+        dev = devices[d]
+        code = int(codes[d])
+        if code in always:
+            pins = always[code]
+        elif code in by_value:
+            if dev.spec is not None:
+                continue
+            text = dev.element.value
+            if text is None or _plainly_nonzero(text):
+                continue
+            zero = zero_text.get(text)
+            if zero is None:
+                zero = zero_text[text] = is_zero_ohm(dev, scope)
+            pins = by_value[code] if zero else None
+        elif dev.subcell is not None:  # an instance of a known cell
+            out.append((dev, None))
+            continue
+        else:
+            continue
+        if pins is not None:
+            out.append((dev, pins))
+    return out
+
+
+def _pn(dev: Device) -> tuple[int, int] | None:
     try:
         return dev.pins.index("p"), dev.pins.index("n")
     except ValueError:
         return None
+
+
+def _plainly_nonzero(text: str) -> bool:
+    """A plain decimal (digits, at most one point, up to 15 characters) with a nonzero
+    digit: a nonzero number whatever the scope, so no parse is needed (most values
+    of a large extracted netlist look like this)."""
+    return (len(text) <= 15 and text.isascii() and text.replace(".", "", 1).isdigit()
+            and text.strip("0.") != "")
 
 
 class _Forest:
@@ -138,9 +206,9 @@ def cell_loops(view: CellView, ground: frozenset[str], summaries: dict[int, Rigi
     """
     forest = _Forest()
     loops: list[Loop] = []
-    for dev in view.devices:
+    for dev, pins in rigid_devices(view, scope):
         branches: list[Branch] = []
-        if dev.kind == "instance" and dev.subcell is not None:
+        if pins is None:  # an instance: the rigid joins its cell passes up
             summary = summaries.get(id(dev.subcell))
             if summary is None:
                 continue
@@ -151,9 +219,6 @@ def cell_loops(view: CellView, ground: frozenset[str], summaries: dict[int, Rigi
                     continue
                 branches.append(Branch(a, b, dev, f"{dev.display}: {note}"))
         else:
-            pins = rigid_pins(dev, scope)
-            if pins is None:
-                continue
             a, b = dev.nets[pins[0]], dev.nets[pins[1]]
             if a == b:
                 continue  # one net at both ends: the shorted-device rule's business

@@ -52,8 +52,8 @@ def _dc_value(dev, scope) -> float | None:
 def _propagate(view: CellView, seed: dict[str, tuple[float, str]], scope) -> CellRails:
     """Spread known voltages across the cell's V sources (breadth first)."""
     adj: dict[str, list[tuple[str, float, str]]] = {}
-    for dev in view.devices:
-        if dev.kind != "vsource" or len(dev.nets) < 2:
+    for dev in _of_kind(view, "vsource"):
+        if len(dev.nets) < 2:
             continue
         value = _dc_value(dev, scope)
         if value is None:
@@ -80,6 +80,23 @@ def _propagate(view: CellView, seed: dict[str, tuple[float, str]], scope) -> Cel
     return rails
 
 
+def _of_kind(view: CellView, kind: str) -> list:
+    """The view's devices of one kind, in netlist order (chosen by device class)."""
+    classes = view.device_classes
+    return [view.devices[d] for d in
+            classes.members(c for c, key in enumerate(classes.keys) if key[0] == kind)]
+
+
+def _named_nets(view: CellView, names) -> list[str]:
+    """Those of ``names`` that are nets of the view (with a terminal or a port), in net
+    order: the order a walk over ``view.net_terminals`` meets them."""
+    index = view.terminal_table.index
+    limit = view.terminal_table.n_role_nets
+    found = [(i, net) for net, i in ((net, index.get(net)) for net in names)
+             if i is not None and i < limit]
+    return [net for _, net in sorted(found)]
+
+
 def compute_rails(ctx) -> Rails:
     """Known DC voltages for every cell, parents first.
 
@@ -99,7 +116,7 @@ def compute_rails(ctx) -> Rails:
         for view in parents_first:
             scope = outer if view.cell.is_top else cell_scope(view.cell, outer)
             seed: dict[str, tuple[float, str]] = {}
-            for net in view.net_terminals:
+            for net in _named_nets(view, design.ground | view.globals):
                 if net in design.ground:
                     seed[net] = (0.0, "ground")
                 elif net in view.globals and net in global_volts and net not in view.ports:
@@ -120,10 +137,8 @@ def compute_rails(ctx) -> Rails:
                     found_globals.setdefault(net, set()).add(round(volts, 9))
             if not design.in_deck(view):
                 continue
-            for dev in view.devices:
+            for dev in view.instances():
                 sub = dev.subcell
-                if sub is None:
-                    continue
                 bucket = port_votes.setdefault(id(sub), {})
                 for pos in range(min(len(sub.ports), len(dev.nets))):
                     bucket.setdefault(pos, []).append(rails.volts.get(dev.nets[pos]))

@@ -12,6 +12,8 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from functools import cached_property
+from itertools import chain, compress
+from operator import attrgetter, gt
 from typing import Iterable, Iterator, Mapping
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
@@ -122,6 +124,20 @@ class CellView:
         return TerminalTable(self)
 
     @cached_property
+    def device_classes(self) -> "DeviceClasses":
+        """The devices grouped by (kind, pins, letter, model) (see :class:`DeviceClasses`)."""
+        return DeviceClasses(self.devices)
+
+    def instances(self) -> list[Device]:
+        """The devices that instantiate a cell view (``subcell`` set), in netlist order;
+        found by device class, without a step per device."""
+        classes = self.device_classes
+        devices = self.devices
+        wanted = [c for c, key in enumerate(classes.keys) if key[0] == "instance"]
+        return [dev for dev in map(devices.__getitem__, classes.members(wanted))
+                if dev.subcell is not None]
+
+    @cached_property
     def net_terminals(self) -> "NetTerminals":
         """Each net with the (device, pin) terminals on it, in netlist order.
 
@@ -161,61 +177,177 @@ class CellView:
         return g
 
 
+def _index_dtype(count: int):
+    import numpy as np
+
+    return np.int32 if count < 2 ** 31 - 1 else np.int64
+
+
+class DeviceClasses:
+    """A cell's devices numbered by class: devices of one (kind, pins, element letter,
+    element model) share every role an analysis derives from those four.
+
+    ``keys[c]`` is class ``c``'s key and ``codes[d]`` the class of device ``d`` (a
+    numpy int64 array, or a list for fewer than :data:`SMALL_TABLE_TERMINALS`
+    devices).  :meth:`members` lists the devices of chosen classes in netlist order,
+    so an analysis visits only the devices it can act on.
+
+    Notes
+    -----
+    O(devices) time, one integer per device.
+    """
+
+    __slots__ = ("keys", "codes", "small")
+
+    def __init__(self, devices: list["Device"], known: tuple[list[int], list[tuple]] | None = None):
+        """``known``: (codes, keys) already numbered the same way (by :func:`elaborate`,
+        which meets every device's key as it recognises it)."""
+        self.small = len(devices) < SMALL_TABLE_TERMINALS
+        if known is not None:
+            codes, self.keys = known
+            if self.small:
+                self.codes = codes
+            else:
+                import numpy as np
+
+                self.codes = np.array(codes, dtype=np.int64)
+            return
+        numbering = _Numbering()
+        keys = zip(map(_KIND, devices), map(_PINS, devices), map(_LETTER, devices),
+                   map(_MODEL, devices))
+        if self.small:
+            self.codes = list(map(numbering.__getitem__, keys))
+        else:
+            import numpy as np
+
+            self.codes = np.fromiter(map(numbering.__getitem__, keys), dtype=np.int64,
+                                     count=len(devices))
+        self.keys: list[tuple] = list(numbering)
+
+    def first_members(self) -> list[int]:
+        """The number of the first device of each class (classes are numbered in order
+        of first appearance, so this list is increasing)."""
+        if self.small:
+            first: dict[int, int] = {}
+            for d, code in enumerate(self.codes):
+                first.setdefault(code, d)
+            return list(first.values())
+        import numpy as np
+
+        # a new class takes the next number, so its first device is where the running
+        # maximum of the codes steps up
+        running = np.maximum.accumulate(self.codes) if len(self.codes) else self.codes
+        return np.flatnonzero(np.diff(running, prepend=-1) > 0).tolist()
+
+    def members(self, wanted) -> list[int]:
+        """Numbers of the devices whose class is in ``wanted``, in netlist order."""
+        wanted = set(wanted)
+        if not wanted:
+            return []
+        if len(wanted) == len(self.keys):
+            return list(range(len(self.codes)))
+        if self.small:
+            return [d for d, code in enumerate(self.codes) if code in wanted]
+        import numpy as np
+
+        chosen = np.zeros(len(self.keys), dtype=bool)
+        chosen[list(wanted)] = True
+        return np.flatnonzero(chosen[self.codes]).tolist()
+
+
+class _Numbering(dict):
+    """Names to 0, 1, 2 ... in order of first lookup (a missing name gets the next number)."""
+
+    __slots__ = ()
+
+    def __missing__(self, key: str) -> int:
+        number = self[key] = len(self)
+        return number
+
+
+_NETS = attrgetter("nets")
+_PINS = attrgetter("pins")
+_KIND = attrgetter("kind")
+_LETTER = attrgetter("element.letter")
+_MODEL = attrgetter("element.model")
+
+
 class TerminalTable:
     """A cell's connectivity as small integers, built once per cell.
 
     ``nets``: every net name, ports first, then in order of first use (nets on
     pins that have a role), then nets only on pins without a role (an instance with
     more nets than its cell has ports); ``index`` maps a name to its position and
-    ``n_role_nets`` counts the nets before those last.  Per device ``d``, its
+    ``n_role_nets`` counts the nets before those last; ``extra_devices`` lists the
+    devices with such nets, in netlist order.  Per device ``d``, its
     terminals (the nets with a pin role, ``min(len(nets), len(pins))`` of them) are
     ``net_ids[dev_start[d]:dev_start[d + 1]]``.  ``term_order`` lists terminal
     numbers grouped by net (netlist order inside a net) and ``net_start`` delimits
     each net's group, so a net's terminals are found without a Python list per net.
-    These are numpy int64 arrays, or plain lists when ``small`` (fewer than
-    :data:`SMALL_TABLE_TERMINALS` terminals); the methods below accept both.
+    These are numpy int32 arrays (int64 past 2**31 terminals), or plain lists when
+    ``small`` (fewer than :data:`SMALL_TABLE_TERMINALS` terminals); the methods
+    below accept both.  A small table also lists ``term_dev``, each terminal's device.
 
     Notes
     -----
-    O(terminals) time; 4 integers per terminal and 1 per net of memory
-    (O(terminals log terminals) for the stable sort of a small table).
+    O(terminals) time; 3 four-byte integers per terminal and 1 per device and per
+    net of memory (O(terminals log terminals) for the stable sort of a small table).
     """
 
     __slots__ = ("devices", "nets", "index", "n_role_nets", "net_ids", "dev_start",
-                 "term_dev", "term_order", "net_start", "small")
+                 "term_dev", "term_order", "net_start", "small", "extra_devices")
 
     def __init__(self, view: "CellView"):
         devices = view.devices
         self.devices = devices
-        role_nets = [dev.nets if len(dev.nets) <= len(dev.pins) else dev.nets[:len(dev.pins)]
-                     for dev in devices]
-        flat = [net for nets in role_nets for net in nets]
-        names = dict.fromkeys(view.ports)
-        names.update(dict.fromkeys(flat))
-        self.n_role_nets = len(names)
-        for dev in devices:  # nets on pins without a role
-            if len(dev.nets) > len(dev.pins):
-                names.update(dict.fromkeys(dev.nets[len(dev.pins):]))
-        self.nets = list(names)
-        self.index = {net: i for i, net in enumerate(self.nets)}
-        # a small cell keeps plain lists: importing numpy would cost more than the work
-        self.small = len(flat) < SMALL_TABLE_TERMINALS
-        if self.small:
-            self._build_lists(role_nets, flat)
+        # one numbering pass over the terminals: looking a million net names up is
+        # bound by memory latency, so each name is looked up once, in netlist order
+        numbering = _Numbering()
+        for port in view.ports:
+            numbering[port]
+        n_nets = list(map(len, map(_NETS, devices)))
+        n_pins = list(map(len, map(_PINS, devices)))
+        extra = list(compress(range(len(devices)), map(gt, n_nets, n_pins)))
+        if extra:  # nets on pins without a role are numbered after all the others
+            counts = list(map(min, n_nets, n_pins))
+            stream = chain.from_iterable(dev.nets if len(dev.nets) <= len(dev.pins)
+                                         else dev.nets[:len(dev.pins)] for dev in devices)
         else:
-            self._build_arrays(role_nets, flat)
+            counts = n_nets
+            stream = chain.from_iterable(map(_NETS, devices))
+        n_terms = sum(counts)
+        # a small cell keeps plain lists: importing numpy would cost more than the work
+        self.small = n_terms < SMALL_TABLE_TERMINALS
+        if self.small:
+            net_ids = list(map(numbering.__getitem__, stream))
+        else:
+            import numpy as np
 
-    def _build_lists(self, role_nets, flat) -> None:
-        counts = list(map(len, role_nets))
+            net_ids = np.fromiter(map(numbering.__getitem__, stream), dtype=_index_dtype(n_terms),
+                                  count=n_terms)
+        self.n_role_nets = len(numbering)
+        self.extra_devices = extra
+        for d in extra:
+            dev = devices[d]
+            for net in dev.nets[len(dev.pins):]:
+                numbering[net]
+        self.nets = list(numbering)
+        self.index = dict(numbering)  # a plain dict: an unknown name is a KeyError
+        self.net_ids = net_ids
+        if self.small:
+            self._build_lists(counts)
+        else:
+            self._build_arrays(counts)
+
+    def _build_lists(self, counts) -> None:
         start = [0] * (len(counts) + 1)
         total = 0
         for d, count in enumerate(counts):
             total += count
             start[d + 1] = total
         self.dev_start = start
-        self.net_ids = list(map(self.index.__getitem__, flat))
         self.term_dev = [d for d, count in enumerate(counts) for _ in range(count)]
-        self.term_order = sorted(range(len(flat)), key=self.net_ids.__getitem__)  # stable
+        self.term_order = sorted(range(total), key=self.net_ids.__getitem__)  # stable
         per_net = [0] * len(self.nets)
         for i in self.net_ids:
             per_net[i] += 1
@@ -226,17 +358,16 @@ class TerminalTable:
             net_start[i + 1] = total
         self.net_start = net_start
 
-    def _build_arrays(self, role_nets, flat) -> None:
+    def _build_arrays(self, counts) -> None:
         import numpy as np
 
-        counts = np.fromiter(map(len, role_nets), dtype=np.int64, count=len(role_nets))
-        self.dev_start = np.zeros(len(role_nets) + 1, dtype=np.int64)
-        np.cumsum(counts, out=self.dev_start[1:])
-        self.net_ids = np.fromiter(map(self.index.__getitem__, flat), dtype=np.int64, count=len(flat))
-        self.term_dev = np.repeat(np.arange(len(role_nets), dtype=np.int64), counts)
-        self.term_order = np.argsort(self.net_ids, kind="stable")
+        dtype = self.net_ids.dtype
+        self.dev_start = np.zeros(len(counts) + 1, dtype=dtype)
+        np.cumsum(np.array(counts, dtype=dtype), out=self.dev_start[1:])
+        self.term_dev = None  # found from dev_start when asked (see terminals_of)
+        self.term_order = np.argsort(self.net_ids, kind="stable").astype(dtype, copy=False)
         per_net = np.bincount(self.net_ids, minlength=len(self.nets))
-        self.net_start = np.zeros(len(self.nets) + 1, dtype=np.int64)
+        self.net_start = np.zeros(len(self.nets) + 1, dtype=dtype)
         np.cumsum(per_net, out=self.net_start[1:])
 
     def repeated_net_devices(self) -> list[int]:
@@ -275,14 +406,22 @@ class TerminalTable:
     def terminals_of(self, i: int) -> list[tuple["Device", str]]:
         """(device, pin) terminals on net number ``i``, in netlist order."""
         terms = self.term_order[self.net_start[i]:self.net_start[i + 1]]
-        if not self.small:
-            terms = terms.tolist()
-        devices, dev_start, term_dev = self.devices, self.dev_start, self.term_dev
+        dev_start = self.dev_start
+        if self.small:
+            owners = [self.term_dev[t] for t in terms]
+            offsets = [t - dev_start[d] for t, d in zip(terms, owners)]
+        else:
+            import numpy as np
+
+            # a terminal's device is the last whose first terminal is not after it
+            found = np.searchsorted(dev_start, terms, side="right") - 1
+            offsets = (terms - dev_start[found]).tolist()
+            owners = found.tolist()
+        devices = self.devices
         out = []
-        for t in terms:
-            d = int(term_dev[t])
+        for d, offset in zip(owners, offsets):
             dev = devices[d]
-            out.append((dev, dev.pins[t - int(dev_start[d])]))
+            out.append((dev, dev.pins[offset]))
         return out
 
 
@@ -351,9 +490,9 @@ class Design:
         stack = [self.top]
         while stack:
             view = stack.pop()
-            for dev in view.devices:
+            for dev in view.instances():
                 sub = dev.subcell
-                if sub is not None and id(sub) not in seen:
+                if id(sub) not in seen:
                     seen.add(id(sub))
                     stack.append(sub)
         return frozenset(seen)
@@ -383,9 +522,8 @@ class Design:
             counts[id(root)] = counts.get(id(root), 0) + 1
         for view in order:
             n = counts.get(id(view), 0)
-            for dev in view.devices:
-                if dev.subcell is not None:
-                    counts[id(dev.subcell)] = counts.get(id(dev.subcell), 0) + n
+            for dev in view.instances():
+                counts[id(dev.subcell)] = counts.get(id(dev.subcell), 0) + n
         return counts
 
     @cached_property
@@ -393,13 +531,12 @@ class Design:
         paths: dict[int, list[tuple[str, ...]]] = {id(r): [()] for r in self.roots}
         for view in self._topological():
             mine = paths.get(id(view), [])
-            for dev in view.devices:
-                if dev.subcell is not None:
-                    bucket = paths.setdefault(id(dev.subcell), [])
-                    for p in mine:
-                        if len(bucket) >= 20:
-                            break
-                        bucket.append(p + (dev.name,))
+            for dev in view.instances():
+                bucket = paths.setdefault(id(dev.subcell), [])
+                for p in mine:
+                    if len(bucket) >= 20:
+                        break
+                    bucket.append(p + (dev.name,))
         return paths
 
     def _topological(self) -> list[CellView]:
@@ -411,9 +548,8 @@ class Design:
             if id(v) in seen or depth > 200:
                 return
             seen.add(id(v))
-            for d in v.devices:
-                if d.subcell is not None:
-                    visit(d.subcell, depth + 1)
+            for d in v.instances():
+                visit(d.subcell, depth + 1)
             out.append(v)
 
         for v in self.views.values():
@@ -555,26 +691,39 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
     for cell in cells:
         view = CellView(cell=cell, ports=cell.ports, globals=globals_)
         views[id(cell)] = view
+    classes: dict[int, tuple[CellView, list[int], list[tuple]]] = {}
     for cell in cells:
         view = views[id(cell)]
         devices = view.devices
         # recognise() depends only on (letter, model, node count) within one cell for
         # every letter but X, and for R/C/L only when no model name is written (a
-        # model name there may be a parameter): remember those answers
-        known: dict[tuple, tuple] = {}
+        # model name there may be a parameter): remember those answers, and the
+        # number of the device class (kind, pins, letter, model) they make
+        known: dict[tuple, list] = {}
+        class_of = _Numbering()
+        codes: list[int] = []
         for element in cell.elements:
             letter = element.letter
             if letter == "x":
                 subcell = find_cell(cell, element.model) if element.model else None
                 recognised = recognise(element, cell, devmap, subcell)
+                code = class_of[(recognised[0], recognised[1], letter, element.model)]
             else:
                 subcell = None
                 key = (letter, element.model, len(element.nodes))
-                recognised = known.get(key)
-                if recognised is None:
+                hit = known.get(key)
+                if hit is None:
                     recognised = recognise(element, cell, devmap, None)
+                    # after recognise(): it may turn a bare parameter name into the value
+                    code = class_of[(recognised[0], recognised[1], letter, element.model)]
                     if letter not in "rcl" or element.model is None:
-                        known[key] = recognised
+                        # later hits keep their model name (key[1]): number them on first use
+                        known[key] = [recognised, code if element.model == key[1] else None]
+                else:
+                    recognised, code = hit
+                    if code is None:
+                        code = hit[1] = class_of[(recognised[0], recognised[1], letter, key[1])]
+            codes.append(code)
             kind, pins, model, spec, polarity_from = recognised
             name = element.name
             low = name.lower()
@@ -583,16 +732,23 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
             if kind == "instance" and subcell is not None:
                 dev.subcell = views[id(subcell)]
             devices.append(dev)
-    _cut_recursion(views, diagnostics)
+        classes[id(view)] = (view, codes, list(class_of))
+    for view_id in _cut_recursion(views, diagnostics):
+        del classes[view_id]  # a cut instance changed kind: number that cell afresh
+    for view, codes, keys in classes.values():
+        view.device_classes = DeviceClasses(view.devices, (codes, keys))
     top_view, roots = _choose_top(netlist, views, top, diagnostics)
     design = Design(netlist=netlist, views=views, top=top_view, roots=roots,
                     diagnostics=diagnostics, ground=ground)
     return design
 
 
-def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> None:
-    """A cell that instantiates itself (directly or not) cannot be elaborated."""
+def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> set[int]:
+    """A cell that instantiates itself (directly or not) cannot be elaborated.
+
+    Returns the ids of the views whose instances were cut."""
     state: dict[int, int] = {}
+    cut: set[int] = set()
 
     def visit(view: CellView, stack: list[CellView]):
         state[id(view)] = 1
@@ -610,6 +766,7 @@ def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) ->
                     subject=dev.name))
                 dev.subcell = None
                 dev.kind = "recursive-instance"
+                cut.add(id(view))
             elif state.get(id(sub)) is None:
                 if len(stack) > 500:
                     continue
@@ -620,6 +777,7 @@ def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) ->
     for view in list(views.values()):
         if id(view) not in state:
             visit(view, [])
+    return cut
 
 
 def _choose_top(netlist: Netlist, views: dict[int, CellView], top: str | None,
@@ -635,6 +793,6 @@ def _choose_top(netlist: Netlist, views: dict[int, CellView], top: str | None,
     if top_view.devices or not netlist.top.cells:
         return top_view, [top_view]
     # a cell library: every cell that nobody instantiates is a root
-    used = {id(d.subcell) for v in views.values() for d in v.devices if d.subcell is not None}
+    used = {id(d.subcell) for v in views.values() for d in v.instances()}
     roots = [v for v in views.values() if id(v) not in used and not v.cell.is_top]
     return top_view, [top_view] + roots
