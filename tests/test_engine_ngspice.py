@@ -87,6 +87,10 @@ CASES = {
     # controlled sources: F, G, H
     "controlled": ("ctl\nvin in 0 1\nr1 in a 1k\nvs a b 0\nr2 b 0 1k\nf1 0 c vs 3\nrc c 0 2k\n"
                    "g1 0 d c 0 1m\nrdd d 0 5k\nh1 e 0 vs 500\nre e f 1k\nrf f 0 3k\n", ["c", "d", "f"], [1e3]),
+    # R values written as bare parameter names, two resistors sharing one name
+    # (ngspice-39 warns "can't find model 'rval'" and then uses the parameter)
+    "bare_param_values": ("bp\n.param rval=10k rlow=4.7k\nv1 in 0 3\nr1 in mid rval\n"
+                          "r2 mid 0 rval\nr3 mid 0 rlow\n", ["mid"], [1e3]),
 }
 # the title line of the BJT/diode cap decks doubles as the first card otherwise
 CASES["bjt_caps"] = ("bc\n" + CASES["bjt_caps"][0], *CASES["bjt_caps"][1:])

@@ -716,9 +716,11 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
                     recognised = recognise(element, cell, devmap, None)
                     # after recognise(): it may turn a bare parameter name into the value
                     code = class_of[(recognised[0], recognised[1], letter, element.model)]
-                    if letter not in "rcl" or element.model is None:
-                        # later hits keep their model name (key[1]): number them on first use
-                        known[key] = [recognised, code if element.model == key[1] else None]
+                    if letter not in "rcl" or key[1] is None:
+                        # (key[1], the model name as written: recognise() may have moved a
+                        # bare parameter name from model to value, and the next R with that
+                        # name must be recognised afresh to get its own value)
+                        known[key] = [recognised, code]
                 else:
                     recognised, code = hit
                     if code is None:
