@@ -358,28 +358,9 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     comp_controls = np.bincount(labels, weights=controls, minlength=n_comp).astype(np.int64) \
         if n else np.zeros(0, dtype=np.int64)
     comp_currents = np.zeros(n_comp, dtype=np.int64)
-    feeds: list[tuple[Device, int]] = []
-    by_dev: dict[int, list[int]] = {}
-    for dev, p in currents_at:
-        by_dev.setdefault(id(dev), []).append(p)
-    seen: set[int] = set()
     comp_controlled = np.zeros(n_comp, dtype=np.int64)
-    for dev, p in currents_at:
-        if id(dev) in seen:
-            continue
-        seen.add(id(dev))
-        pins = by_dev[id(dev)]
-        comps = [int(labels[ids_of(dev, q)]) for q in pins]
-        for q, comp in zip(pins, comps):
-            if any(other != comp for other in comps):  # a feed from outside the component
-                comp_currents[comp] += 1
-                if dev.kind != "isource":
-                    comp_controlled[comp] += 1
-                feeds.append((dev, q))
-    for i in inst_currents:
-        comp_currents[labels[i]] += 1
-    for i in inst_controlled:
-        comp_controlled[labels[i]] += 1
+    feeds = _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
+                         comp_currents, comp_controlled)
     comp_sensed = np.zeros(n_comp, dtype=bool)
     if n:
         comp_sensed[labels[sensed]] = True
@@ -450,6 +431,40 @@ def _add_instance(dev, index, summaries, join, unknown, controls, inner_controls
             sensed[members[0]] = True
         if group.unknown:
             unknown[members[0]] = True
+
+
+def _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
+                 comp_currents, comp_controlled) -> list[tuple[Device, int]]:
+    """Count the current feeds entering each component from outside it (in place), and
+    return them in netlist order as (device, pin position).
+
+    A current element feeds a component when another of its pins lies outside it; a
+    controlled one (G, F, B) also counts in ``comp_controlled``.  ``inst_currents`` and
+    ``inst_controlled`` are the nets where a subcircuit instance feeds a current.
+    Shared by the array and the small-cell paths (``labels`` an array or a list).
+    """
+    feeds: list[tuple[Device, int]] = []
+    by_dev: dict[int, list[int]] = {}
+    for dev, p in currents_at:
+        by_dev.setdefault(id(dev), []).append(p)
+    seen: set[int] = set()
+    for dev, _p in currents_at:
+        if id(dev) in seen:
+            continue
+        seen.add(id(dev))
+        pins = by_dev[id(dev)]
+        comps = [int(labels[ids_of(dev, q)]) for q in pins]
+        for q, comp in zip(pins, comps):
+            if any(other != comp for other in comps):  # a feed from outside the component
+                comp_currents[comp] += 1
+                if dev.kind != "isource":
+                    comp_controlled[comp] += 1
+                feeds.append((dev, q))
+    for i in inst_currents:
+        comp_currents[labels[i]] += 1
+    for i in inst_controlled:
+        comp_controlled[labels[i]] += 1
+    return feeds
 
 
 def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
@@ -570,27 +585,8 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             comp_sensed[labels[i]] = True
     comp_currents = [0] * n_comp
     comp_controlled = [0] * n_comp
-    feeds: list[tuple[Device, int]] = []
-    by_dev: dict[int, list[int]] = {}
-    for dev, p in currents_at:
-        by_dev.setdefault(id(dev), []).append(p)
-    seen: set[int] = set()
-    for dev, p in currents_at:
-        if id(dev) in seen:
-            continue
-        seen.add(id(dev))
-        pins = by_dev[id(dev)]
-        comps = [labels[ids_of(dev, q)] for q in pins]
-        for q, comp in zip(pins, comps):
-            if any(other != comp for other in comps):  # a feed from outside the component
-                comp_currents[comp] += 1
-                if dev.kind != "isource":
-                    comp_controlled[comp] += 1
-                feeds.append((dev, q))
-    for i in inst_currents:
-        comp_currents[labels[i]] += 1
-    for i in inst_controlled:
-        comp_controlled[labels[i]] += 1
+    feeds = _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
+                         comp_currents, comp_controlled)
     return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
                   n_components=n_comp, ground=ground, port=port, unknown=comp_unknown,
                   controls=comp_controls, currents=comp_currents, globals=comp_globals,
