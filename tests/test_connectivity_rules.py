@@ -311,3 +311,15 @@ def test_dangling_net_observed_by_the_deck_is_not_reported():
     assert rules(deck + ".control\nrun\nplot v(out)\n.endc\n") == []
     assert rules(deck + ".print tran v(out)\n") == []
     assert rules(deck + ".save out\n") == []
+
+
+def test_rf_port_sources_close_no_zero_impedance_loop():
+    # ngspice-39: a V source with 'portnum' has z0 (default 50 ohm) in series in every
+    # analysis ('V1 in 0 dc 1 portnum 1 z0 50' into 50 ohm: op gives V(in) = 0.5 V);
+    # the two-port deck of the ngspice examples (sp2.cir) runs without a singular matrix
+    deck = ("V1 in 0 dc 0 ac 1 portnum 1 z0 50\nC1 in 0 318.3n\nL1 in out 1.592m\n"
+            "C2 out 0 318.3n\nV2 out 0 dc 0 ac 0 portnum 2\n")
+    assert found(deck, "source-loop") == set()
+    # the same loop with plain sources is one
+    plain = deck.replace(" portnum 1 z0 50", "").replace(" portnum 2", "")
+    assert found(plain, "source-loop") != set()

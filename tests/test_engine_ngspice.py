@@ -91,6 +91,9 @@ CASES = {
     # (ngspice-39 warns "can't find model 'rval'" and then uses the parameter)
     "bare_param_values": ("bp\n.param rval=10k rlow=4.7k\nv1 in 0 3\nr1 in mid rval\n"
                           "r2 mid 0 rval\nr3 mid 0 rlow\n", ["mid"], [1e3]),
+    # an RF port source: ngspice-39 puts z0 in series with it in op and AC alike
+    "port_source_z0": ("ps\nv1 in 0 dc 1 portnum 1 z0 75\nr1 in mid 50\nr2 mid 0 100\n",
+                       ["mid", "in"], [1e3]),
 }
 # the title line of the BJT/diode cap decks doubles as the first card otherwise
 CASES["bjt_caps"] = ("bc\n" + CASES["bjt_caps"][0], *CASES["bjt_caps"][1:])

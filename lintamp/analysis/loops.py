@@ -59,9 +59,18 @@ def is_zero_ohm(dev: Device, scope) -> bool:
     return number == 0.0
 
 
+def is_port_source(dev: Device) -> bool:
+    """A V source written as an RF port (``portnum``): it has an impedance in series."""
+    src = dev.element.source
+    return dev.kind == "vsource" and src is not None and src.z0 is not None \
+        and parse_number(src.z0) != 0.0
+
+
 def rigid_pins(dev: Device, scope) -> tuple[int, int] | None:
     """Positions of the two pins a zero-impedance branch joins, or None."""
     kind = dev.kind
+    if kind == "vsource" and is_port_source(dev):
+        return None
     if kind in RIGID_KINDS or (kind == "behavioral" and is_voltage_output(dev)):
         pass
     elif kind == "resistor" and dev.spec is None and is_zero_ohm(dev, scope):
@@ -106,6 +115,8 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
         dev = devices[d]
         code = int(codes[d])
         if code in always:
+            if dev.kind == "vsource" and is_port_source(dev):
+                continue
             pins = always[code]
         elif code in by_value:
             if dev.spec is not None:

@@ -248,6 +248,9 @@ def compile_circuit(
             connect_dc(ip, in_)
             if kind == "vsource":
                 rhs[br] = dev.source.dc if dev.source is not None else (dev.value or 0.0)
+                if dev.source is not None and dev.source.z0_ohm:
+                    # an RF port: v_p - v_n - z0 * i = V (its impedance in series)
+                    g.add(br, br, -dev.source.z0_ohm, owner)
             elif kind == "inductor":
                 c.add(br, br, -dev.value, owner)
             elif kind == "vcvs":

@@ -53,6 +53,7 @@ class SourceValues:
     ac_mag: float = 0.0
     ac_phase_deg: float = 0.0
     time_varying: bool = False  # a PULSE/SIN/PWL/... waveform is present
+    z0_ohm: float = 0.0  # series impedance of an RF port source (portnum/z0)
 
 
 @dataclass(slots=True)

@@ -156,7 +156,8 @@ def _flat_device(dev: Device, prefix: str, nodes: tuple[int, ...], scope: Scope,
             dc=scope.value(src.dc) or 0.0,
             ac_mag=(scope.value(src.ac_mag) or 0.0) if src.ac_mag else 0.0,
             ac_phase_deg=(scope.value(src.ac_phase) or 0.0) if src.ac_phase else 0.0,
-            time_varying=src.waveform is not None)
+            time_varying=src.waveform is not None,
+            z0_ohm=(scope.value(src.z0) or 0.0) if src.z0 else 0.0)
         initial = 1 if src.waveform == "pwl" else 0  # PWL: t0 v0 ...; the others: v0 ...
         if (src.dc is None and src.waveform in ("pulse", "pwl", "exp", "sin", "sine")
                 and len(src.waveform_args) > initial):  # 'PWL file x.pwl' has no v0 here

@@ -520,6 +520,10 @@ def parse_source(ctx, card, tokens):
             src.waveform_args = tuple(args)
             i = j
         elif word in SOURCE_KEYWORDS:
+            if word == "portnum" and src.z0 is None:
+                src.z0 = "50"  # ngspice's default port impedance
+            elif word == "z0" and i + 1 < len(rest):
+                src.z0 = rest[i + 1].text
             i += 1 + SOURCE_KEYWORDS[word]  # port number and impedance, distortion inputs
         elif src.dc is None and is_value_token(rest[i].text) or (
                 src.dc is None and i == 0 and rest[i].text[:1].isalpha()):

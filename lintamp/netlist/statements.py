@@ -48,6 +48,9 @@ class Source:
     ac_phase: str | None = None
     waveform: str | None = None  # pulse, sin, pwl, exp, sffm, am, ...
     waveform_args: tuple[str, ...] = ()
+    # an RF port (``portnum N [z0 Z]``): ngspice-39 puts Z (default 50 ohm) in series
+    # with the source in every analysis, so the port is not a zero-impedance branch
+    z0: str | None = None
 
 
 class _NoParams(dict):
