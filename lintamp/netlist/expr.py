@@ -818,7 +818,7 @@ def _describe(error: pp.ParseBaseException, text: str) -> str:
     return f"expected {expected}, found {shown}"
 
 
-@lru_cache(maxsize=8192)
+@lru_cache(maxsize=65536)
 def compile_expr(text: str) -> Expr:
     """Compile expression text (without its ``{}`` or ``''``) into an :class:`Expr`.
 
@@ -832,7 +832,9 @@ def compile_expr(text: str) -> Expr:
     Notes
     -----
     O(len(text)) parse (the grammar never backtracks over a parsed operand); results
-    are cached on the text (LRU, 8192 entries), so repeated values cost a dict lookup.
+    are cached on the text (LRU, 65536 entries: a deck's or a PDK library's distinct
+    expressions, which the checks read in several passes), so repeated values cost a
+    dict lookup.
 
     Examples
     --------
