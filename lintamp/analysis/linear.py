@@ -63,8 +63,8 @@ class DenseFactor:
         self._inverse: np.ndarray | None = None
         self._solves = 0
         self.shape = matrix.shape
-        if matrix.shape[0] and not np.all(np.isfinite(matrix)):
-            raise RuntimeError("matrix has non-finite entries")
+        # non-finite entries (an overflowed device) give a non-finite solution, as
+        # SuperLU's do; the Newton loop then tries its next strategy
 
     def _gesv(self, rhs):
         try:
