@@ -60,11 +60,8 @@ def context_steps(view, island) -> list[str]:
 
 
 def terminal_lines(island, limit: int = MAX_LISTED) -> str:
-    seen = []
-    for dev, pin in island.terminals:
-        text = describe_terminal(dev, pin)
-        if text not in seen:
-            seen.append(text)
+    # (a dict keeps the first-seen order: one island can hold 100k gates)
+    seen = dict.fromkeys(describe_terminal(dev, pin) for dev, pin in island.terminals)
     return listing(seen, limit)
 
 
@@ -82,8 +79,4 @@ def related(island, skip=None) -> list[Related]:
 
 
 def elements(island) -> list[str]:
-    names = []
-    for dev, _ in island.terminals:
-        if dev.name not in names:
-            names.append(dev.name)
-    return names
+    return list(dict.fromkeys(dev.name for dev, _ in island.terminals))

@@ -85,8 +85,45 @@ def check(ctx):
             local = list(known.volts.values())
             low, high = (min(local), max(local)) if local else (None, None)
         shared_done = set()
+        body_nets = _BodyNets(view)
         for dev in _transistors(view):
-            yield from _check_device(ctx, view, dev, known, low, high, shared_done)
+            yield from _check_device(ctx, view, dev, known, low, high, shared_done, body_nets)
+
+
+class _BodyNets:
+    """What the structural checks need of each body net, worked out once per net: a
+    body net may carry a terminal of every device of an extracted block."""
+
+    def __init__(self, view):
+        self.view = view
+        self._terms: dict[str, list] = {}
+        self._only_bodies: dict[str, bool] = {}
+        self._bodies_of: dict[tuple[str, str], list] = {}
+
+    def terms(self, net: str) -> list:
+        got = self._terms.get(net)
+        if got is None:
+            got = self._terms[net] = self.view.net_terminals.get(net, [])
+        return got
+
+    def only_bodies(self, net: str) -> bool:
+        """Whether the net touches nothing but transistor bodies and capacitors."""
+        got = self._only_bodies.get(net)
+        if got is None:
+            got = self._only_bodies[net] = all(
+                (d.kind in ("nmos", "pmos", "mos") and p == "b") or d.kind == "capacitor"
+                for d, p in self.terms(net))
+        return got
+
+    def bodies_of(self, net: str, kind: str) -> list:
+        """Devices of ``kind`` with their body on the net, away from their own source
+        (MOS capacitors left out)."""
+        got = self._bodies_of.get((net, kind))
+        if got is None:
+            got = self._bodies_of[(net, kind)] = [
+                d for d, p in self.terms(net) if p == "b" and d.kind == kind and not _is_mos_cap(d)
+                and d.net("s") != net]
+        return got
 
 
 def _evidence(known, *nets):
@@ -99,7 +136,7 @@ def _where(dev, view) -> dict:
     return dict(location=dev.location, subject=dev.name, view=view)
 
 
-def _check_device(ctx, view, dev, known, low, high, shared_done):
+def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets):
     nmos = dev.kind == "nmos"
     body, src, drn = dev.net("b"), dev.net("s"), dev.net("d")
     if body == src:
@@ -143,13 +180,9 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
                 return
         return
     # no voltages known: structural evidence only
-    if view.is_external(body):
-        terms = view.net_terminals.get(body, [])
-    else:
-        terms = view.net_terminals.get(body, [])
-        if body not in shared_done and all(
-                (d.kind in ("nmos", "pmos", "mos") and p == "b") or d.kind == "capacitor"
-                for d, p in terms):
+    terms = body_nets.terms(body)
+    if not view.is_external(body):
+        if body not in shared_done and body_nets.only_bodies(body):
             shared_done.add(body)
             others = [d for d, _ in terms if d is not dev and d.kind != "capacitor"]
             yield ctx.finding(
@@ -167,10 +200,10 @@ def _check_device(ctx, view, dev, known, low, high, shared_done):
             return
     if body in shared_done or view.is_external(body) and not terms:
         return
-    opposite = "pmos" if nmos else "nmos"
-    mixed = [d for d, p in terms if p == "b" and d.kind == opposite and not _is_mos_cap(d)
-             and d.net("s") != body]
-    if mixed and nmos:
+    if not nmos:
+        return  # a shared body is reported from its NMOS side
+    mixed = body_nets.bodies_of(body, "pmos")
+    if mixed:
         shared_done.add(body)
         yield ctx.finding(
             **_where(dev, view), nets=[body], elements=[dev.name] + [d.name for d in mixed[:8]],
