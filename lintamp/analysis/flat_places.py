@@ -17,14 +17,10 @@ def view_of_path(design: Design, parts: list[str]) -> CellView | None:
     """The cell view reached by the instance names ``parts`` from the top (None if not)."""
     view = design.top
     for part in parts[:MAX_DEPTH]:
-        nxt = None
-        for dev in view.devices:
-            if dev.name == part and dev.subcell is not None:
-                nxt = dev.subcell
-                break
-        if nxt is None:
+        dev = view.instance_named.get(part)
+        if dev is None:
             return None
-        view = nxt
+        view = dev.subcell
     return view
 
 
@@ -32,10 +28,7 @@ def locate_device(design: Design, flat_name: str) -> tuple[CellView, Device | No
     """The view holding flat element ``flat_name`` and its :class:`Device` there."""
     parts = flat_name.split("/")
     view = view_of_path(design, parts[:-1]) or design.top
-    for dev in view.devices:
-        if dev.name == parts[-1]:
-            return view, dev
-    return view, None
+    return view, view.device_named.get(parts[-1])
 
 
 def local_name(flat_name: str) -> str:

@@ -45,20 +45,33 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None) -> 
 
     Notes
     -----
-    O(T^2) in the number of transistors sharing nets (indexes by net keep it
-    near-linear for netlist-like circuits).
+    Near-linear: the lists of related devices come from indexes by net, and the
+    differential-pair scan of a shared common net is skipped when counts show it
+    finds nothing (one bias line or supply may reach thousands of devices).  Only
+    a common net whose devices mostly share one control or output net, with a few
+    that do not, costs O(devices on it) per device.
     """
     acg = ac_ground_nets(circuit, signal_sources_ground=False)
     trans = [d for d in circuit.devices if d.kind in MOS + BJT]
     by_common: dict[tuple, list[FlatDevice]] = {}
-    by_control: dict[tuple, list[FlatDevice]] = {}
     by_out: dict[tuple, list[FlatDevice]] = {}
+    diodes: dict[tuple, list[FlatDevice]] = {}  # (kind, ctl, com): out == ctl
+    not_diodes: dict[tuple, list[FlatDevice]] = {}  # (kind, ctl, com): out != ctl
+    # per (kind, com): how many devices have each control net, each output net, each pair
+    n_ctl: dict[tuple, int] = {}
+    n_out: dict[tuple, int] = {}
+    n_ctl_out: dict[tuple, int] = {}
     for d in trans:
         out, ctl, com = _pins(d)
         fam = d.kind
         by_common.setdefault((fam, com), []).append(d)
-        by_control.setdefault((fam, ctl), []).append(d)
         by_out.setdefault((fam, out), []).append(d)
+        (diodes if out == ctl else not_diodes).setdefault((fam, ctl, com), []).append(d)
+        n_ctl[(fam, com, ctl)] = n_ctl.get((fam, com, ctl), 0) + 1
+        n_out[(fam, com, out)] = n_out.get((fam, com, out), 0) + 1
+        n_ctl_out[(fam, com, ctl, out)] = n_ctl_out.get((fam, com, ctl, out), 0) + 1
+    pairs: dict[tuple, list[str]] = {}
+    below_of: dict[tuple, list[str]] = {}
     stages = []
     for d in trans:
         out, ctl, com = _pins(d)
@@ -69,22 +82,33 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None) -> 
             "cd": "common drain (source follower)" if mos else "emitter follower",
         }
         related: list[str] = []
-        siblings = [o for o in by_control.get((d.kind, ctl), []) if o is not d]
         diode = out == ctl
         if out == com:
             role = "shorted (output tied to common terminal)"
         elif diode:
-            outs = [o.name for o in siblings if _pins(o)[2] == com and _pins(o)[0] != ctl]
+            # the other devices on this control and common net that are not diodes
+            outs = [o.name for o in not_diodes.get((d.kind, ctl, com), ())]
             role = "current-mirror reference (diode-connected)" if outs else "diode-connected load"
             related = outs
         else:
-            refs = [o.name for o in siblings if _pins(o)[0] == ctl and _pins(o)[2] == com]
-            pair = [
-                o.name
-                for o in by_common.get((d.kind, com), [])
-                if o is not d and _pins(o)[1] != ctl and _pins(o)[0] != out and com not in acg
-            ]
-            below = [o.name for o in by_out.get((d.kind, com), []) if o is not d] if com not in acg else []
+            # (d itself is no diode and its output is not its common net: it is in
+            # neither list below)
+            refs = [o.name for o in diodes.get((d.kind, ctl, com), ())]
+            pair = []
+            if com not in acg:
+                key = (d.kind, com, ctl, out)
+                pair = pairs.get(key)
+                if pair is None:
+                    others = (len(by_common[(d.kind, com)]) - n_ctl[(d.kind, com, ctl)]
+                              - n_out[(d.kind, com, out)] + n_ctl_out[key])
+                    pair = pairs[key] = [
+                        o.name for o in by_common[(d.kind, com)]
+                        if _pins(o)[1] != ctl and _pins(o)[0] != out] if others else []
+            below = []
+            if com not in acg:
+                below = below_of.get((d.kind, com))
+                if below is None:
+                    below = below_of[(d.kind, com)] = [o.name for o in by_out.get((d.kind, com), ())]
             if refs:
                 role, related = "current-mirror output", refs
             elif ctl in acg and below:

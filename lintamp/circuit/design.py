@@ -128,6 +128,23 @@ class CellView:
         """The devices grouped by (kind, pins, letter, model) (see :class:`DeviceClasses`)."""
         return DeviceClasses(self.devices)
 
+    @cached_property
+    def device_named(self) -> dict[str, Device]:
+        """The first device of each (lower-case) name, as a walk in netlist order finds it."""
+        named: dict[str, Device] = {}
+        for dev in reversed(self.devices):
+            named[dev.name] = dev
+        return named
+
+    @cached_property
+    def instance_named(self) -> dict[str, Device]:
+        """The first device of each name that instantiates a cell view."""
+        named: dict[str, Device] = {}
+        for dev in reversed(self.devices):
+            if dev.subcell is not None:
+                named[dev.name] = dev
+        return named
+
     def instances(self) -> list[Device]:
         """The devices that instantiate a cell view (``subcell`` set), in netlist order;
         found by device class, without a step per device."""
