@@ -11,7 +11,10 @@ from __future__ import annotations
 
 import ast
 import importlib
+import os
 import pkgutil
+import sys
+from importlib.machinery import PathFinder
 from dataclasses import dataclass
 from pathlib import Path
 from types import ModuleType
@@ -76,15 +79,23 @@ def _from_source(module_name: str, path: Path) -> RuleInfo | None:
         return None
     values: dict[str, object] = {}
     has_check = False
+    imported: set[str] = set()  # names bound by a top-level ``from ... import``
     for node in tree.body:
         if isinstance(node, ast.FunctionDef) and node.name == "check":
             has_check = True
+        elif isinstance(node, ast.ImportFrom):
+            imported.update(alias.asname or alias.name for alias in node.names)
         elif isinstance(node, (ast.Assign, ast.AnnAssign)):
             targets = node.targets if isinstance(node, ast.Assign) else [node.target]
             for target in targets:
                 if not isinstance(target, ast.Name):
                     continue
                 if target.id == "check":
+                    # ``check = forward_diagnostics``: a function imported from elsewhere
+                    if (isinstance(node, ast.Assign) and len(node.targets) == 1
+                            and isinstance(node.value, ast.Name) and node.value.id in imported):
+                        has_check = True
+                        continue
                     return None  # check bound some other way: import the module
                 if target.id not in ("NAME", "CATEGORY", "SEVERITY", "SUMMARY"):
                     continue
@@ -135,6 +146,8 @@ def all_rules() -> dict[str, RuleInfo]:
 
 
 def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
+    if not _may_declare_plugins():
+        return {}
     from importlib.metadata import entry_points
 
     plugins: dict[str, RuleInfo] = {}
@@ -148,3 +161,48 @@ def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
 
 def get_rule(name: str) -> RuleInfo | None:
     return all_rules().get(name)
+
+
+def _may_declare_plugins() -> bool:
+    """False only when no installed distribution can declare a ``lintamp.rules`` entry point.
+
+    Importing :mod:`importlib.metadata` and scanning every distribution costs more than
+    a whole cached check of a small file, and almost every environment has no plugin.
+    So first look where :mod:`importlib.metadata` looks -- the ``*.dist-info`` and
+    ``*.egg-info`` folders (and an ``.egg``'s ``EGG-INFO``) of every ``sys.path``
+    folder -- for an ``entry_points.txt`` that names the group at all.  Whatever this
+    look cannot see the same way answers True and leaves the decision to
+    :mod:`importlib.metadata`: a zip file on ``sys.path``, another finder of
+    distributions on ``sys.meta_path``, a file it cannot read, or
+    :mod:`importlib.metadata` already imported (and perhaps patched, as tests do).
+    """
+    if "importlib.metadata" in sys.modules:
+        return True
+    for finder in sys.meta_path:
+        if finder is not PathFinder and getattr(finder, "find_distributions", None) is not None:
+            return True
+    marker = ENTRY_POINT_GROUP.encode("ascii")
+    for entry in sys.path:
+        if not isinstance(entry, str):
+            return True
+        folder = entry or "."
+        try:
+            children = os.listdir(folder)
+        except OSError:
+            if os.path.exists(folder):  # a zip file, or a folder we may not list
+                return True
+            continue
+        is_egg = os.path.basename(entry).lower().endswith(".egg")
+        for child in children:
+            low = child.lower()
+            if not (low.endswith((".dist-info", ".egg-info")) or (is_egg and low == "egg-info")):
+                continue
+            try:
+                with open(os.path.join(folder, child, "entry_points.txt"), "rb") as stream:
+                    if marker in stream.read():
+                        return True
+            except (FileNotFoundError, NotADirectoryError, IsADirectoryError, PermissionError):
+                continue  # importlib.metadata reads no entry points from it either
+            except OSError:
+                return True
+    return False
