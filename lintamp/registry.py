@@ -10,7 +10,10 @@ Third-party rules register modules under the entry-point group ``lintamp.rules``
 from __future__ import annotations
 
 import ast
+import hashlib
 import importlib
+import importlib.util
+import json
 import os
 import pkgutil
 import sys
@@ -118,6 +121,85 @@ def _from_source(module_name: str, path: Path) -> RuleInfo | None:
         check=_lazy_check(module_name) if has_check else None, module=module_name)
 
 
+class _SourceMemo:
+    """What :func:`_from_source` made of each built-in rule file, kept beside the bytecode.
+
+    Parsing every rule module's source takes longer than all the rest of a cached
+    check of a small file, and the sources change only when lintamp does.  So the
+    results are kept in the rules package's ``__pycache__`` folder (where Python keeps
+    its compiled modules, and on the same terms: not written when
+    ``sys.dont_write_bytecode`` is set, never an error when the folder is read-only),
+    each under the SHA-256 of the source bytes it was read from.  An entry whose
+    source changed in any way is read again from the source.
+    """
+
+    SCHEMA = 1
+
+    def __init__(self, package: ModuleType):
+        self.path: Path | None = None
+        self.entries: dict[str, dict] = {}
+        self.changed = False
+        try:
+            pyc = importlib.util.cache_from_source(package.__file__)
+        except (NotImplementedError, TypeError, ValueError):  # no bytecode cache at all
+            return
+        self.path = Path(pyc).parent / f"rule-metadata.{sys.implementation.cache_tag}.json"
+        try:
+            doc = json.loads(self.path.read_bytes())
+            if doc.get("schema") == self.SCHEMA and isinstance(doc.get("rules"), dict):
+                self.entries = doc["rules"]
+        except (OSError, ValueError, AttributeError):
+            pass  # none yet, or unreadable: read the sources
+
+    def from_source(self, module_name: str, path: Path) -> RuleInfo | None:
+        """:func:`_from_source` of the file, from the memo when its bytes are unchanged."""
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError:
+            return _from_source(module_name, path)
+        entry = self.entries.get(module_name)
+        if isinstance(entry, dict) and entry.get("sha256") == digest:
+            rule = self._rule(module_name, entry.get("rule"))
+            if rule is not False:
+                return rule
+        rule = _from_source(module_name, path)
+        if rule is None or isinstance(rule.severity, Severity):
+            self.entries[module_name] = {"sha256": digest, "rule": None if rule is None else {
+                "name": rule.name, "category": rule.category, "severity": rule.severity.name,
+                "summary": rule.summary, "doc": rule.doc, "check": rule.check is not None}}
+            self.changed = True
+        return rule
+
+    @staticmethod
+    def _rule(module_name: str, data) -> RuleInfo | None | bool:
+        """The memo's rule (None: the module must be imported); False for a bad entry."""
+        if data is None:
+            return None
+        try:
+            return RuleInfo(name=data["name"], category=data["category"],
+                            severity=Severity[data["severity"]], summary=data["summary"],
+                            doc=data["doc"],
+                            check=_lazy_check(module_name) if data["check"] else None,
+                            module=module_name)
+        except (KeyError, TypeError):
+            return False
+
+    def save(self) -> None:
+        if not self.changed or self.path is None or sys.dont_write_bytecode:
+            return
+        text = json.dumps({"schema": self.SCHEMA, "rules": self.entries}, sort_keys=True)
+        scratch = self.path.with_name(f"{self.path.name}.{os.getpid()}.tmp")
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            scratch.write_text(text, encoding="utf-8")
+            os.replace(scratch, self.path)  # readers see the old file or the new, never half
+        except OSError:
+            try:
+                scratch.unlink()
+            except OSError:
+                pass
+
+
 _cache: dict[str, RuleInfo] | None = None
 
 
@@ -129,17 +211,19 @@ def all_rules() -> dict[str, RuleInfo]:
     import lintamp.rules as package
 
     found: dict[str, RuleInfo] = {}
+    memo = _SourceMemo(package)
     for info in sorted(pkgutil.iter_modules(package.__path__), key=lambda m: m.name):
         if info.name.startswith("_"):
             continue
         name = f"{package.__name__}.{info.name}"
-        rule = _from_source(name, Path(package.__path__[0]) / f"{info.name}.py")
+        rule = memo.from_source(name, Path(package.__path__[0]) / f"{info.name}.py")
         if rule is None:
             module = importlib.import_module(name)
             if not hasattr(module, "NAME"):
                 continue
             rule = _from_module(module)
         found[rule.name] = rule
+    memo.save()
     found.update(_plugin_rules(found))
     _cache = dict(sorted(found.items()))
     return _cache

@@ -174,3 +174,56 @@ def test_no_plugin_declared_means_no_plugin_rules(tmp_path):
     assert out.returncode == 0, out.stderr
     from lintamp.registry import all_rules
     assert sorted(r["name"] for r in json.loads(out.stdout)) == sorted(all_rules())
+
+
+def _described(rule) -> tuple | None:
+    if rule is None:
+        return None
+    return (rule.name, rule.category, rule.severity, rule.summary, rule.doc,
+            rule.check is None, rule.module)
+
+
+def test_rule_metadata_memo_gives_what_the_sources_say(tmp_path, monkeypatch):
+    from types import SimpleNamespace
+
+    from lintamp import registry
+
+    folder = tmp_path / "rules"
+    shutil.copytree(REPO / "rules", folder, ignore=shutil.ignore_patterns("__pycache__"))
+    package = SimpleNamespace(__file__=str(folder / "__init__.py"))
+    sources = {f"lintamp.rules.{p.stem}": p for p in sorted(folder.glob("[a-z]*.py"))}
+    expected = {name: _described(registry._from_source(name, path)) for name, path in sources.items()}
+    assert all(v is not None for v in expected.values())  # every built-in rule reads from source
+
+    monkeypatch.setattr(sys, "dont_write_bytecode", True)
+    memo = registry._SourceMemo(package)
+    assert {n: _described(memo.from_source(n, p)) for n, p in sources.items()} == expected
+    memo.save()
+    assert memo.path is not None and not memo.path.exists()  # as Python writes no bytecode then
+
+    monkeypatch.setattr(sys, "dont_write_bytecode", False)
+    memo = registry._SourceMemo(package)
+    for name, path in sources.items():
+        memo.from_source(name, path)
+    memo.save()
+    assert memo.path.is_file() and memo.path.parent.name == "__pycache__"
+
+    read_again: list[str] = []
+    parse = registry._from_source
+    monkeypatch.setattr(registry, "_from_source", lambda n, p: read_again.append(n) or parse(n, p))
+    memo = registry._SourceMemo(package)
+    assert {n: _described(memo.from_source(n, p)) for n, p in sources.items()} == expected
+    assert read_again == []  # all from the memo
+
+    edited = sources["lintamp.rules.dangling_net"]
+    edited.write_text(edited.read_text(encoding="utf-8").replace('SEVERITY = Severity.WARNING',
+                                                                 'SEVERITY = Severity.ERROR'),
+                      encoding="utf-8")
+    memo = registry._SourceMemo(package)
+    changed = {n: _described(memo.from_source(n, p)) for n, p in sources.items()}
+    assert read_again == ["lintamp.rules.dangling_net"]
+    assert changed["lintamp.rules.dangling_net"][2] is registry.Severity.ERROR
+
+    memo.path.write_text("{not json", encoding="utf-8")  # a damaged memo is read past
+    memo = registry._SourceMemo(package)
+    assert {n: _described(memo.from_source(n, p)) for n, p in sources.items()} == changed
