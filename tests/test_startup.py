@@ -227,3 +227,17 @@ def test_rule_metadata_memo_gives_what_the_sources_say(tmp_path, monkeypatch):
     memo.path.write_text("{not json", encoding="utf-8")  # a damaged memo is read past
     memo = registry._SourceMemo(package)
     assert {n: _described(memo.from_source(n, p)) for n, p in sources.items()} == changed
+
+
+def test_code_fingerprint_lists_the_files_rglob_lists(tmp_path):
+    from lintamp.api import _python_files
+
+    # names that sort differently as strings and as path components, a folder named
+    # like a module, a linked folder (not followed) and a linked file (listed)
+    for rel in ("a/b.py", "a.b/c.py", "a-b.py", "a/x.py/y.py", "a/.hidden.py", "a/no.pyc", "A.py"):
+        (tmp_path / rel).parent.mkdir(parents=True, exist_ok=True)
+        (tmp_path / rel).write_text("", encoding="utf-8")
+    (tmp_path / "linked").symlink_to(tmp_path / "a", target_is_directory=True)
+    (tmp_path / "file_link.py").symlink_to(tmp_path / "a-b.py")
+    for folder in (tmp_path, REPO / "lintamp", REPO / "rules"):
+        assert _python_files(str(folder)) == [str(p) for p in sorted(folder.rglob("*.py"))]
