@@ -101,6 +101,21 @@ def test_cache_hit_with_isolated_and_select_imports_no_toml_reader(tmp_path):
     assert _heavy(hit_modules, _preloaded(_env())) == []
 
 
+def test_connectivity_check_of_a_deck_of_plain_numbers_needs_no_grammar_nor_numerics(tmp_path):
+    folder = _small_project(tmp_path)
+    args = ["check", "--no-cache", "--isolated", "--select", "connectivity,references,syntax",
+            "bias_block.sp"]
+    _, modules, _ = _modules_after(args, folder, _env())
+    assert "lintamp.netlist.parser" in modules
+    assert not [m for m in modules if m.split(".")[0] in ("pyparsing", "numpy", "scipy")]
+
+    (folder / "bias_block.sp").write_text(
+        (folder / "bias_block.sp").read_text(encoding="utf-8").replace("18k", "{2*9k}"),
+        encoding="utf-8")
+    _, modules, _ = _modules_after(args, folder, _env())
+    assert "pyparsing" in modules  # an expression: the grammar is built on demand
+
+
 def _install_fake_plugin(site: Path) -> None:
     """A distribution as an installer leaves it: a module and its .dist-info folder."""
     (site / "amp_extra_rule.py").write_text(textwrap.dedent('''
