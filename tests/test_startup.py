@@ -256,3 +256,21 @@ def test_code_fingerprint_lists_the_files_rglob_lists(tmp_path):
     (tmp_path / "file_link.py").symlink_to(tmp_path / "a-b.py")
     for folder in (tmp_path, REPO / "lintamp", REPO / "rules"):
         assert _python_files(str(folder)) == [str(p) for p in sorted(folder.rglob("*.py"))]
+
+
+def test_device_globs_match_as_fnmatch_does():
+    import fnmatch
+    import itertools
+
+    from lintamp.circuit.devicemap import BUILTIN, DeviceSpec
+
+    # the reference is the definition the table always used: fnmatch.fnmatchcase on
+    # lower-cased names and patterns
+    patterns = [e.pattern for e in BUILTIN] + ["*", "?", "", "a[bc]d*", "a[", "[!x]fet", "X?Y*Z",
+                                               "nfet", "NFET_*", "res_[0-9]*"]
+    names = [e.pattern.replace("*", "x") for e in BUILTIN] + [
+        "", "a", "abd", "acdx", "a[", "yfet", "xfet", "XqYzZ", "nfet", "NFET_01v8", "nfet_", "res_4k",
+        "res_k", "sky130_fd_pr__nfet_01v8", "SKY130_FD_PR__PFET_G5V0D10V5", "biasgen", "sink2"]
+    for pattern, name in itertools.product(patterns, names):
+        spec = DeviceSpec(pattern, "nmos", ("d", "g", "s", "b"))
+        assert spec.matches(name) == fnmatch.fnmatchcase(name.lower(), pattern.lower()), (pattern, name)
