@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import json
 import os
-import tempfile
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -126,6 +125,8 @@ def atomic_write_bytes(path: Path, data: bytes) -> None:
     renamed over the target (``os.replace`` is atomic on one file system).  If
     anything fails, the temporary file is removed and the old file stays as it was.
     """
+    import tempfile  # here, not at the top: reading a baseline or a cache entry never needs it
+
     path = Path(path)
     folder = path.parent if str(path.parent) else Path(".")
     fd, tmp_name = tempfile.mkstemp(dir=folder, prefix=f".{path.name}.", suffix=".tmp")

@@ -24,7 +24,7 @@ from lintamp import __version__
 from lintamp.baseline import atomic_write_bytes
 from lintamp.findings import Finding
 from lintamp.location import Location
-from lintamp.netlist.statements import Pragma
+from lintamp.pragma import Pragma
 
 CACHE_DIR = ".lintamp_cache"
 SCHEMA = 1

@@ -47,7 +47,6 @@ from __future__ import annotations
 import hashlib
 import json
 import re
-import tomllib
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path, PurePosixPath
 from typing import Iterable, Mapping
@@ -373,6 +372,8 @@ def find_config(start: Path) -> Path | None:
 
 
 def _has_tool_table(pyproject: Path) -> bool:
+    import tomllib  # here, not at the top: most runs read no TOML file at all
+
     try:
         data = tomllib.loads(pyproject.read_text(encoding="utf-8"))
     except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
@@ -437,6 +438,8 @@ def load_config(path: Path | None, *, isolated: bool = False, start: Path,
         raise ConfigError(str(path), "", "file not found", "an existing lintamp.toml or pyproject.toml") from None
     except (OSError, UnicodeDecodeError) as err:
         raise ConfigError(str(path), "", f"cannot read it ({err})", "a readable UTF-8 TOML file") from None
+    import tomllib
+
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:

@@ -29,7 +29,7 @@ from typing import Iterable, Mapping
 from lintamp.baseline import Baseline
 from lintamp.config import Config, rule_catalog
 from lintamp.findings import Finding, Report, Severity, Waived
-from lintamp.netlist.statements import Pragma
+from lintamp.pragma import Pragma
 
 UNUSED_WAIVER = "unused-waiver"
 WAIVER_WITHOUT_REASON = "waiver-without-reason"

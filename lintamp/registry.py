@@ -10,8 +10,14 @@ Third-party rules register modules under the entry-point group ``lintamp.rules``
 from __future__ import annotations
 
 import ast
+import hashlib
 import importlib
+import importlib.util
+import json
+import os
 import pkgutil
+import sys
+from importlib.machinery import PathFinder
 from dataclasses import dataclass
 from pathlib import Path
 from types import ModuleType
@@ -76,15 +82,23 @@ def _from_source(module_name: str, path: Path) -> RuleInfo | None:
         return None
     values: dict[str, object] = {}
     has_check = False
+    imported: set[str] = set()  # names bound by a top-level ``from ... import``
     for node in tree.body:
         if isinstance(node, ast.FunctionDef) and node.name == "check":
             has_check = True
+        elif isinstance(node, ast.ImportFrom):
+            imported.update(alias.asname or alias.name for alias in node.names)
         elif isinstance(node, (ast.Assign, ast.AnnAssign)):
             targets = node.targets if isinstance(node, ast.Assign) else [node.target]
             for target in targets:
                 if not isinstance(target, ast.Name):
                     continue
                 if target.id == "check":
+                    # ``check = forward_diagnostics``: a function imported from elsewhere
+                    if (isinstance(node, ast.Assign) and len(node.targets) == 1
+                            and isinstance(node.value, ast.Name) and node.value.id in imported):
+                        has_check = True
+                        continue
                     return None  # check bound some other way: import the module
                 if target.id not in ("NAME", "CATEGORY", "SEVERITY", "SUMMARY"):
                     continue
@@ -107,6 +121,85 @@ def _from_source(module_name: str, path: Path) -> RuleInfo | None:
         check=_lazy_check(module_name) if has_check else None, module=module_name)
 
 
+class _SourceMemo:
+    """What :func:`_from_source` made of each built-in rule file, kept beside the bytecode.
+
+    Parsing every rule module's source takes longer than all the rest of a cached
+    check of a small file, and the sources change only when lintamp does.  So the
+    results are kept in the rules package's ``__pycache__`` folder (where Python keeps
+    its compiled modules, and on the same terms: not written when
+    ``sys.dont_write_bytecode`` is set, never an error when the folder is read-only),
+    each under the SHA-256 of the source bytes it was read from.  An entry whose
+    source changed in any way is read again from the source.
+    """
+
+    SCHEMA = 1
+
+    def __init__(self, package: ModuleType):
+        self.path: Path | None = None
+        self.entries: dict[str, dict] = {}
+        self.changed = False
+        try:
+            pyc = importlib.util.cache_from_source(package.__file__)
+        except (NotImplementedError, TypeError, ValueError):  # no bytecode cache at all
+            return
+        self.path = Path(pyc).parent / f"rule-metadata.{sys.implementation.cache_tag}.json"
+        try:
+            doc = json.loads(self.path.read_bytes())
+            if doc.get("schema") == self.SCHEMA and isinstance(doc.get("rules"), dict):
+                self.entries = doc["rules"]
+        except (OSError, ValueError, AttributeError):
+            pass  # none yet, or unreadable: read the sources
+
+    def from_source(self, module_name: str, path: Path) -> RuleInfo | None:
+        """:func:`_from_source` of the file, from the memo when its bytes are unchanged."""
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError:
+            return _from_source(module_name, path)
+        entry = self.entries.get(module_name)
+        if isinstance(entry, dict) and entry.get("sha256") == digest:
+            rule = self._rule(module_name, entry.get("rule"))
+            if rule is not False:
+                return rule
+        rule = _from_source(module_name, path)
+        if rule is None or isinstance(rule.severity, Severity):
+            self.entries[module_name] = {"sha256": digest, "rule": None if rule is None else {
+                "name": rule.name, "category": rule.category, "severity": rule.severity.name,
+                "summary": rule.summary, "doc": rule.doc, "check": rule.check is not None}}
+            self.changed = True
+        return rule
+
+    @staticmethod
+    def _rule(module_name: str, data) -> RuleInfo | None | bool:
+        """The memo's rule (None: the module must be imported); False for a bad entry."""
+        if data is None:
+            return None
+        try:
+            return RuleInfo(name=data["name"], category=data["category"],
+                            severity=Severity[data["severity"]], summary=data["summary"],
+                            doc=data["doc"],
+                            check=_lazy_check(module_name) if data["check"] else None,
+                            module=module_name)
+        except (KeyError, TypeError):
+            return False
+
+    def save(self) -> None:
+        if not self.changed or self.path is None or sys.dont_write_bytecode:
+            return
+        text = json.dumps({"schema": self.SCHEMA, "rules": self.entries}, sort_keys=True)
+        scratch = self.path.with_name(f"{self.path.name}.{os.getpid()}.tmp")
+        try:
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+            scratch.write_text(text, encoding="utf-8")
+            os.replace(scratch, self.path)  # readers see the old file or the new, never half
+        except OSError:
+            try:
+                scratch.unlink()
+            except OSError:
+                pass
+
+
 _cache: dict[str, RuleInfo] | None = None
 
 
@@ -118,23 +211,27 @@ def all_rules() -> dict[str, RuleInfo]:
     import lintamp.rules as package
 
     found: dict[str, RuleInfo] = {}
+    memo = _SourceMemo(package)
     for info in sorted(pkgutil.iter_modules(package.__path__), key=lambda m: m.name):
         if info.name.startswith("_"):
             continue
         name = f"{package.__name__}.{info.name}"
-        rule = _from_source(name, Path(package.__path__[0]) / f"{info.name}.py")
+        rule = memo.from_source(name, Path(package.__path__[0]) / f"{info.name}.py")
         if rule is None:
             module = importlib.import_module(name)
             if not hasattr(module, "NAME"):
                 continue
             rule = _from_module(module)
         found[rule.name] = rule
+    memo.save()
     found.update(_plugin_rules(found))
     _cache = dict(sorted(found.items()))
     return _cache
 
 
 def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
+    if not _may_declare_plugins():
+        return {}
     from importlib.metadata import entry_points
 
     plugins: dict[str, RuleInfo] = {}
@@ -148,3 +245,48 @@ def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
 
 def get_rule(name: str) -> RuleInfo | None:
     return all_rules().get(name)
+
+
+def _may_declare_plugins() -> bool:
+    """False only when no installed distribution can declare a ``lintamp.rules`` entry point.
+
+    Importing :mod:`importlib.metadata` and scanning every distribution costs more than
+    a whole cached check of a small file, and almost every environment has no plugin.
+    So first look where :mod:`importlib.metadata` looks -- the ``*.dist-info`` and
+    ``*.egg-info`` folders (and an ``.egg``'s ``EGG-INFO``) of every ``sys.path``
+    folder -- for an ``entry_points.txt`` that names the group at all.  Whatever this
+    look cannot see the same way answers True and leaves the decision to
+    :mod:`importlib.metadata`: a zip file on ``sys.path``, another finder of
+    distributions on ``sys.meta_path``, a file it cannot read, or
+    :mod:`importlib.metadata` already imported (and perhaps patched, as tests do).
+    """
+    if "importlib.metadata" in sys.modules:
+        return True
+    for finder in sys.meta_path:
+        if finder is not PathFinder and getattr(finder, "find_distributions", None) is not None:
+            return True
+    marker = ENTRY_POINT_GROUP.encode("ascii")
+    for entry in sys.path:
+        if not isinstance(entry, str):
+            return True
+        folder = entry or "."
+        try:
+            children = os.listdir(folder)
+        except OSError:
+            if os.path.exists(folder):  # a zip file, or a folder we may not list
+                return True
+            continue
+        is_egg = os.path.basename(entry).lower().endswith(".egg")
+        for child in children:
+            low = child.lower()
+            if not (low.endswith((".dist-info", ".egg-info")) or (is_egg and low == "egg-info")):
+                continue
+            try:
+                with open(os.path.join(folder, child, "entry_points.txt"), "rb") as stream:
+                    if marker in stream.read():
+                        return True
+            except (FileNotFoundError, NotADirectoryError, IsADirectoryError, PermissionError):
+                continue  # importlib.metadata reads no entry points from it either
+            except OSError:
+                return True
+    return False

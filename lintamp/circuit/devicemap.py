@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import fnmatch
 from dataclasses import dataclass
+from functools import lru_cache
 
 KIND_PINS = {
     "nmos": ("d", "g", "s", "b"),
@@ -37,7 +38,21 @@ class DeviceSpec:
     builtin: bool = False
 
     def matches(self, name: str) -> bool:
-        return fnmatch.fnmatchcase(name.lower(), self.pattern.lower())
+        name, pattern = name.lower(), self.pattern.lower()
+        literal = _literal_head(pattern)
+        if len(literal) == len(pattern):  # no wildcard at all
+            return name == pattern
+        # A glob matches only names that begin with its text before the first wildcard;
+        # testing that first spares compiling the glob for the names it cannot match
+        # (most of the table, for any one name).
+        return name.startswith(literal) and fnmatch.fnmatchcase(name, pattern)
+
+
+@lru_cache(maxsize=1024)
+def _literal_head(pattern: str) -> str:
+    """The text of a glob before its first ``*``, ``?`` or ``[`` (all of it if none)."""
+    cut = min((i for i in map(pattern.find, "*?[") if i >= 0), default=len(pattern))
+    return pattern[:cut]
 
 
 def _b(pattern, kind, pins=None, value=None):

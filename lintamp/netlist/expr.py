@@ -49,11 +49,12 @@ import re
 from collections import ChainMap
 from dataclasses import dataclass, field
 from functools import lru_cache
-from typing import Callable, Mapping, Sequence
-
-import pyparsing as pp
+from typing import TYPE_CHECKING, Callable, Mapping, Sequence
 
 from lintamp.netlist.units import SUFFIXES, parse_number
+
+if TYPE_CHECKING:
+    import pyparsing as pp  # imported, and the grammar built, by _grammar() on first need
 
 __all__ = [
     "BUILTIN_FUNCTIONS",
@@ -647,6 +648,8 @@ def _make_ternary(text: str, loc: int, tokens: pp.ParseResults) -> _Node:
 
 
 def _operator(pattern: str, name: str) -> pp.ParserElement:
+    import pyparsing as pp
+
     return (
         pp.Regex(pattern)
         .set_name(name)
@@ -677,6 +680,8 @@ def _build_grammar() -> pp.ParserElement:
     per nesting level small.  No rule is ever retried after an operand has been
     parsed, so there is no backtracking blowup and packrat caching is not needed.
     """
+    import pyparsing as pp
+
     expr = pp.Forward().set_name("expression")
     # A number, or a name that is not followed by "(" (then it is a call).
     atom = pp.Regex(rf"{_NUMBER_PATTERN}|{_IDENT}(?![A-Za-z0-9_])(?!\s*\()").set_name("operand")
@@ -703,7 +708,21 @@ def _build_grammar() -> pp.ParserElement:
     return expr + pp.StringEnd().set_name("end of expression")
 
 
-_GRAMMAR = _build_grammar()
+_GRAMMAR: pp.ParserElement | None = None
+
+
+def _grammar() -> pp.ParserElement:
+    """The grammar, built on the first expression that is more than a number or a name.
+
+    Most small decks have none, and importing pyparsing and building the grammar
+    costs more than checking such a deck.
+    """
+    global _GRAMMAR
+    if _GRAMMAR is None:
+        _GRAMMAR = _build_grammar()
+    return _GRAMMAR
+
+
 _SIMPLE_RE = re.compile(rf"\s*({_NUMBER_PATTERN}|{_IDENT})\s*")
 
 
@@ -853,8 +872,11 @@ def compile_expr(text: str) -> Expr:
         names, calls, offsets = _collect(root)
         return Expr(text, names, calls, 1, offsets, root)
     _check_nesting(text)
+    grammar = _grammar()
+    import pyparsing as pp
+
     try:
-        root = _GRAMMAR.parse_string(text, parse_all=True)[0]
+        root = grammar.parse_string(text, parse_all=True)[0]
     except pp.ParseBaseException as error:
         raise ExprError(_describe(error, text), error.loc) from None
     except RecursionError:

@@ -11,6 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from lintamp.location import Location
+from lintamp.pragma import Pragma  # noqa: F401 - re-exported; see lintamp.pragma
 
 
 @dataclass(slots=True)
@@ -23,20 +24,6 @@ class Diagnostic:
     subject: str = ""
     severity: str = "error"  # error | warning | info
     expected: str = ""
-
-
-@dataclass(slots=True)
-class Pragma:
-    """A ``lintamp:`` comment: verb and arguments, with its place and the cell it sits in."""
-
-    verb: str  # current-input, voltage-output, load, bandwidth, waive, ...
-    args: tuple[str, ...]
-    reason: str
-    location: Location
-    inline: bool = False  # written at the end of a card (applies to that card's element)
-    cell: str = ""  # the cell it sits in ("" = top level)
-    element: str | None = None  # the element it is attached to (inline, or the line after)
-    element_nets: tuple[str, ...] = ()  # that element's nets
 
 
 @dataclass(slots=True)
