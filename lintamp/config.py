@@ -639,9 +639,9 @@ class _Checker:
     def thresholds(self, value, key: str) -> dict[str, float]:
         table = self.table(value, key)
         if table:
-            from lintamp.registry import all_rules
+            from lintamp.registry import import_rule_modules
 
-            all_rules()  # rule modules declare their thresholds on import
+            import_rule_modules()  # rule modules declare their thresholds on import
         out: dict[str, float] = {}
         for name, number in table.items():
             sub = f"{key}.{name}"

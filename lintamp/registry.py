@@ -243,6 +243,14 @@ def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
     return plugins
 
 
+def import_rule_modules() -> None:
+    """Import every rule's module: rules declare their thresholds when imported
+    (:func:`lintamp.config.register_threshold`), and listing the rules reads only
+    their sources."""
+    for rule in all_rules().values():
+        importlib.import_module(rule.module)
+
+
 def get_rule(name: str) -> RuleInfo | None:
     return all_rules().get(name)
 

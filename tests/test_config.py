@@ -183,3 +183,24 @@ def test_fingerprint_changes_with_settings(tmp_path):
     b = load(tmp_path, 'ignore = ["unused-port"]\n')
     assert a.fingerprint() != b.fingerprint()
     assert a.fingerprint() == load(tmp_path, 'ignore = ["dangling-net"]\n').fingerprint()
+
+
+def test_a_rule_threshold_is_accepted_in_a_fresh_process(tmp_path):
+    # in a fresh interpreter no rule module is imported yet: the thresholds a built-in
+    # rule declares must still be known when a config sets one (a bug once said
+    # "none are declared yet"); a misspelt one is refused with the real names
+    import shutil
+    import subprocess
+    import sys
+
+    repo = Path(__file__).resolve().parent.parent
+    shutil.copy(repo / "samples" / "bias_block.sp", tmp_path)
+    shutil.copy(repo / "samples" / "models.lib", tmp_path)
+    run = [sys.executable, "-m", "lintamp", "check", "--no-cache", "bias_block.sp"]
+    (tmp_path / "lintamp.toml").write_text("[thresholds]\noutput-max-loss = 0.2\n")
+    ok = subprocess.run(run, cwd=tmp_path, capture_output=True, text=True)
+    assert ok.returncode in (0, 1), ok.stderr
+    (tmp_path / "lintamp.toml").write_text("[thresholds]\noutput-max-los = 0.2\n")
+    bad = subprocess.run(run, cwd=tmp_path, capture_output=True, text=True)
+    assert bad.returncode == 2
+    assert "did you mean 'output-max-loss'" in bad.stderr and "none are declared" not in bad.stderr
