@@ -323,3 +323,12 @@ def test_rf_port_sources_close_no_zero_impedance_loop():
     # the same loop with plain sources is one
     plain = deck.replace(" portnum 1 z0 50", "").replace(" portnum 2", "")
     assert found(plain, "source-loop") != set()
+
+
+def test_rf_port_source_sets_no_rail():
+    # a port source has z0 in series (ngspice-39, as above): the voltage of its net
+    # depends on what loads it, so it is no rail; with a plain source the same body
+    # is on the highest rail of the deck
+    deck = "V1 vdd 0 1.8\nV2 p 0 dc 1.8 ac 1 portnum 1 z0 50\nR1 vdd d 1k\nM1 d g 0 p nch\nR2 g 0 1k\n"
+    assert found(deck, "body-tie") == set()
+    assert found(deck.replace(" ac 1 portnum 1 z0 50", ""), "body-tie") == {("body-tie", "m1")}

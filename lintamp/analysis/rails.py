@@ -15,6 +15,7 @@ from collections import deque
 from dataclasses import dataclass, field
 
 from lintamp.analysis.dc_paths import bottom_up
+from lintamp.analysis.loops import is_port_source
 from lintamp.circuit.design import CellView
 from lintamp.circuit.values import cell_scope, top_scope
 
@@ -46,6 +47,8 @@ def _dc_value(dev, scope) -> float | None:
         return None
     if src.dc is None:
         return None  # a waveform only: a signal, not a rail
+    if is_port_source(dev):
+        return None  # an RF port: its z0 in series, so the net's voltage depends on the load
     return scope.value(src.dc)
 
 
