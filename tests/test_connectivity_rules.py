@@ -332,3 +332,29 @@ def test_rf_port_source_sets_no_rail():
     deck = "V1 vdd 0 1.8\nV2 p 0 dc 1.8 ac 1 portnum 1 z0 50\nR1 vdd d 1k\nM1 d g 0 p nch\nR2 g 0 1k\n"
     assert found(deck, "body-tie") == set()
     assert found(deck.replace(" ac 1 portnum 1 z0 50", ""), "body-tie") == {("body-tie", "m1")}
+
+
+def test_body_tie_looks_each_body_net_up_once(monkeypatch):
+    # a body net shared by thousands of devices (an extracted block: no sources, one
+    # substrate net) must not be scanned once per device: the structural checks look
+    # each body net's terminals up once (common practice: per-net work done per net)
+    import sys
+    from pathlib import Path
+
+    from lintamp.circuit.design import NetTerminals
+    sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "bench"))
+    from shapes import shared_body  # bench generator: a scenario of our own
+
+    looked: list[str] = []
+    real = NetTerminals.__getitem__
+
+    def counting(self, net):
+        looked.append(net)
+        return real(self, net)
+
+    monkeypatch.setattr(NetTerminals, "__getitem__", counting)
+    report = check_text(shared_body(400), "shared.sp")
+    body = [f for f in report.findings if f.rule == "body-tie"]
+    # 'sub' touches nothing but bodies: one finding, at its first transistor
+    assert [f.subject for f in body] == ["m0"] and "floats" in body[0].message
+    assert looked.count("sub") <= 3  # body-tie once; other rules may look it up too
