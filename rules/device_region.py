@@ -55,6 +55,7 @@ from lintamp.analysis.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
 from lintamp.report.si import si
+from lintamp.rules._islands import MAX_LISTED, listing
 
 NAME = "device-region"
 CATEGORY = "bias"
@@ -186,9 +187,9 @@ def check(ctx):
             continue
         seen.add(key)
         steps.append(f"role from the topology: {stage.role}"
-                     + (f" (with {', '.join(stage.related)})" if stage.related else ""))
+                     + (f" (with {listing(stage.related)})" if stage.related else ""))
         steps.append(f"numbers from {numbers.source_words}")
-        related = [Related(d.location, f"{d.name}: related device") for n in stage.related
+        related = [Related(d.location, f"{d.name}: related device") for n in stage.related[:MAX_LISTED]
                    for d in [finder.by_name.get(n)] if d is not None]
         yield ctx.finding(
             location=dev.location, subject=local, view=view, message=f"{local}: {message}",
