@@ -106,6 +106,29 @@ def deep_hierarchy(n: int) -> str:
     return "\n".join(out + [".end"]) + "\n"
 
 
+def mirror_array(n: int) -> str:
+    """One diode-connected reference and n/2 mirror outputs, each into its own load
+    resistor: a biased circuit the operating point solves, so the impedance rules
+    run (and every output device relates to the one reference)."""
+    out = ["* one bias line for a row of current sources", "vdd vdd 0 1.8", "iref vdd ref 10u",
+           ".model nch nmos level=1 vto=0.5 kp=200u lambda=0.1", "m0 ref ref 0 0 nch w=1u l=1u"]
+    for i in range(1, n // 2):
+        out += [f"m{i} o{i} ref 0 0 nch w=1u l=1u", f"r{i} vdd o{i} 10k"]
+    return "\n".join(out + [".end"]) + "\n"
+
+
+def amplifier_chain(n: int) -> str:
+    """n/4 common-source stages in cascade, each AC-coupled to the next and biased
+    by a divider: the impedance rules find ports, stages and loads across it."""
+    out = ["* a chain of biased gain stages", "vdd vdd 0 1.8", "vin in 0 dc 0 ac 1",
+           ".model nch nmos level=1 vto=0.5 kp=200u lambda=0.1", "rs in g0 1k"]
+    for i in range(n // 4):
+        out += [f"m{i} d{i} g{i} 0 0 nch w=2u l=1u", f"rd{i} vdd d{i} 20k", f"rb{i} vdd g{i} 1meg",
+                f"cc{i} d{i} g{i + 1} 1p"]
+    out.append(f"rl g{n // 4} 0 100k")
+    return "\n".join(out + [".end"]) + "\n"
+
+
 SHAPES = {f.__name__: f for f in (floating_enable, many_floating_gates, extracted_block, shared_body,
                                   long_ladder, floating_ladder, current_fed_nodes, parallel_sources,
-                                  many_cells, deep_hierarchy)}
+                                  many_cells, deep_hierarchy, mirror_array, amplifier_chain)}
