@@ -7,6 +7,8 @@ Sources: ngspice User's Manual ch. 3-5 (element lines, .subckt, .model, .param,
 
 from __future__ import annotations
 
+import pytest
+
 from lintamp.netlist.parser import parse_text
 
 
@@ -196,3 +198,52 @@ def test_subcircuit_spelled_out():
     # '.subcircuit' for '.subckt' occurs in schematic exports (corpus: OpenFASOC lc-dco)
     netlist = parse(".subcircuit ind_top outp outn vdd\nL1 outp outn 1n\n.ends\n")
     assert "ind_top" in netlist.top.cells and not netlist.diagnostics
+
+
+IF_DECK = """* one branch of .if/.elseif/.else is the deck
+.param sel={sel}
+v1 a 0 1
+.if (sel == 1)
+r1 a b 1k
+.elseif (sel == 2)
+r1 a b 3k
+.else
+r1 a b 9k
+.endif
+r2 b 0 1k
+.end
+"""
+
+
+@pytest.mark.parametrize("sel, r1", [(1, "1k"), (2, "3k"), (5, "9k")])
+def test_if_elseif_else_reads_the_branch_the_simulator_reads(sel, r1):
+    # ngspice-39 manual, section 2.12 (.if/.elseif/.else/.endif), and ngspice-39's own
+    # operating point of the same deck: V(b) = 1 V * 1k / (R1 + 1k)
+    from ngspice_harness import ngspice_path, run_deck
+    from lintamp.api import check_text
+
+    text = IF_DECK.format(sel=sel)
+    netlist = parse_text(text, "if.sp")
+    assert [(e.name, e.value) for e in netlist.top.elements] == [("v1", "1"), ("r1", r1), ("r2", "1k")]
+    assert not [f for f in check_text(text, "if.sp").findings if f.rule == "duplicate-name"]
+    if ngspice_path() is not None:
+        got = run_deck(text, ["op", "print v(b)"])
+        r1_ohm = {"1k": 1e3, "3k": 3e3, "9k": 9e3}[r1]
+        assert got["v(b)"] == pytest.approx(1e3 / (r1_ohm + 1e3), rel=1e-9)
+
+
+def test_if_nesting_unknown_conditions_and_unbalanced_cards():
+    # from memory (ngspice-39 manual 2.12): blocks nest; a branch inside one not
+    # taken is not read; a condition lintamp cannot evaluate (an instance parameter)
+    # takes its branch with a note; a stray .endif and an unclosed .if are errors
+    text = ("* nesting\n.param a=1 b=0\n.if (a)\n.if (b)\nr1 x 0 1\n.else\nr2 x 0 2\n.endif\n"
+            ".else\n.if (1)\nr3 x 0 3\n.endif\nr4 x 0 4\n.endif\n"
+            ".subckt cell p q w=1\n.if (w > 1)\nra p q 1\n.else\nra p q 2\n.endif\n.ends\n"
+            ".endif\n.if (1)\nr9 x 0 9\n.end\n")
+    netlist = parse_text(text, "nest.sp")
+    assert [e.name for e in netlist.top.elements] == ["r2", "r9"]
+    assert [e.value for e in netlist.top.cells["cell"].elements] == ["1"]
+    diags = [(d.rule, d.severity, d.location.line) for d in netlist.diagnostics]
+    assert ("unsupported-syntax", "info", 16) in diags
+    assert ("parse-error", "error", 22) in diags  # .endif without .if
+    assert ("parse-error", "error", 23) in diags  # .if never closed

@@ -29,7 +29,7 @@ ANALYSES = {".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".sens", ".pz", ".dis
             ".sp", ".hb", ".four", ".mpde", ".step", ".fft", ".lin"}
 IGNORED_DOT = {".ic", ".nodeset", ".save", ".print", ".plot", ".probe", ".meas", ".measure",
                ".width", ".title", ".csparam", ".preprocess", ".protect", ".unprotect", ".alter",
-               ".if", ".elseif", ".else", ".endif", ".options", ".option", ".opt", ".temp",
+               ".options", ".option", ".opt", ".temp",
                ".global", ".param", ".func", ".model", ".subckt", ".ends", ".end", ".lib",
                ".endl", ".include", ".inc", ".incl", ".control", ".endc", ".data", ".enddata",
                ".global_param", ".sensitivity", ".noise", ".machine", ".endmachine",
@@ -188,6 +188,74 @@ class ParseContext:
         # device cards whose model could not be told from a node: parsed again at
         # the end, once every .model name is known
         self.deferred: list = []
+        # open .if blocks, innermost last: [reading this branch, a branch was taken,
+        # the .if card]; ``skipping`` while any of them is not read
+        self.conditions: list[list] = []
+        self.skipping = False
+
+    # -- .if / .elseif / .else / .endif ------------------------------------------
+    def conditional_card(self, card: Card) -> None:
+        """While skipping: follow a .if-family card, pass over every other one."""
+        if card.text.lstrip()[:3].lower() not in (".if", ".el", ".en"):
+            return
+        tokens = tokenize(card.text)
+        word = tokens[0].text.lower() if tokens else ""
+        if word in (".if", ".elseif", ".else", ".endif"):
+            self.conditional(card, word)
+
+    def conditional(self, card: Card, word: str) -> None:
+        """One branch of the deck is read, as a simulator reads it (ngspice-39 manual,
+        section 2.12): the first whose condition holds, with the .param values
+        defined so far.  A condition that cannot be evaluated here (a name only an
+        instance gives) takes its branch if none before it was taken, with a note,
+        so that alternative definitions of one element never both count."""
+        outer_reading = all(level[0] for level in self.conditions)
+        if word == ".if":
+            holds = self._condition(card, word) if outer_reading else False
+            self.conditions.append([bool(holds), bool(holds) or not outer_reading, card])
+        elif not self.conditions:
+            self.error(card, 0, f"{word} without a .if before it", expected=".if (CONDITION)")
+            return
+        else:
+            level = self.conditions[-1]
+            reading_above = all(lv[0] for lv in self.conditions[:-1])
+            if word == ".endif":
+                self.conditions.pop()
+            elif level[1] or not reading_above:
+                level[0] = False
+            elif word == ".elseif":
+                level[0] = bool(self._condition(card, word))
+                level[1] = level[0]
+            else:  # .else
+                level[0] = level[1] = True
+        self.skipping = not all(level[0] for level in self.conditions)
+
+    def _condition(self, card: Card, word: str) -> bool:
+        from lintamp.netlist.expr import ExprError, evaluate_params, evaluate_value
+
+        text = card.text.lstrip()[len(word):].strip()
+        cells = []
+        c = self.cell
+        while c is not None:
+            cells.append(c)
+            c = c.parent
+        values: dict[str, float] = {}
+        for c in reversed(cells):  # the top level first, inner scopes shadow it
+            # (a .subckt header default is per instance: a name that depends on it is
+            # not known here)
+            defs = [(p.name, p.text) for p in c.params if p.name not in c.defaults]
+            found, _ = evaluate_params(defs, {k: v for k, v in values.items() if k not in c.defaults})
+            values = {k: v for k, v in values.items() if k not in c.defaults}
+            values.update(found)
+        try:
+            return evaluate_value("{" + text + "}", values) != 0.0
+        except (ExprError, ValueError, ArithmeticError):
+            self.netlist.diagnostics.append(Diagnostic(
+                "unsupported-syntax", card.location,
+                f"{word} {excerpt(text)}: the condition cannot be evaluated from the .param "
+                "values known here; lintamp reads this branch and skips the later ones",
+                subject=word, severity="info"))
+            return True
 
     # -- diagnostics ---------------------------------------------------------
     def error(self, card: Card, offset: int, message: str, expected: str = "", subject: str = "",
@@ -203,6 +271,9 @@ class ParseContext:
     # -- dispatch --------------------------------------------------------------
     def card(self, card: Card) -> None:
         text = card.text
+        if self.skipping:  # inside a .if branch not taken: only the .if family counts
+            self.conditional_card(card)
+            return
         if text[:1] in _PLAIN_LETTERS and _NOT_PLAIN.search(text) is None:
             element = self.plain_element(card, text)
             if element is not None:
@@ -319,6 +390,8 @@ class ParseContext:
             self.title_card = True
         elif word == ".end":
             pass
+        elif word in (".if", ".elseif", ".else", ".endif"):
+            self.conditional(card, word)
         elif word in IGNORED_DOT:
             pass
         else:
@@ -399,6 +472,9 @@ class ParseContext:
         self.cell.funcs[m.group(1).lower()] = FuncDef(m.group(1).lower(), args, body, card.location)
 
     def finish(self) -> Netlist:
+        for _, _, card in self.conditions:
+            self.netlist.diagnostics.append(Diagnostic(
+                "parse-error", card.location, ".if is never closed", expected=".endif"))
         if self.deferred:
             models = frozenset(name for cell in self.netlist.all_cells() for name in cell.models)
             for parse, card, tokens, cell, index in reversed(self.deferred):
