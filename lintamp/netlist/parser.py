@@ -218,10 +218,9 @@ class ParseContext:
             return
         else:
             level = self.conditions[-1]
-            reading_above = all(lv[0] for lv in self.conditions[:-1])
             if word == ".endif":
                 self.conditions.pop()
-            elif level[1] or not reading_above:
+            elif level[1]:  # a branch was taken (or the whole block is not read)
                 level[0] = False
             elif word == ".elseif":
                 level[0] = bool(self._condition(card, word))
@@ -241,12 +240,12 @@ class ParseContext:
             c = c.parent
         values: dict[str, float] = {}
         for c in reversed(cells):  # the top level first, inner scopes shadow it
-            # (a .subckt header default is per instance: a name that depends on it is
-            # not known here)
-            defs = [(p.name, p.text) for p in c.params if p.name not in c.defaults]
-            found, _ = evaluate_params(defs, {k: v for k, v in values.items() if k not in c.defaults})
-            values = {k: v for k, v in values.items() if k not in c.defaults}
-            values.update(found)
+            # a .subckt header default is per instance: it, and what depends on it, is
+            # not known here
+            outer = {k: v for k, v in values.items() if k not in c.defaults}
+            found, _ = evaluate_params([(p.name, p.text) for p in c.params if p.name not in c.defaults],
+                                       outer)
+            values = {**outer, **found}
         try:
             return evaluate_value("{" + text + "}", values) != 0.0
         except (ExprError, ValueError, ArithmeticError):
