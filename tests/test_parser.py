@@ -247,3 +247,17 @@ def test_if_nesting_unknown_conditions_and_unbalanced_cards():
     assert ("unsupported-syntax", "info", 16) in diags
     assert ("parse-error", "error", 22) in diags  # .endif without .if
     assert ("parse-error", "error", 23) in diags  # .if never closed
+
+
+def test_if_elseif_regression_deck_of_ngspice():
+    # ngspice's own regression test tests/regression/misc/if-elseif.cir: nested .if,
+    # several .elseif, and a lone '=' as comparison ('.elseif (select2 = 2)'); its
+    # control block fails unless R1 = 300 ohm is the one read
+    from pathlib import Path
+    corpus = Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"
+    deck = corpus / "imr__ngspice" / "tests" / "regression" / "misc" / "if-elseif.cir"
+    if not deck.is_file():
+        pytest.skip(f"corpus not found at {corpus} (checked out beside the repo as ../shared/corpus)")
+    netlist = parse_text(deck.read_text(encoding="utf-8"), str(deck))
+    assert [(e.name, e.value) for e in netlist.top.elements if e.name.lower() == "r1"] == [("R1", "300")]
+    assert not [d for d in netlist.diagnostics if d.rule in ("unsupported-syntax", "parse-error")]

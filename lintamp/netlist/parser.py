@@ -175,6 +175,9 @@ def is_value_token(text: str) -> bool:
     return text[:1] in "{'\"" or is_number(text)
 
 
+_LONE_EQUALS = re.compile(r"(?<![=!<>])=(?!=)")
+
+
 class ParseContext:
     """Builds the :class:`Netlist` from cards, one card at a time."""
 
@@ -233,6 +236,8 @@ class ParseContext:
         from lintamp.netlist.expr import ExprError, evaluate_params, evaluate_value
 
         text = card.text.lstrip()[len(word):].strip()
+        # ngspice also takes a lone '=' as a comparison here: .if (sel = 2)
+        text = _LONE_EQUALS.sub("==", text)
         cells = []
         c = self.cell
         while c is not None:
