@@ -261,3 +261,21 @@ def test_if_elseif_regression_deck_of_ngspice():
     netlist = parse_text(deck.read_text(encoding="utf-8"), str(deck))
     assert [(e.name, e.value) for e in netlist.top.elements if e.name.lower() == "r1"] == [("R1", "300")]
     assert not [d for d in netlist.diagnostics if d.rule in ("unsupported-syntax", "parse-error")]
+
+
+def test_include_inside_a_branch_not_taken_is_not_opened(tmp_path):
+    # a corner switch (common practice in PDK decks): only the chosen branch's file is
+    # read; the other branch's missing file is no warning, and is one when chosen
+    from pathlib import Path as _Path
+
+    from lintamp.api import check_file
+    from lintamp.config import Config
+    (tmp_path / "tt.lib").write_text("r9 a 0 1k\n")
+    deck = ("* corners\n.param corner={c}\nv1 a 0 1\n.if (corner == 1)\n.include tt.lib\n.else\n"
+            ".include ff.lib\n.lib other.lib fast\n.endif\n.end\n")
+    for corner, missing in ((1, []), (2, [7, 8])):
+        path = _Path(tmp_path / "top.sp")
+        path.write_text(deck.format(c=corner))
+        result = check_file(path, Config(root=tmp_path))
+        assert [f.location.line for f in result.findings if f.rule == "missing-include"] == missing
+        assert ("tt.lib" in " ".join(result.files_read)) == (corner == 1)

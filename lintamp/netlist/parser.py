@@ -197,6 +197,10 @@ class ParseContext:
         self.skipping = False
 
     # -- .if / .elseif / .else / .endif ------------------------------------------
+    def reading(self) -> bool:
+        """Whether the cards now arriving are read (not inside a .if branch not taken)."""
+        return not self.skipping
+
     def conditional_card(self, card: Card) -> None:
         """While skipping: follow a .if-family card, pass over every other one."""
         if card.text.lstrip()[:3].lower() not in (".if", ".el", ".en"):
@@ -944,7 +948,7 @@ def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
         head = b""
     first = re.split(rb"[\r\n]", head, maxsplit=1)[0].decode("latin-1")
     ctx = ParseContext(shown, "")
-    result = read(path, opts, title=not is_fragment(first), sink=ctx.card)
+    result = read(path, opts, title=not is_fragment(first), sink=ctx.card, reading=ctx.reading)
     return parse_read(result, shown, ctx)
 
 
@@ -952,7 +956,7 @@ def parse_text(text: str, path: str = "<text>", opts: ReadOptions | None = None)
     """Parse netlist text held in memory (its first line is the title)."""
     ctx = ParseContext(path, "")
     with paused_gc():
-        return parse_read(read_text(text, path, opts, sink=ctx.card), path, ctx)
+        return parse_read(read_text(text, path, opts, sink=ctx.card, reading=ctx.reading), path, ctx)
 
 
 def _display(path: Path, opts: ReadOptions) -> str:

@@ -327,12 +327,16 @@ def _pragma_text(comment: str) -> str | None:
 
 
 class _Reader:
-    def __init__(self, opts: ReadOptions, sink: Callable[[Card], None] | None = None):
+    def __init__(self, opts: ReadOptions, sink: Callable[[Card], None] | None = None,
+                 reading: Callable[[], bool] | None = None):
         self.opts = opts
         self.result = ReadResult()
         # where finished cards go: the result's list, or a consumer that handles each
         # card as it is read (the parser), so that a big file never holds all its cards
         self.sink = sink or self.result.cards.append
+        # whether the consumer reads the statements here (False inside a .if branch
+        # it does not take): an include there is not opened, as a simulator does not
+        self.reading = reading or (lambda: True)
         self.n_cards = 0
         self.stack: list[tuple[str, str]] = []  # (realpath, section) being read
         self.allowed = [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
@@ -707,6 +711,8 @@ class _Reader:
         return True
 
     def _include(self, code, shown, path, lineno, indent, tokens=None):
+        if not self.reading():
+            return
         tokens = tokens or _split_path_tokens(code)
         loc = Location(shown, lineno, indent + 1)
         if len(tokens) < 2:
@@ -722,6 +728,8 @@ class _Reader:
             self.stack.pop()
 
     def _include_section(self, target, section, shown, path, loc):
+        if not self.reading():
+            return
         real = self._resolve(target, path, loc)
         if real is None:
             return
@@ -758,21 +766,26 @@ def _split_path_tokens(code: str) -> list[str]:
 
 
 def read(path: Path, opts: ReadOptions | None = None, *, data: bytes | None = None,
-         title: bool = True, sink: Callable[[Card], None] | None = None) -> ReadResult:
+         title: bool = True, sink: Callable[[Card], None] | None = None,
+         reading: Callable[[], bool] | None = None) -> ReadResult:
     """Read a netlist file and its includes; with ``title`` its first line is the title.
 
     With ``sink`` each card goes to ``sink(card)`` as soon as it is complete, in file
     order, instead of into ``ReadResult.cards`` (which then stays empty): a consumer
     that handles cards one by one never holds a whole big file's cards at once.
+    ``reading()``, asked at each include, says whether the sink reads the statements
+    there (a parser inside a .if branch it skips says False: the file is not opened).
     """
-    return _Reader(opts or ReadOptions(), sink).read_top(path, data, title)
+    return _Reader(opts or ReadOptions(), sink, reading).read_top(path, data, title)
 
 
 def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
-              sink: Callable[[Card], None] | None = None) -> ReadResult:
-    """Read netlist text held in memory (first line is the title); ``sink`` as in :func:`read`."""
+              sink: Callable[[Card], None] | None = None,
+              reading: Callable[[], bool] | None = None) -> ReadResult:
+    """Read netlist text held in memory (first line is the title); ``sink`` and
+    ``reading`` as in :func:`read`."""
     opts = opts or ReadOptions()
-    reader = _Reader(opts, sink)
+    reader = _Reader(opts, sink, reading)
     reader.result.files.append(path)
     reader._read_lines(_text_lines(text), path, Path(path), top_level=True, section=None)
     return reader.result
