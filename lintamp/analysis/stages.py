@@ -10,6 +10,7 @@ waveform (a source with ``AC`` or a waveform is taken as a signal input).
 
 from __future__ import annotations
 
+from collections import Counter
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
@@ -35,8 +36,6 @@ class Stage:
 
 def _pins(dev: FlatDevice):
     """(out, control, common) = drain/gate/source or collector/base/emitter."""
-    if dev.kind in MOS:
-        return dev.nodes[0], dev.nodes[1], dev.nodes[2]
     return dev.nodes[0], dev.nodes[1], dev.nodes[2]
 
 
@@ -57,21 +56,41 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None) -> 
     by_out: dict[tuple, list[FlatDevice]] = {}
     diodes: dict[tuple, list[FlatDevice]] = {}  # (kind, ctl, com): out == ctl
     not_diodes: dict[tuple, list[FlatDevice]] = {}  # (kind, ctl, com): out != ctl
-    # per (kind, com): how many devices have each control net, each output net, each pair
-    n_ctl: dict[tuple, int] = {}
-    n_out: dict[tuple, int] = {}
-    n_ctl_out: dict[tuple, int] = {}
+    # per common net: how many of its devices have each control net, each output net,
+    # and each (control, output) pair
+    counts: Counter = Counter()
     for d in trans:
         out, ctl, com = _pins(d)
         fam = d.kind
         by_common.setdefault((fam, com), []).append(d)
         by_out.setdefault((fam, out), []).append(d)
         (diodes if out == ctl else not_diodes).setdefault((fam, ctl, com), []).append(d)
-        n_ctl[(fam, com, ctl)] = n_ctl.get((fam, com, ctl), 0) + 1
-        n_out[(fam, com, out)] = n_out.get((fam, com, out), 0) + 1
-        n_ctl_out[(fam, com, ctl, out)] = n_ctl_out.get((fam, com, ctl, out), 0) + 1
+        counts.update((("ctl", fam, com, ctl), ("out", fam, com, out), ("both", fam, com, ctl, out)))
     pairs: dict[tuple, list[str]] = {}
+
+    def partners(fam, com, ctl, out) -> list[str]:
+        """Devices on the same common net with another control and another output net
+        (a differential pair's other half); found once per four nets, and not looked
+        for when the counts say there is none."""
+        key = (fam, com, ctl, out)
+        got = pairs.get(key)
+        if got is None:
+            group = by_common[(fam, com)]
+            others = (len(group) - counts[("ctl", fam, com, ctl)] - counts[("out", fam, com, out)]
+                      + counts[("both", fam, com, ctl, out)])
+            got = pairs[key] = [o.name for o in group if _pins(o)[1] != ctl and _pins(o)[0] != out] \
+                if others else []
+        return got
+
     below_of: dict[tuple, list[str]] = {}
+
+    def below(fam, com) -> list[str]:
+        """Devices whose output is this common net (what a cascode stands on)."""
+        got = below_of.get((fam, com))
+        if got is None:
+            got = below_of[(fam, com)] = [o.name for o in by_out.get((fam, com), ())]
+        return got
+
     stages = []
     for d in trans:
         out, ctl, com = _pins(d)
@@ -94,25 +113,12 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None) -> 
             # (d itself is no diode and its output is not its common net: it is in
             # neither list below)
             refs = [o.name for o in diodes.get((d.kind, ctl, com), ())]
-            pair = []
-            if com not in acg:
-                key = (d.kind, com, ctl, out)
-                pair = pairs.get(key)
-                if pair is None:
-                    others = (len(by_common[(d.kind, com)]) - n_ctl[(d.kind, com, ctl)]
-                              - n_out[(d.kind, com, out)] + n_ctl_out[key])
-                    pair = pairs[key] = [
-                        o.name for o in by_common[(d.kind, com)]
-                        if _pins(o)[1] != ctl and _pins(o)[0] != out] if others else []
-            below = []
-            if com not in acg:
-                below = below_of.get((d.kind, com))
-                if below is None:
-                    below = below_of[(d.kind, com)] = [o.name for o in by_out.get((d.kind, com), ())]
+            pair, under = ([], []) if com in acg else (partners(d.kind, com, ctl, out),
+                                                       below(d.kind, com))
             if refs:
                 role, related = "current-mirror output", refs
-            elif ctl in acg and below:
-                role, related = "cascode", below
+            elif ctl in acg and under:
+                role, related = "cascode", under
             elif ctl in acg and com in acg:
                 role = "current source (fixed bias)"
             elif out in acg and com not in acg:

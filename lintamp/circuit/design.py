@@ -131,19 +131,12 @@ class CellView:
     @cached_property
     def device_named(self) -> dict[str, Device]:
         """The first device of each (lower-case) name, as a walk in netlist order finds it."""
-        named: dict[str, Device] = {}
-        for dev in reversed(self.devices):
-            named[dev.name] = dev
-        return named
+        return {dev.name: dev for dev in reversed(self.devices)}
 
     @cached_property
     def instance_named(self) -> dict[str, Device]:
         """The first device of each name that instantiates a cell view."""
-        named: dict[str, Device] = {}
-        for dev in reversed(self.devices):
-            if dev.subcell is not None:
-                named[dev.name] = dev
-        return named
+        return {dev.name: dev for dev in reversed(self.devices) if dev.subcell is not None}
 
     def instances(self) -> list[Device]:
         """The devices that instantiate a cell view (``subcell`` set), in netlist order;
