@@ -1,8 +1,10 @@
 """Time the small-signal engine on generated RC + MOS networks.
 
-Network (our own scenario): stages of one NMOS common-source amplifier (10k
-drain resistor, gate biased by a 100k resistor from 0.8 V and AC-coupled from
-the previous stage) driving an RC ladder of 48 sections (1k, 10 fF); one random
+Network (our own scenario): an extracted block of amplifier chains side by side.
+Each chain has CHAIN stages of one NMOS common-source amplifier (10k drain
+resistor, gate biased by a 100k resistor from 0.8 V and AC-coupled from the
+previous stage of its chain), each stage driving an RC ladder of 48 sections
+(1k, 10 fF); one random
 2 fF coupling capacitor per 100 nodes couples a ladder node to the
 same position of the neighbouring ladder (wires running side by side, as in
 extracted parasitics).  For each size:
@@ -12,12 +14,19 @@ impedance of 1000 random nodes.  Median of ``--runs`` runs.
 Usage: ``python bench/bench_impedance.py [--sizes 10000,30000,100000] [--runs 3]``
 Target: factorisation + 1000 nodes <= 2 s at 100k nodes.
 
-Measured (2 cores, scipy 1.17 SuperLU, median of 3): 10k nodes 0.25 s, 30k 1.07 s,
-100k 5.6 s (0.57 s build + LU, 5.05 s for the 1000 solves).  The target is not met
-at 100k: each dense forward/back substitution costs ~5 ms over nnz(L+U) = 0.88 M.
-The reaches are small (L^-1 e_k touches <= 50 entries, U^-T e_k ~ 1000), so a
-compiled sparse-reach triangular solve, z_kk = (U^-T e_c) . (L^-1 e_r), would
-bring each node to well under 0.1 ms.
+Measured (2 cores, scipy 1.17 SuperLU, one run): 10k nodes 0.36 s, 30k 0.52 s,
+100k 1.43 s (0.79 s build + LU, 0.65 s for the 1000 nets).  The 1000 nets come
+from ``ImpedanceSolver.z_many``: the nets are ordered last and one more LU gives
+their Schur complement, whose inverse holds all 1000 values
+(lintamp/analysis/inverse_diagonal.py).  One forward/back substitution per net
+took 13.0 s for the same figure (~12 ms each over nnz(L+U) = 0.62-0.88 M).
+
+Until 2026-12 this network chained every stage into the next: 2000 cascaded
+gain stages at 100k nodes, whose solution vectors overflowed to inf a few
+hundred stages downstream of an injection.  ``--chain 1000000`` builds it again;
+there the Schur complement overflows too, ``z_many`` sees it and falls back to
+one substitution per net.  The "max rel err" column compares 20 of the nets with
+single substitutions.
 """
 
 from __future__ import annotations
@@ -38,9 +47,10 @@ from lintamp.circuit.flat import FlatCircuit, FlatDevice, ModelCard, SourceValue
 from lintamp.location import Location  # noqa: E402
 
 LADDER = 48
+CHAIN = 4  # stages per amplifier chain; a chain of thousands would overflow (gain 3^n)
 
 
-def build_network(n_nodes: int, seed: int = 1) -> FlatCircuit:
+def build_network(n_nodes: int, seed: int = 1, chain: int = CHAIN) -> FlatCircuit:
     rng = np.random.default_rng(seed)
     c = FlatCircuit()
     loc = Location("<bench>", 1)
@@ -60,15 +70,15 @@ def build_network(n_nodes: int, seed: int = 1) -> FlatCircuit:
         if prev_end is not None:
             c.add(FlatDevice(f"cc{stage}", "capacitor", (prev_end, g), loc, value=100e-15))
         node = d
-        chain = [d]
+        ladder = [d]
         for k in range(LADDER):
             nxt = c.net(f"n{stage}_{k}")
             c.add(FlatDevice(f"r{stage}_{k}", "resistor", (node, nxt), loc, value=1e3))
             c.add(FlatDevice(f"c{stage}_{k}", "capacitor", (nxt, 0), loc, value=10e-15))
             node = nxt
-            chain.append(nxt)
-        ladders.append(chain)
-        prev_end = node
+            ladder.append(nxt)
+        ladders.append(ladder)
+        prev_end = node if (stage + 1) % chain else None
         stage += 1
     nets = len(c.nets)
     for k in range(nets // 100):
@@ -78,8 +88,8 @@ def build_network(n_nodes: int, seed: int = 1) -> FlatCircuit:
     return c
 
 
-def run(n_nodes: int, runs: int, n_probe: int = 1000, freq_hz: float = 10e6):
-    circuit = build_network(n_nodes)
+def run(n_nodes: int, runs: int, n_probe: int = 1000, freq_hz: float = 10e6, chain: int = CHAIN):
+    circuit = build_network(n_nodes, chain=chain)
     rng = np.random.default_rng(7)
     probes = [circuit.nets[i] for i in rng.choice(np.arange(1, len(circuit.nets)), n_probe, replace=False)]
     t_op, t_factor, t_solve = [], [], []
@@ -95,6 +105,8 @@ def run(n_nodes: int, runs: int, n_probe: int = 1000, freq_hz: float = 10e6):
         t_factor.append(t2 - t1)
         t_solve.append(t3 - t2)
     assert np.all(np.isfinite(z))
+    check = [solver.z(node) for node in probes[:20]]
+    rel_err = max(abs(a - b) / abs(b) for a, b in zip(z[:20], check) if b != 0)
     lu = solver._lu
     fill = lu.L.nnz + lu.U.nnz
     return {
@@ -106,6 +118,7 @@ def run(n_nodes: int, runs: int, n_probe: int = 1000, freq_hz: float = 10e6):
         "factor_s": statistics.median(t_factor),
         "solve1000_s": statistics.median(t_solve),
         "lu_nnz": fill,
+        "rel_err": rel_err,
     }
 
 
@@ -113,13 +126,15 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", default="10000,30000,100000")
     ap.add_argument("--runs", type=int, default=3)
+    ap.add_argument("--chain", type=int, default=CHAIN, help="gain stages per amplifier chain")
     args = ap.parse_args(argv)
     print(f"{'nodes':>8} {'devices':>8} {'mos':>5} {'op s':>7} {'build+LU s':>10} {'1000 z s':>9} "
-          f"{'LU+1000 s':>10} {'nnz(L+U)':>10}  op method")
+          f"{'LU+1000 s':>10} {'nnz(L+U)':>10} {'max rel err':>11}  op method")
     for size in [int(s) for s in args.sizes.split(",")]:
-        r = run(size, args.runs)
+        r = run(size, args.runs, chain=args.chain)
         print(f"{r['nodes']:>8} {r['devices']:>8} {r['mos']:>5} {r['op_s']:>7.2f} {r['factor_s']:>10.2f} "
-              f"{r['solve1000_s']:>9.2f} {r['factor_s'] + r['solve1000_s']:>10.2f} {r['lu_nnz']:>10}  {r['op_method']}")
+              f"{r['solve1000_s']:>9.2f} {r['factor_s'] + r['solve1000_s']:>10.2f} {r['lu_nnz']:>10} "
+              f"{r['rel_err']:>11.1e}  {r['op_method']}")
     return 0
 
 

@@ -27,6 +27,8 @@ OPEN_SHUNT_S = 1e-12  # added per node only when Y is singular (a node with no A
 # minimum degree on A^T + A suits MNA matrices (structurally near-symmetric):
 # less fill than COLAMD on netlist-like circuits
 PERMC_SPEC = "COLAMD"
+SELECTED_MIN = 24  # nets; below this, one solve per net is cheaper than a second LU
+SELECTED_GROUP = 1000  # nets per reordered LU; the dense trailing step grows as m^3
 
 
 class ImpedanceSolver:
@@ -99,10 +101,12 @@ class ImpedanceSolver:
         matrix = assemble(rows, cols, vals, cc.size, dtype=complex)
         try:
             self._lu = factor(matrix, PERMC_SPEC, eager=True)
+            self._matrix = matrix
         except RuntimeError:
             groups = floating_groups(cc)
             try:
-                self._lu = factor(add_to_diagonal(matrix, cc.n_nodes, OPEN_SHUNT_S), PERMC_SPEC, eager=True)
+                self._matrix = add_to_diagonal(matrix, cc.n_nodes, OPEN_SHUNT_S)
+                self._lu = factor(self._matrix, PERMC_SPEC, eager=True)
             except RuntimeError as exc:
                 raise SmallSignalError(
                     "singular small-signal matrix even with a shunt on every node "
@@ -190,22 +194,43 @@ class ImpedanceSolver:
         return self.voltage(self.solve_injection(node), node)
 
     def z_many(self, nodes, block: int = 8) -> np.ndarray:
-        """Driving-point impedances of many nodes; blocks of right-hand sides share the LU.
+        """Driving-point impedances of many nodes.
+
+        On a sparse matrix, from :data:`SELECTED_MIN` nets on, the nets are ordered
+        last and one more LU gives all of them at once (the diagonal of the
+        inverse, :mod:`lintamp.analysis.inverse_diagonal`); otherwise, and for a
+        net pivoting moves, blocks of right-hand sides share the LU.
 
         Notes
         -----
-        O(len(nodes) * nnz(L+U)); memory O(block * unknowns).
+        Selected: one reordered LU plus O(m^3) for ``m <= SELECTED_GROUP`` nets per
+        group.  Solves: O(len(nodes) * nnz(L+U)); memory O(block * unknowns).
         """
-        idx = np.array([self.unknown(n) for n in nodes])
+        idx = np.array([self.unknown(n) for n in nodes], dtype=np.int64)
         out = np.zeros(len(idx), dtype=complex)
+        wanted = np.unique(idx[idx >= 0])
+        z_of = {}
+        if len(wanted) >= SELECTED_MIN and not isinstance(self._matrix, np.ndarray):
+            from lintamp.analysis.inverse_diagonal import inverse_diagonal
+
+            for start in range(0, len(wanted), SELECTED_GROUP):
+                group = wanted[start : start + SELECTED_GROUP]
+                try:
+                    values, found = inverse_diagonal(self._matrix, group)
+                except RuntimeError:  # singular in the new order: solve these one by one
+                    continue
+                z_of.update(zip(group[found].tolist(), values[found].tolist()))
+        rest = np.array([k for k in wanted.tolist() if k not in z_of], dtype=np.int64)
         size = self.compiled.size
-        live = np.flatnonzero(idx >= 0)
-        for start in range(0, len(live), block):
-            sel = live[start : start + block]
+        for start in range(0, len(rest), block):
+            sel = rest[start : start + block]
             rhs = np.zeros((size, len(sel)), dtype=complex)
-            rhs[idx[sel], np.arange(len(sel))] = 1.0
+            rhs[sel, np.arange(len(sel))] = 1.0
             sol = self._lu.solve(rhs)
-            out[sel] = sol[idx[sel], np.arange(len(sel))]
+            z_of.update(zip(sel.tolist(), sol[sel, np.arange(len(sel))].tolist()))
+        for i, k in enumerate(idx.tolist()):
+            if k >= 0:
+                out[i] = z_of[k]
         return out
 
     def gain_to(self, node: str) -> complex:
