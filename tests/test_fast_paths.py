@@ -145,11 +145,21 @@ def parsed(text: str, plain: bool):
             [(d.rule, d.location, d.message) for d in netlist.diagnostics])
 
 
+def assert_no_params_means_numeric(elements) -> None:
+    # the promise lintamp.circuit.values.undefined_names relies on (see NO_PARAMS)
+    from lintamp.netlist.statements import NO_PARAMS
+    for element, _params in elements:
+        if element.params is NO_PARAMS:
+            assert element.source is None
+            assert element.value is None or parse_number(element.value) is not None, element
+
+
 def test_plain_cards_parse_as_the_general_parser_parses_them():
     deck = "title\n.model nch nmos\n.model 2n7000 nmos\n" + "\n".join(CARDS) + "\n.end\n"
     fast, general = parsed(deck, plain=True), parsed(deck, plain=False)
     assert fast == general
     assert len(fast[0]) > 40  # most of them are elements
+    assert_no_params_means_numeric(fast[0])
 
 
 @settings(max_examples=300, deadline=None)
@@ -158,7 +168,9 @@ def test_plain_cards_parse_as_the_general_parser_parses_them():
                                  "1e", "inf"]), min_size=1, max_size=9))
 def test_random_plain_cards_parse_as_the_general_parser_parses_them(words):
     deck = "title\n.model nch nmos\n" + " ".join(words) + "\n"
-    assert parsed(deck, plain=True) == parsed(deck, plain=False)
+    fast = parsed(deck, plain=True)
+    assert fast == parsed(deck, plain=False)
+    assert_no_params_means_numeric(fast[0])
 
 
 def test_elements_without_params_share_one_read_only_dict():

@@ -15,7 +15,7 @@ from lintamp.location import Location
 from lintamp.netlist.expr import (CircularDefinition, ExprError, UserFunc,
                                   compile_expr, evaluate_params, evaluate_value, parse_number,
                                   strip_delimiters)
-from lintamp.netlist.statements import Cell, Element, Netlist
+from lintamp.netlist.statements import NO_PARAMS, Cell, Element, Netlist
 
 # names every SPICE expression may use without defining them
 BUILTIN_NAMES = frozenset({"pi", "e", "temper", "temp", "hertz", "time", "true", "false",
@@ -234,6 +234,8 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             if letter in "yan":
                 continue  # simulator-specific devices: their parameters are not expressions
             value, params, src = element.value, element.params, element.source
+            if params is NO_PARAMS:
+                continue  # a plain card, its value already read as a number (see NO_PARAMS)
             if not params and src is None:
                 # the common case of an extracted deck: 'R1 a b 326.1', one numeric value
                 if value is None or parse_number(value) is not None:

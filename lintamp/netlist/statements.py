@@ -42,7 +42,12 @@ class Source:
 
 class _NoParams(dict):
     """The ``params`` of every element written without any: one shared empty dict that
-    refuses to change (a dict per element would cost 64 bytes each on a big netlist)."""
+    refuses to change (a dict per element would cost 64 bytes each on a big netlist).
+
+    Only the parser's plain-card path gives it out, and only after reading the card's
+    value as a number (or finding none, on a MOS card): an element holding it names no
+    parameter, which lets a whole-netlist pass skip it without reading its value again.
+    """
 
     __slots__ = ()
 
