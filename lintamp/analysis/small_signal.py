@@ -199,7 +199,8 @@ class ImpedanceSolver:
         On a sparse matrix, from :data:`SELECTED_MIN` nets on, the nets are ordered
         last and one more LU gives all of them at once (the diagonal of the
         inverse, :mod:`lintamp.analysis.inverse_diagonal`); otherwise, and for a
-        net pivoting moves, blocks of right-hand sides share the LU.
+        net whose error bound that path refuses, blocks of right-hand sides share
+        the LU.  Either way each value is the one :meth:`z` gives.
 
         Notes
         -----
