@@ -200,6 +200,31 @@ def test_subcircuit_spelled_out():
     assert "ind_top" in netlist.top.cells and not netlist.diagnostics
 
 
+def test_cdl_instance_slash_separates_nets_from_the_cell():
+    # CDL as a schematic tool's layout-comparison export writes 'XI3 n1 n2 / cell' (from
+    # memory; 76 ALIGN corpus decks, e.g. fully_differential_gain_boosting_*.sp): the slash
+    # is no net
+    x = only(".subckt inv a y\nm1 y a 0 0 nch\n.ends\nXI3 in out / inv\n")
+    assert x.nodes == ("in", "out") and x.model == "inv"
+    x = only(".subckt inv a y\nm1 y a 0 0 nch\n.ends\nXI3 in out inv\n")
+    assert x.nodes == ("in", "out") and x.model == "inv"
+
+
+def test_cdl_slash_instances_of_a_real_export_match_their_cells():
+    from pathlib import Path
+
+    from lintamp.api import check_file
+    corpus = Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"
+    deck = (corpus / "ALIGN-analoglayout__ALIGN-public" / "CircuitsDatabase" / "Unsized_Netlists"
+            / "Low frequency analog" / "OTA_topologies" / "full_OTA" / "fully_differential_OTA"
+            / "fully_differential_gain_boosting_LG_pnmos_4_cr2_2.sp")
+    if not deck.is_file():
+        pytest.skip(f"corpus not found at {corpus} (checked out beside the repo as ../shared/corpus)")
+    findings = check_file(deck).findings
+    assert not [f for f in findings if f.rule == "pin-mismatch"]
+    assert not [f for f in findings if f.subject == "/"]
+
+
 IF_DECK = """* one branch of .if/.elseif/.else is the deck
 .param sel={sel}
 v1 a 0 1

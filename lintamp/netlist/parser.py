@@ -756,7 +756,7 @@ def make_device_parser(what: str, min_nodes: int, max_nodes: int, after: tuple[s
 
 
 def parse_instance(ctx, card, tokens):
-    """X: ``n1 ... nk subname [params:] [key=value ...]``."""
+    """X: ``n1 ... nk subname [params:] [key=value ...]``, or CDL's ``n1 ... nk / subname``."""
     toks = [t for t in tokens[1:] if t.text.lower() not in ("params:", "param:")]
     positional, pairs, _ = split_fields(toks)
     if not positional:
@@ -765,6 +765,8 @@ def parse_instance(ctx, card, tokens):
                   expected="N1 ... NK SUBCKT [PARAM=VALUE ...]", subject=tokens[0].text.lower())
         return None
     nodes, sub = positional[:-1], positional[-1]
+    if nodes and nodes[-1].text == "/":
+        nodes = nodes[:-1]  # CDL writes 'XI0 n1 n2 / cell': the slash only separates
     return _element(ctx, card, tokens, nodes, model=sub.text.lower(), params=_params(pairs))
 
 
