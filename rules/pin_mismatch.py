@@ -2,7 +2,8 @@
 
 What it finds
     An ``X`` line that connects more or fewer nets than the ``.subckt`` it names has
-    ports (a device-map entry's pins, for a mapped PDK device).
+    ports (a device-map entry's pins, for a mapped PDK device).  PSPICE ``OPTIONAL:``
+    ports may be left out, last ones first.
 
 Why it matters
     A simulator refuses the instance.  When the count is off by one, the likely
@@ -33,8 +34,10 @@ SUMMARY = "an instance whose node count differs from its subcircuit's ports"
 def check(ctx):
     for view in ctx.cells():
         for dev in view.devices:
+            optional = 0
             if dev.kind == "instance" and dev.subcell is not None:
                 ports = dev.subcell.ports
+                optional = len(dev.subcell.cell.optional_ports)
                 where = dev.subcell.cell.location
                 what = f".subckt {excerpt(dev.subcell.label)}"
             elif dev.spec is not None:
@@ -47,7 +50,7 @@ def check(ctx):
             # a mapped BJT may omit its substrate pin, a resistor or capacitor its body
             optional_last = (dev.spec is not None and dev.spec.kind not in ("nmos", "pmos")
                              and ports and ports[-1] in ("b", "s"))
-            if given == len(ports) or (optional_last and given == len(ports) - 1):
+            if len(ports) - optional <= given <= len(ports) or (optional_last and given == len(ports) - 1):
                 continue
             yield ctx.finding(
                 location=dev.location, subject=dev.name, view=view, elements=[dev.name],

@@ -3,7 +3,8 @@
 What it finds
     A ``.subckt`` port that no element inside the definition touches.  Empty
     definitions (no elements at all: black boxes, layout abstracts) are not reported,
-    nor are cells with a card lintamp could not read.
+    nor are cells with a card lintamp could not read, nor PSPICE ``OPTIONAL:`` ports
+    (a library cell declares its optional power pins whether it uses them or not).
 
 Why it matters
     Whatever the parent connects to that port goes nowhere: a supply, bias or input
@@ -37,8 +38,9 @@ def check(ctx):
     for view in ctx.cells():
         if view.cell.is_top or not view.devices or id(view) in skip:
             continue
+        optional = view.cell.optional_ports
         for port in dict.fromkeys(view.ports):
-            if view.net_terminals.get(port):
+            if port in optional or view.net_terminals.get(port):
                 continue
             count = ctx.design.instance_count(view)
             yield ctx.finding(

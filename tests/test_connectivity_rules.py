@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import json
 
+import pytest
+
 from lintamp.analysis import dc_paths
 from lintamp.api import check_text
 from lintamp.cli import main
@@ -274,6 +276,41 @@ def test_dangling_skips_ports_globals_and_voltage_outputs():
 def test_unused_port():
     text = ".subckt c a b unused\nR1 a b 1k\n.ends\n"
     assert found(text, "unused-port") == {("unused-port", "unused")}
+
+
+# PSPICE 'OPTIONAL:' ports (from memory of the PSPICE reference; ngspice-39 runs the 13
+# corpus decks of imr__ngspice/examples/digital/digital_devices that use them): an
+# instance may leave them out, last first, and a cell need not use them
+OPTIONAL_CELL = (".subckt buf a y\n+ optional: dpwr=$g_dpwr dgnd=$g_dgnd\n+ params: td=1n\n"
+                 "R1 a y 1k\n.ends\n")
+
+
+def test_optional_ports_may_be_left_out():
+    from lintamp.netlist.parser import parse_text
+    cell = parse_text("* t\n" + OPTIONAL_CELL).top.cells["buf"]
+    assert cell.ports == ("a", "y", "dpwr", "dgnd")
+    assert cell.optional_ports == {"dpwr": "$g_dpwr", "dgnd": "$g_dgnd"}
+    assert cell.defaults == {"td": "1n"}
+    for nets in ("in out", "in out vcc", "in out vcc gnd"):
+        text = OPTIONAL_CELL + f"X1 {nets} buf\nV1 in 0 1\nR9 out 0 1k\n"
+        assert not findings(text, "pin-mismatch"), nets
+        assert not findings(text, "unused-port"), nets
+    for nets in ("in", "in out vcc gnd extra"):
+        text = OPTIONAL_CELL + f"X1 {nets} buf\nV1 in 0 1\n"
+        assert [f.values for f in findings(text, "pin-mismatch")] == [
+            {"nets_given": len(nets.split()), "ports": 4}], nets
+
+
+def test_optional_ports_of_a_real_digital_library():
+    from pathlib import Path
+
+    from lintamp.api import check_file
+    corpus = Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"
+    deck = corpus / "imr__ngspice" / "examples" / "digital" / "digital_devices" / "behav-tristate.cir"
+    if not deck.is_file():
+        pytest.skip(f"corpus not found at {corpus} (checked out beside the repo as ../shared/corpus)")
+    rules = {f.rule for f in check_file(deck).findings}
+    assert not rules & {"pin-mismatch", "unused-port", "no-dc-path"}
 
 
 # -- the JSON report carries every field of INTERFACE.md -----------------------------------

@@ -411,11 +411,24 @@ class ParseContext:
             self.error(card, tokens[0].offset, ".subckt without a name", expected=".subckt NAME PORT ...")
             return
         name_tok = tokens[1]
-        rest = [t for t in tokens[2:] if t.text.lower() not in ("params:", "param:")]
+        rest = tokens[2:]
+        optional: list[tuple[Token, Token]] = []
+        words = [t.text.lower() for t in rest]
+        if "optional:" in words:
+            # PSPICE 'OPTIONAL: DPWR=$G_DPWR DGND=$G_DGND': ports an instance may leave
+            # out, each with a default net (up to 'PARAMS:'); not parameters
+            start = words.index("optional:")
+            stop = next((k for k in range(start + 1, len(rest)) if words[k] in ("params:", "param:")),
+                        len(rest))
+            extra, optional, _ = split_fields(rest[start + 1:stop])
+            rest = rest[:start] + extra + rest[stop:]
+        rest = [t for t in rest if t.text.lower() not in ("params:", "param:")]
         positional, params, _ = split_fields(rest)
+        positional += [k for k, _ in optional]
         ports = tuple(t.text.lower() for t in positional)
         cell = Cell(name=name_tok.text.lower(), ports=ports, location=card.location,
-                    display_name=name_tok.text, parent=self.cell)
+                    display_name=name_tok.text, parent=self.cell,
+                    optional_ports={k.text.lower(): v.text.lower() for k, v in optional})
         for k, v in params:
             cell.defaults[k.text.lower()] = v.text
             cell.params.append(ParamDef(k.text.lower(), v.text, card.location_at(k.offset)))

@@ -143,6 +143,10 @@ class Cell:
     """A ``.subckt`` definition, or the top level of a file (``name == ""``).
 
     ``cells`` are subcircuits defined inside this one (local scope).
+    ``optional_ports`` are the PSPICE ``OPTIONAL: port=default`` ports, last in
+    ``ports``, each with the default net it names (digital power pins such as
+    ``DPWR=$G_DPWR``).  An instance may leave them out; the ports it leaves out stay
+    unconnected in lintamp's model, as if the cell's power came from elsewhere.
     """
 
     name: str
@@ -158,6 +162,7 @@ class Cell:
     display_name: str = ""
     end_location: Location | None = None
     parent: "Cell | None" = field(default=None, repr=False)
+    optional_ports: dict[str, str] = field(default_factory=dict)
 
     @property
     def is_top(self) -> bool:
