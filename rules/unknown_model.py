@@ -5,7 +5,8 @@ What it finds
     defines (binned names such as ``nch.1`` count for ``nch``).  It is reported only
     where the files read define some models, or include them: a cell library with
     no models at all is meant to be combined with a PDK's model files, and every
-    model is then "unknown" by design.
+    model is then "unknown" by design.  PSPICE and Xyce digital gates (``U1 AND(2)
+    ...``) are not checked: their timing and I/O models come with the simulator.
 
 Why it matters
     A simulator stops.  Without the model, lintamp cannot tell an NMOS from a PMOS
@@ -27,6 +28,7 @@ import difflib
 from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
 from lintamp.netlist.reader import excerpt
+from lintamp.netlist.statements import is_digital_primitive
 
 NAME = "unknown-model"
 CATEGORY = "references"
@@ -49,6 +51,8 @@ def check(ctx):
             el = dev.element
             if el.letter not in _NEEDS_MODEL or not el.model or dev.model is not None:
                 continue
+            if is_digital_primitive(el):
+                continue  # its timing and I/O models live in the digital simulator's libraries
             names = [m for scope in scopes(view.cell) for m in scope.models]
             # a name longer than any real one has no close match worth the quadratic search
             close = difflib.get_close_matches(el.model, names, n=1) if len(el.model) <= 60 else []

@@ -313,6 +313,19 @@ def test_optional_ports_of_a_real_digital_library():
     assert not rules & {"pin-mismatch", "unused-port", "no-dc-path"}
 
 
+def test_digital_gates_are_not_analog_cards():
+    # PSPICE digital primitive syntax (from memory): type(size), power, ground, nodes,
+    # timing and I/O models; a SPICE3 U card is a uniform RC line with a .model
+    # (ngspice-39 manual, URC): that one is still checked
+    digital = ("U1 AND(2) $G_DPWR $G_DGND a b y d0_gate io_std mntymxdly={dly} io_level=0\n"
+               "UADD1 ADD dig_pn 0 in_1 in_2 carry_in sum_out carry_out dmod IC=FALSE,FALSE\n"
+               "R1 a 0 1k\nR2 b 0 1k\nR3 y 0 1k\n")
+    assert not findings(digital, "unknown-model")
+    assert not findings(digital, "undefined-param")
+    urc = "U1 1 2 0 urcmod l=50u\nR1 1 0 1k\nR2 2 0 1k\n"
+    assert [f.subject for f in findings(urc, "unknown-model")] == ["u1"]
+
+
 # -- the JSON report carries every field of INTERFACE.md -----------------------------------
 INTERFACE_FIELDS = {"rule", "severity", "path", "line", "column", "cell", "instances", "subject",
                     "nets", "elements", "message", "explanation", "fix", "values", "related",

@@ -15,7 +15,7 @@ from lintamp.location import Location
 from lintamp.netlist.expr import (CircularDefinition, ExprError, UserFunc,
                                   compile_expr, evaluate_params, evaluate_value, parse_number,
                                   strip_delimiters)
-from lintamp.netlist.statements import NO_PARAMS, Cell, Element, Netlist
+from lintamp.netlist.statements import NO_PARAMS, Cell, Element, Netlist, is_digital_primitive
 
 # names every SPICE expression may use without defining them
 BUILTIN_NAMES = frozenset({"pi", "e", "temper", "temp", "hertz", "time", "true", "false",
@@ -231,7 +231,7 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
                 yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
         for element in cell.elements:
             letter = element.letter
-            if letter in "yan":
+            if letter in "yan" or is_digital_primitive(element):
                 continue  # simulator-specific devices: their parameters are not expressions
             value, params, src = element.value, element.params, element.source
             if params is NO_PARAMS:

@@ -62,6 +62,24 @@ class _NoParams(dict):
 
 NO_PARAMS = _NoParams()
 
+# Gate types of the digital primitives PSPICE and Xyce write as U cards
+# ('U1 AND(2) $G_DPWR $G_DGND a b y dly io_std', 'UADD1 ADD dig_pn 0 a b ci s co dmod'),
+# from memory of both references.  Their fields are logic, timing and I/O-model
+# names, not analog values; a SPICE3 U card (a uniform RC line) starts with a net.
+DIGITAL_PRIMITIVES = frozenset({
+    "buf", "inv", "and", "nand", "or", "nor", "xor", "nxor", "not", "add",
+    "bufa", "inva", "anda", "nanda", "ora", "nora", "xora", "nxora",
+    "ao", "oa", "aoi", "oai", "buf3", "inv3", "and3", "nand3", "or3", "nor3", "xor3", "nxor3",
+    "buf3a", "inv3a", "and3a", "nand3a", "or3a", "nor3a", "xor3a", "nxor3a",
+    "dff", "jkff", "srff", "tff", "dltch", "pullup", "pulldn", "pindly", "logicexp",
+    "constraint", "stim", "filestim", "rom", "ram", "nbtg", "pbtg", "pla", "ctr",
+})
+
+
+def is_digital_primitive(element: "Element") -> bool:
+    """A PSPICE or Xyce digital gate written as a U card (see DIGITAL_PRIMITIVES)."""
+    return element.letter == "u" and bool(element.nodes) and element.nodes[0] in DIGITAL_PRIMITIVES
+
 
 @dataclass(slots=True)
 class Element:
