@@ -5,7 +5,9 @@ What it finds
     neither a ``.param`` of the cell or an enclosing scope, a ``.subckt`` parameter,
     nor a built-in constant.  A bare name used as a device size (``w=WA l=LA`` in an
     unsized netlist) is reported once per cell as information: the sizes stay
-    symbolic and numbers that need them are not computed.
+    symbolic and numbers that need them are not computed.  So are the names a cell
+    library (a file whose top level instantiates nothing) leaves to the deck that
+    includes it, unless one is a near miss of a name it defines.
 
 Why it matters
     A simulator refuses the deck, or (in some dialects) takes the name as zero.
@@ -37,6 +39,8 @@ SUMMARY = "an expression uses a parameter that is not defined in scope"
 
 def check(ctx):
     symbolic: dict[int, list] = {}
+    from_includer: dict[int, list] = {}
+    library = not ctx.design.deck_cells  # a cell library: its includer's .params are visible
     for use in undefined_names(ctx.netlist):
         view = ctx.design.view_of(use.cell) if use.cell is not None else None
         if isinstance(use, BadExpression):
@@ -53,10 +57,13 @@ def check(ctx):
         if use.symbolic_size:
             symbolic.setdefault(id(view), [view]).append(use)
             continue
-        where = excerpt(f"{use.key} of {use.element.name}" if use.element else use.key)
         # a name longer than any real one has no close match worth the quadratic search
         close = (difflib.get_close_matches(use.name, visible_params(use.cell), n=1)
                  if use.cell and len(use.name) <= 60 else [])
+        if library and not close and view is not None and not view.cell.is_top:
+            from_includer.setdefault(id(view), [view]).append(use)
+            continue  # (a near miss of a defined name stays an error: a slip, not an import)
+        where = excerpt(f"{use.key} of {use.element.name}" if use.element else use.key)
         hint = f"; did you mean '{excerpt(close[0])}'?" if close else ""
         shown = excerpt(use.name)
         yield ctx.finding(
@@ -77,4 +84,17 @@ def check(ctx):
             explanation=["bare names used as W, L, M or NF with no definition: an unsized netlist",
                          "checks that need sizes (operating point, impedances) skip these devices"],
             fix="size the netlist, or define the names with .param", values={"count": len(uses)})
-
+    for view, *uses in from_includer.values():
+        names = sorted({u.name for u in uses})
+        first = min(uses, key=lambda u: (u.location.line, u.location.column))
+        shown = ", ".join(excerpt(n, 20) for n in names[:6]) + (", ..." if len(names) > 6 else "")
+        yield ctx.finding(
+            location=first.location, subject="parameters from the includer", view=view,
+            severity=Severity.INFO,
+            message=f"{view.label} uses parameters this library does not define ({shown}): "
+                    f"{len(uses)} value(s) wait for the deck that includes it",
+            explanation=["this file is a cell library (nothing at its top level instantiates "
+                         "a cell), so a .param of the deck that includes it is visible here",
+                         "checked alone, those values stay symbolic"],
+            fix="define them in every deck that includes this library, or give them defaults "
+                "on the .subckt line", values={"count": len(uses), "names": names})

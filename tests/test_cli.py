@@ -122,6 +122,31 @@ def test_impedance_command_text_and_errors():
     assert port.returncode == 0
 
 
+def test_undefined_param_leaves_a_library_its_includers_parameters():
+    # SPICE scoping (ngspice-39 manual 2.8.3, from memory): a .param at a deck's top
+    # level is visible inside the subcircuits it includes, so a cell library checked
+    # alone (ngspice's examples/klu iscas_stdcells.lib sizes every cell with Wmin,
+    # Lmin, Ldiff) names parameters only its includer defines
+    from lintamp.api import check_text
+    from lintamp.findings import Severity
+    library = ("* cells\n.subckt inv a y vdd vss\nmn y a vss vss nch w={wmin} l={lmin}\n"
+               "mp y a vdd vdd pch w={2*wmin} l={lmin}\n.ends\n"
+               ".subckt buf a y vdd vss\nx1 a m vdd vss inv\nx2 m y vdd vss inv\nr1 y vss {rload}\n.ends\n"
+               ".model nch nmos\n.model pch pmos\n")
+    found = [f for f in check_text(library).findings if f.rule == "undefined-param"]
+    assert [(f.severity, f.values["names"], f.values["count"]) for f in found] == [
+        (Severity.INFO, ["lmin", "wmin"], 4), (Severity.INFO, ["rload"], 1)]
+    # the same cells in a deck that instantiates them: the names are missing for real
+    # a near miss of a name the library defines is a slip, even in a library
+    slip = library.replace("{rload}", "{rlaod}").replace("* cells\n", "* cells\n.param rload=1k\n")
+    found = [f for f in check_text(slip).findings if f.rule == "undefined-param"]
+    assert [(f.severity, f.subject) for f in found if f.subject == "rlaod"] == [(Severity.ERROR, "rlaod")]
+    deck = library + "x9 in out vdd 0 buf\nv1 vdd 0 1\nv2 in 0 0\n"
+    found = [f for f in check_text(deck).findings if f.rule == "undefined-param"]
+    assert {f.subject for f in found} == {"lmin", "rload", "wmin"}
+    assert {f.severity for f in found} == {Severity.ERROR}
+
+
 def test_undefined_param_knows_instance_passed_and_unsized_names():
     from lintamp.api import check_text
     # HSPICE and Xyce let an instance pass a parameter the .subckt line does not declare
