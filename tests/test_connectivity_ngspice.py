@@ -192,3 +192,29 @@ def test_random_circuits_agree_with_ngspice(seed, tmp_path):
         return  # exception 2/3
     assert ours == ng, (f"seed {seed}: lintamp {[(f.rule, f.subject) for f in hits]}, "
                         f"ngspice singular={ng}\n{body}\n{out[-1500:]}")
+
+
+# -- .ic holds its nets in a transient's initial operating point ----------------------------
+def ngspice_output(deck_text: str, tmp_path) -> str:
+    deck = tmp_path / "ic.sp"
+    deck.write_text(deck_text)
+    proc = subprocess.run([NGSPICE, "-b", str(deck)], capture_output=True, text=True, cwd=tmp_path,
+                          timeout=120)
+    return (proc.stdout + proc.stderr).lower()
+
+
+@pytest.mark.parametrize("ladder", [0, 3000])  # 3000 more resistors: the array path of the analysis
+@pytest.mark.parametrize("analysis,held", [(".tran 1m 10m", True), (".op", False),
+                                           (".tran 1m 10m\n.op", False)])
+def test_initial_condition_holds_a_net_only_in_a_transient(tmp_path, analysis, held, ladder):
+    # a current source into R1 and C1: node 2 has no DC level of its own; '.ic v(2)=0'
+    # holds it in the transient's initial operating point but not in .op (ngspice-39
+    # manual, .IC; and our runs: the .tran deck starts at v(1) = 1 V, .op warns
+    # 'singular matrix: check node 2')
+    body = "i1 0 1 1m\nr1 1 2 1k\nc1 2 3 1u\nvm1 3 0 0\n.ic v(2)=0\nvs s0 0 1\n"
+    body += "".join(f"rl{k} s{k} s{k + 1} 1k\n" for k in range(ladder)) + (f"rg s{ladder} 0 1k\n" if ladder else "")
+    deck = "* ic deck\n" + body + analysis + "\n.end\n"
+    out = ngspice_output(deck, tmp_path)
+    assert ("singular matrix" in out) == (not held), out[-2000:]
+    rules = {f.rule for f in check_text(deck, "ic.sp").findings if f.severity == Severity.ERROR}
+    assert ("current-cutset" in rules) == (not held)

@@ -808,6 +808,14 @@ def anchored(ddc: DesignDC, design, dc: CellDC):
         for comp, names in dc.globals.items():
             if everything or names & ddc.defined_globals:
                 anchor[comp] = True
+    netlist = design.netlist
+    if dc.view is design.top and netlist.initial_conditions and netlist.transient_only():
+        # the transient's initial operating point holds each '.ic' net at its value, and
+        # no other operating point is solved (ngspice-39: no singular matrix then)
+        for net in netlist.initial_conditions:
+            number = dc.index.get(net)
+            if number is not None:
+                anchor[dc.labels[number]] = True
     return anchor
 
 

@@ -25,9 +25,11 @@ WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "tr
 # source keywords that take a fixed number of values and say nothing of topology
 SOURCE_KEYWORDS = {"portnum": 1, "z0": 1, "distof1": 2, "distof2": 2, "pwr": 1, "freq": 1}
 SOURCE_WORDS = WAVEFORMS | {"dc", "ac"} | set(SOURCE_KEYWORDS)
+# '.ic v(out)=0 v(x)={vx}': a node, then its value up to the next blank-separated field
+_INITIAL_CONDITION = re.compile(r"\bv\(\s*([^\s(),=]+)\s*\)\s*=\s*(\S+)", re.IGNORECASE)
 ANALYSES = {".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".sens", ".pz", ".disto", ".pss",
             ".sp", ".hb", ".four", ".mpde", ".step", ".fft", ".lin"}
-IGNORED_DOT = {".ic", ".nodeset", ".save", ".print", ".plot", ".probe", ".meas", ".measure",
+IGNORED_DOT = {".nodeset", ".save", ".print", ".plot", ".probe", ".meas", ".measure",
                ".width", ".title", ".csparam", ".preprocess", ".protect", ".unprotect", ".alter",
                ".options", ".option", ".opt", ".temp",
                ".global", ".param", ".func", ".model", ".subckt", ".ends", ".end", ".lib",
@@ -398,6 +400,10 @@ class ParseContext:
             self.title_card = True
         elif word == ".end":
             pass
+        elif word == ".ic":
+            if len(self.stack) == 1:  # a .ic inside a .subckt is not read by every simulator
+                for net, value in _INITIAL_CONDITION.findall(card.text):
+                    nl.initial_conditions[net.lower()] = value
         elif word in (".if", ".elseif", ".else", ".endif"):
             self.conditional(card, word)
         elif word in IGNORED_DOT:

@@ -206,6 +206,14 @@ class Netlist:
     files: list[str] = field(default_factory=list)  # every file read, the top one first
     cdl: dict[str, list[str]] = field(default_factory=dict)  # *.PININFO, *.GLOBAL, ... metadata
     observed: set[str] = field(default_factory=set)  # nets .print/.plot/.save/.control look at
+    # top-level nets a '.ic v(net)=value' card sets: a transient's initial operating
+    # point holds them there (ngspice-39 manual, .IC)
+    initial_conditions: dict[str, str] = field(default_factory=dict)
+
+    def transient_only(self) -> bool:
+        """Every analysis card is a .tran (and there is one): the only operating point
+        solved is the transient's initial one, where .ic values hold their nets."""
+        return bool(self.analyses) and all(a.kind == "tran" for a in self.analyses)
 
     def all_cells(self):
         """Every cell, depth first: the top level, then each subcircuit definition."""
