@@ -304,3 +304,18 @@ def test_include_inside_a_branch_not_taken_is_not_opened(tmp_path):
         result = check_file(path, Config(root=tmp_path))
         assert [f.location.line for f in result.findings if f.rule == "missing-include"] == missing
         assert ("tt.lib" in " ".join(result.files_read)) == (corner == 1)
+
+
+@pytest.mark.parametrize("card", ["v39 vdd 0 dc=3.5 pulse ( 0 3.5 10u 10n 10n 1 2 )",
+                                  "V39 vdd 0 DC=3.5 PULSE(0 1 6400u 100n 100n 6400u 12800u)"])
+def test_dc_assignment_before_a_waveform(card):
+    # corpus: ngspice examples/soa/nic_soa.cir and xspice/d_lut/mult4bit.spi; ngspice-39's
+    # operating point puts vdd at the dc value, 3.5 V, and the pulse is the waveform
+    import ngspice_harness as ng
+    from lintamp.analysis.operating_point import solve_operating_point
+    from lintamp.api import flat_circuit_from_text
+    deck = f"dc then waveform\n{card}\nr1 vdd 0 1k\n.end\n"
+    source = only(card + "\nr1 vdd 0 1k\n").source
+    assert source.dc == "3.5" and source.waveform == "pulse" and len(source.waveform_args) == 7
+    assert solve_operating_point(flat_circuit_from_text(deck, "d.sp")).v("vdd") == pytest.approx(3.5)
+    assert ng.operating_point(deck, ["vdd"])["vdd"] == pytest.approx(3.5, abs=1e-6)  # ngspice-39 op

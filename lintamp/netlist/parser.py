@@ -594,6 +594,21 @@ def parse_source(ctx, card, tokens):
         return None
     nodes, rest = positional[:2], positional[2:]
     src = Source()
+    _read_source_fields(src, rest)
+    params = _params(pairs)
+    if src.dc is None and "dc" in params:
+        src.dc = params.pop("dc")
+        head, _, tail = src.dc.partition(" ")
+        if tail and tail.split("(")[0].split()[0].lower() in WAVEFORMS | {"ac"}:
+            # 'dc=3.5 pulse(0 3.5 ...)' (ngspice reads it): the value re-read as one
+            # field ends at the blank, and the waveform follows
+            src.dc = head
+            _read_source_fields(src, tokenize(tail))
+    return _element(ctx, card, tokens, nodes, source=src, value=src.dc, params=params)
+
+
+def _read_source_fields(src: Source, rest: list[Token]) -> None:
+    """Fill ``src`` from a source card's positional fields after its two nodes."""
     i = 0
     while i < len(rest):
         word = rest[i].text.lower()
@@ -634,10 +649,6 @@ def parse_source(ctx, card, tokens):
             i += 1
         else:
             i += 1  # distof1/distof2 and friends: not topology
-    params = _params(pairs)
-    if src.dc is None and "dc" in params:
-        src.dc = params.pop("dc")
-    return _element(ctx, card, tokens, nodes, source=src, value=src.dc, params=params)
 
 
 def _controlled_nodes_from_expr(text: str) -> list[str]:
