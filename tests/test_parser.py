@@ -319,3 +319,13 @@ def test_dc_assignment_before_a_waveform(card):
     assert source.dc == "3.5" and source.waveform == "pulse" and len(source.waveform_args) == 7
     assert solve_operating_point(flat_circuit_from_text(deck, "d.sp")).v("vdd") == pytest.approx(3.5)
     assert ng.operating_point(deck, ["vdd"])["vdd"] == pytest.approx(3.5, abs=1e-6)  # ngspice-39 op
+
+
+@pytest.mark.parametrize("card", ["v1 a 0 dc=1 (2 3)", "v1 a 0 dc=1 ( pulse 2 3)", "v1 a 0 dc={x} (",
+                                  "v1 a 0 dc=1\tpulse(0 1 1u)", "v1 a 0 dc=", "i1 a 0 dc=1 ac", "v1 a 0 dc=1 )"])
+def test_odd_dc_assignments_never_crash(card):
+    # untrusted input (house rule): whatever follows 'dc=' is read or reported, never a traceback
+    netlist = parse(card + "\n")
+    for element in netlist.top.elements:
+        assert element.source is not None
+

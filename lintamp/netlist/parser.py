@@ -25,6 +25,7 @@ WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "tr
 # source keywords that take a fixed number of values and say nothing of topology
 SOURCE_KEYWORDS = {"portnum": 1, "z0": 1, "distof1": 2, "distof2": 2, "pwr": 1, "freq": 1}
 SOURCE_WORDS = WAVEFORMS | {"dc", "ac"} | set(SOURCE_KEYWORDS)
+_LEADING_WORD = re.compile(r"[A-Za-z]+")
 # '.ic v(out)=0 v(x)={vx}': a node, then its value up to the next blank-separated field
 _INITIAL_CONDITION = re.compile(r"\bv\(\s*([^\s(),=]+)\s*\)\s*=\s*(\S+)", re.IGNORECASE)
 ANALYSES = {".op", ".dc", ".ac", ".tran", ".noise", ".tf", ".sens", ".pz", ".disto", ".pss",
@@ -598,12 +599,13 @@ def parse_source(ctx, card, tokens):
     params = _params(pairs)
     if src.dc is None and "dc" in params:
         src.dc = params.pop("dc")
-        head, _, tail = src.dc.partition(" ")
-        if tail and tail.split("(")[0].split()[0].lower() in WAVEFORMS | {"ac"}:
+        parts = src.dc.split(None, 1)
+        word = _LEADING_WORD.match(parts[1]) if len(parts) == 2 else None
+        if word and word.group(0).lower() in WAVEFORMS | {"ac"}:
             # 'dc=3.5 pulse(0 3.5 ...)' (ngspice reads it): the value re-read as one
             # field ends at the blank, and the waveform follows
-            src.dc = head
-            _read_source_fields(src, tokenize(tail))
+            src.dc = parts[0]
+            _read_source_fields(src, tokenize(parts[1]))
     return _element(ctx, card, tokens, nodes, source=src, value=src.dc, params=params)
 
 
