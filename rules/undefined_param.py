@@ -75,26 +75,30 @@ def check(ctx):
             fix=f"define it (.param {shown}=...), pass it as a subcircuit parameter, "
                 "or correct the spelling")
     for view, *uses in symbolic.values():
-        names = sorted({u.name for u in uses})
-        first = min(uses, key=lambda u: (u.location.line, u.location.column))
+        names, shown, first = _summary(uses)
         yield ctx.finding(
             location=first.location, subject="symbolic sizes", view=view, severity=Severity.INFO,
-            message=f"device sizes and values are symbolic ({', '.join(excerpt(n, 20) for n in names[:6])}"
-                    f"{', ...' if len(names) > 6 else ''}): {len(uses)} value(s) stay unsized",
+            message=f"device sizes and values are symbolic ({shown}): {len(uses)} value(s) stay unsized",
             explanation=["bare names used as W, L, M or NF with no definition: an unsized netlist",
                          "checks that need sizes (operating point, impedances) skip these devices"],
             fix="size the netlist, or define the names with .param", values={"count": len(uses)})
     for view, *uses in from_includer.values():
-        names = sorted({u.name for u in uses})
-        first = min(uses, key=lambda u: (u.location.line, u.location.column))
-        shown = ", ".join(excerpt(n, 20) for n in names[:6]) + (", ..." if len(names) > 6 else "")
+        names, shown, first = _summary(uses)
         yield ctx.finding(
             location=first.location, subject="parameters from the includer", view=view,
             severity=Severity.INFO,
             message=f"{view.label} uses parameters this library does not define ({shown}): "
                     f"{len(uses)} value(s) wait for the deck that includes it",
-            explanation=["this file is a cell library (nothing at its top level instantiates "
-                         "a cell), so a .param of the deck that includes it is visible here",
+            explanation=["this file is a cell library (its top level holds no element of its "
+                         "own), so a .param of the deck that includes it is visible here",
                          "checked alone, those values stay symbolic"],
             fix="define them in every deck that includes this library, or give them defaults "
                 "on the .subckt line", values={"count": len(uses), "names": names})
+
+
+def _summary(uses):
+    """The sorted names of a cell's uses, the first six of them for a message, and the
+    first use in the file."""
+    names = sorted({u.name for u in uses})
+    shown = ", ".join(excerpt(n, 20) for n in names[:6]) + (", ..." if len(names) > 6 else "")
+    return names, shown, min(uses, key=lambda u: (u.location.line, u.location.column))
