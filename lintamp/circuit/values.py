@@ -230,12 +230,12 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
             for name in sorted(names - known):
                 yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
         for element in cell.elements:
+            if element.params is NO_PARAMS:
+                continue  # a plain card, its value already read as a number (see NO_PARAMS)
             letter = element.letter
             if letter in "yan" or is_digital_primitive(element):
                 continue  # simulator-specific devices: their parameters are not expressions
             value, params, src = element.value, element.params, element.source
-            if params is NO_PARAMS:
-                continue  # a plain card, its value already read as a number (see NO_PARAMS)
             if not params and src is None:
                 # the common case of an extracted deck: 'R1 a b 326.1', one numeric value
                 if value is None or parse_number(value) is not None:
