@@ -1,7 +1,5 @@
 """``python -m lintamp`` runs the command line."""
 
-import sys
+from lintamp.cli import run
 
-from lintamp.cli import main
-
-sys.exit(main())
+run()

@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Iterable
 
 from lintamp.findings import Finding, Report, Severity
-from lintamp.gcpause import paused_gc
+from lintamp.gcpause import paused_gc, release, retain
 from lintamp.location import Location
 from lintamp.pragma import Pragma
 
@@ -119,6 +119,7 @@ def analyse(netlist: Netlist, config=None, *, top: str | None = None,
                 "this is a bug in lintamp, please report it with the netlist")
     for cell in netlist.all_cells():
         result.pragmas.extend(cell.pragmas)
+    retain(ctx)  # the command line exits without freeing it (see lintamp.gcpause)
     return result
 
 
@@ -126,6 +127,7 @@ def check_file(path: Path, config=None, *, top: str | None = None,
                include_paths: Iterable[Path] = (), options: dict | None = None) -> FileResult:
     from lintamp.netlist.parser import parse_file  # here: a cache hit never needs the parser
     config = config or default_config()
+    release()  # the previous file's objects, if the command line kept them
     with paused_gc():  # see lintamp.gcpause: millions of live objects, almost no cycles
         netlist = parse_file(path, read_options(path, config, include_paths))
         return analyse(netlist, config, top=top, options=options)

@@ -113,6 +113,23 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_OK
 
 
+def run() -> None:
+    """The ``lintamp`` program: :func:`main`, then leave without freeing the last
+    file's objects one by one (see :mod:`lintamp.gcpause`); every report is written
+    and closed by then, and the streams are flushed here."""
+    import os
+
+    from lintamp import gcpause
+    gcpause.retain_until_exit = True
+    code = main()
+    try:
+        sys.stdout.flush()
+        sys.stderr.flush()
+    except (BrokenPipeError, ValueError):  # a closed pipe or stream: nothing left to say
+        pass
+    os._exit(code)
+
+
 def _known_rules() -> dict[str, str]:
     from lintamp.registry import all_rules
     return {name: rule.category for name, rule in all_rules().items()}

@@ -15,6 +15,13 @@ in the youngest generation, and the first collection after that would scan it al
 (``gc.freeze``: left out of collections); the next paused block unfreezes them
 first, so a process that checks file after file still collects, on the normal
 schedule, whatever cycles the earlier files left.
+
+Freeing is not free either: a million-element netlist is five million objects, and
+handing them back one by one takes about half a second.  The command line has no use
+for them once the findings are out, so it asks :func:`retain` to keep the last file's
+objects alive and leaves with ``os._exit`` (see ``lintamp.cli.run``), as the operating
+system takes the whole heap back at once.  A Python caller never asks, and frees them
+as usual.
 """
 
 from __future__ import annotations
@@ -24,6 +31,24 @@ from contextlib import contextmanager
 from typing import Iterator
 
 FREEZE_ABOVE = 500_000  # tracked objects allocated in the block
+
+# set by the command line only (lintamp.cli.run): keep the last file's netlist alive
+# to the process's end instead of freeing it object by object
+retain_until_exit = False
+_retained: list[object] = []
+
+
+def retain(obj: object) -> None:
+    """Keep ``obj`` (what the last file's check built) alive until the process ends,
+    when the command line asked for that."""
+    if retain_until_exit:
+        _retained[:] = [obj]
+
+
+def release() -> None:
+    """Free what :func:`retain` kept: called before the next file is read, so a run
+    over many files never holds two files' objects at once."""
+    _retained.clear()
 
 
 @contextmanager

@@ -160,3 +160,35 @@ def test_undefined_param_knows_instance_passed_and_unsized_names():
     # with parameters defined, a bare undefined name is a slip
     slip = ".param rval=1k\n".join(["t\n", "r1 a 0 rvla\n"])
     assert [f.subject for f in check_text(slip).findings if f.rule == "undefined-param"] == ["rvla"]
+
+
+def test_program_exit_writes_everything_and_keeps_the_exit_code(tmp_path):
+    # the program leaves with os._exit (lintamp.cli.run): what it printed to a pipe and
+    # the exit code must be those of main() (common practice for command-line tools)
+    deck = tmp_path / "open.sp"
+    deck.write_text("* one resistor to nowhere\nv1 a 0 1\nr1 a b 1k\n.end\n")
+    proc = subprocess.run([sys.executable, "-m", "lintamp", "check", "--isolated", "--no-cache",
+                           "--format", "json", str(deck)], capture_output=True, text=True, cwd=tmp_path)
+    doc = json.loads(proc.stdout)
+    assert proc.returncode == 1 and doc["summary"]["warnings"] >= 1, proc.stderr
+    assert main(["check", "--isolated", "--no-cache", "--format", "json", "-o",
+                 str(tmp_path / "out.json"), str(deck)]) == 1
+    same = json.loads((tmp_path / "out.json").read_text())["findings"]
+    assert [(f["rule"], f["line"], f["message"]) for f in same] == \
+        [(f["rule"], f["line"], f["message"]) for f in doc["findings"]]  # paths differ: cwd
+
+
+def test_only_the_program_keeps_a_file_alive_to_the_end():
+    from lintamp import gcpause
+    held = object()
+    gcpause.retain(held)  # a Python caller: nothing is kept
+    assert gcpause._retained == []
+    gcpause.retain_until_exit = True
+    try:
+        gcpause.retain(held)
+        assert gcpause._retained == [held]
+        gcpause.release()
+        assert gcpause._retained == []
+    finally:
+        gcpause.retain_until_exit = False
+        gcpause.release()

@@ -75,3 +75,30 @@ def test_writer_matches_on_real_reports(rich_finding, tmp_path):
     report = sample_report(rich_finding, tmp_path)
     doc = report_document(report, report.findings, "0.1.0")
     assert dumps_indented(doc) == json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)
+
+
+def test_streamed_writer_gives_the_standard_library_text():
+    # reference: json.dumps(indent=2) of the same document (Python standard library)
+    from lintamp.report.json_text import write_indented
+    docs = [d for d in TRICKY if isinstance(d, dict)] + [
+        {"k": (1, 2)}, {1: "int key"}, {}, {"empty": [], "one": [{}], "deep": [[1, [2]], {"a": [3]}]},
+        {"odd": [{"t": (1, 2)}, {2: "int key inside"}, "plain"]}]
+    for doc in docs:
+        pieces: list[str] = []
+        write_indented(doc, pieces.append)
+        assert "".join(pieces) == json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    pieces = []
+    write_indented({"items": iter([{"a": 1}, [2]]), "none": iter([])}, pieces.append)
+    assert "".join(pieces) == json.dumps({"items": [{"a": 1}, [2]], "none": []}, indent=2) + "\n"
+
+
+def test_streamed_report_is_the_whole_document(rich_finding, tmp_path):
+    import io
+
+    from lintamp.report.json_report import JsonReporter, report_document
+    from lintamp.report.base import emit
+    report = sample_report(rich_finding, tmp_path)
+    stream = io.StringIO()
+    emit(JsonReporter(stream, color=False, rules={}, tool_version="0.1.0"), report)
+    doc = report_document(report, report.findings, "0.1.0")
+    assert stream.getvalue() == json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from lintamp.findings import Report, Waived
 from lintamp.report.base import Reporter, finding_data
-from lintamp.report.json_text import dumps_indented
+from lintamp.report.json_text import write_indented
 
 SCHEMA = 1
 
@@ -16,9 +16,12 @@ def waived_data(waived: Waived) -> dict:
     return data
 
 
-def report_document(report: Report, findings, tool_version: str) -> dict:
+def report_document(report: Report, findings, tool_version: str, *, lazy: bool = False) -> dict:
+    """The report as JSON data; with ``lazy`` its findings are an iterator that builds
+    each one's data when asked (for :func:`write_indented`)."""
+    data = map(finding_data, findings)
     doc = {"tool": "lintamp", "version": tool_version, "schema": SCHEMA,
-           "findings": [finding_data(f) for f in findings],
+           "findings": data if lazy else list(data),
            "waived": [waived_data(w) for w in report.waived],
            "summary": report.summary()}
     if report.baseline_used:
@@ -28,5 +31,5 @@ def report_document(report: Report, findings, tool_version: str) -> dict:
 
 class JsonReporter(Reporter):
     def finish(self, report: Report) -> None:
-        doc = report_document(report, self.findings, self.tool_version)
-        self.stream.write(dumps_indented(doc) + "\n")
+        doc = report_document(report, self.findings, self.tool_version, lazy=True)
+        write_indented(doc, self.stream.write)

@@ -10,6 +10,7 @@ an object) makes it hand the whole document to ``json.dumps``.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable, Iterator
 from json.encoder import encode_basestring
 
 _INDENT = "  "
@@ -27,6 +28,48 @@ def dumps_indented(doc) -> str:
     except _NotPlain:
         return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False)
     return "".join(out)
+
+
+def write_indented(doc: dict, write: Callable[[str], object]) -> None:
+    """Write ``dumps_indented(doc) + "\n"`` in pieces, to ``write``.
+
+    A top-level value that is a list or an iterator is written item by item, each
+    item's text made and written before the next item is even built: a report of many
+    findings never holds all their data, nor all its text, at once.  An iterator is
+    written as the list of its items.
+    """
+    if not doc or any(type(key) is not str for key in doc):
+        write(json.dumps(_lists(doc), indent=2, ensure_ascii=False, allow_nan=False) + "\n")
+        return
+    lead = "{\n  "
+    for key, value in doc.items():
+        write(lead + encode_basestring(key) + ": ")
+        lead = ",\n  "
+        if type(value) is list or isinstance(value, Iterator):
+            sep = "[\n    "
+            for item in value:
+                write(sep + _text(item, "\n    "))
+                sep = ",\n    "
+            write("[]" if sep == "[\n    " else "\n  ]")
+        else:
+            write(_text(value, "\n  "))
+    write("\n}\n")
+
+
+def _text(obj, newline: str) -> str:
+    """``obj`` as ``json.dumps`` writes it at the nesting level ``newline`` indents to."""
+    out: list[str] = []
+    try:
+        _write(obj, newline, out)
+    except _NotPlain:
+        # json.dumps indents by nesting level alone and escapes every newline inside a
+        # string, so the text of a value at that level is its own text re-indented
+        return json.dumps(obj, indent=2, ensure_ascii=False, allow_nan=False).replace("\n", newline)
+    return "".join(out)
+
+
+def _lists(doc: dict) -> dict:
+    return {key: list(value) if isinstance(value, Iterator) else value for key, value in doc.items()}
 
 
 def _write(obj, newline: str, out: list[str]) -> None:
