@@ -18,7 +18,8 @@ from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt,
                                     open_regular, probed_nets, read, read_text)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
-                                        Model, Netlist, ParamDef, Pragma, Source)
+                                        Model, Netlist, Origin, ParamDef, Pragma, Source,
+                                        new_plain_element)
 
 WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
              "pat", "pwl_file"}
@@ -191,6 +192,9 @@ class ParseContext:
         self.element_cards: list[Element] = []  # every element, for the pragmas to find
         self.title_card = False
         self._names: dict[str, str] = {}  # one string object per distinct net name
+        # the shared place record of plain cards, one per (file, column); the last one used
+        self._origins: dict[tuple[str, int], Origin] = {}
+        self._origin = Origin("", 0)
         # device cards whose model could not be told from a node: parsed again at
         # the end, once every .model name is known
         self.deferred: list = []
@@ -367,8 +371,10 @@ class ParseContext:
             raw = nodes if a == low_a and b == low_b else (a, b)
             model = None
         _, line, col = card.segments[0]
-        return Element(name, letter, nodes, card.path, line, col, model, value, params,
-                       (), None, None, raw)
+        origin = self._origin
+        if col != origin.column or card.path != origin.path:
+            origin = self._origin = self._origins.setdefault((card.path, col), Origin(card.path, col))
+        return new_plain_element(name, letter, nodes, line, model, value, params, raw, origin)
 
     # -- dot cards -------------------------------------------------------------
     def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:

@@ -81,7 +81,25 @@ def is_digital_primitive(element: "Element") -> bool:
     return element.letter == "u" and bool(element.nodes) and element.nodes[0] in DIGITAL_PRIMITIVES
 
 
-@dataclass(slots=True)
+class Origin:
+    """Where an element was written and its rarer fields: one shared object for every
+    plain card of a file at one column (see :func:`new_plain_element`), so a big netlist
+    does not hold five pointers per element that are almost always the same."""
+
+    __slots__ = ("path", "column", "controls", "source", "expression")
+
+    def __init__(self, path: str, column: int, controls: tuple[str, ...] = (),
+                 source: "Source | None" = None, expression: str | None = None):
+        self.path = path
+        self.column = column
+        self.controls = controls
+        self.source = source
+        self.expression = expression
+
+    def __reduce__(self):
+        return Origin, (self.path, self.column, self.controls, self.source, self.expression)
+
+
 class Element:
     """One element card.  ``letter`` is the lower-case first letter of the name.
 
@@ -91,21 +109,52 @@ class Element:
     :data:`NO_PARAMS` for many elements without any);
     ``controls`` the controlling V-source names of F/H/W elements and POLY forms.
     ``path``, ``line`` and ``column`` are where the card starts (``location``).
+    ``path``, ``column``, ``controls``, ``source`` and ``expression`` are read-only.
     """
 
-    name: str
-    letter: str
-    nodes: tuple[str, ...]
-    path: str
-    line: int
-    column: int
-    model: str | None = None
-    value: str | None = None
-    params: dict[str, str] = field(default_factory=dict)
-    controls: tuple[str, ...] = ()
-    source: Source | None = None
-    expression: str | None = None  # B sources, E/G VALUE= / TABLE bodies
-    raw_nodes: tuple[str, ...] = ()  # original spelling of nodes, for messages
+    __slots__ = ("name", "letter", "nodes", "line", "model", "value", "params", "raw_nodes",
+                 "_origin")
+
+    def __init__(self, name: str, letter: str, nodes: tuple[str, ...], path: str, line: int,
+                 column: int, model: str | None = None, value: str | None = None,
+                 params: dict[str, str] | None = None, controls: tuple[str, ...] = (),
+                 source: Source | None = None, expression: str | None = None,
+                 raw_nodes: tuple[str, ...] = ()):
+        self.name = name
+        self.letter = letter
+        self.nodes = nodes
+        self.line = line
+        self.model = model
+        self.value = value
+        self.params = {} if params is None else params
+        self.raw_nodes = raw_nodes
+        self._origin = Origin(path, column, controls, source, expression)
+
+    path = property(lambda self: self._origin.path)
+    column = property(lambda self: self._origin.column)
+    controls = property(lambda self: self._origin.controls)
+    source = property(lambda self: self._origin.source)
+    expression = property(lambda self: self._origin.expression)
+
+    def _fields(self) -> tuple:
+        return (self.name, self.letter, self.nodes, self.path, self.line, self.column, self.model,
+                self.value, self.params, self.controls, self.source, self.expression, self.raw_nodes)
+
+    def __eq__(self, other):
+        if other.__class__ is not Element:
+            return NotImplemented
+        return self._fields() == other._fields()
+
+    __hash__ = None  # mutable, compared by value (as a dataclass with eq would be)
+
+    def __repr__(self) -> str:
+        names = ("name", "letter", "nodes", "path", "line", "column", "model", "value", "params",
+                 "controls", "source", "expression", "raw_nodes")
+        return "Element(" + ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields())) + ")"
+
+    def __reduce__(self):
+        return _rebuild_element, (self.name, self.letter, self.nodes, self.line, self.model,
+                                  self.value, self.params, self.raw_nodes, self._origin)
 
     @property
     def key(self) -> str:
@@ -115,7 +164,32 @@ class Element:
     def location(self) -> Location:
         """Where the card starts; built when asked for (a big netlist holds millions of
         elements, and few of them are ever reported)."""
-        return Location(self.path, self.line, self.column)
+        return Location(self._origin.path, self.line, self._origin.column)
+
+
+_new_element = object.__new__
+
+
+def new_plain_element(name: str, letter: str, nodes: tuple[str, ...], line: int, model: str | None,
+                  value: str | None, params: dict[str, str], raw_nodes: tuple[str, ...],
+                  origin: Origin) -> Element:
+    """An element with no controls, source or expression, at the place ``origin`` (one
+    shared :class:`Origin` per file and column): the parser's plain-card path."""
+    element = _new_element(Element)
+    element.name = name
+    element.letter = letter
+    element.nodes = nodes
+    element.line = line
+    element.model = model
+    element.value = value
+    element.params = params
+    element.raw_nodes = raw_nodes
+    element._origin = origin
+    return element
+
+
+def _rebuild_element(*fields) -> Element:
+    return new_plain_element(*fields)
 
 
 @dataclass(slots=True)
