@@ -140,6 +140,7 @@ def parsed(text: str, plain: bool):
     with pytest.MonkeyPatch.context() as patch:
         if not plain:
             patch.setattr(ParseContext, "plain_element", lambda self, card, text: None)
+            patch.setattr(ParseContext, "runs", None)  # no runs of lines in bulk either
         netlist = parse_text(text, "deck.sp")
     return ([(e, dict(e.params)) for e in netlist.top.elements],
             [(d.rule, d.location, d.message) for d in netlist.diagnostics])
@@ -188,3 +189,146 @@ def test_elements_without_params_share_one_read_only_dict():
     assert copy.deepcopy(elements[0]).params is NO_PARAMS
     assert elements[0].location == elements[0].location  # built on demand, equal each time
     assert (elements[1].location.line, elements[1].location.column) == (3, 1)
+
+
+# ------------------------------------------------------------------ runs of plain cards
+
+# Runs of R/C/L cards handed over in bulk (reader.split_runs, ParseContext.take_run) must
+# parse as the same cards one at a time.  The layouts around them are the reader's edges
+# (ngspice manual ch. 1 as summarised in spice-syntax.md sections 1-2: title line, '+'
+# continuations, '*' comments, ';'/'$' inline comments, .control blocks, .if branches);
+# the rest from memory of decks.
+RUN_LINES = [
+    "r1 a b 10.5", "R2 A B 10K", "c3 a 0 1.2f", "C4 Out 0 4.7e-15", "l5 a b 1u", "r6 a b 1MEG",
+    "r7\ta\tb\t3.3", "r8 a b 2 ", "c9 a b .5", "c10 a b 1.", "c11 a b -0", "c12 a b 10uF",
+    "r13 n+ n- 5", "r14 a*b c 5", "r15 a b 1e99", "r16 a b 1e+05meg",
+]
+AROUND = [
+    "+ 2k", "*comment", "* lintamp: waive no-dc-path -- ok", "", "  ", "r17 a b 1k ; c",
+    "r18 a b 1k $ c", "m1 d g s b nch w=1u l=0.15u", ".control", ".endc", "print v(a)",
+    ".if (1 == 0)", ".else", ".endif", ".param p=1", "   r19 a b 1", "r20 a b {p}",
+    "c21 a b 1e400", "r22 a b 1k3", "r23 a b 1d3", ".subckt cell a b", ".ends", "x1 a b cell",
+    ".end", "c24 A B 1e123", "r25 a b 1" + "0" * 16,
+]
+
+
+def bulk_spy(patch):
+    from lintamp.netlist.parser import ParseContext
+    taken = []
+    original = ParseContext.take_run
+
+    def spy(self, text, path, first_line, count):
+        taken.append(count)
+        return original(self, text, path, first_line, count)
+
+    patch.setattr(ParseContext, "take_run", spy)
+    return taken
+
+
+def parsed_deck(text: str, bulk: bool):
+    from lintamp.netlist.parser import ParseContext, parse_text
+    with pytest.MonkeyPatch.context() as patch:
+        taken = bulk_spy(patch)
+        if not bulk:
+            patch.setattr(ParseContext, "runs", None)
+        netlist = parse_text(text, "deck.sp")
+    return ([(c.name, [(e, e.location, dict(e.params)) for e in c.elements])
+             for c in netlist.all_cells()],
+            [(d.rule, d.location, d.message) for d in netlist.diagnostics],
+            netlist.title, sorted((p.verb, p.location) for c in netlist.all_cells()
+                                  for p in c.pragmas)), taken
+
+
+def test_runs_of_plain_cards_parse_as_the_cards_one_by_one():
+    body = []
+    for k, around in enumerate(AROUND):
+        body.extend(RUN_LINES[k % 5:] + [around])
+    deck = "\n".join(RUN_LINES[:4] + body + RUN_LINES) + "\n"  # the title line matches too
+    fast, taken = parsed_deck(deck, bulk=True)
+    slow, none = parsed_deck(deck, bulk=False)
+    assert fast == slow
+    assert none == [] and len(taken) > len(AROUND) // 2 and sum(taken) > 200  # runs were taken
+    assert fast[2] == "r1 a b 10.5"
+    # a run followed by '+' keeps its last line a card of its own, continued
+    continued = [e for _, elements in fast[0] for e, _, _ in elements if e.value == "10.5"]
+    assert any(e.params == {} and e.model is None for e in continued)
+
+
+def test_a_run_inside_a_branch_not_taken_is_skipped():
+    deck = "t\n.if (0)\n" + "\n".join(RUN_LINES * 3) + "\n.else\nr1 a 0 1\n.endif\n"
+    (cells, diags, _, _), taken = parsed_deck(deck, bulk=True)
+    assert taken and [e.name for e, _, _ in cells[0][1]] == ["r1"]
+    assert (cells, diags) == parsed_deck(deck, bulk=False)[0][:2]
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.sampled_from(RUN_LINES * 3 + AROUND), max_size=40),
+       st.sampled_from(["\n", "\r\n"]))
+def test_random_decks_with_runs_parse_as_line_by_line(lines, end):
+    deck = end.join(["title"] + lines) + end
+    assert parsed_deck(deck, bulk=True)[0] == parsed_deck(deck, bulk=False)[0]
+
+
+@settings(max_examples=500, deadline=None)
+@given(st.from_regex(r"\A[+-]?(?:\d{1,15}(?:\.\d{0,15})?|\.\d{1,15})(?:[eE][+-]?\d{1,2})?"
+                     r"[A-Za-z]*\Z"))
+def test_every_number_a_run_takes_is_a_number(token):
+    # the value field of the run pattern (parser._PLAIN_PASSIVE_LINE), as written there
+    from lintamp.netlist.parser import PLAIN_PASSIVE_RUNS
+    assert parse_number(token) is not None
+    assert PLAIN_PASSIVE_RUNS.match(f"r1 a b {token}\nr2 a b 1\nr3 a b 1\n")
+
+
+def test_physical_lines_with_runs_are_the_same_lines():
+    from lintamp.netlist.parser import PLAIN_PASSIVE_RUNS
+    text = "".join(f"r{i} n{i} n{i + 1} {i}.5\n" if i % 9 else f"m{i} d g s b nch\n+ w=1u\n"
+                   for i in range(30_000))
+    stream = text.encode() + b"last"
+    got = []
+    for lineno, line, length in reader.physical_lines([stream], PLAIN_PASSIVE_RUNS):
+        if length < 0:
+            pieces = line.split("\n")
+            assert pieces.pop() == "" and len(pieces) == -length >= 2
+            got.extend(zip(range(lineno, lineno + len(pieces)), pieces, map(len, pieces)))
+        else:
+            got.append((lineno, line, length))
+    assert got == lines_by_definition(stream, reader.MAX_LINE_BYTES)
+    assert sum(-n for _, _, n in reader.physical_lines([stream], PLAIN_PASSIVE_RUNS) if n < 0) > 20_000
+
+
+CORPUS = __import__("pathlib").Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"
+
+
+def test_corpus_parses_the_same_with_and_without_runs():
+    # every real netlist of ../shared/corpus where runs are taken (about 850 files of 6,300)
+    from lintamp.netlist.parser import ParseContext, parse_file
+    from lintamp.netlist.reader import ReadOptions
+    if not CORPUS.is_dir():
+        pytest.skip(f"the shared corpus is not at {CORPUS}")
+
+    def snapshot(netlist):
+        return ([(c.name, [(e, e.location, dict(e.params)) for e in c.elements])
+                 for c in netlist.all_cells()],
+                [(d.rule, d.location, d.message) for d in netlist.diagnostics], netlist.title)
+
+    skip = {"LICENSE", "NOTICE", "COPYING", "README.md", "SOURCES.md"}
+    files = sorted(p for p in CORPUS.rglob("*")
+                   if p.is_file() and p.suffix != ".tsv" and p.name not in skip)
+    with_runs = differ = 0
+    with pytest.MonkeyPatch.context() as patch:
+        taken = bulk_spy(patch)
+        for path in files:
+            repo = CORPUS / path.relative_to(CORPUS).parts[0]
+            opts = ReadOptions(root=repo, include_paths=(repo,))
+            before = len(taken)
+            fast = snapshot(parse_file(path, opts))
+            if len(taken) == before:
+                continue
+            with_runs += 1
+            patch.setattr(ParseContext, "runs", None)
+            slow = snapshot(parse_file(path, opts))
+            patch.undo()
+            taken = bulk_spy(patch)
+            differ += fast != slow
+            assert fast == slow, path
+    assert with_runs > 100 and differ == 0

@@ -17,7 +17,8 @@ import re
 import stat
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import BinaryIO, Callable, Iterable, Iterator
+from itertools import chain
+from typing import BinaryIO, Callable, Iterable, Iterator, Protocol
 
 from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic
@@ -145,12 +146,17 @@ _BREAK_BYTES = re.compile(rb"\r\n|\r|\n")
 _BREAK_TEXT = re.compile("\r\n|\r|\n")
 
 
-def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, int]]:
+def physical_lines(chunks: Iterable[bytes], runs: re.Pattern | None = None
+                   ) -> Iterator[tuple[int, str | None, int]]:
     """``(line number, text, length in bytes)`` for each line of a byte stream.
 
     Each line is decoded on its own (UTF-8 when valid, else latin-1), so the whole
     file is never held in memory.  A line longer than :data:`MAX_LINE_BYTES` is
     skipped without being kept: its text is None.
+
+    With ``runs`` (a pattern from :func:`run_pattern`), consecutive lines that it
+    matches come as one item instead: ``(first line number, the lines with their
+    line ends, -number of lines)``; see :func:`split_runs`.
 
     Notes
     -----
@@ -198,6 +204,12 @@ def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, i
                 block = bytes(pending) + chunk[:cut] if pending else chunk[:cut]
                 if block.isascii():
                     text = block.decode("ascii")
+                    if runs is not None and len(block) <= MAX_LINE_BYTES and "\r" not in text:
+                        yield from split_runs(text, lineno, runs)
+                        lineno += text.count("\n")
+                        pending = bytearray()
+                        take(chunk[cut:])
+                        continue
                     found = _BREAK_TEXT.split(text) if "\r" in text else text.split("\n")
                     found.pop()  # the '' after the block's last line end
                     if len(block) <= MAX_LINE_BYTES or max(map(len, found)) <= MAX_LINE_BYTES:
@@ -215,6 +227,59 @@ def physical_lines(chunks: Iterable[bytes]) -> Iterator[tuple[int, str | None, i
         take(chunk[start:])
     if carry or pending or skipping or lineno == 0:
         yield line()
+
+
+def run_pattern(line: str) -> re.Pattern:
+    """The pattern :func:`split_runs` takes: three or more consecutive whole lines, each
+    matching the regular expression ``line`` (written without anchors or line end).
+
+    ``line`` must match only lines that are one whole statement each, as the
+    consumer would read it from a card of that one line: starting with an element
+    letter in column 1, with no comment, no continuation and no dialect directive
+    (none of ``; $ / \\ *`` at the start, ``+``).  The reader hands a run over only where
+    it would hand each of its lines over as a card.
+    """
+    return re.compile(r"^(?:" + line + r"\n){3,}", re.M)
+
+
+def split_runs(text: str, lineno: int, runs: re.Pattern) -> Iterator[tuple[int, str, int]]:
+    """The lines of ``text`` (whole lines, each ending in ``\\n``), numbered from
+    ``lineno + 1``: runs that ``runs`` matches as ``(first line, text of the run,
+    -number of lines)``, the other lines as ``(line, text, length)``.
+
+    A run's last line is handed out as a line of its own, since a ``+`` line after
+    it (even past blank and comment lines) would continue it, unless the next line
+    starts with a letter or a dot (a statement of its own); so no line of a run is
+    continued.  Nor does a run start on line 1 (the title line of a top-level file).
+    """
+    pos = 0
+    for match in runs.finditer(text):
+        start, end = match.span()
+        after = text[end:end + 1]
+        if after.isalpha() or after == ".":
+            last = end  # the next line starts a statement of its own: nothing continues the run
+        else:
+            last = text.rfind("\n", start, end - 1) + 1  # where the run's last line starts
+        if start > pos:
+            gap = text[pos:start].split("\n")
+            gap.pop()
+            yield from zip(range(lineno + 1, lineno + 1 + len(gap)), gap, map(len, gap))
+            lineno += len(gap)
+        count = text.count("\n", start, last)
+        if lineno == 0:  # the title line stays a line
+            first = text[start:text.index("\n", start)]
+            yield 1, first, len(first)
+            lineno, start, count = 1, start + len(first) + 1, count - 1
+        if count >= 2:
+            yield lineno + 1, text[start:last], -count
+            lineno += count
+            pos = last
+        else:
+            pos = start
+    if pos < len(text):
+        rest = text[pos:].split("\n")
+        rest.pop()
+        yield from zip(range(lineno + 1, lineno + 1 + len(rest)), rest, map(len, rest))
 
 
 def _bounded(chunks: Iterable[bytes]) -> Iterator[bytes]:
@@ -328,12 +393,14 @@ def _pragma_text(comment: str) -> str | None:
 
 class _Reader:
     def __init__(self, opts: ReadOptions, sink: Callable[[Card], None] | None = None,
-                 reading: Callable[[], bool] | None = None):
+                 reading: Callable[[], bool] | None = None, bulk: "BulkSink | None" = None):
         self.opts = opts
         self.result = ReadResult()
         # where finished cards go: the result's list, or a consumer that handles each
         # card as it is read (the parser), so that a big file never holds all its cards
         self.sink = sink or self.result.cards.append
+        # a consumer that also takes runs of its simplest lines in one call (see BulkSink)
+        self.bulk = bulk
         # whether the consumer reads the statements here (False inside a .if branch
         # it does not take): an include there is not opened, as a simulator does not
         self.reading = reading or (lambda: True)
@@ -377,8 +444,8 @@ class _Reader:
             if self._refuse(data[:_HEAD_BYTES], shown, at):
                 return
             self._note_file(shown)
-            self._read_lines(physical_lines((data,)), shown, path, top_level=top_level,
-                             section=section)
+            self._read_lines(physical_lines((data,), self._runs()), shown, path,
+                             top_level=top_level, section=section)
             return
         try:
             handle = open_regular(path)
@@ -396,8 +463,11 @@ class _Reader:
             if self._refuse(head, shown, at):
                 return
             self._note_file(shown)
-            self._read_lines(physical_lines(_chunks(handle, head)), shown, path,
+            self._read_lines(physical_lines(_chunks(handle, head), self._runs()), shown, path,
                              top_level=top_level, section=section)
+
+    def _runs(self) -> re.Pattern | None:
+        return self.bulk.runs if self.bulk is not None else None
 
     def _note_file(self, shown: str) -> None:
         if shown not in self.result.files:
@@ -475,6 +545,20 @@ class _Reader:
                 flush()
                 cdl_open = None
                 self._too_long(shown, lineno, length)
+                continue
+            if length < 0:  # a run of lines the consumer takes in bulk (see split_runs)
+                if in_section and not (in_control or in_data or spectre):
+                    flush()
+                    cdl_open = None
+                    self.n_cards -= length
+                    self.bulk.take_run(raw, shown, lineno, -length)
+                    continue
+                # not read as statements here: line by line, as any other lines
+                pieces = raw.split("\n")
+                pieces.pop()
+                lines = chain(zip(range(lineno, lineno + len(pieces)), pieces, map(len, pieces)),
+                              lines)
+                next_line = lines.__next__
                 continue
             stripped = raw.lstrip()
             if not stripped:
@@ -765,9 +849,23 @@ def _split_path_tokens(code: str) -> list[str]:
     return out
 
 
+class BulkSink(Protocol):
+    """A consumer that takes runs of its simplest lines in one call.
+
+    ``runs`` is a :func:`run_pattern`; ``take_run(text, path, first_line, count)`` gets
+    ``count`` whole lines (each ending in ``\\n``, the first on ``first_line``, all at
+    column 1), each of which is one whole statement: what ``sink`` would otherwise get
+    as ``count`` one-line cards, in the same order with nothing between them.
+    """
+
+    runs: re.Pattern
+
+    def take_run(self, text: str, path: str, first_line: int, count: int) -> None: ...
+
+
 def read(path: Path, opts: ReadOptions | None = None, *, data: bytes | None = None,
          title: bool = True, sink: Callable[[Card], None] | None = None,
-         reading: Callable[[], bool] | None = None) -> ReadResult:
+         reading: Callable[[], bool] | None = None, bulk: BulkSink | None = None) -> ReadResult:
     """Read a netlist file and its includes; with ``title`` its first line is the title.
 
     With ``sink`` each card goes to ``sink(card)`` as soon as it is complete, in file
@@ -775,24 +873,34 @@ def read(path: Path, opts: ReadOptions | None = None, *, data: bytes | None = No
     that handles cards one by one never holds a whole big file's cards at once.
     ``reading()``, asked at each include, says whether the sink reads the statements
     there (a parser inside a .if branch it skips says False: the file is not opened).
+    With ``bulk`` (a :class:`BulkSink`), runs of the lines it asks for go to it.
     """
-    return _Reader(opts or ReadOptions(), sink, reading).read_top(path, data, title)
+    return _Reader(opts or ReadOptions(), sink, reading, bulk).read_top(path, data, title)
 
 
 def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
               sink: Callable[[Card], None] | None = None,
-              reading: Callable[[], bool] | None = None) -> ReadResult:
-    """Read netlist text held in memory (first line is the title); ``sink`` and
-    ``reading`` as in :func:`read`."""
+              reading: Callable[[], bool] | None = None,
+              bulk: BulkSink | None = None) -> ReadResult:
+    """Read netlist text held in memory (first line is the title); ``sink``,
+    ``reading`` and ``bulk`` as in :func:`read`."""
     opts = opts or ReadOptions()
-    reader = _Reader(opts, sink, reading)
+    reader = _Reader(opts, sink, reading, bulk)
     reader.result.files.append(path)
-    reader._read_lines(_text_lines(text), path, Path(path), top_level=True, section=None)
+    reader._read_lines(_text_lines(text, reader._runs()), path, Path(path), top_level=True,
+                       section=None)
     return reader.result
 
 
-def _text_lines(text: str) -> Iterator[tuple[int, str | None, int]]:
+def _text_lines(text: str, runs: re.Pattern | None = None) -> Iterator[tuple[int, str | None, int]]:
     """:func:`physical_lines` for text already in memory (same line ends and limit)."""
+    if runs is not None and "\r" not in text and (
+            len(text) <= MAX_LINE_BYTES or max(map(len, text.split("\n"))) <= MAX_LINE_BYTES):
+        cut = text.rfind("\n") + 1
+        yield from split_runs(text[:cut], 0, runs)
+        rest = text[cut:]  # the text after the last line end: one more line, maybe empty
+        yield text.count("\n", 0, cut) + 1, rest, len(rest)
+        return
     for lineno, line in enumerate(_BREAK_TEXT.split(text), 1):
         yield (lineno, None, len(line)) if len(line) > MAX_LINE_BYTES else (lineno, line, len(line))
 
