@@ -192,3 +192,36 @@ def test_plainly_nonzero_only_for_nonzero_numbers():
         if _plainly_nonzero(text):
             number = parse_number(text)
             assert number is not None and number != 0.0, text
+
+
+def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
+    # cells whose R/C/L cards came in runs (the parser kept their nets' numbers): the
+    # table built from those numbers is the table by definition, with ports the runs
+    # never touch, an instance with more nets than ports between two runs, mixed-case
+    # names, and a cell where a card parsed late
+    # was inserted among the runs (a diode whose model name reads as a number, known only
+    # from a later .model), so the runs no longer line up and the general path
+    # builds the table
+    def run(prefix, count, a="n", b="m"):
+        return "".join(f"{prefix}{i} {a}{i % 7} {b}{i % 5} {i + 1}.5k\n" for i in range(count))
+
+    text = ("* plain runs\n.subckt cell p q unused\n" + run("r", 30, "P", "x") + "x9 p q s1 s2 leaf\n"
+            + run("C", 20, "q", "Y") + "m1 d g p 0 nch w=1u l=1u\n" + run("l", 10) + ".ends\n"
+            ".subckt leaf a b\nr1 a b 1\n.ends\n"
+            ".subckt late a b\n" + run("r", 12) + "d1 a b 1n4148\n" + run("c", 12, "a", "b")
+            + ".ends\n.model 1n4148 d\n.model nch nmos\n"
+            "x1 in out z cell\n" + run("R", 40, "In", "out") + "v1 in 0 1\n" + run("c", 25) + ".end\n")
+    built = []
+    original = design_module.TerminalTable._from_runs
+
+    def spy(self, view, netlist):
+        done = original(self, view, netlist)
+        built.append((view.name, done))
+        return done
+
+    monkeypatch.setattr(design_module.TerminalTable, "_from_runs", spy)
+    monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", 0)
+    netlist = parse_text(text, "runs.sp", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
+    assert all(c.runs is not None for c in netlist.all_cells() if c.name != "leaf")
+    _check_design(netlist, load_design(netlist))
+    assert sorted(built) == [("", True), ("cell", True), ("late", False)]

@@ -12,7 +12,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from functools import cached_property
-from itertools import chain, compress
+from itertools import chain, compress, islice
 from operator import attrgetter, gt
 from typing import Iterable, Iterator, Mapping
 
@@ -109,6 +109,7 @@ class CellView:
     parent: "CellView | None" = None
     ports: tuple[str, ...] = ()
     globals: frozenset[str] = frozenset()
+    netlist: Netlist | None = field(default=None, repr=False)  # for the net numbers of plain runs
 
     @property
     def name(self) -> str:
@@ -121,7 +122,7 @@ class CellView:
     @cached_property
     def terminal_table(self) -> "TerminalTable":
         """The cell's terminals as integer arrays (see :class:`TerminalTable`)."""
-        return TerminalTable(self)
+        return TerminalTable(self, self.netlist)
 
     @cached_property
     def device_classes(self) -> "DeviceClasses":
@@ -307,9 +308,11 @@ class TerminalTable:
     __slots__ = ("devices", "nets", "index", "n_role_nets", "net_ids", "dev_start",
                  "term_dev", "term_order", "net_start", "small", "extra_devices")
 
-    def __init__(self, view: "CellView"):
+    def __init__(self, view: "CellView", netlist: Netlist | None = None):
         devices = view.devices
         self.devices = devices
+        if netlist is not None and view.cell.runs is not None and self._from_runs(view, netlist):
+            return
         # one numbering pass over the terminals: looking a million net names up is
         # bound by memory latency, so each name is looked up once, in netlist order
         numbering = _Numbering()
@@ -349,6 +352,84 @@ class TerminalTable:
         else:
             self._build_arrays(counts)
 
+    def _from_runs(self, view: "CellView", netlist: Netlist) -> bool:
+        """Build the table from the net numbers the parser kept for the cell's runs of
+        plain R/C/L cards (:class:`~lintamp.netlist.statements.PlainRuns`): the same
+        table as the general path, with names looked up only for the devices outside
+        the runs, and array steps for the rest.  False (nothing set) where the runs no
+        longer line up with the devices, or the cell is small."""
+        import numpy as np
+
+        runs = view.cell.runs
+        devices = self.devices
+        n_dev = len(devices)
+        for index, count, first, last, _ in runs.spans:
+            end = index + count - 1
+            if end >= n_dev or devices[index].element is not first \
+                    or devices[end].element is not last:
+                return False
+        if len(runs.a) * 2 < SMALL_TABLE_TERMINALS:
+            return False
+        # which devices the runs hold (spans are in netlist order, their nets in the
+        # same order in runs.a / runs.b)
+        spans = np.array([span[:2] for span in runs.spans], dtype=np.int64).reshape(-1, 2)
+        starts, lengths = spans[:, 0], spans[:, 1]
+        in_run = np.zeros(n_dev + 1, dtype=np.int64)
+        np.add.at(in_run, starts, 1)
+        np.add.at(in_run, starts + lengths, -1)
+        in_run = np.cumsum(in_run[:-1]) > 0
+        # the others, one by one: their nets (those with a pin role) and their extras
+        base = len(netlist.net_numbers)
+        numbers = _Numbering(netlist.net_numbers)  # a name the runs never used gets the next number
+        number = numbers.__getitem__
+        outside_nets: list[int] = []
+        outside_counts: list[int] = []
+        extra: list[int] = []
+        extra_nets: list[int] = []
+        outside = np.flatnonzero(~in_run).tolist()
+        for d in outside:
+            dev = devices[d]
+            nets, n_pins = dev.nets, len(dev.pins)
+            if len(nets) > n_pins:
+                extra.append(d)
+                extra_nets.extend(map(number, nets[n_pins:]))
+                nets = nets[:n_pins]
+            outside_nets.extend(map(number, nets))
+            outside_counts.append(len(nets))
+        ports = [number(p) for p in view.ports]
+        counts = np.full(n_dev, 2, dtype=np.int64)
+        counts[outside] = outside_counts
+        dev_start = np.zeros(n_dev + 1, dtype=np.int64)
+        np.cumsum(counts, out=dev_start[1:])
+        n_terms = int(dev_start[-1])
+        role = np.empty(n_terms, dtype=np.int64)
+        first_terminal = dev_start[:-1][in_run]
+        role[first_terminal] = np.frombuffer(runs.a, dtype=np.int32)
+        role[first_terminal + 1] = np.frombuffer(runs.b, dtype=np.int32)
+        from_runs = np.zeros(n_terms, dtype=bool)
+        from_runs[first_terminal] = True
+        from_runs[first_terminal + 1] = True
+        role[~from_runs] = outside_nets
+        # number the nets by first appearance: ports, then the role terminals, then the rest
+        stream = np.concatenate([np.array(ports, dtype=np.int64), role,
+                                 np.array(extra_nets, dtype=np.int64)])
+        first = np.full(len(numbers), len(stream), dtype=np.int64)
+        np.minimum.at(first, stream, np.arange(len(stream)))
+        used = np.flatnonzero(first < len(stream))
+        by_appearance = used[np.argsort(first[used], kind="stable")]
+        local = np.empty(len(numbers), dtype=np.int64)
+        local[by_appearance] = np.arange(len(by_appearance))
+        names = netlist.net_names
+        later = list(islice(numbers, base, None))  # names of the numbers from base on
+        self.nets = [names[g] if g < base else later[g - base] for g in by_appearance.tolist()]
+        self.index = dict(zip(self.nets, range(len(self.nets))))
+        self.n_role_nets = int(np.count_nonzero(first[by_appearance] < len(ports) + n_terms))
+        self.extra_devices = extra
+        self.small = False
+        self.net_ids = local[role].astype(_index_dtype(n_terms))
+        self._build_arrays(counts)
+        return True
+
     def _build_lists(self, counts) -> None:
         start = [0] * (len(counts) + 1)
         total = 0
@@ -375,7 +456,16 @@ class TerminalTable:
         self.dev_start = np.zeros(len(counts) + 1, dtype=dtype)
         np.cumsum(np.array(counts, dtype=dtype), out=self.dev_start[1:])
         self.term_dev = None  # found from dev_start when asked (see terminals_of)
-        self.term_order = np.argsort(self.net_ids, kind="stable").astype(dtype, copy=False)
+        # terminals grouped by net, netlist order inside a net: a stable sort by net,
+        # done as a plain sort of (net, position) pairs packed in one int64 (the same
+        # order, about a third of the time of a stable argsort)
+        if len(self.net_ids) < 2 ** 32:
+            packed = (self.net_ids.astype(np.int64) << 32) | np.arange(len(self.net_ids),
+                                                                       dtype=np.int64)
+            packed.sort()
+            self.term_order = (packed & 0xFFFFFFFF).astype(dtype)
+        else:
+            self.term_order = np.argsort(self.net_ids, kind="stable").astype(dtype, copy=False)
         per_net = np.bincount(self.net_ids, minlength=len(self.nets))
         self.net_start = np.zeros(len(self.nets) + 1, dtype=dtype)
         np.cumsum(per_net, out=self.net_start[1:])
@@ -699,7 +789,7 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
     diagnostics: list[Diagnostic] = []
     cells = list(netlist.all_cells())
     for cell in cells:
-        view = CellView(cell=cell, ports=cell.ports, globals=globals_)
+        view = CellView(cell=cell, ports=cell.ports, globals=globals_, netlist=netlist)
         views[id(cell)] = view
     classes: dict[int, tuple[CellView, list[int], list[tuple]]] = {}
     for cell in cells:

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from array import array
 from itertools import repeat
 from operator import itemgetter
 from pathlib import Path
@@ -20,7 +21,7 @@ from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, run_pattern,
                                     open_regular, probed_nets, read, read_text)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
-                                        Model, Netlist, Origin, ParamDef, Pragma, Source,
+                                        Model, Netlist, Origin, ParamDef, PlainRuns, Pragma, Source,
                                         new_plain_element)
 
 WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
@@ -200,6 +201,23 @@ def is_value_token(text: str) -> bool:
 _LONE_EQUALS = re.compile(r"(?<![=!<>])=(?!=)")
 
 
+class _NetNumbers(dict):
+    """Net names to 0, 1, 2 ... in order of first lookup, listing each in ``names``
+    (the string object ``interned`` holds for it, so every use shares one)."""
+
+    __slots__ = ("interned", "names")
+
+    def __init__(self, interned: dict[str, str], names: list[str]):
+        super().__init__()
+        self.interned = interned
+        self.names = names
+
+    def __missing__(self, name: str) -> int:
+        number = self[name] = len(self.names)
+        self.names.append(self.interned.setdefault(name, name))
+        return number
+
+
 class ParseContext:
     """Builds the :class:`Netlist` from cards, one card at a time."""
 
@@ -210,6 +228,9 @@ class ParseContext:
         self.element_cards: list[Element] = []  # every element, for the pragmas to find
         self.title_card = False
         self._names: dict[str, str] = {}  # one string object per distinct net name
+        # the nets of plain runs (take_run) by number; names shared with _names
+        self._net_numbers = _NetNumbers(self._names, self.netlist.net_names)
+        self.netlist.net_numbers = self._net_numbers
         # the shared place record of plain cards, one per (file, column); the last one used
         self._origins: dict[tuple[str, int], Origin] = {}
         self._origin = Origin("", 0)
@@ -411,10 +432,12 @@ class ParseContext:
             low = fields
         else:
             low = lowered.split()
-        intern = self._names.setdefault  # one string object per distinct net name
-        a = low[1::4]
-        b = low[2::4]
-        nodes = list(zip(map(intern, a, a), map(intern, b, b)))
+        # each net name looked up once: its number, and from that its one string object
+        number = self._net_numbers.__getitem__
+        name_of = self._net_numbers.names.__getitem__
+        a = array("i", map(number, low[1::4]))
+        b = array("i", map(number, low[2::4]))
+        nodes = list(zip(map(name_of, a), map(name_of, b)))
         if low is fields:
             raw = nodes
         else:
@@ -425,7 +448,14 @@ class ParseContext:
         elements = list(map(new_plain_element, names, map(str.lower, map(itemgetter(0), names)),
                             nodes, range(first_line, first_line + count), repeat(None),
                             fields[3::4], repeat(NO_PARAMS), raw, repeat(origin)))
-        self.stack[-1].elements.extend(elements)
+        cell = self.stack[-1]
+        runs = cell.runs
+        if runs is None:
+            runs = cell.runs = PlainRuns()
+        runs.spans.append((len(cell.elements), count, elements[0], elements[-1], len(runs.a)))
+        runs.a.extend(a)
+        runs.b.extend(b)
+        cell.elements.extend(elements)
         self.element_cards.extend(elements)
 
     # -- dot cards -------------------------------------------------------------

@@ -230,6 +230,30 @@ class Analysis:
     location: Location
 
 
+class PlainRuns:
+    """Where :meth:`ParseContext.take_run` put the elements of runs of plain R/C/L
+    cards in a cell, with the numbers of their nets, so that the cell's connectivity
+    table is built from arrays rather than by looking a million names up again.
+
+    ``spans`` holds ``(index, count, first, last, offset)`` per run: ``count`` elements
+    from ``elements[index]`` (the Element objects ``first`` ... ``last``, to check that
+    nothing moved them since), whose first and second nodes are the nets numbered
+    ``a[offset:offset + count]`` and ``b[offset:offset + count]`` in ``Netlist.net_names``.
+    """
+
+    __slots__ = ("spans", "a", "b")
+
+    def __init__(self):
+        from array import array
+
+        self.spans: list[tuple[int, int, "Element", "Element", int]] = []
+        self.a = array("i")
+        self.b = array("i")
+
+    def __repr__(self) -> str:
+        return f"<PlainRuns {len(self.spans)} runs, {len(self.a)} elements>"
+
+
 @dataclass(slots=True)
 class Cell:
     """A ``.subckt`` definition, or the top level of a file (``name == ""``).
@@ -255,6 +279,7 @@ class Cell:
     end_location: Location | None = None
     parent: "Cell | None" = field(default=None, repr=False)
     optional_ports: dict[str, str] = field(default_factory=dict)
+    runs: PlainRuns | None = field(default=None, repr=False, compare=False)
 
     @property
     def is_top(self) -> bool:
@@ -283,6 +308,9 @@ class Netlist:
     # top-level nets a '.ic v(net)=value' card sets: a transient's initial operating
     # point holds them there (ngspice-39 manual, .IC)
     initial_conditions: dict[str, str] = field(default_factory=dict)
+    # the nets of plain runs (see PlainRuns), numbered: name -> number, number -> name
+    net_numbers: dict[str, int] = field(default_factory=dict, repr=False, compare=False)
+    net_names: list[str] = field(default_factory=list, repr=False, compare=False)
 
     def transient_only(self) -> bool:
         """Every analysis card is a .tran (and there is one): the only operating point
