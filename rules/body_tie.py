@@ -66,7 +66,7 @@ def _is_soi(dev) -> bool:
 
 
 def _transistors(view):
-    for dev in view.devices:
+    for dev in view.devices_where(lambda key: key[0] in ("nmos", "pmos")):
         if (dev.kind in ("nmos", "pmos") and dev.net("b") is not None and not _is_mos_cap(dev)
                 and not _is_soi(dev)):
             yield dev

@@ -69,7 +69,8 @@ def check(ctx):
     for view in ctx.cells():
         if id(view) in skip or interface_view(ctx.design, view):
             continue
-        roleless = {net for dev in view.devices if len(dev.nets) > len(dev.pins)
+        devices = view.devices
+        roleless = {net for dev in map(devices.__getitem__, view.terminal_table.extra_devices)
                     for net in dev.nets[len(dev.pins):]}
         # a top-level net that .print/.plot/.save or a .control script looks at is observed
         observed = ctx.netlist.observed if view.cell.is_top else set()

@@ -19,6 +19,8 @@ Fix
     Rename one of them (``R6 b c 22k``).
 """
 
+from operator import attrgetter
+
 from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Related, Severity
 from lintamp.netlist.reader import excerpt
@@ -29,10 +31,13 @@ SEVERITY = Severity.ERROR
 SUMMARY = "two elements with one name in one scope"
 
 
+_NAME = attrgetter("name")
+
+
 def check(ctx):
     yield from forward_diagnostics(ctx)
     for view in ctx.cells():
-        names = [dev.name for dev in view.devices]
+        names = list(map(_NAME, view.devices))
         if len(set(names)) == len(names):
             continue  # the usual case, found without a list per name
         by_name: dict[str, list] = {}

@@ -198,8 +198,8 @@ def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
     # cells whose R/C/L cards came in runs (the parser kept their nets' numbers): the
     # table built from those numbers is the table by definition, with ports the runs
     # never touch, an instance with more nets than ports between two runs, mixed-case
-    # names, and a cell where a card parsed late
-    # was inserted among the runs (a diode whose model name reads as a number, known only
+    # names, zero-ohm resistors inside a run (rigid branches: rigid_devices must see
+    # them), and a cell where a card parsed late was inserted among the runs (a diode whose model name reads as a number, known only
     # from a later .model), so the runs no longer line up and the general path
     # builds the table
     def run(prefix, count, a="n", b="m"):
@@ -210,7 +210,10 @@ def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
             ".subckt leaf a b\nr1 a b 1\n.ends\n"
             ".subckt late a b\n" + run("r", 12) + "d1 a b 1n4148\n" + run("c", 12, "a", "b")
             + ".ends\n.model 1n4148 d\n.model nch nmos\n"
-            "x1 in out z cell\n" + run("R", 40, "In", "out") + "v1 in 0 1\n" + run("c", 25) + ".end\n")
+            "x1 in out z cell\n" + run("R", 40, "In", "out") + "v1 in 0 1\n" + run("c", 25)
+            + "".join(f"r{v} in z{k} {v}\n" for k, v in enumerate(
+                ["1", "0", "0.000", "0e3", "00.0k", "0.5", "10", "-0", "1e-99", "r"]))
+            + ".end\n")
     built = []
     original = design_module.TerminalTable._from_runs
 

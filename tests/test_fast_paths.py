@@ -332,3 +332,35 @@ def test_corpus_parses_the_same_with_and_without_runs():
             differ += fast != slow
             assert fast == slow, path
     assert with_runs > 100 and differ == 0
+
+
+def test_only_the_control_letters_have_controls():
+    # the promise dc_paths relies on to look for current sensing by device class only:
+    # the parser gives controls to K, F, H and W cards alone (E and G may have them; element syntax
+    # from spice-syntax.md section 2, ngspice manual ch. 3-5)
+    from lintamp.netlist.parser import parse_text
+    from lintamp.netlist.statements import CONTROL_LETTERS
+    deck = ("t\nv1 a 0 1\nvs b 0 0\nf1 c 0 vs 2\nh1 d 0 vs 1k\nw1 e 0 vs sw\ne1 f 0 poly(1) a 0 0 1\n"
+            "g1 g 0 poly(2) a 0 b 0 0 1 1\nl1 a b 1u\nl2 c d 1u\nk1 l1 l2 0.5\nb1 h 0 v=v(a)\n"
+            "f2 i 0 poly(2) vs v1 0 1 1\nr1 a b 1k\nc1 a 0 1p\nm1 d g s b nch\nx1 a b sub\n.end\n")
+    paths = [None] + sorted(CORPUS.rglob("*.sp"))[::40] if CORPUS.is_dir() else [None]
+    with_controls = set()
+    for path in paths:
+        text = deck if path is None else path.read_text(encoding="utf-8", errors="replace")
+        for cell in parse_text(text, "deck.sp").all_cells():
+            for element in cell.elements:
+                if element.controls:
+                    with_controls.add(element.letter)
+                    assert element.letter in CONTROL_LETTERS, element
+    assert with_controls >= set("kfhw")  # (E/G POLY forms name nodes, in their nodes)
+
+
+def test_elements_beyond_runs_are_the_others():
+    from lintamp.netlist.parser import parse_text
+    deck = ("t\n" + "".join(f"r{i} a{i} b 1\n" for i in range(8)) + "m1 d g s b nch\n"
+            + "".join(f"c{i} a{i} 0 1p\n" for i in range(5)) + "x1 a b sub\n.end\n")
+    cell = parse_text(deck, "deck.sp").top
+    assert cell.runs is not None and len(cell.runs.spans) == 2
+    assert [e.name for e in cell.elements_beyond_runs()] == ["m1", "x1"]
+    cell.elements.insert(3, cell.elements.pop())  # the runs no longer line up: all of them
+    assert list(cell.elements_beyond_runs()) == cell.elements

@@ -44,7 +44,8 @@ from itertools import compress
 from operator import attrgetter
 from typing import TYPE_CHECKING
 
-from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, CellView, Device
+from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, SMALL_TABLE_TERMINALS, CellView, Device
+from lintamp.netlist.statements import CONTROL_LETTERS
 
 if TYPE_CHECKING:  # numpy is imported only where a large cell needs it
     import numpy as np
@@ -315,7 +316,7 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
                       inst_currents, inst_controlled, sensed, groups_memo)
     # F, H, W and POLY forms sense the current of a V source: its nets are observed
-    for dev in _sensing_devices(devices):
+    for dev in _sensing_devices(view):
         if by_name is None:
             by_name = {d.name: d for d in devices}
         for name in dev.element.controls:
@@ -372,10 +373,18 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
 
 
 
-def _sensing_devices(devices: list[Device]) -> list[Device]:
+def _sensing_devices(view: CellView) -> list[Device]:
     """Devices whose element names controlling V sources (F, H, W, POLY forms), in
-    netlist order; a K coupling's inductors and an instance's names are not senses."""
-    return [d for d in compress(devices, map(_CONTROLS, devices))
+    netlist order; a K coupling's inductors and an instance's names are not senses.
+    Only the devices of classes whose letter may name controls are looked at."""
+    devices = view.devices
+    if len(devices) < SMALL_TABLE_TERMINALS:
+        chosen = devices
+    else:
+        classes = view.device_classes
+        chosen = list(map(devices.__getitem__, classes.members(
+            [c for c, key in enumerate(classes.keys) if key[2] in CONTROL_LETTERS])))
+    return [d for d in compress(chosen, map(_CONTROLS, chosen))
             if d.kind != "coupling" and d.kind != "instance"]
 
 
@@ -541,7 +550,7 @@ def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
                           inst_currents, inst_controlled, sensed)
     by_name: dict[str, Device] | None = None
-    for dev in _sensing_devices(devices):
+    for dev in _sensing_devices(view):
         if by_name is None:
             by_name = {d.name: d for d in devices}
         for name in dev.element.controls:

@@ -111,7 +111,7 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
     codes = classes.codes
     zero_text: dict[str, bool] = {}
     out: list[tuple[Device, tuple[int, int] | None]] = []
-    for d in classes.members(wanted):
+    for d in _members_but_plain_runs(view, wanted, by_value):
         dev = devices[d]
         code = int(codes[d])
         if code in always:
@@ -136,6 +136,25 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
         if pins is not None:
             out.append((dev, pins))
     return out
+
+
+def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -> list[int]:
+    """The devices of the ``wanted`` classes, in netlist order, less the resistors of
+    plain runs whose value the parser saw has a nonzero digit (a nonzero literal
+    number: never a zero-ohm branch, whatever the scope)."""
+    classes = view.device_classes
+    in_run = view.in_plain_run
+    if in_run is None or not resistors:
+        return classes.members(wanted)
+    import numpy as np
+
+    chosen = np.zeros(len(classes.keys), dtype=bool)
+    chosen[list(wanted)] = True
+    resistor = np.zeros(len(classes.keys), dtype=bool)
+    resistor[list(resistors)] = True
+    keep = chosen[classes.codes] & ~(in_run & resistor[classes.codes])
+    keep[view.cell.runs.zeros] = chosen[classes.codes[view.cell.runs.zeros]]
+    return np.flatnonzero(keep).tolist()
 
 
 def _pn(dev: Device) -> tuple[int, int] | None:

@@ -12,9 +12,9 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from functools import cached_property
-from itertools import chain, compress, islice
+from itertools import chain, compress
 from operator import attrgetter, gt
-from typing import Iterable, Iterator, Mapping
+from typing import Callable, Iterable, Iterator, Mapping
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
 from lintamp.location import Location
@@ -125,6 +125,28 @@ class CellView:
         return TerminalTable(self, self.netlist)
 
     @cached_property
+    def in_plain_run(self):
+        """Which devices come from a run of plain R/C/L cards (see
+        :class:`~lintamp.netlist.statements.PlainRuns`): a numpy bool array, or None for a
+        small cell, a cell without runs, or runs that no longer line up with the devices."""
+        runs = self.cell.runs
+        devices = self.devices
+        if runs is None or len(devices) < SMALL_TABLE_TERMINALS:
+            return None
+        for index, count, first, last, _ in runs.spans:
+            end = index + count - 1
+            if end >= len(devices) or devices[index].element is not first \
+                    or devices[end].element is not last:
+                return None
+        import numpy as np
+
+        spans = np.array([span[:2] for span in runs.spans], dtype=np.int64).reshape(-1, 2)
+        steps = np.zeros(len(devices) + 1, dtype=np.int64)
+        np.add.at(steps, spans[:, 0], 1)
+        np.add.at(steps, spans[:, 0] + spans[:, 1], -1)
+        return np.cumsum(steps[:-1]) > 0
+
+    @cached_property
     def device_classes(self) -> "DeviceClasses":
         """The devices grouped by (kind, pins, letter, model) (see :class:`DeviceClasses`)."""
         return DeviceClasses(self.devices)
@@ -138,6 +160,14 @@ class CellView:
     def instance_named(self) -> dict[str, Device]:
         """The first device of each name that instantiates a cell view."""
         return {dev.name: dev for dev in reversed(self.devices) if dev.subcell is not None}
+
+    def devices_where(self, wanted: Callable[[tuple], bool]) -> list[Device]:
+        """The devices whose class key ``(kind, pins, element letter, element model)``
+        ``wanted`` accepts, in netlist order: found by device class, without a step per
+        device of the other classes."""
+        classes = self.device_classes
+        return list(map(self.devices.__getitem__, classes.members(
+            [c for c, key in enumerate(classes.keys) if wanted(key)])))
 
     def instances(self) -> list[Device]:
         """The devices that instantiate a cell view (``subcell`` set), in netlist order;
@@ -363,25 +393,22 @@ class TerminalTable:
         runs = view.cell.runs
         devices = self.devices
         n_dev = len(devices)
-        for index, count, first, last, _ in runs.spans:
-            end = index + count - 1
-            if end >= n_dev or devices[index].element is not first \
-                    or devices[end].element is not last:
-                return False
-        if len(runs.a) * 2 < SMALL_TABLE_TERMINALS:
+        in_run = view.in_plain_run
+        if in_run is None or len(runs.a) * 2 < SMALL_TABLE_TERMINALS:
             return False
-        # which devices the runs hold (spans are in netlist order, their nets in the
-        # same order in runs.a / runs.b)
-        spans = np.array([span[:2] for span in runs.spans], dtype=np.int64).reshape(-1, 2)
-        starts, lengths = spans[:, 0], spans[:, 1]
-        in_run = np.zeros(n_dev + 1, dtype=np.int64)
-        np.add.at(in_run, starts, 1)
-        np.add.at(in_run, starts + lengths, -1)
-        in_run = np.cumsum(in_run[:-1]) > 0
         # the others, one by one: their nets (those with a pin role) and their extras
-        base = len(netlist.net_numbers)
-        numbers = _Numbering(netlist.net_numbers)  # a name the runs never used gets the next number
-        number = numbers.__getitem__
+        known = netlist.net_numbers
+        base = len(known)
+        more: dict[str, int] = {}  # names the runs never used: numbered from base on
+
+        def number(net: str) -> int:
+            found = known.get(net)
+            if found is None:
+                found = more.get(net)
+                if found is None:
+                    found = more[net] = base + len(more)
+            return found
+
         outside_nets: list[int] = []
         outside_counts: list[int] = []
         extra: list[int] = []
@@ -397,36 +424,48 @@ class TerminalTable:
             outside_nets.extend(map(number, nets))
             outside_counts.append(len(nets))
         ports = [number(p) for p in view.ports]
-        counts = np.full(n_dev, 2, dtype=np.int64)
+        n_terms = 2 * (n_dev - len(outside)) + sum(outside_counts)
+        dtype = _index_dtype(max(n_terms, base + len(more)))
+        counts = np.full(n_dev, 2, dtype=dtype)
         counts[outside] = outside_counts
-        dev_start = np.zeros(n_dev + 1, dtype=np.int64)
+        dev_start = np.zeros(n_dev + 1, dtype=dtype)
         np.cumsum(counts, out=dev_start[1:])
-        n_terms = int(dev_start[-1])
-        role = np.empty(n_terms, dtype=np.int64)
+        # the role terminals' net numbers: the runs' from their arrays, the others' after
+        role = np.empty(n_terms, dtype=dtype)
         first_terminal = dev_start[:-1][in_run]
+        del in_run
         role[first_terminal] = np.frombuffer(runs.a, dtype=np.int32)
         role[first_terminal + 1] = np.frombuffer(runs.b, dtype=np.int32)
-        from_runs = np.zeros(n_terms, dtype=bool)
-        from_runs[first_terminal] = True
-        from_runs[first_terminal + 1] = True
-        role[~from_runs] = outside_nets
+        if outside_nets:
+            from_runs = np.zeros(n_terms, dtype=bool)
+            from_runs[first_terminal] = True
+            from_runs[first_terminal + 1] = True
+            role[~from_runs] = outside_nets
+            del from_runs
+        del first_terminal, outside_nets
         # number the nets by first appearance: ports, then the role terminals, then the rest
-        stream = np.concatenate([np.array(ports, dtype=np.int64), role,
-                                 np.array(extra_nets, dtype=np.int64)])
-        first = np.full(len(numbers), len(stream), dtype=np.int64)
-        np.minimum.at(first, stream, np.arange(len(stream)))
-        used = np.flatnonzero(first < len(stream))
+        n_numbers = base + len(more)
+        first = np.full(n_numbers, np.iinfo(np.int64).max, dtype=np.int64)
+        np.minimum.at(first, role, np.arange(len(ports), len(ports) + n_terms))
+        if ports:
+            np.minimum.at(first, np.array(ports, dtype=np.int64), np.arange(len(ports)))
+        if extra_nets:
+            np.minimum.at(first, np.array(extra_nets, dtype=np.int64),
+                          np.arange(len(ports) + n_terms, len(ports) + n_terms + len(extra_nets)))
+        used = np.flatnonzero(first < np.iinfo(np.int64).max)
         by_appearance = used[np.argsort(first[used], kind="stable")]
-        local = np.empty(len(numbers), dtype=np.int64)
-        local[by_appearance] = np.arange(len(by_appearance))
+        local = np.empty(n_numbers, dtype=dtype)
+        local[by_appearance] = np.arange(len(by_appearance), dtype=dtype)
         names = netlist.net_names
-        later = list(islice(numbers, base, None))  # names of the numbers from base on
+        later = list(more)  # names of the numbers from base on, in order
         self.nets = [names[g] if g < base else later[g - base] for g in by_appearance.tolist()]
         self.index = dict(zip(self.nets, range(len(self.nets))))
         self.n_role_nets = int(np.count_nonzero(first[by_appearance] < len(ports) + n_terms))
+        del first, used, by_appearance
         self.extra_devices = extra
         self.small = False
-        self.net_ids = local[role].astype(_index_dtype(n_terms))
+        self.net_ids = local[role]
+        del role, local
         self._build_arrays(counts)
         return True
 

@@ -229,7 +229,7 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
                 continue
             for name in sorted(names - known):
                 yield UndefinedUse(name, None, f".param {p.name}", p.location, False, cell)
-        for element in cell.elements:
+        for element in cell.elements_beyond_runs():  # a run's cards are plain: see below
             if element.params is NO_PARAMS:
                 continue  # a plain card, its value already read as a number (see NO_PARAMS)
             letter = element.letter
@@ -279,7 +279,7 @@ def _passed_params(netlist: Netlist) -> dict[int, set[str]]:
     from lintamp.circuit.design import find_cell
     passed: dict[int, set[str]] = {}
     for cell in netlist.all_cells():
-        for element in cell.elements:
+        for element in cell.elements_beyond_runs():  # (runs hold R, C and L cards only)
             if element.letter == "x" and element.params and element.model:
                 target = find_cell(cell, element.model)
                 if target is not None:

@@ -84,6 +84,8 @@ _PLAIN_PASSIVE_LINE = (r"[rRcClL][^\s;$/\\{}'\"(),=]*+[ \t]++" + _FIELD + r"[ \t
                        + r"[ \t]++[+-]?+(?:\d{1,15}+(?:\.\d{0,15}+)?+|\.\d{1,15}+)"
                        r"(?:[eE][+-]?+\d{1,2}+)?+[A-Za-z]*+[ \t]*+")
 PLAIN_PASSIVE_RUNS = run_pattern(_PLAIN_PASSIVE_LINE)
+# the value field of such a line (its last) with no nonzero digit: a value that may be 0
+_ZERO_VALUE = re.compile(r"[ \t][+-]?+[0.]++(?:[eE][+-]?+\d++)?+[A-Za-z]*+[ \t]*+\n")
 
 
 @dataclass(slots=True)
@@ -452,6 +454,10 @@ class ParseContext:
         runs = cell.runs
         if runs is None:
             runs = cell.runs = PlainRuns()
+        if _ZERO_VALUE.search(text) is not None:  # rare: say which elements may be zero
+            values = fields[3::4]
+            runs.zeros.extend(len(cell.elements) + k for k in range(count)
+                              if _ZERO_VALUE.fullmatch(" " + values[k] + "\n"))
         runs.spans.append((len(cell.elements), count, elements[0], elements[-1], len(runs.a)))
         runs.a.extend(a)
         runs.b.extend(b)

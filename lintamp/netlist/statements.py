@@ -9,6 +9,8 @@ original spelling for messages.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from itertools import chain
+from typing import Iterator
 
 from lintamp.location import Location
 from lintamp.pragma import Pragma  # noqa: F401 - re-exported; see lintamp.pragma
@@ -79,6 +81,11 @@ DIGITAL_PRIMITIVES = frozenset({
 def is_digital_primitive(element: "Element") -> bool:
     """A PSPICE or Xyce digital gate written as a U card (see DIGITAL_PRIMITIVES)."""
     return element.letter == "u" and bool(element.nodes) and element.nodes[0] in DIGITAL_PRIMITIVES
+
+
+# The element letters the parser gives ``controls`` to (K: the inductors it couples;
+# F/H and their POLY forms, W: controlling V sources; E/G may too); every other has none.
+CONTROL_LETTERS = frozenset("kefghw")
 
 
 class Origin:
@@ -239,9 +246,11 @@ class PlainRuns:
     from ``elements[index]`` (the Element objects ``first`` ... ``last``, to check that
     nothing moved them since), whose first and second nodes are the nets numbered
     ``a[offset:offset + count]`` and ``b[offset:offset + count]`` in ``Netlist.net_names``.
+    ``zeros`` lists the indices (in ``elements``) of the run elements whose value may
+    be zero (no nonzero digit): every other run element has a nonzero number.
     """
 
-    __slots__ = ("spans", "a", "b")
+    __slots__ = ("spans", "a", "b", "zeros")
 
     def __init__(self):
         from array import array
@@ -249,6 +258,7 @@ class PlainRuns:
         self.spans: list[tuple[int, int, "Element", "Element", int]] = []
         self.a = array("i")
         self.b = array("i")
+        self.zeros: list[int] = []
 
     def __repr__(self) -> str:
         return f"<PlainRuns {len(self.spans)} runs, {len(self.a)} elements>"
@@ -284,6 +294,26 @@ class Cell:
     @property
     def is_top(self) -> bool:
         return self.name == ""
+
+    def elements_beyond_runs(self) -> Iterator["Element"]:
+        """The elements that are not in a run of plain R/C/L cards (see
+        :class:`PlainRuns`: no model, no parameters, a number for value), in netlist
+        order; every element where the runs no longer line up with ``elements``."""
+        elements = self.elements
+        runs = self.runs
+        if runs is None:
+            return iter(elements)
+        pieces = []
+        position = 0
+        for index, count, first, last, _ in runs.spans:
+            end = index + count
+            if index < position or end > len(elements) or elements[index] is not first \
+                    or elements[end - 1] is not last:
+                return iter(elements)
+            pieces.append(elements[position:index])
+            position = end
+        pieces.append(elements[position:])
+        return chain.from_iterable(pieces)
 
     @property
     def label(self) -> str:
