@@ -11,8 +11,11 @@ across sibling cells are not followed.
 
 from __future__ import annotations
 
+import re
 from collections import deque
 from dataclasses import dataclass, field
+from itertools import compress
+from operator import attrgetter
 
 from lintamp.analysis.dc_paths import bottom_up, is_voltage_output
 from lintamp.circuit.design import CellView, Device
@@ -140,8 +143,8 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
 
 def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -> list[int]:
     """The devices of the ``wanted`` classes, in netlist order, less the resistors of
-    plain runs whose value the parser saw has a nonzero digit (a nonzero literal
-    number: never a zero-ohm branch, whatever the scope)."""
+    plain runs whose value has a nonzero digit (a literal number, as the parser's run
+    pattern guarantees: nonzero whatever the scope, so never a zero-ohm branch)."""
     classes = view.device_classes
     in_run = view.in_plain_run
     if in_run is None or not resistors:
@@ -152,9 +155,19 @@ def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -
     chosen[list(wanted)] = True
     resistor = np.zeros(len(classes.keys), dtype=bool)
     resistor[list(resistors)] = True
-    keep = chosen[classes.codes] & ~(in_run & resistor[classes.codes])
-    keep[view.cell.runs.zeros] = chosen[classes.codes[view.cell.runs.zeros]]
+    in_run_resistor = in_run & resistor[classes.codes]
+    keep = chosen[classes.codes] & ~in_run_resistor
+    candidates = np.flatnonzero(in_run_resistor).tolist()
+    elements = view.cell.elements
+    values = map(_VALUE, map(elements.__getitem__, candidates))
+    keep[list(compress(candidates, map(_ZERO_LITERAL.fullmatch, values)))] = True
     return np.flatnonzero(keep).tolist()
+
+
+_VALUE = attrgetter("value")
+# a literal number with no nonzero digit (the run pattern's numbers: sign, digits and
+# point, exponent, letters): the value of a run element that may be zero
+_ZERO_LITERAL = re.compile(r"[+-]?[0.]+(?:[eE][+-]?\d+)?[A-Za-z]*")
 
 
 def _pn(dev: Device) -> tuple[int, int] | None:

@@ -434,8 +434,8 @@ class TerminalTable:
         role = np.empty(n_terms, dtype=dtype)
         first_terminal = dev_start[:-1][in_run]
         del in_run
-        role[first_terminal] = np.frombuffer(runs.a, dtype=np.int32)
-        role[first_terminal + 1] = np.frombuffer(runs.b, dtype=np.int32)
+        role[first_terminal] = runs.a
+        role[first_terminal + 1] = runs.b
         if outside_nets:
             from_runs = np.zeros(n_terms, dtype=bool)
             from_runs[first_terminal] = True
@@ -841,38 +841,43 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
         known: dict[tuple, list] = {}
         class_of = _Numbering()
         codes: list[int] = []
-        for element in cell.elements:
-            letter = element.letter
-            if letter == "x":
-                subcell = find_cell(cell, element.model) if element.model else None
-                recognised = recognise(element, cell, devmap, subcell)
-                code = class_of[(recognised[0], recognised[1], letter, element.model)]
-            else:
-                subcell = None
-                key = (letter, element.model, len(element.nodes))
-                hit = known.get(key)
-                if hit is None:
-                    recognised = recognise(element, cell, devmap, None)
-                    # after recognise(): it may turn a bare parameter name into the value
+        elements = cell.elements
+        for lo, hi, in_run in _run_segments(cell):
+            if in_run:
+                _elaborate_run(elements[lo:hi], cell, devmap, known, class_of, codes, devices)
+                continue
+            for element in elements[lo:hi]:
+                letter = element.letter
+                if letter == "x":
+                    subcell = find_cell(cell, element.model) if element.model else None
+                    recognised = recognise(element, cell, devmap, subcell)
                     code = class_of[(recognised[0], recognised[1], letter, element.model)]
-                    if letter not in "rcl" or key[1] is None:
-                        # (key[1], the model name as written: recognise() may have moved a
-                        # bare parameter name from model to value, and the next R with that
-                        # name must be recognised afresh to get its own value)
-                        known[key] = [recognised, code]
                 else:
-                    recognised, code = hit
-                    if code is None:
-                        code = hit[1] = class_of[(recognised[0], recognised[1], letter, key[1])]
-            codes.append(code)
-            kind, pins, model, spec, polarity_from = recognised
-            name = element.name
-            low = name.lower()
-            dev = Device(name if low == name else low, kind, pins, element.nodes, element, model,
-                         None, spec, polarity_from)
-            if kind == "instance" and subcell is not None:
-                dev.subcell = views[id(subcell)]
-            devices.append(dev)
+                    subcell = None
+                    key = (letter, element.model, len(element.nodes))
+                    hit = known.get(key)
+                    if hit is None:
+                        recognised = recognise(element, cell, devmap, None)
+                        # after recognise(): it may turn a bare parameter name into the value
+                        code = class_of[(recognised[0], recognised[1], letter, element.model)]
+                        if letter not in "rcl" or key[1] is None:
+                            # (key[1], the model name as written: recognise() may have moved a
+                            # bare parameter name from model to value, and the next R with that
+                            # name must be recognised afresh to get its own value)
+                            known[key] = [recognised, code]
+                    else:
+                        recognised, code = hit
+                        if code is None:
+                            code = hit[1] = class_of[(recognised[0], recognised[1], letter, key[1])]
+                codes.append(code)
+                kind, pins, model, spec, polarity_from = recognised
+                name = element.name
+                low = name.lower()
+                dev = Device(name if low == name else low, kind, pins, element.nodes, element, model,
+                             None, spec, polarity_from)
+                if kind == "instance" and subcell is not None:
+                    dev.subcell = views[id(subcell)]
+                devices.append(dev)
         classes[id(view)] = (view, codes, list(class_of))
     for view_id in _cut_recursion(views, diagnostics):
         del classes[view_id]  # a cut instance changed kind: number that cell afresh
@@ -882,6 +887,58 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
     design = Design(netlist=netlist, views=views, top=top_view, roots=roots,
                     diagnostics=diagnostics, ground=ground)
     return design
+
+
+def _run_segments(cell: Cell) -> list[tuple[int, int, bool]]:
+    """``(start, stop, in_run)`` pieces covering ``cell.elements`` in order: the runs of
+    plain R/C/L cards the parser recorded (:class:`~lintamp.netlist.statements.PlainRuns`)
+    and what lies between them; one piece, not a run, where there are none or where they
+    no longer line up with the elements."""
+    elements = cell.elements
+    runs = cell.runs
+    if runs is None:
+        return [(0, len(elements), False)]
+    out = []
+    position = 0
+    for index, count, first, last, _ in runs.spans:
+        end = index + count
+        if index < position or end > len(elements) or elements[index] is not first \
+                or elements[end - 1] is not last:
+            return [(0, len(elements), False)]
+        if index > position:
+            out.append((position, index, False))
+        out.append((index, end, True))
+        position = end
+    if position < len(elements):
+        out.append((position, len(elements), False))
+    return out
+
+
+def _elaborate_run(elements: list[Element], cell: Cell, devmap: DeviceMap, known: dict,
+                   class_of: "_Numbering", codes: list[int], devices: list[Device]) -> None:
+    """The devices of a run of plain R/C/L elements (no model, two nodes), as the loop
+    of :func:`elaborate` makes them, with one lookup per element: each letter's
+    recognition is its ``known`` entry there, keyed ``(letter, None, 2)``."""
+    by_letter: dict[str, tuple] = {}
+    append_code = codes.append
+    append = devices.append
+    for element in elements:
+        letter = element.letter
+        hit = by_letter.get(letter)
+        if hit is None:
+            key = (letter, None, 2)
+            entry = known.get(key)
+            if entry is None:
+                recognised = recognise(element, cell, devmap, None)
+                entry = known[key] = [recognised, class_of[(recognised[0], recognised[1], letter, None)]]
+            elif entry[1] is None:
+                entry[1] = class_of[(entry[0][0], entry[0][1], letter, None)]
+            hit = by_letter[letter] = (entry[0][0], entry[0][1], entry[1])
+        kind, pins, code = hit
+        append_code(code)
+        name = element.name
+        low = name.lower()
+        append(Device(name if low == name else low, kind, pins, element.nodes, element))
 
 
 def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> set[int]:

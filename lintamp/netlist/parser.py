@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
-from array import array
 from itertools import repeat
 from operator import itemgetter
 from pathlib import Path
@@ -84,8 +83,6 @@ _PLAIN_PASSIVE_LINE = (r"[rRcClL][^\s;$/\\{}'\"(),=]*+[ \t]++" + _FIELD + r"[ \t
                        + r"[ \t]++[+-]?+(?:\d{1,15}+(?:\.\d{0,15}+)?+|\.\d{1,15}+)"
                        r"(?:[eE][+-]?+\d{1,2}+)?+[A-Za-z]*+[ \t]*+")
 PLAIN_PASSIVE_RUNS = run_pattern(_PLAIN_PASSIVE_LINE)
-# the value field of such a line (its last) with no nonzero digit: a value that may be 0
-_ZERO_VALUE = re.compile(r"[ \t][+-]?+[0.]++(?:[eE][+-]?+\d++)?+[A-Za-z]*+[ \t]*+\n")
 
 
 @dataclass(slots=True)
@@ -204,19 +201,18 @@ _LONE_EQUALS = re.compile(r"(?<![=!<>])=(?!=)")
 
 
 class _NetNumbers(dict):
-    """Net names to 0, 1, 2 ... in order of first lookup, listing each in ``names``
-    (the string object ``interned`` holds for it, so every use shares one)."""
+    """Net names to 0, 1, 2 ... in order of first lookup, listing each in ``names``, so
+    that every use of a name shares one string object: ``names[numbers[name]]``."""
 
-    __slots__ = ("interned", "names")
+    __slots__ = ("names",)
 
-    def __init__(self, interned: dict[str, str], names: list[str]):
+    def __init__(self, names: list[str]):
         super().__init__()
-        self.interned = interned
         self.names = names
 
     def __missing__(self, name: str) -> int:
         number = self[name] = len(self.names)
-        self.names.append(self.interned.setdefault(name, name))
+        self.names.append(name)
         return number
 
 
@@ -229,9 +225,9 @@ class ParseContext:
         self.stack: list[Cell] = [self.top]
         self.element_cards: list[Element] = []  # every element, for the pragmas to find
         self.title_card = False
-        self._names: dict[str, str] = {}  # one string object per distinct net name
-        # the nets of plain runs (take_run) by number; names shared with _names
-        self._net_numbers = _NetNumbers(self._names, self.netlist.net_names)
+        # every net name numbered in order of first use, each held as one string object
+        # (net_numbers.names[number]); the runs of plain cards keep the numbers
+        self._net_numbers = _NetNumbers(self.netlist.net_names)
         self.netlist.net_numbers = self._net_numbers
         # the shared place record of plain cards, one per (file, column); the last one used
         self._origins: dict[tuple[str, int], Origin] = {}
@@ -388,7 +384,8 @@ class ParseContext:
         else:
             params = NO_PARAMS
         letter = name[0].lower()
-        intern = self._names.setdefault  # one string object per distinct net name
+        number = self._net_numbers.__getitem__  # one string object per distinct net name
+        name_of = self._net_numbers.names.__getitem__
         if letter == "m":
             if not 5 <= n_pos <= 9:
                 return None
@@ -396,7 +393,7 @@ class ParseContext:
             if model in DEVICE_FLAGS or is_value_token(model):
                 return None
             raw = tuple(fields[1:n_pos - 1])
-            nodes = tuple([intern(low, low) for low in map(str.lower, raw)])
+            nodes = tuple(map(name_of, map(number, map(str.lower, raw))))
             if nodes == raw:
                 raw = nodes
             value = None
@@ -408,7 +405,7 @@ class ParseContext:
             b = fields[2]
             low_a = a.lower()
             low_b = b.lower()
-            nodes = (intern(low_a, low_a), intern(low_b, low_b))
+            nodes = (name_of(number(low_a)), name_of(number(low_b)))
             raw = nodes if a == low_a and b == low_b else (a, b)
             model = None
         _, line, col = card.segments[0]
@@ -437,15 +434,14 @@ class ParseContext:
         # each net name looked up once: its number, and from that its one string object
         number = self._net_numbers.__getitem__
         name_of = self._net_numbers.names.__getitem__
-        a = array("i", map(number, low[1::4]))
-        b = array("i", map(number, low[2::4]))
+        a = list(map(number, low[1::4]))
+        b = list(map(number, low[2::4]))
         nodes = list(zip(map(name_of, a), map(name_of, b)))
-        if low is fields:
-            raw = nodes
-        else:
-            raw = [n if n[0] == x and n[1] == y else (x, y)
-                   for n, x, y in zip(nodes, fields[1::4], fields[2::4])]
-        origin = self._origins.setdefault((path, 1), Origin(path, 1))
+        # the nodes as written: the same tuples where the whole run is lower case
+        raw = nodes if low is fields else list(zip(fields[1::4], fields[2::4]))
+        origin = self._origins.get((path, 1))
+        if origin is None:
+            origin = self._origins[(path, 1)] = Origin(path, 1)
         self._origin = origin
         elements = list(map(new_plain_element, names, map(str.lower, map(itemgetter(0), names)),
                             nodes, range(first_line, first_line + count), repeat(None),
@@ -454,10 +450,6 @@ class ParseContext:
         runs = cell.runs
         if runs is None:
             runs = cell.runs = PlainRuns()
-        if _ZERO_VALUE.search(text) is not None:  # rare: say which elements may be zero
-            values = fields[3::4]
-            runs.zeros.extend(len(cell.elements) + k for k in range(count)
-                              if _ZERO_VALUE.fullmatch(" " + values[k] + "\n"))
         runs.spans.append((len(cell.elements), count, elements[0], elements[-1], len(runs.a)))
         runs.a.extend(a)
         runs.b.extend(b)
@@ -617,10 +609,11 @@ class ParseContext:
 def _element(ctx: ParseContext, card: Card, tokens: list[Token], nodes: list[Token],
              **kw) -> Element:
     name = tokens[0].text
-    names = ctx._names
+    numbers = ctx._net_numbers
+    name_of = numbers.names.__getitem__
     _, line, column = card.segments[0]
     return Element(name=name, letter=name[0].lower(),
-                   nodes=tuple(names.setdefault(low, low) for low in (t.text.lower() for t in nodes)),
+                   nodes=tuple(name_of(numbers[t.text.lower()]) for t in nodes),
                    raw_nodes=tuple(t.text for t in nodes), path=card.path, line=line, column=column,
                    **kw)
 

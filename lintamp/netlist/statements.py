@@ -245,20 +245,16 @@ class PlainRuns:
     ``spans`` holds ``(index, count, first, last, offset)`` per run: ``count`` elements
     from ``elements[index]`` (the Element objects ``first`` ... ``last``, to check that
     nothing moved them since), whose first and second nodes are the nets numbered
-    ``a[offset:offset + count]`` and ``b[offset:offset + count]`` in ``Netlist.net_names``.
-    ``zeros`` lists the indices (in ``elements``) of the run elements whose value may
-    be zero (no nonzero digit): every other run element has a nonzero number.
+    ``a[offset:offset + count]`` and ``b[offset:offset + count]`` in ``Netlist.net_names``
+    (lists of the numbering's own int objects: a slot each, no number made per element).
     """
 
-    __slots__ = ("spans", "a", "b", "zeros")
+    __slots__ = ("spans", "a", "b")
 
     def __init__(self):
-        from array import array
-
         self.spans: list[tuple[int, int, "Element", "Element", int]] = []
-        self.a = array("i")
-        self.b = array("i")
-        self.zeros: list[int] = []
+        self.a: list[int] = []
+        self.b: list[int] = []
 
     def __repr__(self) -> str:
         return f"<PlainRuns {len(self.spans)} runs, {len(self.a)} elements>"
