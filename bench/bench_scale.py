@@ -3,8 +3,9 @@
 Each lintamp figure is the median of ``--runs`` runs, each in a fresh process (so the
 peak memory is that process's own, read with ``os.wait4``).  Beside it: the target,
 and the baselines measured in the same run on the same file -- ngspice-39 reading it
-in batch mode (no analysis; when ``ngspice`` is installed) and plain Python reading
-the file and splitting its lines.
+in batch mode (no analysis; when ``ngspice`` is installed), run in turn with lintamp so
+that the ratio is the median of side-by-side ratios, and plain Python reading the file
+and splitting its lines.
 
 Netlists come from ``bench/generate.py`` (seeded, scenarios of our own): ``flat(n)``
 (70 % R, 25 % C, 5 % MOS) and ``hierarchical(levels, fanout)`` (a 50-device cell
@@ -58,15 +59,27 @@ def median_run(argv, cwd, runs):
     return statistics.median(r[0] for r in results), statistics.median(r[1] for r in results)
 
 
+def paired(argv: list[str], path: Path, runs: int):
+    """lintamp and ngspice run in turn on ``path``, ``runs`` times: the medians of
+    each one's wall time and peak memory, and the median of the ratios of the two in
+    each turn (on a shared machine whose speed drifts from minute to minute, a ratio
+    taken side by side holds better than one of two medians taken minutes apart).
+    Without ngspice: lintamp's figures and None."""
+    if not shutil.which("ngspice"):
+        return median_run(argv, path.parent, runs), None, None
+    ours, theirs = [], []
+    for _ in range(runs):
+        ours.append(timed(argv, path.parent))
+        theirs.append(timed(["ngspice", "-b", str(path)], path.parent))
+    ratio = statistics.median(a[0] / b[0] for a, b in zip(ours, theirs))
+    medians = [(statistics.median(r[0] for r in rs), statistics.median(r[1] for r in rs))
+               for rs in (ours, theirs)]
+    return medians[0], medians[1], ratio
+
+
 def plain_python(path: Path, runs: int) -> float:
     code = f"open({str(path)!r}, encoding='utf-8').read().split('\\n')"
     return median_run([sys.executable, "-c", code], path.parent, runs)[0]
-
-
-def ngspice(path: Path, runs: int):
-    if not shutil.which("ngspice"):
-        return None
-    return median_run(["ngspice", "-b", str(path)], path.parent, runs)
 
 
 def fmt_s(v):
@@ -98,12 +111,12 @@ def main(argv=None) -> int:
         measured = {}
         for n in (small_n, big_n):
             path = write(tmp / f"flat_{n}.sp", flat(n))
-            wall, peak = median_run([py, *CHECK, "--no-cache", *CONNECTIVITY, path.name], tmp, args.runs)
+            (wall, peak), ng, side_by_side = paired(
+                [py, *CHECK, "--no-cache", *CONNECTIVITY, path.name], path, args.runs)
             wall_all, peak_all = median_run([py, *CHECK, "--no-cache", path.name], tmp, args.runs)
-            ng = ngspice(path, args.runs)
             split_s = plain_python(path, args.runs)
             measured[n] = (wall, peak)
-            ratio = f"{wall / ng[0]:.2f} x ngspice" if ng else "-"
+            ratio = f"{side_by_side:.2f} x ngspice" if ng else "-"
             rows.append((f"flat {n:,}: check, connectivity rules", fmt_s(wall),
                          "<= ngspice" if n == big_n else "", fmt_s(ng and ng[0]), fmt_s(split_s), ratio))
             rows.append((f"flat {n:,}: peak memory", f"{fmt_mb(peak)} ({peak / n:.0f} B/elem)",

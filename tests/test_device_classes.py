@@ -199,9 +199,10 @@ def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
     # table built from those numbers is the table by definition, with ports the runs
     # never touch, an instance with more nets than ports between two runs, mixed-case
     # names, zero-ohm resistors inside a run (rigid branches: rigid_devices must see
-    # them), and a cell where a card parsed late was inserted among the runs (a diode whose model name reads as a number, known only
-    # from a later .model), so the runs no longer line up and the general path
-    # builds the table
+    # them), and a cell where a card parsed late was inserted among the runs (a diode
+    # whose model name reads as a number, known only from a later .model): the runs
+    # after it move along, and a run moved by hand no longer lines up, so the general
+    # path builds that table
     def run(prefix, count, a="n", b="m"):
         return "".join(f"{prefix}{i} {a}{i % 7} {b}{i % 5} {i + 1}.5k\n" for i in range(count))
 
@@ -226,5 +227,11 @@ def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
     monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", 0)
     netlist = parse_text(text, "runs.sp", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
     assert all(c.runs is not None for c in netlist.all_cells() if c.name != "leaf")
+    late = netlist.top.cells["late"]
+    assert [e.name for e in late.elements].index("d1") == 12
+    _check_design(netlist, load_design(netlist))
+    assert sorted(built) == [("", True), ("cell", True), ("late", True)]
+    late.runs.spans[1] = (late.runs.spans[1][0] - 1, *late.runs.spans[1][1:])
+    built.clear()
     _check_design(netlist, load_design(netlist))
     assert sorted(built) == [("", True), ("cell", True), ("late", False)]

@@ -235,8 +235,8 @@ def parsed_deck(text: str, bulk: bool):
     return ([(c.name, [(e, e.location, dict(e.params)) for e in c.elements])
              for c in netlist.all_cells()],
             [(d.rule, d.location, d.message) for d in netlist.diagnostics],
-            netlist.title, sorted((p.verb, p.location) for c in netlist.all_cells()
-                                  for p in c.pragmas)), taken
+            netlist.title, sorted((p.verb, p.location, p.element, p.element_nets)
+                                  for c in netlist.all_cells() for p in c.pragmas)), taken
 
 
 def test_runs_of_plain_cards_parse_as_the_cards_one_by_one():
@@ -249,6 +249,7 @@ def test_runs_of_plain_cards_parse_as_the_cards_one_by_one():
     assert fast == slow
     assert none == [] and len(taken) > len(AROUND) // 2 and sum(taken) > 200  # runs were taken
     assert fast[2] == "r1 a b 10.5"
+    assert any(element for _, _, element, _ in fast[3])  # a waiver above a run's card finds it
     # a run followed by '+' keeps its last line a card of its own, continued
     continued = [e for _, elements in fast[0] for e, _, _ in elements if e.value == "10.5"]
     assert any(e.params == {} and e.model is None for e in continued)

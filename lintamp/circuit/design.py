@@ -434,8 +434,8 @@ class TerminalTable:
         role = np.empty(n_terms, dtype=dtype)
         first_terminal = dev_start[:-1][in_run]
         del in_run
-        role[first_terminal] = runs.a
-        role[first_terminal + 1] = runs.b
+        role[first_terminal] = np.frombuffer(runs.a, dtype=np.int32)
+        role[first_terminal + 1] = np.frombuffer(runs.b, dtype=np.int32)
         if outside_nets:
             from_runs = np.zeros(n_terms, dtype=bool)
             from_runs[first_terminal] = True

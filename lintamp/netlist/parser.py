@@ -9,9 +9,8 @@ was expected, and the rest of the file is still read.
 from __future__ import annotations
 
 import re
+from bisect import bisect_right
 from dataclasses import dataclass
-from itertools import repeat
-from operator import itemgetter
 from pathlib import Path
 
 from lintamp.gcpause import paused_gc
@@ -21,7 +20,7 @@ from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, 
                                     open_regular, probed_nets, read, read_text)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
                                         Model, Netlist, Origin, ParamDef, PlainRuns, Pragma, Source,
-                                        new_plain_element)
+                                        new_plain_element, new_plain_elements)
 
 WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
              "pat", "pwl_file"}
@@ -223,7 +222,7 @@ class ParseContext:
         self.top = Cell(name="", ports=(), location=Location(path, 1, 1))
         self.netlist = Netlist(path=path, title=title, top=self.top)
         self.stack: list[Cell] = [self.top]
-        self.element_cards: list[Element] = []  # every element, for the pragmas to find
+        self.element_cards: list = []  # every element, for the pragmas to find (runs: a mark)
         self.title_card = False
         # every net name numbered in order of first use, each held as one string object
         # (net_numbers.names[number]); the runs of plain cards keep the numbers
@@ -443,18 +442,16 @@ class ParseContext:
         if origin is None:
             origin = self._origins[(path, 1)] = Origin(path, 1)
         self._origin = origin
-        elements = list(map(new_plain_element, names, map(str.lower, map(itemgetter(0), names)),
-                            nodes, range(first_line, first_line + count), repeat(None),
-                            fields[3::4], repeat(NO_PARAMS), raw, repeat(origin)))
+        elements = new_plain_elements(names, nodes, first_line, fields[3::4], raw, origin)
         cell = self.stack[-1]
         runs = cell.runs
         if runs is None:
             runs = cell.runs = PlainRuns()
+        self.element_cards.append(_RunMark(cell, len(runs.spans)))
         runs.spans.append((len(cell.elements), count, elements[0], elements[-1], len(runs.a)))
-        runs.a.extend(a)
-        runs.b.extend(b)
+        runs.a.fromlist(a)
+        runs.b.fromlist(b)
         cell.elements.extend(elements)
-        self.element_cards.extend(elements)
 
     # -- dot cards -------------------------------------------------------------
     def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:
@@ -591,11 +588,18 @@ class ParseContext:
                 "parse-error", card.location, ".if is never closed", expected=".endif"))
         if self.deferred:
             models = frozenset(name for cell in self.netlist.all_cells() for name in cell.models)
+            inserted: dict[int, tuple[Cell, list[int]]] = {}
             for parse, card, tokens, cell, index in reversed(self.deferred):
                 element = parse(self, card, tokens, models)
                 if element is not None:
                     cell.elements.insert(index, element)
                     self.element_cards.append(element)
+                    inserted.setdefault(id(cell), (cell, []))[1].append(index)
+            for cell, where in inserted.values():
+                if cell.runs is not None:  # the runs after an inserted card move along
+                    where.sort()
+                    cell.runs.spans = [(index + bisect_right(where, index), *rest)
+                                       for index, *rest in cell.runs.spans]
         while len(self.stack) > 1:
             cell = self.stack.pop()
             self.netlist.diagnostics.append(Diagnostic(
@@ -981,14 +985,31 @@ ELEMENT_PARSERS = {
 
 
 # -- pragmas and CDL comments ----------------------------------------------------
+class _RunMark:
+    """Where a run of plain cards stands among :attr:`ParseContext.element_cards`: the
+    cell and the number of its span (one slot per run rather than one per element)."""
+
+    __slots__ = ("cell", "span")
+
+    def __init__(self, cell: Cell, span: int):
+        self.cell = cell
+        self.span = span
+
+
 def attach_comments(netlist: Netlist, comments: list[CommentLine],
                     elements: list[Element]) -> None:
-    """Turn ``lintamp:`` comments into pragmas in the cell that holds them."""
+    """Turn ``lintamp:`` comments into pragmas in the cell that holds them; ``elements``
+    lists every element in the order parsed (a run of plain cards as one mark)."""
     if not comments:
         return
     by_line: dict[tuple[str, int], Element] = {}
-    for element in elements:  # an element's location is its card's first line
-        by_line[(element.path, element.line)] = element
+    for item in elements:  # an element's location is its card's first line
+        if item.__class__ is _RunMark:
+            index, count = item.cell.runs.spans[item.span][:2]
+            for element in item.cell.elements[index:index + count]:
+                by_line[(element.path, element.line)] = element
+        else:
+            by_line[(item.path, item.line)] = item
     cells = list(netlist.all_cells())
     # which cell holds a line: the innermost .subckt whose span contains it
     spans = [(c, c.location, c.end_location) for c in cells if not c.is_top and c.end_location]

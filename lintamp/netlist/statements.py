@@ -195,6 +195,31 @@ def new_plain_element(name: str, letter: str, nodes: tuple[str, ...], line: int,
     return element
 
 
+def new_plain_elements(names: list[str], nodes: list[tuple[str, ...]], first_line: int,
+                       values: list[str], raw_nodes: list[tuple[str, ...]], origin: Origin
+                       ) -> list[Element]:
+    """:func:`new_plain_element` for a run of R/C/L cards on consecutive lines from
+    ``first_line`` (no model, no parameters), in one loop."""
+    out = []
+    append = out.append
+    new = _new_element
+    line = first_line
+    for name, node_pair, value, raw in zip(names, nodes, values, raw_nodes):
+        element = new(Element)
+        element.name = name
+        element.letter = name[0].lower()
+        element.nodes = node_pair
+        element.line = line
+        element.model = None
+        element.value = value
+        element.params = NO_PARAMS
+        element.raw_nodes = raw
+        element._origin = origin
+        append(element)
+        line += 1
+    return out
+
+
 def _rebuild_element(*fields) -> Element:
     return new_plain_element(*fields)
 
@@ -246,15 +271,18 @@ class PlainRuns:
     from ``elements[index]`` (the Element objects ``first`` ... ``last``, to check that
     nothing moved them since), whose first and second nodes are the nets numbered
     ``a[offset:offset + count]`` and ``b[offset:offset + count]`` in ``Netlist.net_names``
-    (lists of the numbering's own int objects: a slot each, no number made per element).
+    (32-bit arrays).  Cards parsed late and inserted among the elements move the spans
+    after them along (``ParseContext.finish``).
     """
 
     __slots__ = ("spans", "a", "b")
 
     def __init__(self):
+        from array import array
+
         self.spans: list[tuple[int, int, "Element", "Element", int]] = []
-        self.a: list[int] = []
-        self.b: list[int] = []
+        self.a = array("i")
+        self.b = array("i")
 
     def __repr__(self) -> str:
         return f"<PlainRuns {len(self.spans)} runs, {len(self.a)} elements>"
