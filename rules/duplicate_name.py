@@ -32,13 +32,27 @@ SUMMARY = "two elements with one name in one scope"
 
 
 _NAME = attrgetter("name")
+_BIG = 100_000  # names: above this many, compared by hash in an array before any set
+
+
+def _all_distinct(names: list[str]) -> bool:
+    """No two of ``names`` are equal.  A big cell's names are told apart by their
+    hashes first (one 8-byte integer each, sorted), so that the usual answer, all
+    distinct, needs no set of a million strings; equal hashes fall back to the set."""
+    if len(names) > _BIG:
+        import numpy as np
+
+        hashes = np.fromiter(map(hash, names), dtype=np.int64, count=len(names))
+        hashes.sort()
+        if not (hashes[1:] == hashes[:-1]).any():
+            return True
+    return len(set(names)) == len(names)
 
 
 def check(ctx):
     yield from forward_diagnostics(ctx)
     for view in ctx.cells():
-        names = list(map(_NAME, view.devices))
-        if len(set(names)) == len(names):
+        if _all_distinct(list(map(_NAME, view.devices))):
             continue  # the usual case, found without a list per name
         by_name: dict[str, list] = {}
         for dev in view.devices:

@@ -408,3 +408,14 @@ def test_body_tie_looks_each_body_net_up_once(monkeypatch):
     # 'sub' touches nothing but bodies: one finding, at its first transistor
     assert [f.subject for f in body] == ["m0"] and "floats" in body[0].message
     assert looked.count("sub") <= 3  # body-tie once; other rules may look it up too
+
+
+def test_duplicate_names_in_a_big_cell_are_found_past_the_hash_check():
+    # SPICE names are unique within a cell, case-insensitively (ngspice-39 refuses a deck
+    # with 'device already exists'; spice-syntax.md section 2): a cell of 150,000
+    # resistors is checked by hashes first, and a repeated name still comes out
+    rows = "".join(f"r{i} n{i} n{i + 1} 1k\n" for i in range(150_000))
+    deck = "v1 n0 0 1\n" + rows + "R77 n5 0 2k\n"
+    hits = findings(deck, "duplicate-name")
+    assert [f.subject for f in hits] == ["r77"] and hits[0].location.line == 150_003
+    assert findings("v1 n0 0 1\n" + rows, "duplicate-name") == []

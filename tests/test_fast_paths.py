@@ -106,6 +106,34 @@ def test_physical_lines_agree_with_their_definition(data):
     assert got == lines_by_definition(stream, limit)
 
 
+def expanded(items):
+    """physical_lines items with each run of lines given back as its lines."""
+    out = []
+    for lineno, line, length in items:
+        if length < 0:
+            pieces = line.split("\n")
+            assert pieces.pop() == "" and len(pieces) == -length >= 2
+            out.extend(zip(range(lineno, lineno + len(pieces)), pieces, map(len, pieces)))
+        else:
+            out.append((lineno, line, length))
+    return out
+
+
+@settings(max_examples=400, deadline=None)
+@given(st.data())
+def test_physical_lines_with_runs_agree_with_their_definition(data):
+    from lintamp.netlist.parser import PLAIN_PASSIVE_RUNS
+    pieces = [b"r1 a b 1k\n", b"c2 x 0 1p\r\n", b"r3 a b 1k\r\n", b"+ w=1u\n", b"\r",
+              b"* c\n", b"\n", b"l4 a b 1u"]
+    stream = b"".join(data.draw(st.lists(st.sampled_from(pieces), max_size=60)))
+    chunk_bytes = data.draw(st.sampled_from([7, 64, reader._READ_CHUNK_BYTES]))
+    chunks = [stream[i:i + chunk_bytes] for i in range(0, len(stream), chunk_bytes)]
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setattr(reader, "_READ_CHUNK_BYTES", chunk_bytes)
+        got = list(reader.physical_lines(chunks, PLAIN_PASSIVE_RUNS))
+    assert expanded(got) == lines_by_definition(stream, reader.MAX_LINE_BYTES)
+
+
 def test_physical_lines_of_a_big_ascii_file_in_one_chunk():
     # bytes held in memory come as one chunk; lines cross the fast path's block ends
     text = "".join(f"r{i} n{i} n{i + 1} {i}.5\r\n" if i % 7 else f"c{i} a 0 1f\n"
@@ -285,16 +313,13 @@ def test_physical_lines_with_runs_are_the_same_lines():
     text = "".join(f"r{i} n{i} n{i + 1} {i}.5\n" if i % 9 else f"m{i} d g s b nch\n+ w=1u\n"
                    for i in range(30_000))
     stream = text.encode() + b"last"
-    got = []
-    for lineno, line, length in reader.physical_lines([stream], PLAIN_PASSIVE_RUNS):
-        if length < 0:
-            pieces = line.split("\n")
-            assert pieces.pop() == "" and len(pieces) == -length >= 2
-            got.extend(zip(range(lineno, lineno + len(pieces)), pieces, map(len, pieces)))
-        else:
-            got.append((lineno, line, length))
+    got = expanded(reader.physical_lines([stream], PLAIN_PASSIVE_RUNS))
     assert got == lines_by_definition(stream, reader.MAX_LINE_BYTES)
     assert sum(-n for _, _, n in reader.physical_lines([stream], PLAIN_PASSIVE_RUNS) if n < 0) > 20_000
+    # Windows line ends: the same runs
+    crlf = text.replace("\n", "\r\n").encode() + b"last"
+    assert expanded(reader.physical_lines([crlf], PLAIN_PASSIVE_RUNS)) == got
+    assert sum(-n for _, _, n in reader.physical_lines([crlf], PLAIN_PASSIVE_RUNS) if n < 0) > 20_000
 
 
 CORPUS = __import__("pathlib").Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"

@@ -204,7 +204,9 @@ def physical_lines(chunks: Iterable[bytes], runs: re.Pattern | None = None
                 block = bytes(pending) + chunk[:cut] if pending else chunk[:cut]
                 if block.isascii():
                     text = block.decode("ascii")
-                    if runs is not None and len(block) <= MAX_LINE_BYTES and "\r" not in text:
+                    lf_text = _lf_only(text) if runs is not None else text
+                    if runs is not None and len(block) <= MAX_LINE_BYTES and "\r" not in lf_text:
+                        text = lf_text
                         yield from split_runs(text, lineno, runs)
                         lineno += text.count("\n")
                         pending = bytearray()
@@ -227,6 +229,12 @@ def physical_lines(chunks: Iterable[bytes], runs: re.Pattern | None = None
         take(chunk[start:])
     if carry or pending or skipping or lineno == 0:
         yield line()
+
+
+def _lf_only(text: str) -> str:
+    """``text`` with its CR LF line ends as LF (the same lines where no CR is left:
+    the callers use it only then)."""
+    return text.replace("\r\n", "\n") if "\r" in text else text
 
 
 def run_pattern(line: str) -> re.Pattern:
@@ -894,8 +902,10 @@ def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
 
 def _text_lines(text: str, runs: re.Pattern | None = None) -> Iterator[tuple[int, str | None, int]]:
     """:func:`physical_lines` for text already in memory (same line ends and limit)."""
-    if runs is not None and "\r" not in text and (
+    lf_text = _lf_only(text) if runs is not None else text
+    if runs is not None and "\r" not in lf_text and (
             len(text) <= MAX_LINE_BYTES or max(map(len, text.split("\n"))) <= MAX_LINE_BYTES):
+        text = lf_text
         cut = text.rfind("\n") + 1
         yield from split_runs(text[:cut], 0, runs)
         rest = text[cut:]  # the text after the last line end: one more line, maybe empty
