@@ -122,7 +122,7 @@ def expanded(items):
 @settings(max_examples=400, deadline=None)
 @given(st.data())
 def test_physical_lines_with_runs_agree_with_their_definition(data):
-    from lintamp.netlist.parser import PLAIN_PASSIVE_RUNS
+    from lintamp.netlist.parser import PLAIN_RUNS
     pieces = [b"r1 a b 1k\n", b"c2 x 0 1p\r\n", b"r3 a b 1k\r\n", b"+ w=1u\n", b"\r",
               b"* c\n", b"\n", b"l4 a b 1u"]
     stream = b"".join(data.draw(st.lists(st.sampled_from(pieces), max_size=60)))
@@ -130,7 +130,7 @@ def test_physical_lines_with_runs_agree_with_their_definition(data):
     chunks = [stream[i:i + chunk_bytes] for i in range(0, len(stream), chunk_bytes)]
     with pytest.MonkeyPatch.context() as patch:
         patch.setattr(reader, "_READ_CHUNK_BYTES", chunk_bytes)
-        got = list(reader.physical_lines(chunks, PLAIN_PASSIVE_RUNS))
+        got = list(reader.physical_lines(chunks, PLAIN_RUNS))
     assert expanded(got) == lines_by_definition(stream, reader.MAX_LINE_BYTES)
 
 
@@ -230,12 +230,16 @@ RUN_LINES = [
     "r1 a b 10.5", "R2 A B 10K", "c3 a 0 1.2f", "C4 Out 0 4.7e-15", "l5 a b 1u", "r6 a b 1MEG",
     "r7\ta\tb\t3.3", "r8 a b 2 ", "c9 a b .5", "c10 a b 1.", "c11 a b -0", "c12 a b 10uF",
     "r13 n+ n- 5", "r14 a*b c 5", "r15 a b 1e99", "r16 a b 1e+05meg",
+    # plain MOS cards ride in runs too; the ones after are read as any card of one line
+    "m1 d g s b nch w=1u l=0.15u", "M2 D G S B NCH W=1U", "m3 d g s b nch",
+    "m4 d g s b 2n7000 w=1u", "m5 d g s b nch m=2 w=1u l=1u nf=2",
 ]
 AROUND = [
     "+ 2k", "*comment", "* lintamp: waive no-dc-path -- ok", "", "  ", "r17 a b 1k ; c",
     "r18 a b 1k $ c", "m1 d g s b nch w=1u l=0.15u", ".control", ".endc", "print v(a)",
     ".if (1 == 0)", ".else", ".endif", ".param p=1", "   r19 a b 1", "r20 a b {p}",
-    "c21 a b 1e400", "r22 a b 1k3", "r23 a b 1d3", ".subckt cell a b", ".ends", "x1 a b cell",
+    "c21 a b 1e400", "r22 a b 1k3", "r23 a b 1d3", "m6 d g s b nch off", "m7 d g s b nch w=1u l",
+    "m8 d g s b nch w={w}", "m9 d g s nch", ".model 2n7000 nmos", ".subckt cell a b", ".ends", "x1 a b cell",
     ".end", "c24 A B 1e123", "r25 a b 1" + "0" * 16,
 ]
 
@@ -303,23 +307,23 @@ def test_random_decks_with_runs_parse_as_line_by_line(lines, end):
                      r"[A-Za-z]*\Z"))
 def test_every_number_a_run_takes_is_a_number(token):
     # the value field of the run pattern (parser._PLAIN_PASSIVE_LINE), as written there
-    from lintamp.netlist.parser import PLAIN_PASSIVE_RUNS
+    from lintamp.netlist.parser import PLAIN_RUNS
     assert parse_number(token) is not None
-    assert PLAIN_PASSIVE_RUNS.match(f"r1 a b {token}\nr2 a b 1\nr3 a b 1\n")
+    assert PLAIN_RUNS.match(f"r1 a b {token}\nr2 a b 1\nr3 a b 1\n")
 
 
 def test_physical_lines_with_runs_are_the_same_lines():
-    from lintamp.netlist.parser import PLAIN_PASSIVE_RUNS
+    from lintamp.netlist.parser import PLAIN_RUNS
     text = "".join(f"r{i} n{i} n{i + 1} {i}.5\n" if i % 9 else f"m{i} d g s b nch\n+ w=1u\n"
                    for i in range(30_000))
     stream = text.encode() + b"last"
-    got = expanded(reader.physical_lines([stream], PLAIN_PASSIVE_RUNS))
+    got = expanded(reader.physical_lines([stream], PLAIN_RUNS))
     assert got == lines_by_definition(stream, reader.MAX_LINE_BYTES)
-    assert sum(-n for _, _, n in reader.physical_lines([stream], PLAIN_PASSIVE_RUNS) if n < 0) > 20_000
+    assert sum(-n for _, _, n in reader.physical_lines([stream], PLAIN_RUNS) if n < 0) > 20_000
     # Windows line ends: the same runs
     crlf = text.replace("\n", "\r\n").encode() + b"last"
-    assert expanded(reader.physical_lines([crlf], PLAIN_PASSIVE_RUNS)) == got
-    assert sum(-n for _, _, n in reader.physical_lines([crlf], PLAIN_PASSIVE_RUNS) if n < 0) > 20_000
+    assert expanded(reader.physical_lines([crlf], PLAIN_RUNS)) == got
+    assert sum(-n for _, _, n in reader.physical_lines([crlf], PLAIN_RUNS) if n < 0) > 20_000
 
 
 CORPUS = __import__("pathlib").Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"

@@ -81,7 +81,15 @@ _FIELD = r"[^\s;$/\\{}'\"(),=]++"
 _PLAIN_PASSIVE_LINE = (r"[rRcClL][^\s;$/\\{}'\"(),=]*+[ \t]++" + _FIELD + r"[ \t]++" + _FIELD
                        + r"[ \t]++[+-]?+(?:\d{1,15}+(?:\.\d{0,15}+)?+|\.\d{1,15}+)"
                        r"(?:[eE][+-]?+\d{1,2}+)?+[A-Za-z]*+[ \t]*+")
-PLAIN_PASSIVE_RUNS = run_pattern(_PLAIN_PASSIVE_LINE)
+# A plain MOS card, ``M1 d g s b nch w=1u l=0.15u``: four nodes, a model and
+# blank-free key=value pairs, nothing the reader treats specially.  The reader hands
+# such lines over inside runs too, so that one MOS line in twenty does not cut the
+# R/C runs short; take_run() reads each as the card it is.
+_PLAIN_MOS_LINE = (r"[mM][^\s;$/\\{}'\"(),=]*+(?:[ \t]++" + _FIELD[:-2] + r"++){5}+"
+                   r"(?:[ \t]++" + _FIELD[:-2] + r"++=" + _FIELD[:-2] + r"++)*+[ \t]*+")
+PLAIN_RUNS = run_pattern(r"(?:" + _PLAIN_PASSIVE_LINE + "|" + _PLAIN_MOS_LINE + ")")
+# in a run: a stretch of R/C/L lines, or one other (MOS) line
+_PASSIVES_OR_LINE = re.compile(r"(?:[rRcClL][^\n]*+\n)++|[^\n]*+\n")
 
 
 @dataclass(slots=True)
@@ -413,16 +421,30 @@ class ParseContext:
             origin = self._origin = self._origins.setdefault((card.path, col), Origin(card.path, col))
         return new_plain_element(name, letter, nodes, line, model, value, params, raw, origin)
 
-    runs = PLAIN_PASSIVE_RUNS  # the lines take_run() is given in bulk (see lintamp.netlist.reader.BulkSink)
+    runs = PLAIN_RUNS  # the lines take_run() is given in bulk (see lintamp.netlist.reader.BulkSink)
 
     def take_run(self, text: str, path: str, first_line: int, count: int) -> None:
-        """``count`` lines that :data:`PLAIN_PASSIVE_RUNS` matched, each one card: the
-        elements :meth:`plain_element` makes of them, made a run at a time (one split
-        and one lower-casing of the whole run, no Card per line)."""
-        if self.skipping:
-            for offset, line in enumerate(text.split("\n")[:count]):
-                self.card(Card(line, path, [(0, first_line + offset, 1)], "", first_line + offset))
+        """``count`` lines that :data:`PLAIN_RUNS` matched, each one card: the elements
+        :meth:`plain_element` makes of them, the R/C/L cards a stretch at a time (one
+        split and one lower-casing of the stretch, no Card per line), the others
+        (plain MOS cards) one by one, as cards of one line."""
+        if self.skipping or text[:1] in "mM" or "\nm" in text or "\nM" in text:
+            line = first_line
+            for match in _PASSIVES_OR_LINE.finditer(text):
+                piece = match.group()
+                if self.skipping or piece[:1] in "mM":
+                    for one in piece.split("\n")[:-1]:
+                        self.card(Card(one, path, [(0, line, 1)], "", line))
+                        line += 1
+                else:
+                    lines = piece.count("\n")
+                    self._take_passives(piece, path, line, lines)
+                    line += lines
             return
+        self._take_passives(text, path, first_line, count)
+
+    def _take_passives(self, text: str, path: str, first_line: int, count: int) -> None:
+        """take_run() for ``count`` R/C/L lines: the whole stretch at once."""
         fields = text.split()
         names = fields[0::4]
         lowered = text.lower()
