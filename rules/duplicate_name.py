@@ -19,7 +19,7 @@ Fix
     Rename one of them (``R6 b c 22k``).
 """
 
-from operator import attrgetter
+from collections import Counter
 
 from lintamp.analysis.context import forward_diagnostics
 from lintamp.findings import Related, Severity
@@ -31,7 +31,6 @@ SEVERITY = Severity.ERROR
 SUMMARY = "two elements with one name in one scope"
 
 
-_NAME = attrgetter("name")
 _BIG = 100_000  # names: above this many, compared by hash in an array before any set
 
 
@@ -52,11 +51,14 @@ def _all_distinct(names: list[str]) -> bool:
 def check(ctx):
     yield from forward_diagnostics(ctx)
     for view in ctx.cells():
-        if _all_distinct(list(map(_NAME, view.devices))):
+        names = view.devices.names()
+        if _all_distinct(names):
             continue  # the usual case, found without a list per name
+        counts = Counter(names)
         by_name: dict[str, list] = {}
-        for dev in view.devices:
-            by_name.setdefault(dev.name, []).append(dev)
+        for d, name in enumerate(names):  # only the devices that share a name are made
+            if counts[name] > 1:
+                by_name.setdefault(name, []).append(view.devices[d])
         for name, devs in by_name.items():
             if len(devs) < 2:
                 continue

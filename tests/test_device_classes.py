@@ -200,9 +200,8 @@ def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
     # never touch, an instance with more nets than ports between two runs, mixed-case
     # names, zero-ohm resistors inside a run (rigid branches: rigid_devices must see
     # them), and a cell where a card parsed late was inserted among the runs (a diode
-    # whose model name reads as a number, known only from a later .model): the runs
-    # after it move along, and a run moved by hand no longer lines up, so the general
-    # path builds that table
+    # whose model name reads as a number, known only from a later .model), and an
+    # element put into the middle of a run afterwards (the run is cut in two)
     def run(prefix, count, a="n", b="m"):
         return "".join(f"{prefix}{i} {a}{i % 7} {b}{i % 5} {i + 1}.5k\n" for i in range(count))
 
@@ -226,12 +225,13 @@ def test_tables_from_plain_runs_agree_with_plain_definitions(monkeypatch):
     monkeypatch.setattr(design_module.TerminalTable, "_from_runs", spy)
     monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", 0)
     netlist = parse_text(text, "runs.sp", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
-    assert all(c.runs is not None for c in netlist.all_cells() if c.name != "leaf")
+    assert all(c.elements.runs() for c in netlist.all_cells() if c.name != "leaf")
     late = netlist.top.cells["late"]
     assert [e.name for e in late.elements].index("d1") == 12
     _check_design(netlist, load_design(netlist))
-    assert sorted(built) == [("", True), ("cell", True), ("late", True)]
-    late.runs.spans[1] = (late.runs.spans[1][0] - 1, *late.runs.spans[1][1:])
+    assert sorted(built) == [("", True), ("cell", True), ("late", True), ("leaf", False)]
+    late.elements.insert(18, late.elements[12])
+    assert [run.count for run in late.elements.runs()] == [12, 5, 7]
     built.clear()
     _check_design(netlist, load_design(netlist))
-    assert sorted(built) == [("", True), ("cell", True), ("late", False)]
+    assert sorted(built) == [("", True), ("cell", True), ("late", True), ("leaf", False)]

@@ -390,7 +390,19 @@ def test_elements_beyond_runs_are_the_others():
     deck = ("t\n" + "".join(f"r{i} a{i} b 1\n" for i in range(8)) + "m1 d g s b nch\n"
             + "".join(f"c{i} a{i} 0 1p\n" for i in range(5)) + "x1 a b sub\n.end\n")
     cell = parse_text(deck, "deck.sp").top
-    assert cell.runs is not None and len(cell.runs.spans) == 2
+    assert [run.count for run in cell.elements.runs()] == [8, 5]
     assert [e.name for e in cell.elements_beyond_runs()] == ["m1", "x1"]
-    cell.elements.insert(3, cell.elements.pop())  # the runs no longer line up: all of them
-    assert list(cell.elements_beyond_runs()) == cell.elements
+    # the cell's elements read and change as a list does (a run cut where needed)
+    as_list = list(cell.elements)
+    for elements in (cell.elements, as_list):
+        elements.insert(3, elements.pop())
+        elements.insert(0, elements.pop(10))
+        elements.insert(len(elements), elements.pop(1))
+        elements.insert(-2, elements.pop(-4))
+    assert cell.elements == as_list and len(cell.elements) == len(as_list) == 15
+    assert [cell.elements[i] for i in range(-15, 15)] == as_list + as_list
+    assert cell.elements[2:9] == as_list[2:9] and cell.elements[::3] == as_list[::3]
+    # an element taken out of a run and put back is an element of its own
+    beyond = [e.name for e in cell.elements_beyond_runs()]
+    assert beyond == [e.name for e in as_list if e.name in beyond] and {"x1", "m1"} <= set(beyond)
+    assert sum(run.count for run in cell.elements.runs()) + len(beyond) == 15

@@ -14,8 +14,6 @@ from __future__ import annotations
 import re
 from collections import deque
 from dataclasses import dataclass, field
-from itertools import compress
-from operator import attrgetter
 
 from lintamp.analysis.dc_paths import bottom_up, is_voltage_output
 from lintamp.circuit.design import CellView, Device
@@ -157,17 +155,22 @@ def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -
     resistor[list(resistors)] = True
     in_run_resistor = in_run & resistor[classes.codes]
     keep = chosen[classes.codes] & ~in_run_resistor
-    candidates = np.flatnonzero(in_run_resistor).tolist()
-    elements = view.cell.elements
-    values = map(_VALUE, map(elements.__getitem__, candidates))
-    keep[list(compress(candidates, map(_ZERO_LITERAL.fullmatch, values)))] = True
+    from lintamp.circuit.design import RunDevices
+
+    for start, item in view.devices.blocks():  # the run resistors that may be zero
+        if item.__class__ is RunDevices:
+            text = item.run.text
+            for match in _ZERO_VALUED_LINE.finditer(text):
+                d = start + text.count("\n", 0, match.start())
+                if in_run_resistor[d]:
+                    keep[d] = True
     return np.flatnonzero(keep).tolist()
 
 
-_VALUE = attrgetter("value")
-# a literal number with no nonzero digit (the run pattern's numbers: sign, digits and
-# point, exponent, letters): the value of a run element that may be zero
-_ZERO_LITERAL = re.compile(r"[+-]?[0.]+(?:[eE][+-]?\d+)?[A-Za-z]*")
+# a line of a run whose value is a literal number with no nonzero digit (the run
+# pattern's numbers: sign, digits and point, exponent, letters): one that may be zero
+_ZERO_VALUED_LINE = re.compile(
+    r"^\S+[ \t]+\S+[ \t]+\S+[ \t]+[+-]?[0.]+(?:[eE][+-]?\d+)?[A-Za-z]*[ \t]*$", re.M)
 
 
 def _pn(dev: Device) -> tuple[int, int] | None:

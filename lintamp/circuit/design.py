@@ -10,15 +10,17 @@ whole into a numeric :class:`~lintamp.circuit.flat.FlatCircuit` for the engine.
 from __future__ import annotations
 
 import re
+from bisect import bisect_right
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
-from itertools import chain, compress
+from itertools import accumulate, chain, compress, islice
 from operator import attrgetter, gt
 from typing import Callable, Iterable, Iterator, Mapping
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
 from lintamp.location import Location
-from lintamp.netlist.statements import Cell, Diagnostic, Element, Model, Netlist
+from lintamp.netlist.statements import Cell, Diagnostic, Element, Model, Netlist, PlainRun
 
 GROUND_NAMES = frozenset({"0", "gnd", "gnd!"})
 DEFAULT_FLATTEN_LIMIT = 2_000_000
@@ -96,6 +98,140 @@ class Device:
         return f"<{self.kind} {self.name} {dict(zip(self.pins, self.nets))}>"
 
 
+class RunDevices:
+    """The devices of a run of plain R/C/L cards (:class:`~lintamp.netlist.statements.PlainRun`):
+    each made, once, when first asked for, so that a cell of a million parasitics
+    holds their net numbers rather than a million Device objects.
+
+    ``kinds`` maps each letter of the run to its recognised ``(kind, pins)``.
+    """
+
+    __slots__ = ("run", "kinds", "_made")
+
+    def __init__(self, run: PlainRun, kinds: dict[str, tuple[str, tuple[str, ...]]]):
+        self.run = run
+        self.kinds = kinds
+        self._made: list[Device | None] | None = None
+
+    @property
+    def count(self) -> int:
+        return self.run.count
+
+    def device(self, i: int) -> Device:
+        made = self._made
+        if made is None:
+            made = self._made = [None] * self.run.count
+        dev = made[i]
+        if dev is None:
+            dev = made[i] = self._device(self.run.element(i))
+        return dev
+
+    def _device(self, element: Element) -> Device:
+        kind, pins = self.kinds[element.letter]
+        name = element.name
+        low = name.lower()
+        return Device(name if low == name else low, kind, pins, element.nodes, element)
+
+    def devices(self) -> list[Device]:
+        """Every device of the run, in order (made now where not yet)."""
+        made = self._made
+        if made is None:
+            made = self._made = list(map(self._device, self.run.elements()))
+        elif None in made:
+            for i, dev in enumerate(made):
+                if dev is None:
+                    made[i] = self._device(self.run.element(i))
+        return made
+
+
+class DeviceList(Sequence):
+    """A cell view's devices in netlist order: Device objects, and the devices of
+    runs of plain cards (:class:`RunDevices`), made once each when asked for.
+
+    Reads as a list of Device (index, slice, iterate: iterating makes every device);
+    :meth:`blocks` gives the pieces as held, for a pass that takes a run at a time
+    from its net numbers without making its devices.
+    """
+
+    __slots__ = ("_items", "_ends", "_size")
+
+    def __init__(self, devices: Iterable[Device] = ()):
+        self._items: list = list(devices)
+        self._ends: list[int] | None = None
+        self._size = len(self._items)
+
+    def append(self, device: Device) -> None:
+        self._items.append(device)
+        self._size += 1
+        self._ends = None
+
+    def add_run(self, block: RunDevices) -> None:
+        self._items.append(block)
+        self._size += block.run.count
+        self._ends = None
+
+    def __len__(self) -> int:
+        return self._size
+
+    def __iter__(self) -> Iterator[Device]:
+        for item in self._items:
+            if item.__class__ is RunDevices:
+                yield from item.devices()
+            else:
+                yield item
+
+    def __getitem__(self, index):
+        if isinstance(index, slice):
+            start, stop, step = index.indices(self._size)
+            if step != 1:
+                return list(self)[index]
+            return list(islice(iter(self), start, stop)) if stop > start else []
+        if index < 0:
+            index += self._size
+        if not 0 <= index < self._size:
+            raise IndexError("device index out of range")
+        ends = self._ends
+        if ends is None:
+            ends = self._ends = list(accumulate(
+                item.run.count if item.__class__ is RunDevices else 1 for item in self._items))
+        position = bisect_right(ends, index)
+        item = self._items[position]
+        if item.__class__ is RunDevices:
+            return item.device(index - (ends[position - 1] if position else 0))
+        return item
+
+    def blocks(self) -> Iterator[tuple[int, "Device | RunDevices"]]:
+        """``(index of its first device, item)`` for each Device and each run, in order."""
+        index = 0
+        for item in self._items:
+            yield index, item
+            index += item.run.count if item.__class__ is RunDevices else 1
+
+    def beyond_runs(self) -> list[Device]:
+        """The devices that are not in a run, in order (no run device is made)."""
+        return [item for item in self._items if item.__class__ is not RunDevices]
+
+    def names(self) -> list[str]:
+        """Every device's name (lower case), in order, without making the run devices."""
+        out: list[str] = []
+        for item in self._items:
+            if item.__class__ is RunDevices:
+                out.extend(item.run.text.lower().split()[0::4])
+            else:
+                out.append(item.name)
+        return out
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, (list, tuple, DeviceList)):
+            return len(self) == len(other) and list(self) == list(other)
+        return NotImplemented
+
+    __hash__ = None
+
+    def __repr__(self) -> str:
+        return f"<DeviceList of {self._size}>"
+
+
 @dataclass(eq=False)
 class CellView:
     """A cell's devices and nets, graphed once.
@@ -105,11 +241,15 @@ class CellView:
     """
 
     cell: Cell
-    devices: list[Device] = field(default_factory=list)
+    devices: DeviceList = field(default_factory=DeviceList)
     parent: "CellView | None" = None
     ports: tuple[str, ...] = ()
     globals: frozenset[str] = frozenset()
     netlist: Netlist | None = field(default=None, repr=False)  # for the net numbers of plain runs
+
+    def __post_init__(self):
+        if self.devices.__class__ is not DeviceList:
+            self.devices = DeviceList(self.devices)
 
     @property
     def name(self) -> str:
@@ -126,21 +266,18 @@ class CellView:
 
     @cached_property
     def in_plain_run(self):
-        """Which devices come from a run of plain R/C/L cards (see
-        :class:`~lintamp.netlist.statements.PlainRuns`): a numpy bool array, or None for a
-        small cell, a cell without runs, or runs that no longer line up with the devices."""
-        runs = self.cell.runs
+        """Which devices come from a run of plain R/C/L cards (see :class:`RunDevices`):
+        a numpy bool array, or None for a small cell or a cell without runs."""
         devices = self.devices
-        if runs is None or len(devices) < SMALL_TABLE_TERMINALS:
+        if len(devices) < SMALL_TABLE_TERMINALS:
             return None
-        for index, count, first, last, _ in runs.spans:
-            end = index + count - 1
-            if end >= len(devices) or devices[index].element is not first \
-                    or devices[end].element is not last:
-                return None
+        spans = [(start, item.run.count) for start, item in devices.blocks()
+                 if item.__class__ is RunDevices]
+        if not spans:
+            return None
         import numpy as np
 
-        spans = np.array([span[:2] for span in runs.spans], dtype=np.int64).reshape(-1, 2)
+        spans = np.array(spans, dtype=np.int64).reshape(-1, 2)
         steps = np.zeros(len(devices) + 1, dtype=np.int64)
         np.add.at(steps, spans[:, 0], 1)
         np.add.at(steps, spans[:, 0] + spans[:, 1], -1)
@@ -341,7 +478,7 @@ class TerminalTable:
     def __init__(self, view: "CellView", netlist: Netlist | None = None):
         devices = view.devices
         self.devices = devices
-        if netlist is not None and view.cell.runs is not None and self._from_runs(view, netlist):
+        if netlist is not None and self._from_runs(view, netlist):
             return
         # one numbering pass over the terminals: looking a million net names up is
         # bound by memory latency, so each name is looked up once, in netlist order
@@ -384,17 +521,19 @@ class TerminalTable:
 
     def _from_runs(self, view: "CellView", netlist: Netlist) -> bool:
         """Build the table from the net numbers the parser kept for the cell's runs of
-        plain R/C/L cards (:class:`~lintamp.netlist.statements.PlainRuns`): the same
-        table as the general path, with names looked up only for the devices outside
-        the runs, and array steps for the rest.  False (nothing set) where the runs no
-        longer line up with the devices, or the cell is small."""
+        plain R/C/L cards (:class:`RunDevices`): the same table as the general path,
+        with names looked up only for the devices outside the runs, and array steps
+        for the rest (no run device is made).  False (nothing set) where the cell has
+        no runs or is small."""
+        runs = [item.run for _, item in self.devices.blocks() if item.__class__ is RunDevices]
+        if sum(run.count for run in runs) * 2 < SMALL_TABLE_TERMINALS:
+            return False
         import numpy as np
 
-        runs = view.cell.runs
         devices = self.devices
         n_dev = len(devices)
         in_run = view.in_plain_run
-        if in_run is None or len(runs.a) * 2 < SMALL_TABLE_TERMINALS:
+        if in_run is None:
             return False
         # the others, one by one: their nets (those with a pin role) and their extras
         known = netlist.net_numbers
@@ -413,9 +552,11 @@ class TerminalTable:
         outside_counts: list[int] = []
         extra: list[int] = []
         extra_nets: list[int] = []
-        outside = np.flatnonzero(~in_run).tolist()
-        for d in outside:
-            dev = devices[d]
+        outside = []
+        for d, dev in devices.blocks():
+            if dev.__class__ is RunDevices:
+                continue
+            outside.append(d)
             nets, n_pins = dev.nets, len(dev.pins)
             if len(nets) > n_pins:
                 extra.append(d)
@@ -434,8 +575,9 @@ class TerminalTable:
         role = np.empty(n_terms, dtype=dtype)
         first_terminal = dev_start[:-1][in_run]
         del in_run
-        role[first_terminal] = np.frombuffer(runs.a, dtype=np.int32)
-        role[first_terminal + 1] = np.frombuffer(runs.b, dtype=np.int32)
+        role[first_terminal] = np.concatenate([np.frombuffer(run.a, dtype=np.int32) for run in runs])
+        role[first_terminal + 1] = np.concatenate([np.frombuffer(run.b, dtype=np.int32)
+                                                   for run in runs])
         if outside_nets:
             from_runs = np.zeros(n_terms, dtype=bool)
             from_runs[first_terminal] = True
@@ -841,43 +983,41 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
         known: dict[tuple, list] = {}
         class_of = _Numbering()
         codes: list[int] = []
-        elements = cell.elements
-        for lo, hi, in_run in _run_segments(cell):
-            if in_run:
-                _elaborate_run(elements[lo:hi], cell, devmap, known, class_of, codes, devices)
+        for _, element in cell.elements.blocks():
+            if element.__class__ is PlainRun:
+                devices.add_run(_run_devices(element, cell, devmap, known, class_of, codes))
                 continue
-            for element in elements[lo:hi]:
-                letter = element.letter
-                if letter == "x":
-                    subcell = find_cell(cell, element.model) if element.model else None
-                    recognised = recognise(element, cell, devmap, subcell)
+            letter = element.letter
+            if letter == "x":
+                subcell = find_cell(cell, element.model) if element.model else None
+                recognised = recognise(element, cell, devmap, subcell)
+                code = class_of[(recognised[0], recognised[1], letter, element.model)]
+            else:
+                subcell = None
+                key = (letter, element.model, len(element.nodes))
+                hit = known.get(key)
+                if hit is None:
+                    recognised = recognise(element, cell, devmap, None)
+                    # after recognise(): it may turn a bare parameter name into the value
                     code = class_of[(recognised[0], recognised[1], letter, element.model)]
+                    if letter not in "rcl" or key[1] is None:
+                        # (key[1], the model name as written: recognise() may have moved a
+                        # bare parameter name from model to value, and the next R with that
+                        # name must be recognised afresh to get its own value)
+                        known[key] = [recognised, code]
                 else:
-                    subcell = None
-                    key = (letter, element.model, len(element.nodes))
-                    hit = known.get(key)
-                    if hit is None:
-                        recognised = recognise(element, cell, devmap, None)
-                        # after recognise(): it may turn a bare parameter name into the value
-                        code = class_of[(recognised[0], recognised[1], letter, element.model)]
-                        if letter not in "rcl" or key[1] is None:
-                            # (key[1], the model name as written: recognise() may have moved a
-                            # bare parameter name from model to value, and the next R with that
-                            # name must be recognised afresh to get its own value)
-                            known[key] = [recognised, code]
-                    else:
-                        recognised, code = hit
-                        if code is None:
-                            code = hit[1] = class_of[(recognised[0], recognised[1], letter, key[1])]
-                codes.append(code)
-                kind, pins, model, spec, polarity_from = recognised
-                name = element.name
-                low = name.lower()
-                dev = Device(name if low == name else low, kind, pins, element.nodes, element, model,
-                             None, spec, polarity_from)
-                if kind == "instance" and subcell is not None:
-                    dev.subcell = views[id(subcell)]
-                devices.append(dev)
+                    recognised, code = hit
+                    if code is None:
+                        code = hit[1] = class_of[(recognised[0], recognised[1], letter, key[1])]
+            codes.append(code)
+            kind, pins, model, spec, polarity_from = recognised
+            name = element.name
+            low = name.lower()
+            dev = Device(name if low == name else low, kind, pins, element.nodes, element, model,
+                         None, spec, polarity_from)
+            if kind == "instance" and subcell is not None:
+                dev.subcell = views[id(subcell)]
+            devices.append(dev)
         classes[id(view)] = (view, codes, list(class_of))
     for view_id in _cut_recursion(views, diagnostics):
         del classes[view_id]  # a cut instance changed kind: number that cell afresh
@@ -889,56 +1029,28 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
     return design
 
 
-def _run_segments(cell: Cell) -> list[tuple[int, int, bool]]:
-    """``(start, stop, in_run)`` pieces covering ``cell.elements`` in order: the runs of
-    plain R/C/L cards the parser recorded (:class:`~lintamp.netlist.statements.PlainRuns`)
-    and what lies between them; one piece, not a run, where there are none or where they
-    no longer line up with the elements."""
-    elements = cell.elements
-    runs = cell.runs
-    if runs is None:
-        return [(0, len(elements), False)]
-    out = []
-    position = 0
-    for index, count, first, last, _ in runs.spans:
-        end = index + count
-        if index < position or end > len(elements) or elements[index] is not first \
-                or elements[end - 1] is not last:
-            return [(0, len(elements), False)]
-        if index > position:
-            out.append((position, index, False))
-        out.append((index, end, True))
-        position = end
-    if position < len(elements):
-        out.append((position, len(elements), False))
-    return out
-
-
-def _elaborate_run(elements: list[Element], cell: Cell, devmap: DeviceMap, known: dict,
-                   class_of: "_Numbering", codes: list[int], devices: list[Device]) -> None:
-    """The devices of a run of plain R/C/L elements (no model, two nodes), as the loop
-    of :func:`elaborate` makes them, with one lookup per element: each letter's
-    recognition is its ``known`` entry there, keyed ``(letter, None, 2)``."""
-    by_letter: dict[str, tuple] = {}
-    append_code = codes.append
-    append = devices.append
-    for element in elements:
-        letter = element.letter
-        hit = by_letter.get(letter)
-        if hit is None:
-            key = (letter, None, 2)
-            entry = known.get(key)
-            if entry is None:
-                recognised = recognise(element, cell, devmap, None)
-                entry = known[key] = [recognised, class_of[(recognised[0], recognised[1], letter, None)]]
-            elif entry[1] is None:
-                entry[1] = class_of[(entry[0][0], entry[0][1], letter, None)]
-            hit = by_letter[letter] = (entry[0][0], entry[0][1], entry[1])
-        kind, pins, code = hit
-        append_code(code)
-        name = element.name
-        low = name.lower()
-        append(Device(name if low == name else low, kind, pins, element.nodes, element))
+def _run_devices(run: PlainRun, cell: Cell, devmap: DeviceMap, known: dict,
+                 class_of: "_Numbering", codes: list[int]) -> RunDevices:
+    """The devices of a run of plain R/C/L cards, recognised as the loop of
+    :func:`elaborate` recognises them (each letter's ``known`` entry, keyed
+    ``(letter, None, 2)``), with their class numbers appended to ``codes``."""
+    kinds: dict[str, tuple[str, tuple[str, ...]]] = {}
+    code_of: dict[str, int] = {}
+    for letter in sorted(set(run.letters), key=run.letters.index):
+        key = (letter, None, 2)
+        entry = known.get(key)
+        if entry is None:
+            recognised = recognise(run.element(run.letters.index(letter)), cell, devmap, None)
+            entry = known[key] = [recognised, class_of[(recognised[0], recognised[1], letter, None)]]
+        elif entry[1] is None:
+            entry[1] = class_of[(entry[0][0], entry[0][1], letter, None)]
+        kinds[letter] = entry[0][:2]
+        code_of[letter] = entry[1]
+    if len(code_of) == 1:
+        codes.extend([code_of[run.letters[0]]] * run.count)
+    else:
+        codes.extend(map(code_of.__getitem__, run.letters))
+    return RunDevices(run, kinds)
 
 
 def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> set[int]:
@@ -951,7 +1063,7 @@ def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) ->
     def visit(view: CellView, stack: list[CellView]):
         state[id(view)] = 1
         stack.append(view)
-        for dev in view.devices:
+        for dev in view.devices.beyond_runs():  # (a run holds no instance)
             sub = dev.subcell
             if sub is None:
                 continue

@@ -9,7 +9,7 @@ was expected, and the rest of the file is still read.
 from __future__ import annotations
 
 import re
-from bisect import bisect_right
+from array import array
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -19,8 +19,8 @@ from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, run_pattern,
                                     open_regular, probed_nets, read, read_text)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
-                                        Model, Netlist, Origin, ParamDef, PlainRuns, Pragma, Source,
-                                        new_plain_element, new_plain_elements)
+                                        Model, Netlist, Origin, ParamDef, PlainRun, Pragma, Source,
+                                        new_plain_element)
 
 WAVEFORMS = {"pulse", "sin", "sine", "pwl", "exp", "sffm", "am", "trrandom", "trnoise",
              "pat", "pwl_file"}
@@ -230,7 +230,7 @@ class ParseContext:
         self.top = Cell(name="", ports=(), location=Location(path, 1, 1))
         self.netlist = Netlist(path=path, title=title, top=self.top)
         self.stack: list[Cell] = [self.top]
-        self.element_cards: list = []  # every element, for the pragmas to find (runs: a mark)
+        self.element_cards: list = []  # every element, for the pragmas to find (a run as itself)
         self.title_card = False
         # every net name numbered in order of first use, each held as one string object
         # (net_numbers.names[number]); the runs of plain cards keep the numbers
@@ -444,36 +444,22 @@ class ParseContext:
         self._take_passives(text, path, first_line, count)
 
     def _take_passives(self, text: str, path: str, first_line: int, count: int) -> None:
-        """take_run() for ``count`` R/C/L lines: the whole stretch at once."""
-        fields = text.split()
-        names = fields[0::4]
+        """take_run() for ``count`` R/C/L lines: the whole stretch kept as one
+        :class:`PlainRun` (its text and the numbers of its nets)."""
         lowered = text.lower()
-        if lowered == text:
-            low = fields
-        else:
-            low = lowered.split()
-        # each net name looked up once: its number, and from that its one string object
+        low = lowered.split()
         number = self._net_numbers.__getitem__
-        name_of = self._net_numbers.names.__getitem__
-        a = list(map(number, low[1::4]))
-        b = list(map(number, low[2::4]))
-        nodes = list(zip(map(name_of, a), map(name_of, b)))
-        # the nodes as written: the same tuples where the whole run is lower case
-        raw = nodes if low is fields else list(zip(fields[1::4], fields[2::4]))
+        a = array("i", map(number, low[1::4]))
+        b = array("i", map(number, low[2::4]))
         origin = self._origins.get((path, 1))
         if origin is None:
             origin = self._origins[(path, 1)] = Origin(path, 1)
         self._origin = origin
-        elements = new_plain_elements(names, nodes, first_line, fields[3::4], raw, origin)
+        letters = "".join([name[0] for name in low[0::4]])
+        run = PlainRun(text, first_line, count, origin, a, b, letters, self._net_numbers.names)
         cell = self.stack[-1]
-        runs = cell.runs
-        if runs is None:
-            runs = cell.runs = PlainRuns()
-        self.element_cards.append(_RunMark(cell, len(runs.spans)))
-        runs.spans.append((len(cell.elements), count, elements[0], elements[-1], len(runs.a)))
-        runs.a.fromlist(a)
-        runs.b.fromlist(b)
-        cell.elements.extend(elements)
+        self.element_cards.append(run)
+        cell.elements.add_run(run)
 
     # -- dot cards -------------------------------------------------------------
     def dot_card(self, card: Card, tokens: list[Token], word: str) -> None:
@@ -610,18 +596,11 @@ class ParseContext:
                 "parse-error", card.location, ".if is never closed", expected=".endif"))
         if self.deferred:
             models = frozenset(name for cell in self.netlist.all_cells() for name in cell.models)
-            inserted: dict[int, tuple[Cell, list[int]]] = {}
             for parse, card, tokens, cell, index in reversed(self.deferred):
                 element = parse(self, card, tokens, models)
                 if element is not None:
                     cell.elements.insert(index, element)
                     self.element_cards.append(element)
-                    inserted.setdefault(id(cell), (cell, []))[1].append(index)
-            for cell, where in inserted.values():
-                if cell.runs is not None:  # the runs after an inserted card move along
-                    where.sort()
-                    cell.runs.spans = [(index + bisect_right(where, index), *rest)
-                                       for index, *rest in cell.runs.spans]
         while len(self.stack) > 1:
             cell = self.stack.pop()
             self.netlist.diagnostics.append(Diagnostic(
@@ -1007,17 +986,6 @@ ELEMENT_PARSERS = {
 
 
 # -- pragmas and CDL comments ----------------------------------------------------
-class _RunMark:
-    """Where a run of plain cards stands among :attr:`ParseContext.element_cards`: the
-    cell and the number of its span (one slot per run rather than one per element)."""
-
-    __slots__ = ("cell", "span")
-
-    def __init__(self, cell: Cell, span: int):
-        self.cell = cell
-        self.span = span
-
-
 def attach_comments(netlist: Netlist, comments: list[CommentLine],
                     elements: list[Element]) -> None:
     """Turn ``lintamp:`` comments into pragmas in the cell that holds them; ``elements``
@@ -1026,9 +994,8 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
         return
     by_line: dict[tuple[str, int], Element] = {}
     for item in elements:  # an element's location is its card's first line
-        if item.__class__ is _RunMark:
-            index, count = item.cell.runs.spans[item.span][:2]
-            for element in item.cell.elements[index:index + count]:
+        if item.__class__ is PlainRun:
+            for element in item.elements():
                 by_line[(element.path, element.line)] = element
         else:
             by_line[(item.path, item.line)] = item

@@ -8,9 +8,11 @@ original spelling for messages.
 
 from __future__ import annotations
 
+from bisect import bisect_right
+from collections.abc import Sequence
 from dataclasses import dataclass, field
-from itertools import chain
-from typing import Iterator
+from itertools import accumulate, islice
+from typing import Iterable, Iterator
 
 from lintamp.location import Location
 from lintamp.pragma import Pragma  # noqa: F401 - re-exported; see lintamp.pragma
@@ -262,30 +264,191 @@ class Analysis:
     location: Location
 
 
-class PlainRuns:
-    """Where :meth:`ParseContext.take_run` put the elements of runs of plain R/C/L
-    cards in a cell, with the numbers of their nets, so that the cell's connectivity
-    table is built from arrays rather than by looking a million names up again.
+class PlainRun:
+    """``count`` consecutive plain R/C/L cards of one file, from line ``first_line``
+    at column 1 (name, two nodes, a number; see :meth:`ParseContext.take_run`), kept
+    as their text and the numbers of their nets rather than as Element objects: an
+    extracted netlist holds millions of them, and few are ever looked at one by one.
 
-    ``spans`` holds ``(index, count, first, last, offset)`` per run: ``count`` elements
-    from ``elements[index]`` (the Element objects ``first`` ... ``last``, to check that
-    nothing moved them since), whose first and second nodes are the nets numbered
-    ``a[offset:offset + count]`` and ``b[offset:offset + count]`` in ``Netlist.net_names``
-    (32-bit arrays).  Cards parsed late and inserted among the elements move the spans
-    after them along (``ParseContext.finish``).
+    ``a`` and ``b`` number the first and second node of each card in ``net_names``
+    (the netlist's, 32-bit arrays); ``letters`` holds the lower-case first letter of
+    each name.  :meth:`element` and :meth:`elements` make the Elements, equal to what
+    the line-by-line path makes of the same lines.
     """
 
-    __slots__ = ("spans", "a", "b")
+    __slots__ = ("text", "first_line", "count", "origin", "a", "b", "letters", "net_names",
+                 "_lines")
 
-    def __init__(self):
-        from array import array
-
-        self.spans: list[tuple[int, int, "Element", "Element", int]] = []
-        self.a = array("i")
-        self.b = array("i")
+    def __init__(self, text: str, first_line: int, count: int, origin: Origin, a, b,
+                 letters: str, net_names: list[str]):
+        self.text = text
+        self.first_line = first_line
+        self.count = count
+        self.origin = origin
+        self.a = a
+        self.b = b
+        self.letters = letters
+        self.net_names = net_names
+        self._lines: list[str] | None = None
 
     def __repr__(self) -> str:
-        return f"<PlainRuns {len(self.spans)} runs, {len(self.a)} elements>"
+        return f"<PlainRun {self.count} cards from {self.origin.path}:{self.first_line}>"
+
+    def element(self, i: int) -> Element:
+        """The element of card ``i`` (a new object each time, equal to the others)."""
+        lines = self._lines
+        if lines is None:
+            lines = self._lines = self.text.split("\n")
+        name, raw_a, raw_b, value = lines[i].split()
+        names = self.net_names
+        nodes = (names[self.a[i]], names[self.b[i]])
+        return new_plain_element(name, self.letters[i], nodes, self.first_line + i, None, value,
+                                 NO_PARAMS, nodes if (raw_a, raw_b) == nodes else (raw_a, raw_b),
+                                 self.origin)
+
+    def elements(self) -> list[Element]:
+        """The elements of every card, in order, made in one loop."""
+        fields = self.text.split()
+        names = self.net_names
+        nodes = list(zip(map(names.__getitem__, self.a), map(names.__getitem__, self.b)))
+        raw = list(zip(fields[1::4], fields[2::4]))
+        if raw == nodes:
+            raw = nodes
+        return new_plain_elements(fields[0::4], nodes, self.first_line, fields[3::4], raw,
+                                  self.origin)
+
+    def names(self) -> list[str]:
+        """The element names as written."""
+        return self.text.split()[0::4]
+
+    def split(self, i: int) -> tuple["PlainRun", "PlainRun"]:
+        """The cards before ``i`` and from ``i`` on, as two runs."""
+        lines = self.text.split("\n")
+        head = PlainRun("".join(line + "\n" for line in lines[:i]), self.first_line, i,
+                        self.origin, self.a[:i], self.b[:i], self.letters[:i], self.net_names)
+        tail = PlainRun("".join(line + "\n" for line in lines[i:self.count]), self.first_line + i,
+                        self.count - i, self.origin, self.a[i:], self.b[i:], self.letters[i:],
+                        self.net_names)
+        return head, tail
+
+
+class ElementList(Sequence):
+    """A cell's elements in netlist order: Element objects, and runs of plain cards
+    (:class:`PlainRun`) whose Elements are made when asked for.
+
+    Reads as a list of Element (index, slice, iterate, compare with a list); grows by
+    :meth:`append`, :meth:`add_run` and :meth:`insert`.  :meth:`blocks` gives the
+    pieces as they are held, for a pass that takes a run at a time.
+    """
+
+    __slots__ = ("_items", "_ends", "_size")
+
+    def __init__(self, elements: Iterable[Element] = ()):
+        self._items: list = list(elements)
+        self._ends: list[int] | None = None
+        self._size = len(self._items)
+
+    def append(self, element: Element) -> None:
+        self._items.append(element)
+        self._size += 1
+        self._ends = None
+
+    def extend(self, elements: Iterable[Element]) -> None:
+        for element in elements:
+            self.append(element)
+
+    def add_run(self, run: PlainRun) -> None:
+        self._items.append(run)
+        self._size += run.count
+        self._ends = None
+
+    def insert(self, index: int, element: Element) -> None:
+        """Put ``element`` at ``index`` (a run it falls inside is cut in two)."""
+        index = max(0, min(index, self._size)) if index >= 0 else max(0, self._size + index)
+        position, start = self._locate(index) if index < self._size else (len(self._items), index)
+        item = self._items[position] if position < len(self._items) else None
+        if item.__class__ is PlainRun and index > start:
+            head, tail = item.split(index - start)
+            self._items[position:position + 1] = [head, element, tail]
+        else:
+            self._items.insert(position, element)
+        self._size += 1
+        self._ends = None
+
+    def pop(self, index: int = -1) -> Element:
+        element = self[index]
+        index = index % self._size
+        position, start = self._locate(index)
+        item = self._items[position]
+        if item.__class__ is PlainRun:
+            head, tail = item.split(index - start)
+            rest = tail.split(1)[1]
+            self._items[position:position + 1] = [r for r in (head, rest) if r.count]
+        else:
+            del self._items[position]
+        self._size -= 1
+        self._ends = None
+        return element
+
+    def _locate(self, index: int) -> tuple[int, int]:
+        """(position in ``_items``, index of that item's first element) for ``index``."""
+        ends = self._ends
+        if ends is None:
+            ends = self._ends = list(accumulate(
+                item.count if item.__class__ is PlainRun else 1 for item in self._items))
+        position = bisect_right(ends, index)
+        return position, (ends[position - 1] if position else 0)
+
+    def __len__(self) -> int:
+        return self._size
+
+    def __iter__(self) -> Iterator[Element]:
+        for item in self._items:
+            if item.__class__ is PlainRun:
+                yield from item.elements()
+            else:
+                yield item
+
+    def __getitem__(self, index):
+        if isinstance(index, slice):
+            start, stop, step = index.indices(self._size)
+            if step != 1:
+                return list(self)[index]
+            return list(islice(iter(self), start, stop)) if stop > start else []
+        if index < 0:
+            index += self._size
+        if not 0 <= index < self._size:
+            raise IndexError("element index out of range")
+        position, start = self._locate(index)
+        item = self._items[position]
+        return item.element(index - start) if item.__class__ is PlainRun else item
+
+    def blocks(self) -> Iterator[tuple[int, "Element | PlainRun"]]:
+        """``(index of its first element, item)`` for each Element and each run, in order."""
+        index = 0
+        for item in self._items:
+            yield index, item
+            index += item.count if item.__class__ is PlainRun else 1
+
+    def runs(self) -> list[PlainRun]:
+        return [item for item in self._items if item.__class__ is PlainRun]
+
+    def beyond_runs(self) -> list[Element]:
+        """The elements that are not in a run, in order."""
+        return [item for item in self._items if item.__class__ is not PlainRun]
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, (list, tuple, ElementList)):
+            return len(self) == len(other) and list(self) == list(other)
+        return NotImplemented
+
+    __hash__ = None
+
+    def __repr__(self) -> str:
+        return repr(list(self))
+
+    def __reduce__(self):
+        return ElementList, (list(self),)
 
 
 @dataclass(slots=True)
@@ -304,7 +467,7 @@ class Cell:
     location: Location
     params: list[ParamDef] = field(default_factory=list)  # .subckt defaults, then .param cards
     defaults: dict[str, str] = field(default_factory=dict)  # .subckt header defaults
-    elements: list[Element] = field(default_factory=list)
+    elements: ElementList = field(default_factory=ElementList)
     models: dict[str, Model] = field(default_factory=dict)
     funcs: dict[str, FuncDef] = field(default_factory=dict)
     cells: dict[str, "Cell"] = field(default_factory=dict)
@@ -313,31 +476,19 @@ class Cell:
     end_location: Location | None = None
     parent: "Cell | None" = field(default=None, repr=False)
     optional_ports: dict[str, str] = field(default_factory=dict)
-    runs: PlainRuns | None = field(default=None, repr=False, compare=False)
+
+    def __post_init__(self):
+        if self.elements.__class__ is not ElementList:
+            self.elements = ElementList(self.elements)
 
     @property
     def is_top(self) -> bool:
         return self.name == ""
 
-    def elements_beyond_runs(self) -> Iterator["Element"]:
+    def elements_beyond_runs(self) -> list["Element"]:
         """The elements that are not in a run of plain R/C/L cards (see
-        :class:`PlainRuns`: no model, no parameters, a number for value), in netlist
-        order; every element where the runs no longer line up with ``elements``."""
-        elements = self.elements
-        runs = self.runs
-        if runs is None:
-            return iter(elements)
-        pieces = []
-        position = 0
-        for index, count, first, last, _ in runs.spans:
-            end = index + count
-            if index < position or end > len(elements) or elements[index] is not first \
-                    or elements[end - 1] is not last:
-                return iter(elements)
-            pieces.append(elements[position:index])
-            position = end
-        pieces.append(elements[position:])
-        return chain.from_iterable(pieces)
+        :class:`PlainRun`: no model, no parameters, a number for value), in order."""
+        return self.elements.beyond_runs()
 
     @property
     def label(self) -> str:
@@ -362,7 +513,7 @@ class Netlist:
     # top-level nets a '.ic v(net)=value' card sets: a transient's initial operating
     # point holds them there (ngspice-39 manual, .IC)
     initial_conditions: dict[str, str] = field(default_factory=dict)
-    # the nets of plain runs (see PlainRuns), numbered: name -> number, number -> name
+    # the nets of plain runs (see PlainRun), numbered: name -> number, number -> name
     net_numbers: dict[str, int] = field(default_factory=dict, repr=False, compare=False)
     net_names: list[str] = field(default_factory=list, repr=False, compare=False)
 
