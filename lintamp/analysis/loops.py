@@ -11,7 +11,6 @@ across sibling cells are not followed.
 
 from __future__ import annotations
 
-import re
 from collections import deque
 from dataclasses import dataclass, field
 
@@ -142,7 +141,8 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
 def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -> list[int]:
     """The devices of the ``wanted`` classes, in netlist order, less the resistors of
     plain runs whose value has a nonzero digit (a literal number, as the parser's run
-    pattern guarantees: nonzero whatever the scope, so never a zero-ohm branch)."""
+    pattern guarantees: nonzero whatever the scope, so never a zero-ohm branch; the
+    parser lists the others as ``PlainRun.maybe_zero``)."""
     classes = view.device_classes
     in_run = view.in_plain_run
     if in_run is None or not resistors:
@@ -159,18 +159,11 @@ def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -
 
     for start, item in view.devices.blocks():  # the run resistors that may be zero
         if item.__class__ is RunDevices:
-            text = item.run.text
-            for match in _ZERO_VALUED_LINE.finditer(text):
-                d = start + text.count("\n", 0, match.start())
-                if in_run_resistor[d]:
-                    keep[d] = True
+            for i in item.run.maybe_zero:
+                if in_run_resistor[start + i]:
+                    keep[start + i] = True
     return np.flatnonzero(keep).tolist()
 
-
-# a line of a run whose value is a literal number with no nonzero digit (the run
-# pattern's numbers: sign, digits and point, exponent, letters): one that may be zero
-_ZERO_VALUED_LINE = re.compile(
-    r"^\S+[ \t]+\S+[ \t]+\S+[ \t]+[+-]?[0.]+(?:[eE][+-]?\d+)?[A-Za-z]*[ \t]*$", re.M)
 
 
 def _pn(dev: Device) -> tuple[int, int] | None:

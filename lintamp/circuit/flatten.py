@@ -54,14 +54,14 @@ def flat_element_count(root: CellView) -> int:
         key = (id(view), depth)
         if key in memo and not ready:
             continue
-        subs = [d.subcell for d in view.devices if d.kind == "instance" and d.subcell is not None]
+        subs = [d.subcell for d in view.instances()]  # (found by device class)
         if not ready:
             stack.append((view, depth, True))
             if depth < _MAX_DEPTH:
                 stack.extend((sub, depth + 1, False) for sub in subs
                              if (id(sub), depth + 1) not in memo)
             continue
-        own = sum(1 for d in view.devices if not (d.kind == "instance" and d.subcell is not None))
+        own = len(view.devices) - len(subs)
         below = sum(memo[(id(sub), depth + 1)] for sub in subs) if depth < _MAX_DEPTH else 0
         memo[key] = own + below
     return memo[(id(root), 0)]

@@ -88,6 +88,9 @@ _PLAIN_PASSIVE_LINE = (r"[rRcClL][^\s;$/\\{}'\"(),=]*+[ \t]++" + _FIELD + r"[ \t
 _PLAIN_MOS_LINE = (r"[mM][^\s;$/\\{}'\"(),=]*+(?:[ \t]++" + _FIELD[:-2] + r"++){5}+"
                    r"(?:[ \t]++" + _FIELD[:-2] + r"++=" + _FIELD[:-2] + r"++)*+[ \t]*+")
 PLAIN_RUNS = run_pattern(r"(?:" + _PLAIN_PASSIVE_LINE + "|" + _PLAIN_MOS_LINE + ")")
+# a literal of the run pattern (sign, digits and point, exponent, letters) with no
+# nonzero digit: a value that may be zero
+_ZERO_LITERAL = re.compile(r"[+-]?[0.]+(?:e[+-]?\d+)?[a-z]*")
 # in a run: a stretch of R/C/L lines, or one other (MOS) line
 _PASSIVES_OR_LINE = re.compile(r"(?:[rRcClL][^\n]*+\n)++|[^\n]*+\n")
 
@@ -456,7 +459,11 @@ class ParseContext:
             origin = self._origins[(path, 1)] = Origin(path, 1)
         self._origin = origin
         letters = "".join([name[0] for name in low[0::4]])
-        run = PlainRun(text, first_line, count, origin, a, b, letters, self._net_numbers.names)
+        values = low[3::4]
+        maybe_zero = tuple(i for i in [i for i, value in enumerate(values) if value[0] in "0.+-"]
+                           if _ZERO_LITERAL.fullmatch(values[i]))
+        run = PlainRun(text, first_line, count, origin, a, b, letters, self._net_numbers.names,
+                       maybe_zero)
         cell = self.stack[-1]
         self.element_cards.append(run)
         cell.elements.add_run(run)

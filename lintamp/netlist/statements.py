@@ -272,16 +272,19 @@ class PlainRun:
 
     ``a`` and ``b`` number the first and second node of each card in ``net_names``
     (the netlist's, 32-bit arrays); ``letters`` holds the lower-case first letter of
-    each name.  :meth:`element` and :meth:`elements` make the Elements, equal to what
+    each name, ``maybe_zero`` the cards whose value is a literal with no nonzero digit
+    (``0``, ``0.0k``, ``-0e3``: every other value of a run is a nonzero number whatever
+    the scope).  :meth:`element` and :meth:`elements` make the Elements, equal to what
     the line-by-line path makes of the same lines.
     """
 
     __slots__ = ("text", "first_line", "count", "origin", "a", "b", "letters", "net_names",
-                 "_lines")
+                 "maybe_zero", "_lines")
 
     def __init__(self, text: str, first_line: int, count: int, origin: Origin, a, b,
-                 letters: str, net_names: list[str]):
+                 letters: str, net_names: list[str], maybe_zero: tuple[int, ...] = ()):
         self.text = text
+        self.maybe_zero = maybe_zero
         self.first_line = first_line
         self.count = count
         self.origin = origin
@@ -325,10 +328,11 @@ class PlainRun:
         """The cards before ``i`` and from ``i`` on, as two runs."""
         lines = self.text.split("\n")
         head = PlainRun("".join(line + "\n" for line in lines[:i]), self.first_line, i,
-                        self.origin, self.a[:i], self.b[:i], self.letters[:i], self.net_names)
+                        self.origin, self.a[:i], self.b[:i], self.letters[:i], self.net_names,
+                        tuple(z for z in self.maybe_zero if z < i))
         tail = PlainRun("".join(line + "\n" for line in lines[i:self.count]), self.first_line + i,
                         self.count - i, self.origin, self.a[i:], self.b[i:], self.letters[i:],
-                        self.net_names)
+                        self.net_names, tuple(z - i for z in self.maybe_zero if z >= i))
         return head, tail
 
 
