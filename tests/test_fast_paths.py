@@ -406,3 +406,30 @@ def test_elements_beyond_runs_are_the_others():
     beyond = [e.name for e in cell.elements_beyond_runs()]
     assert beyond == [e.name for e in as_list if e.name in beyond] and {"x1", "m1"} <= set(beyond)
     assert sum(run.count for run in cell.elements.runs()) + len(beyond) == 15
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from(["insert", "pop"]), st.integers(-40, 40)), max_size=12))
+def test_cell_elements_change_as_a_list_does(operations):
+    # A cell's elements hold runs of plain cards as text (PlainRun); inserting into or
+    # popping from the middle of a run cuts it. Checked against a plain list doing the
+    # same (the model: Python's list semantics, from memory).
+    from lintamp.netlist.parser import parse_text
+    deck = ("t\n" + "".join(f"R{i} a{i % 3} B 1.{i}k\n" for i in range(9)) + "m1 d g s b nch\n"
+            + "".join(f"c{i} a{i} 0 {i}p\n" for i in range(6)) + "x1 a b sub\n.end\n")
+    cell = parse_text(deck, "deck.sp").top
+    model = list(cell.elements)
+    spare = model[-1]
+    for operation, index in operations:
+        for elements in (cell.elements, model):
+            if operation == "insert":
+                elements.insert(index, spare)
+            elif elements:
+                if -len(elements) <= index < len(elements):
+                    elements.pop(index)
+        assert len(cell.elements) == len(model)
+    assert cell.elements == model
+    assert [cell.elements[i] for i in range(len(model))] == model
+    runs = cell.elements.runs()
+    assert sum(run.count for run in runs) + len(cell.elements_beyond_runs()) == len(model)
+    assert all(run.count > 0 for run in runs)

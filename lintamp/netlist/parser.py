@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import re
 from array import array
+from bisect import bisect_right
 from dataclasses import dataclass
+from operator import itemgetter
 from pathlib import Path
 
 from lintamp.gcpause import paused_gc
@@ -996,16 +998,28 @@ ELEMENT_PARSERS = {
 def attach_comments(netlist: Netlist, comments: list[CommentLine],
                     elements: list[Element]) -> None:
     """Turn ``lintamp:`` comments into pragmas in the cell that holds them; ``elements``
-    lists every element in the order parsed (a run of plain cards as one mark)."""
+    lists every element in the order parsed (a run of plain cards as itself)."""
     if not comments:
         return
     by_line: dict[tuple[str, int], Element] = {}
+    run_starts: dict[str, list[tuple[int, PlainRun]]] = {}  # per file, in line order
     for item in elements:  # an element's location is its card's first line
         if item.__class__ is PlainRun:
-            for element in item.elements():
-                by_line[(element.path, element.line)] = element
+            run_starts.setdefault(item.origin.path, []).append((item.first_line, item))
         else:
             by_line[(item.path, item.line)] = item
+
+    def element_at(path: str, line: int) -> Element | None:
+        found = by_line.get((path, line))
+        if found is None and path in run_starts:  # a card of a run: made only when asked
+            starts = run_starts[path]
+            k = bisect_right(starts, line, key=itemgetter(0)) - 1
+            if k >= 0 and line < starts[k][0] + starts[k][1].count:
+                found = starts[k][1].element(line - starts[k][0])
+        return found
+
+    for starts in run_starts.values():
+        starts.sort(key=itemgetter(0))
     cells = list(netlist.all_cells())
     # which cell holds a line: the innermost .subckt whose span contains it
     spans = [(c, c.location, c.end_location) for c in cells if not c.is_top and c.end_location]
@@ -1037,7 +1051,7 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
                         reason=reason.strip(), location=comment.location,
                         inline=comment.kind == "pragma-inline", cell=cell.name)
         key = (comment.location.path, comment.location.line)
-        element = by_line.get(key) if pragma.inline else by_line.get((key[0], key[1] + 1))
+        element = element_at(key[0], key[1] + (0 if pragma.inline else 1))
         if element is not None:
             pragma.element = element.key
             pragma.element_nets = element.nodes
