@@ -10,17 +10,16 @@ whole into a numeric :class:`~lintamp.circuit.flat.FlatCircuit` for the engine.
 from __future__ import annotations
 
 import re
-from bisect import bisect_right
-from collections.abc import Sequence
 from dataclasses import dataclass, field
 from functools import cached_property
-from itertools import accumulate, chain, compress, islice
+from itertools import chain, compress
 from operator import attrgetter, gt
 from typing import Callable, Iterable, Iterator, Mapping
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
 from lintamp.location import Location
-from lintamp.netlist.statements import Cell, Diagnostic, Element, Model, Netlist, PlainRun
+from lintamp.netlist.statements import (BlockList, Cell, Diagnostic, Element, Model, Netlist,
+                                        PlainRun)
 
 GROUND_NAMES = frozenset({"0", "gnd", "gnd!"})
 DEFAULT_FLATTEN_LIMIT = 2_000_000
@@ -132,7 +131,9 @@ class RunDevices:
         low = name.lower()
         return Device(name if low == name else low, kind, pins, element.nodes, element)
 
-    def devices(self) -> list[Device]:
+    item = device  # the BlockList protocol
+
+    def items(self) -> list[Device]:
         """Every device of the run, in order (made now where not yet)."""
         made = self._made
         if made is None:
@@ -144,72 +145,16 @@ class RunDevices:
         return made
 
 
-class DeviceList(Sequence):
+class DeviceList(BlockList):
     """A cell view's devices in netlist order: Device objects, and the devices of
-    runs of plain cards (:class:`RunDevices`), made once each when asked for.
+    runs of plain cards (:class:`RunDevices`), made once each when asked for (see
+    :class:`~lintamp.netlist.statements.BlockList`: iterating makes every device)."""
 
-    Reads as a list of Device (index, slice, iterate: iterating makes every device);
-    :meth:`blocks` gives the pieces as held, for a pass that takes a run at a time
-    from its net numbers without making its devices.
-    """
+    __slots__ = ()
+    block = RunDevices
 
-    __slots__ = ("_items", "_ends", "_size")
-
-    def __init__(self, devices: Iterable[Device] = ()):
-        self._items: list = list(devices)
-        self._ends: list[int] | None = None
-        self._size = len(self._items)
-
-    def append(self, device: Device) -> None:
-        self._items.append(device)
-        self._size += 1
-        self._ends = None
-
-    def add_run(self, block: RunDevices) -> None:
-        self._items.append(block)
-        self._size += block.run.count
-        self._ends = None
-
-    def __len__(self) -> int:
-        return self._size
-
-    def __iter__(self) -> Iterator[Device]:
-        for item in self._items:
-            if item.__class__ is RunDevices:
-                yield from item.devices()
-            else:
-                yield item
-
-    def __getitem__(self, index):
-        if isinstance(index, slice):
-            start, stop, step = index.indices(self._size)
-            if step != 1:
-                return list(self)[index]
-            return list(islice(iter(self), start, stop)) if stop > start else []
-        if index < 0:
-            index += self._size
-        if not 0 <= index < self._size:
-            raise IndexError("device index out of range")
-        ends = self._ends
-        if ends is None:
-            ends = self._ends = list(accumulate(
-                item.run.count if item.__class__ is RunDevices else 1 for item in self._items))
-        position = bisect_right(ends, index)
-        item = self._items[position]
-        if item.__class__ is RunDevices:
-            return item.device(index - (ends[position - 1] if position else 0))
-        return item
-
-    def blocks(self) -> Iterator[tuple[int, "Device | RunDevices"]]:
-        """``(index of its first device, item)`` for each Device and each run, in order."""
-        index = 0
-        for item in self._items:
-            yield index, item
-            index += item.run.count if item.__class__ is RunDevices else 1
-
-    def beyond_runs(self) -> list[Device]:
-        """The devices that are not in a run, in order (no run device is made)."""
-        return [item for item in self._items if item.__class__ is not RunDevices]
+    add_run = BlockList.add_block
+    beyond_runs = BlockList.beyond_blocks
 
     def names(self) -> list[str]:
         """Every device's name (lower case), in order, without making the run devices."""
@@ -220,13 +165,6 @@ class DeviceList(Sequence):
             else:
                 out.append(item.name)
         return out
-
-    def __eq__(self, other) -> bool:
-        if isinstance(other, (list, tuple, DeviceList)):
-            return len(self) == len(other) and list(self) == list(other)
-        return NotImplemented
-
-    __hash__ = None
 
     def __repr__(self) -> str:
         return f"<DeviceList of {self._size}>"

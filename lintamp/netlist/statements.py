@@ -320,6 +320,9 @@ class PlainRun:
         return new_plain_elements(fields[0::4], nodes, self.first_line, fields[3::4], raw,
                                   self.origin)
 
+    item = element  # the BlockList protocol
+    items = elements
+
     def names(self) -> list[str]:
         """The element names as written."""
         return self.text.split()[0::4]
@@ -336,35 +339,106 @@ class PlainRun:
         return head, tail
 
 
-class ElementList(Sequence):
-    """A cell's elements in netlist order: Element objects, and runs of plain cards
-    (:class:`PlainRun`) whose Elements are made when asked for.
+class BlockList(Sequence):
+    """A sequence held as single items and blocks of items made when asked for (a
+    block has ``count``, ``item(i)`` and ``items()``; subclasses name its class as
+    ``block``).
 
-    Reads as a list of Element (index, slice, iterate, compare with a list); grows by
-    :meth:`append`, :meth:`add_run` and :meth:`insert`.  :meth:`blocks` gives the
-    pieces as they are held, for a pass that takes a run at a time.
+    Reads as a list (index, slice, iterate: iterating makes every item of every
+    block; compare with a list); grows by :meth:`append` and :meth:`add_block`.
+    :meth:`blocks` gives the pieces as held, for a pass that takes a block at a time.
     """
 
     __slots__ = ("_items", "_ends", "_size")
+    block: type = type(None)
 
-    def __init__(self, elements: Iterable[Element] = ()):
-        self._items: list = list(elements)
+    def __init__(self, items: Iterable = ()):
+        self._items: list = list(items)
         self._ends: list[int] | None = None
         self._size = len(self._items)
 
-    def append(self, element: Element) -> None:
-        self._items.append(element)
+    def append(self, item) -> None:
+        self._items.append(item)
         self._size += 1
         self._ends = None
 
-    def extend(self, elements: Iterable[Element]) -> None:
-        for element in elements:
-            self.append(element)
+    def extend(self, items: Iterable) -> None:
+        for item in items:
+            self.append(item)
 
-    def add_run(self, run: PlainRun) -> None:
-        self._items.append(run)
-        self._size += run.count
+    def add_block(self, block) -> None:
+        self._items.append(block)
+        self._size += block.count
         self._ends = None
+
+    def _locate(self, index: int) -> tuple[int, int]:
+        """(position in ``_items``, index of that piece's first item) for ``index``."""
+        ends = self._ends
+        if ends is None:
+            block = self.block
+            ends = self._ends = list(accumulate(
+                item.count if item.__class__ is block else 1 for item in self._items))
+        position = bisect_right(ends, index)
+        return position, (ends[position - 1] if position else 0)
+
+    def __len__(self) -> int:
+        return self._size
+
+    def __iter__(self) -> Iterator:
+        block = self.block
+        for item in self._items:
+            if item.__class__ is block:
+                yield from item.items()
+            else:
+                yield item
+
+    def __getitem__(self, index):
+        if isinstance(index, slice):
+            start, stop, step = index.indices(self._size)
+            if step != 1:
+                return list(self)[index]
+            return list(islice(iter(self), start, stop)) if stop > start else []
+        if index < 0:
+            index += self._size
+        if not 0 <= index < self._size:
+            raise IndexError(f"{type(self).__name__} index out of range")
+        position, start = self._locate(index)
+        item = self._items[position]
+        return item.item(index - start) if item.__class__ is self.block else item
+
+    def blocks(self) -> Iterator[tuple[int, object]]:
+        """``(index of its first item, piece)`` for each single item and each block."""
+        block = self.block
+        index = 0
+        for item in self._items:
+            yield index, item
+            index += item.count if item.__class__ is block else 1
+
+    def beyond_blocks(self) -> list:
+        """The single items, in order (nothing of a block is made)."""
+        block = self.block
+        return [item for item in self._items if item.__class__ is not block]
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, (list, tuple, BlockList)):
+            return len(self) == len(other) and list(self) == list(other)
+        return NotImplemented
+
+    __hash__ = None
+
+    def __reduce__(self):
+        return type(self), (list(self),)
+
+
+class ElementList(BlockList):
+    """A cell's elements in netlist order: Element objects, and runs of plain cards
+    (:class:`PlainRun`) whose Elements are made when asked for (see :class:`BlockList`);
+    :meth:`insert` and :meth:`pop` cut a run where needed."""
+
+    __slots__ = ()
+    block = PlainRun
+
+    add_run = BlockList.add_block
 
     def insert(self, index: int, element: Element) -> None:
         """Put ``element`` at ``index`` (a run it falls inside is cut in two)."""
@@ -394,65 +468,13 @@ class ElementList(Sequence):
         self._ends = None
         return element
 
-    def _locate(self, index: int) -> tuple[int, int]:
-        """(position in ``_items``, index of that item's first element) for ``index``."""
-        ends = self._ends
-        if ends is None:
-            ends = self._ends = list(accumulate(
-                item.count if item.__class__ is PlainRun else 1 for item in self._items))
-        position = bisect_right(ends, index)
-        return position, (ends[position - 1] if position else 0)
-
-    def __len__(self) -> int:
-        return self._size
-
-    def __iter__(self) -> Iterator[Element]:
-        for item in self._items:
-            if item.__class__ is PlainRun:
-                yield from item.elements()
-            else:
-                yield item
-
-    def __getitem__(self, index):
-        if isinstance(index, slice):
-            start, stop, step = index.indices(self._size)
-            if step != 1:
-                return list(self)[index]
-            return list(islice(iter(self), start, stop)) if stop > start else []
-        if index < 0:
-            index += self._size
-        if not 0 <= index < self._size:
-            raise IndexError("element index out of range")
-        position, start = self._locate(index)
-        item = self._items[position]
-        return item.element(index - start) if item.__class__ is PlainRun else item
-
-    def blocks(self) -> Iterator[tuple[int, "Element | PlainRun"]]:
-        """``(index of its first element, item)`` for each Element and each run, in order."""
-        index = 0
-        for item in self._items:
-            yield index, item
-            index += item.count if item.__class__ is PlainRun else 1
-
     def runs(self) -> list[PlainRun]:
         return [item for item in self._items if item.__class__ is PlainRun]
 
-    def beyond_runs(self) -> list[Element]:
-        """The elements that are not in a run, in order."""
-        return [item for item in self._items if item.__class__ is not PlainRun]
-
-    def __eq__(self, other) -> bool:
-        if isinstance(other, (list, tuple, ElementList)):
-            return len(self) == len(other) and list(self) == list(other)
-        return NotImplemented
-
-    __hash__ = None
+    beyond_runs = BlockList.beyond_blocks
 
     def __repr__(self) -> str:
         return repr(list(self))
-
-    def __reduce__(self):
-        return ElementList, (list(self),)
 
 
 @dataclass(slots=True)
