@@ -34,26 +34,27 @@ SUMMARY = "two elements with one name in one scope"
 _BIG = 100_000  # names: above this many, compared by hash in an array before any set
 
 
-def _all_distinct(names: list[str]) -> bool:
-    """No two of ``names`` are equal.  A big cell's names are told apart by their
-    hashes first (one 8-byte integer each, sorted), so that the usual answer, all
-    distinct, needs no set of a million strings; equal hashes fall back to the set."""
-    if len(names) > _BIG:
-        import numpy as np
-
-        hashes = np.fromiter(map(hash, names), dtype=np.int64, count=len(names))
+def _all_distinct(devices) -> bool:
+    """No two of ``devices`` (a DeviceList) share a name.  A big cell's names are told
+    apart by their hashes first (one 8-byte integer each, sorted; the parser hashed
+    the names of the runs of plain cards as it read them), so that the usual answer,
+    all distinct, needs no list or set of a million strings; equal hashes fall back to
+    the names."""
+    if len(devices) > _BIG:
+        hashes = devices.name_hashes()
         hashes.sort()
         if not (hashes[1:] == hashes[:-1]).any():
             return True
+    names = devices.names()
     return len(set(names)) == len(names)
 
 
 def check(ctx):
     yield from forward_diagnostics(ctx)
     for view in ctx.cells():
-        names = view.devices.names()
-        if _all_distinct(names):
+        if _all_distinct(view.devices):
             continue  # the usual case, found without a list per name
+        names = view.devices.names()
         counts = Counter(names)
         by_name: dict[str, list] = {}
         for d, name in enumerate(names):  # only the devices that share a name are made

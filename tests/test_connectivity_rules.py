@@ -419,3 +419,8 @@ def test_duplicate_names_in_a_big_cell_are_found_past_the_hash_check():
     hits = findings(deck, "duplicate-name")
     assert [f.subject for f in hits] == ["r77"] and hits[0].location.line == 150_003
     assert findings("v1 n0 0 1\n" + rows, "duplicate-name") == []
+    # both copies inside the runs of plain cards (hashed as the parser read them), one
+    # spelt in capitals
+    inside = rows.replace("r90000 n90000", "R12 n90000")
+    hits = findings("v1 n0 0 1\n" + inside, "duplicate-name")
+    assert [(f.subject, f.location.line) for f in hits] == [("r12", 90_003)]

@@ -156,6 +156,17 @@ class DeviceList(BlockList):
     add_run = BlockList.add_block
     beyond_runs = BlockList.beyond_blocks
 
+    def name_hashes(self):
+        """``hash()`` of every device's name, as a numpy int64 array in no particular
+        order (the runs' first, from the parser), without making the run devices."""
+        import numpy as np
+
+        runs = b"".join([item.run.name_hashes for item in self._items
+                         if item.__class__ is RunDevices])
+        singles = [item.name for item in self._items if item.__class__ is not RunDevices]
+        return np.concatenate([np.frombuffer(runs, dtype=np.int64),
+                               np.fromiter(map(hash, singles), dtype=np.int64, count=len(singles))])
+
     def names(self) -> list[str]:
         """Every device's name (lower case), in order, without making the run devices."""
         out: list[str] = []

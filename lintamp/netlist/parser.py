@@ -460,12 +460,13 @@ class ParseContext:
         if origin is None:
             origin = self._origins[(path, 1)] = Origin(path, 1)
         self._origin = origin
-        letters = "".join([name[0] for name in low[0::4]])
+        names = low[0::4]
+        letters = "".join([name[0] for name in names])
         values = low[3::4]
         maybe_zero = tuple(i for i in [i for i, value in enumerate(values) if value[0] in "0.+-"]
                            if _ZERO_LITERAL.fullmatch(values[i]))
         run = PlainRun(text, first_line, count, origin, a, b, letters, self._net_numbers.names,
-                       maybe_zero)
+                       maybe_zero, array("q", map(hash, names)))
         cell = self.stack[-1]
         self.element_cards.append(run)
         cell.elements.add_run(run)

@@ -8,6 +8,7 @@ original spelling for messages.
 
 from __future__ import annotations
 
+from array import array
 from bisect import bisect_right
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -274,17 +275,22 @@ class PlainRun:
     (the netlist's, 32-bit arrays); ``letters`` holds the lower-case first letter of
     each name, ``maybe_zero`` the cards whose value is a literal with no nonzero digit
     (``0``, ``0.0k``, ``-0e3``: every other value of a run is a nonzero number whatever
-    the scope).  :meth:`element` and :meth:`elements` make the Elements, equal to what
-    the line-by-line path makes of the same lines.
+    the scope), ``name_hashes`` the ``hash()`` of each lower-case name (this process's,
+    a 64-bit array: a run is never pickled).  :meth:`element` and :meth:`elements` make
+    the Elements, equal to what the line-by-line path makes of the same lines.
     """
 
     __slots__ = ("text", "first_line", "count", "origin", "a", "b", "letters", "net_names",
-                 "maybe_zero", "_lines")
+                 "maybe_zero", "name_hashes", "_lines")
 
     def __init__(self, text: str, first_line: int, count: int, origin: Origin, a, b,
-                 letters: str, net_names: list[str], maybe_zero: tuple[int, ...] = ()):
+                 letters: str, net_names: list[str], maybe_zero: tuple[int, ...] = (),
+                 name_hashes=None):
         self.text = text
         self.maybe_zero = maybe_zero
+        if name_hashes is None:
+            name_hashes = array("q", map(hash, self.text.lower().split()[0::4]))
+        self.name_hashes = name_hashes
         self.first_line = first_line
         self.count = count
         self.origin = origin
@@ -332,10 +338,11 @@ class PlainRun:
         lines = self.text.split("\n")
         head = PlainRun("".join(line + "\n" for line in lines[:i]), self.first_line, i,
                         self.origin, self.a[:i], self.b[:i], self.letters[:i], self.net_names,
-                        tuple(z for z in self.maybe_zero if z < i))
+                        tuple(z for z in self.maybe_zero if z < i), self.name_hashes[:i])
         tail = PlainRun("".join(line + "\n" for line in lines[i:self.count]), self.first_line + i,
                         self.count - i, self.origin, self.a[i:], self.b[i:], self.letters[i:],
-                        self.net_names, tuple(z - i for z in self.maybe_zero if z >= i))
+                        self.net_names, tuple(z - i for z in self.maybe_zero if z >= i),
+                        self.name_hashes[i:])
         return head, tail
 
 
