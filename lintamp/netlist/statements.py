@@ -329,10 +329,6 @@ class PlainRun:
     item = element  # the BlockList protocol
     items = elements
 
-    def names(self) -> list[str]:
-        """The element names as written."""
-        return self.text.split()[0::4]
-
     def split(self, i: int) -> tuple["PlainRun", "PlainRun"]:
         """The cards before ``i`` and from ``i`` on, as two runs."""
         lines = self.text.split("\n")
