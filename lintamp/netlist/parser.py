@@ -87,8 +87,8 @@ _PLAIN_PASSIVE_LINE = (r"[rRcClL][^\s;$/\\{}'\"(),=]*+[ \t]++" + _FIELD + r"[ \t
 # blank-free key=value pairs, nothing the reader treats specially.  The reader hands
 # such lines over inside runs too, so that one MOS line in twenty does not cut the
 # R/C runs short; take_run() reads each as the card it is.
-_PLAIN_MOS_LINE = (r"[mM][^\s;$/\\{}'\"(),=]*+(?:[ \t]++" + _FIELD[:-2] + r"++){5}+"
-                   r"(?:[ \t]++" + _FIELD[:-2] + r"++=" + _FIELD[:-2] + r"++)*+[ \t]*+")
+_PLAIN_MOS_LINE = (r"[mM][^\s;$/\\{}'\"(),=]*+(?:[ \t]++" + _FIELD + r"){5}+"
+                   r"(?:[ \t]++" + _FIELD + r"=" + _FIELD + r")*+[ \t]*+")
 PLAIN_RUNS = run_pattern(r"(?:" + _PLAIN_PASSIVE_LINE + "|" + _PLAIN_MOS_LINE + ")")
 # a literal of the run pattern (sign, digits and point, exponent, letters) with no
 # nonzero digit: a value that may be zero
