@@ -8,7 +8,6 @@ original spelling for messages.
 
 from __future__ import annotations
 
-from array import array
 from bisect import bisect_right
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -284,12 +283,9 @@ class PlainRun:
                  "maybe_zero", "name_hashes", "_lines")
 
     def __init__(self, text: str, first_line: int, count: int, origin: Origin, a, b,
-                 letters: str, net_names: list[str], maybe_zero: tuple[int, ...] = (),
-                 name_hashes=None):
+                 letters: str, net_names: list[str], maybe_zero: tuple[int, ...], name_hashes):
         self.text = text
         self.maybe_zero = maybe_zero
-        if name_hashes is None:
-            name_hashes = array("q", map(hash, self.text.lower().split()[0::4]))
         self.name_hashes = name_hashes
         self.first_line = first_line
         self.count = count
