@@ -34,27 +34,27 @@ SUMMARY = "two elements with one name in one scope"
 _BIG = 100_000  # names: above this many, compared by hash in an array before any set
 
 
-def _all_distinct(devices) -> bool:
-    """No two of ``devices`` (a DeviceList) share a name.  A big cell's names are told
-    apart by their hashes first (one 8-byte integer each, sorted; the parser hashed
-    the names of the runs of plain cards as it read them), so that the usual answer,
-    all distinct, needs no list or set of a million strings; equal hashes fall back to
-    the names."""
+def _repeated_names(devices) -> list[str] | None:
+    """The devices' names (a DeviceList's, in order) where two of them are equal;
+    None where all are distinct.  A big cell's names are told apart by their hashes
+    first (one 8-byte integer each, sorted; the parser hashed the names of the runs of
+    plain cards as it read them), so that the usual answer, all distinct, needs no
+    list or set of a million strings; equal hashes fall back to the names."""
     if len(devices) > _BIG:
         hashes = devices.name_hashes()
         hashes.sort()
         if not (hashes[1:] == hashes[:-1]).any():
-            return True
+            return None
     names = devices.names()
-    return len(set(names)) == len(names)
+    return None if len(set(names)) == len(names) else names
 
 
 def check(ctx):
     yield from forward_diagnostics(ctx)
     for view in ctx.cells():
-        if _all_distinct(view.devices):
+        names = _repeated_names(view.devices)
+        if names is None:
             continue  # the usual case, found without a list per name
-        names = view.devices.names()
         counts = Counter(names)
         by_name: dict[str, list] = {}
         for d, name in enumerate(names):  # only the devices that share a name are made
