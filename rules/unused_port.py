@@ -6,6 +6,12 @@ What it finds
     nor are cells with a card lintamp could not read, nor PSPICE ``OPTIONAL:`` ports
     (a library cell declares its optional power pins whether it uses them or not).
 
+    A port listed twice on the ``.subckt`` line (schematic exports write ``GND GND``
+    for two pins of one name) is read as ngspice-39 reads it: the body's net is the
+    first listing, and the later pin connects to nothing inside.  That is a warning
+    where an instance puts different nets on the two pins (the second one goes
+    nowhere), an info otherwise.
+
 Why it matters
     Whatever the parent connects to that port goes nowhere: a supply, bias or input
     that the block silently ignores.  Often a port was renamed inside the body but not
@@ -39,10 +45,14 @@ def check(ctx):
         if view.cell.is_top or not view.devices or id(view) in skip:
             continue
         optional = view.cell.optional_ports
+        repeated = view.cell.repeated_ports
         for port in dict.fromkeys(view.ports):
             if port in optional or view.net_terminals.get(port):
                 continue
             count = ctx.design.instance_count(view)
+            if port in repeated:
+                yield repeated_port(ctx, view, port, repeated[port], count)
+                continue
             yield ctx.finding(
                 location=view.cell.location, subject=port, view=view, nets=[port],
                 message=f"port {port} of {view.label} is not connected to anything inside",
@@ -53,3 +63,32 @@ def check(ctx):
                 fix=f"use {port} inside {view.label}, or remove it from the .subckt line "
                     "and from every instance",
                 values={"instances": count})
+
+
+def repeated_port(ctx, view, placeholder, port, count):
+    """The later listing of a port named twice on the ``.subckt`` line."""
+    first = view.ports.index(port)
+    second = view.ports.index(placeholder)
+    split = [dev for parent in ctx.cells() for dev in parent.instances()
+             if dev.subcell is view and len(dev.nets) > second
+             and dev.nets[first] != dev.nets[second]]
+    steps = [f"pins {first + 1} and {second + 1} of {view.label} are both named {port}; "
+             f"ngspice-39 joins the body's {port} to pin {first + 1} and leaves pin "
+             f"{second + 1} connected to nothing inside"]
+    if split:
+        steps.append(f"{split[0].display} puts {split[0].nets[first]} on pin {first + 1} and "
+                     f"{split[0].nets[second]} on pin {second + 1}: {split[0].nets[second]} "
+                     "is not joined to anything through this cell"
+                     + (f" ({len(split)} such instance(s))" if len(split) > 1 else ""))
+    else:
+        steps.append("no instance puts different nets on the two pins, so nothing is lost "
+                     "today" + ("" if count else " (the cell is not instantiated here)"))
+    return ctx.finding(
+        location=view.cell.location, subject=port, view=view, nets=[port],
+        severity=None if split else Severity.INFO,
+        message=f"port {port} of {view.label} is listed twice; pin {second + 1} connects to "
+                "nothing inside",
+        explanation=steps,
+        fix=f"list {port} once on the .subckt line and drop the extra node from every "
+            "instance, or give the second pin its own name if it is a separate net",
+        values={"instances": count, "pin": second + 1, "first_pin": first + 1})

@@ -218,3 +218,44 @@ def test_initial_condition_holds_a_net_only_in_a_transient(tmp_path, analysis, h
     assert ("singular matrix" in out) == (not held), out[-2000:]
     rules = {f.rule for f in check_text(deck, "ic.sp").findings if f.severity == Severity.ERROR}
     assert ("current-cutset" in rules) == (not held)
+
+
+REPEATED_PORT = """repeated port
+.subckt dp a b a
+r1 a b 1k
+.ends
+v1 n1 0 1
+v3 n3 0 2
+x1 n1 n2 n3 dp
+r2 n2 0 1k
+.op
+.end
+"""
+
+
+def test_a_port_listed_twice_binds_its_first_pin_as_ngspice_does():
+    # ngspice-39 .op: the body's 'a' is the instance's first node (n1, 1 V), so r1 and r2
+    # divide it to 0.5 V; the third node (n3, held at 2 V) carries no current (it would
+    # be 1 V at n2 if the later listing won)
+    from tests.ngspice_harness import run_deck
+    values = run_deck(REPEATED_PORT, ["op", "print v(n2) i(v3)"])
+    assert abs(values["v(n2)"] - 0.5) < 1e-9
+    assert abs(values["i(v3)"]) < 1e-15
+    report = check_text(REPEATED_PORT, "dp.sp")
+    assert not [f for f in report.findings if f.rule == "parse-error"]
+    [finding] = [f for f in report.findings if f.rule == "unused-port"]
+    assert finding.subject == "a" and finding.severity == Severity.WARNING
+    assert finding.values["pin"] == 3 and finding.values["first_pin"] == 1
+    # the deck with the pin joined inside to n1 would give no singular matrix; with the
+    # second pin left open n3 is only held by its source, also fine: no island finding
+    assert not [f for f in report.findings if f.rule in ("no-dc-path", "current-cutset")]
+
+
+def test_a_port_listed_twice_on_an_uninstantiated_cell_is_an_info():
+    # the shape xschem exports write for two pins of one name (common practice)
+    text = ("pair cell\n.subckt pair minus plus d4 d3 s gnd gnd\n*.PININFO minus:B plus:B d4:B d3:B s:B "
+            "gnd:B gnd:B\nm3 d3 plus s gnd nch\nm4 d4 minus s gnd nch\n.ends\n" + MODELS)
+    report = check_text(text, "pair.sp")
+    assert not [f for f in report.findings if f.rule == "parse-error"]
+    [finding] = [f for f in report.findings if f.rule == "unused-port"]
+    assert finding.subject == "gnd" and finding.severity == Severity.INFO

@@ -533,20 +533,25 @@ class ParseContext:
         rest = [t for t in rest if t.text.lower() not in ("params:", "param:")]
         positional, params, _ = split_fields(rest)
         positional += [k for k, _ in optional]
-        ports = tuple(t.text.lower() for t in positional)
-        cell = Cell(name=name_tok.text.lower(), ports=ports, location=card.location,
+        # A port listed twice: ngspice-39 binds the body's net to the first listing; the
+        # later one is a pin that connects to nothing inside.  It gets a name no card can
+        # spell (a blank in it), so the body never reaches it.
+        ports: list[str] = []
+        repeated: dict[str, str] = {}
+        for t in positional:
+            key = t.text.lower()
+            if key in ports or key in repeated:
+                placeholder = f"{key} (listed again as pin {len(ports) + 1})"
+                repeated[placeholder] = key
+                key = placeholder
+            ports.append(key)
+        cell = Cell(name=name_tok.text.lower(), ports=tuple(ports), location=card.location,
                     display_name=name_tok.text, parent=self.cell,
-                    optional_ports={k.text.lower(): v.text.lower() for k, v in optional})
+                    optional_ports={k.text.lower(): v.text.lower() for k, v in optional},
+                    repeated_ports=repeated)
         for k, v in params:
             cell.defaults[k.text.lower()] = v.text
             cell.params.append(ParamDef(k.text.lower(), v.text, card.location_at(k.offset)))
-        seen: set[str] = set()
-        for t in positional:
-            key = t.text.lower()
-            if key in seen:
-                self.error(card, t.offset, f"port '{excerpt(t.text)}' listed twice in .subckt "
-                           f"{excerpt(name_tok.text)}", expected="distinct port names")
-            seen.add(key)
         parent = self.cell
         if cell.name in parent.cells:
             self.error(card, name_tok.offset, f"subcircuit '{excerpt(name_tok.text)}' defined twice "

@@ -485,6 +485,9 @@ class Cell:
     ``ports``, each with the default net it names (digital power pins such as
     ``DPWR=$G_DPWR``).  An instance may leave them out; the ports it leaves out stay
     unconnected in lintamp's model, as if the cell's power came from elsewhere.
+    ``repeated_ports`` maps the placeholder name of a port listed a second time on the
+    ``.subckt`` line to that port's name: ngspice binds the body's net to the first
+    listing, and the later pin connects to nothing inside.
     """
 
     name: str
@@ -501,6 +504,7 @@ class Cell:
     end_location: Location | None = None
     parent: "Cell | None" = field(default=None, repr=False)
     optional_ports: dict[str, str] = field(default_factory=dict)
+    repeated_ports: dict[str, str] = field(default_factory=dict)  # placeholder -> port name
 
     def __post_init__(self):
         if self.elements.__class__ is not ElementList:
