@@ -18,7 +18,7 @@ Measured (2 cores, scipy 1.17 SuperLU, one run): 10k nodes 0.36 s, 30k 0.52 s,
 100k 1.43 s (0.79 s build + LU, 0.65 s for the 1000 nets).  The 1000 nets come
 from ``ImpedanceSolver.z_many``: the nets are ordered last and one more LU gives
 their Schur complement, whose inverse holds all 1000 values
-(lintamp/analysis/inverse_diagonal.py).  One forward/back substitution per net
+(lintamp/engine/inverse_diagonal.py).  One forward/back substitution per net
 took 13.0 s for the same figure (~12 ms each over nnz(L+U) = 0.62-0.88 M).
 
 Until 2026-12 this network chained every stage into the next: 2000 cascaded
@@ -41,8 +41,8 @@ import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 
-from lintamp.analysis.operating_point import solve_operating_point  # noqa: E402
-from lintamp.analysis.small_signal import ImpedanceSolver  # noqa: E402
+from lintamp.engine.operating_point import solve_operating_point  # noqa: E402
+from lintamp.engine.small_signal import ImpedanceSolver  # noqa: E402
 from lintamp.circuit.flat import FlatCircuit, FlatDevice, ModelCard, SourceValues  # noqa: E402
 from lintamp.location import Location  # noqa: E402
 

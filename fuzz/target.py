@@ -114,9 +114,9 @@ def render(report, name: str) -> str:
 
 def run_engine(netlist, config) -> None:
     """Flatten (small limit) and ask for one impedance, as ``lintamp impedance`` does."""
-    from lintamp.analysis.impedance_report import impedance_report
-    from lintamp.analysis.operating_point import OperatingPointError
-    from lintamp.analysis.small_signal import SmallSignalError
+    from lintamp.rulekit.impedance_report import impedance_report
+    from lintamp.engine.operating_point import OperatingPointError
+    from lintamp.engine.small_signal import SmallSignalError
     from lintamp.circuit.flatten import FlattenLimit, flatten
 
     design = load_design(netlist, config)

@@ -97,7 +97,7 @@ def enabled_rules(config):
 def analyse(netlist: Netlist, config=None, *, top: str | None = None,
             options: dict | None = None) -> FileResult:
     """Run every enabled rule over one parsed netlist."""
-    from lintamp.analysis.context import Context
+    from lintamp.rulekit.context import Context
     config = config or default_config()
     result = FileResult(path=netlist.path, files_read=list(netlist.files))
     design = load_design(netlist, config, top=top)

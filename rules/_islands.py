@@ -1,14 +1,14 @@
 """Shared building of island findings for no-dc-path, unbiased-gate and current-cutset.
 
 Each DC island (a component with no path to ground, a defined global or a port) is
-reported exactly once, by the rule :func:`lintamp.analysis.dc_paths.island_rule`
+reported exactly once, by the rule :func:`lintamp.connectivity.dc_paths.island_rule`
 picks for it; bases and JFET gates that only their own junctions reach are added
 to unbiased-gate from the BIAS-mode analysis.
 """
 
 from __future__ import annotations
 
-from lintamp.analysis.dc_paths import (BIAS, FULL, describe_terminal, island_rule, islands,
+from lintamp.connectivity.dc_paths import (BIAS, FULL, describe_terminal, island_rule, islands,
                                        reaches_defined_level, unread_cells)
 from lintamp.findings import Related
 

@@ -21,7 +21,7 @@ Fix
     ``--include-path``.
 """
 
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "bad-include"

@@ -33,7 +33,7 @@ Fix
     source where the process gives it a separate well.
 """
 
-from lintamp.analysis.rails import get_rails
+from lintamp.connectivity.rails import get_rails
 from lintamp.findings import Related, Severity
 
 NAME = "body-tie"

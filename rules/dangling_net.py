@@ -31,7 +31,7 @@ Fix
     Connect the net where it was meant to go, or delete the unused element.
 """
 
-from lintamp.analysis.dc_paths import (describe_terminal, interface_view, is_voltage_output,
+from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is_voltage_output,
                                        unread_cells)
 from lintamp.findings import Severity
 

@@ -21,7 +21,7 @@ Fix
 
 from collections import Counter
 
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Related, Severity
 from lintamp.netlist.reader import excerpt
 

@@ -21,7 +21,7 @@ Fix
     leave the name out.
 """
 
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "mismatched-ends"

@@ -21,7 +21,7 @@ Fix
     that holds the file, or ignore this rule where the library is knowingly absent.
 """
 
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "missing-include"

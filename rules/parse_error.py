@@ -22,7 +22,7 @@ Fix
     ``M1 d g s b nch W=1u L=0.18u``.
 """
 
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "parse-error"

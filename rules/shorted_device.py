@@ -27,7 +27,7 @@ Fix
     element.
 """
 
-from lintamp.analysis.dc_paths import JFET_KINDS
+from lintamp.connectivity.dc_paths import JFET_KINDS
 from lintamp.circuit.design import BJT_KINDS, MOS_KINDS
 from lintamp.findings import Severity
 

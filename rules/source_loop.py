@@ -29,7 +29,7 @@ Fix
     inductor's DCR, a source's output resistance; ngspice's ``.option rseries``).
 """
 
-from lintamp.analysis.loops import design_loops, node_label
+from lintamp.connectivity.loops import design_loops, node_label
 from lintamp.findings import Related, Severity
 
 NAME = "source-loop"

@@ -49,11 +49,11 @@ Fix
 
 import math
 
-from lintamp.analysis.explain_steps import freq_words, looking_into_steps
-from lintamp.analysis.flat_places import prefix_of
-from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
-from lintamp.analysis.ports import port_finder
-from lintamp.analysis.signal_band import signal_band
+from lintamp.rulekit.explain_steps import freq_words, looking_into_steps
+from lintamp.engine.flat_places import prefix_of
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.ports import port_finder
+from lintamp.connectivity.signal_band import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
 from lintamp.report.si import si

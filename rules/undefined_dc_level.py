@@ -10,7 +10,7 @@ What it finds
     loop: an NMOS common source whose PMOS current-source load takes its gate
     from a bias net.
 
-    The topology test (see :mod:`lintamp.analysis.dc_feedback`): the controllers
+    The topology test (see :mod:`lintamp.engine.dc_feedback`): the controllers
     are the gates/bases of every device in the current paths from the node to the
     rails (the input device under a cascode included); DC feedback exists when a
     breadth-first search on the directed DC influence graph (resistors, sources
@@ -50,11 +50,11 @@ Fix
 
 import math
 
-from lintamp.analysis.dc_feedback import current_defined_nodes, feedback_path, influence_graph
-from lintamp.analysis.explain_steps import looking_into_steps
-from lintamp.analysis.flat_places import local_name
-from lintamp.analysis.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
-from lintamp.analysis.ports import port_finder
+from lintamp.engine.dc_feedback import current_defined_nodes, feedback_path, influence_graph
+from lintamp.rulekit.explain_steps import looking_into_steps
+from lintamp.engine.flat_places import local_name
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
 from lintamp.report.si import si

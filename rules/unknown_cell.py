@@ -25,7 +25,7 @@ Fix
 import difflib
 
 from lintamp.circuit.design import scopes
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
 from lintamp.netlist.reader import excerpt
 

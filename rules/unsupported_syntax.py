@@ -18,7 +18,7 @@ Fix
     Nothing to fix in the netlist; check a SPICE export of the block instead.
 """
 
-from lintamp.analysis.context import forward_diagnostics
+from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
 
 NAME = "unsupported-syntax"

@@ -30,7 +30,7 @@ Fix
     line and from every instance.
 """
 
-from lintamp.analysis.dc_paths import unread_cells
+from lintamp.connectivity.dc_paths import unread_cells
 from lintamp.findings import Severity
 
 NAME = "unused-port"

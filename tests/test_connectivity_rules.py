@@ -11,7 +11,7 @@ import json
 
 import pytest
 
-from lintamp.analysis import dc_paths
+from lintamp.connectivity import dc_paths
 from lintamp.api import check_text
 from lintamp.cli import main
 

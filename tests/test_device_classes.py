@@ -16,9 +16,9 @@ from pathlib import Path
 import pytest
 
 import lintamp.circuit.design as design_module
-from lintamp.analysis.dc_paths import MAX_DEPTH, bottom_up
-from lintamp.analysis.loops import _LazyScope, _plainly_nonzero, rigid_devices, rigid_pins
-from lintamp.analysis.rails import _named_nets, _of_kind
+from lintamp.connectivity.dc_paths import MAX_DEPTH, bottom_up
+from lintamp.connectivity.loops import _LazyScope, _plainly_nonzero, rigid_devices, rigid_pins
+from lintamp.connectivity.rails import _named_nets, _of_kind
 from lintamp.api import load_design
 from lintamp.circuit.values import top_scope
 from lintamp.netlist.parser import parse_text

@@ -14,17 +14,17 @@ import math
 import pytest
 
 from engine_builder import flat_from_text
-from lintamp.analysis.impedance_report import impedance_report
-from lintamp.analysis.looking_into import explain_node
-from lintamp.analysis.op_table import impedance_class_by_inspection, load_op_table, operating_point_from_table
-from lintamp.analysis.operating_point import (
+from lintamp.rulekit.impedance_report import impedance_report
+from lintamp.engine.looking_into import explain_node
+from lintamp.engine.op_table import impedance_class_by_inspection, load_op_table, operating_point_from_table
+from lintamp.engine.operating_point import (
     CannotEvaluateError,
     OperatingPointError,
     SolveOptions,
     solve_operating_point,
 )
-from lintamp.analysis.small_signal import ImpedanceSolver
-from lintamp.analysis.stages import recognise_stages
+from lintamp.engine.small_signal import ImpedanceSolver
+from lintamp.engine.stages import recognise_stages
 from lintamp.circuit.flat import FlatCircuit, FlatDevice, SourceValues
 from lintamp.location import Location
 

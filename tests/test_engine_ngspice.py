@@ -13,8 +13,8 @@ import pytest
 
 import ngspice_harness as ng
 from engine_builder import flat_from_text
-from lintamp.analysis.operating_point import solve_operating_point
-from lintamp.analysis.small_signal import ImpedanceSolver
+from lintamp.engine.operating_point import solve_operating_point
+from lintamp.engine.small_signal import ImpedanceSolver
 
 NCH = ".model nch nmos level=1 vto=0.5 kp=200u gamma=0.5 phi=0.7 lambda=0.1\n"
 PCH = ".model pch pmos level=1 vto=-0.5 kp=100u gamma=0.4 phi=0.8 lambda=0.1\n"

@@ -15,11 +15,11 @@ import numpy as np
 import pytest
 
 from engine_builder import flat_from_text
-from lintamp.analysis import formulas as fm
-from lintamp.analysis.devices_common import thermal_voltage
-from lintamp.analysis.devices_mos import MosGroup, mos_evaluate, mos_params
-from lintamp.analysis.operating_point import solve_operating_point
-from lintamp.analysis.small_signal import ImpedanceSolver
+from lintamp.engine import formulas as fm
+from lintamp.engine.devices_common import thermal_voltage
+from lintamp.engine.devices_mos import MosGroup, mos_evaluate, mos_params
+from lintamp.engine.operating_point import solve_operating_point
+from lintamp.engine.small_signal import ImpedanceSolver
 from lintamp.circuit.flat import FlatDevice, ModelCard
 from lintamp.location import Location
 

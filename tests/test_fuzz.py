@@ -266,7 +266,7 @@ ENGINE_DECKS = {
 
 @pytest.mark.parametrize("name", sorted(ENGINE_DECKS))
 def test_engine_refuses_unevaluable_devices_with_a_note(name):
-    from lintamp.analysis.impedance_report import impedance_report
+    from lintamp.rulekit.impedance_report import impedance_report
     report = impedance_report(flat_circuit_from_text(ENGINE_DECKS[name]), "a", 1e3)
     assert report["operating_point"] == "assumed"
     assert report["z_ohm"]["mag"] is None
@@ -293,8 +293,8 @@ def test_singular_matrix_description_survives_an_overflowed_matrix():
     # junction value) while the operating point was describing why it was singular
     import numpy as np
     import scipy.sparse as sparse
-    from lintamp.analysis.mna import compile_circuit
-    from lintamp.analysis.operating_point import describe_singular
+    from lintamp.engine.mna import compile_circuit
+    from lintamp.engine.operating_point import describe_singular
     cc = compile_circuit(flat_circuit_from_text("* t\nv1 a 0 1\nr1 a 0 1k\n"))
     matrix = sparse.csr_matrix(np.full((cc.size, cc.size), np.nan))
     assert describe_singular(cc, matrix).startswith("singular matrix")

@@ -25,7 +25,7 @@ from pathlib import Path
 import pytest
 
 import ngspice_harness as ng
-from lintamp.analysis.context import Context
+from lintamp.rulekit.context import Context
 from lintamp.api import load_design, read_options
 from lintamp.config import Config, with_overrides
 from lintamp.netlist.parser import parse_file, parse_text

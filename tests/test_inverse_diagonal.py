@@ -14,9 +14,9 @@ import scipy.sparse as sp
 
 import ngspice_harness as ng
 from engine_builder import flat_from_text
-from lintamp.analysis.inverse_diagonal import inverse_diagonal
-from lintamp.analysis.operating_point import solve_operating_point
-from lintamp.analysis.small_signal import ImpedanceSolver
+from lintamp.engine.inverse_diagonal import inverse_diagonal
+from lintamp.engine.operating_point import solve_operating_point
+from lintamp.engine.small_signal import ImpedanceSolver
 
 NCH = ".model nch nmos level=1 vto=0.5 kp=200u gamma=0.5 phi=0.7 lambda=0.1 tox=9n cgso=2e-10 cgdo=2e-10\n"
 

@@ -312,7 +312,7 @@ def test_dc_assignment_before_a_waveform(card):
     # corpus: ngspice examples/soa/nic_soa.cir and xspice/d_lut/mult4bit.spi; ngspice-39's
     # operating point puts vdd at the dc value, 3.5 V, and the pulse is the waveform
     import ngspice_harness as ng
-    from lintamp.analysis.operating_point import solve_operating_point
+    from lintamp.engine.operating_point import solve_operating_point
     from lintamp.api import flat_circuit_from_text
     deck = f"dc then waveform\n{card}\nr1 vdd 0 1k\n.end\n"
     source = only(card + "\nr1 vdd 0 1k\n").source

@@ -16,9 +16,9 @@ from pathlib import Path
 
 import pytest
 
-import lintamp.analysis.stages as stages_module
-from lintamp.analysis.looking_into import ac_ground_nets
-from lintamp.analysis.stages import BJT, MOS, _pins, recognise_stages
+import lintamp.engine.stages as stages_module
+from lintamp.engine.looking_into import ac_ground_nets
+from lintamp.engine.stages import BJT, MOS, _pins, recognise_stages
 from lintamp.api import flat_circuit_from_text
 
 REPO = Path(__file__).resolve().parent.parent

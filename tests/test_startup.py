@@ -31,7 +31,8 @@ IMPORT_ROOT = Path(lintamp.__file__).resolve().parent.parent
 
 # Packages a cache hit must not import (each costs more than the hit itself); nor any
 # rule module (the registry reads their metadata from source).
-HEAVY_PACKAGES = ("lintamp.netlist", "lintamp.circuit", "lintamp.analysis",
+HEAVY_PACKAGES = ("lintamp.netlist", "lintamp.circuit", "lintamp.connectivity", "lintamp.engine",
+                  "lintamp.rulekit",
                   "pyparsing", "numpy", "scipy", "networkx", "tomllib")
 
 _RUN_AND_LIST_MODULES = textwrap.dedent("""

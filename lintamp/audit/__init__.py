@@ -2,7 +2,7 @@
 
 Note for whoever unifies this later: the port classification (:mod:`.ports`) and
 the signal-band choice (:mod:`.band`) live here, small and self-contained, on
-purpose.  The impedance rules are getting their own ``lintamp/analysis/ports.py``
+purpose.  The impedance rules are getting their own ``lintamp/rulekit/ports.py``
 and ``signal_band.py`` on another branch; once both have landed, the audit should
 call those and these two modules should go.  The precedence they implement is
 the same one INTERFACE.md gives: pragma, then config, then testbench, then name.

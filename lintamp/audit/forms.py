@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from lintamp.analysis.formulas import INF, parallel
+from lintamp.engine.formulas import INF, parallel
 
 # the engine's branch description -> the reviewer's short form (Razavi ch. 3; Sedra & Smith ch. 7)
 _PORT_SHORT = (

@@ -188,7 +188,7 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
         try:
             _numbers(data, block, ports, loads, solves, stages, band.freq_hz, netlist, curves, plots)
         except Exception as exc:  # engine trouble on odd input must not lose the rest of the sheet
-            from lintamp.analysis.small_signal import SmallSignalError
+            from lintamp.engine.small_signal import SmallSignalError
             if not isinstance(exc, (SmallSignalError, ArithmeticError, ValueError, RuntimeError,
                                     np.linalg.LinAlgError)):
                 raise
@@ -205,7 +205,7 @@ def _sev(label: str):
 
 
 def _operating_point(circuit, table):
-    from lintamp.analysis.impedance_report import resolve_operating_point
+    from lintamp.rulekit.impedance_report import resolve_operating_point
     try:
         return resolve_operating_point(circuit, table)
     except (ValueError, RuntimeError, ArithmeticError) as exc:
@@ -213,7 +213,7 @@ def _operating_point(circuit, table):
 
 
 def _stages(block: _Block, op) -> list[dict]:
-    from lintamp.analysis.stages import recognise_stages
+    from lintamp.engine.stages import recognise_stages
 
     out = []
     for st in recognise_stages(block.circuit, op):
@@ -267,7 +267,7 @@ def _stage_label(stage_rows: dict, device: str | None) -> str | None:
 
 
 def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves, plots):
-    from lintamp.analysis.looking_into import explain_node
+    from lintamp.engine.looking_into import explain_node
 
     circuit = block.circuit
     stage_rows = {s["circuit_device"]: s for s in stages}
@@ -361,7 +361,7 @@ def _path_probe(solves, pin: Port, pout: Port, detach, out_current: bool):
 
 
 def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, curves, plots) -> dict:
-    from lintamp.analysis.looking_into import ac_ground_nets
+    from lintamp.engine.looking_into import ac_ground_nets
 
     circuit = block.circuit
     kind, unit = GAIN_UNITS[(pin.signal, pout.signal)]

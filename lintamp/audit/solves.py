@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from lintamp.analysis.small_signal import ImpedanceSolver
+from lintamp.engine.small_signal import ImpedanceSolver
 
 OPEN_OHM = 1e11  # at or above: open (the engine's 1e-12 S shunt reads as 1e12 ohm)
 MAX_CACHED = 256

@@ -66,7 +66,7 @@ def cmd_audit(args) -> int:
     config = _config(args)
     table = None
     if args.op:
-        from lintamp.analysis.op_table import load_op_table
+        from lintamp.engine.op_table import load_op_table
         try:
             table = load_op_table(Path(args.op).read_text(encoding="utf-8"))
         except (OSError, ValueError) as exc:

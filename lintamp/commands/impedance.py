@@ -40,9 +40,9 @@ def parse_frequency(text: str) -> float:
 
 
 def cmd_impedance(args) -> int:
-    from lintamp.analysis.impedance_report import impedance_report
-    from lintamp.analysis.operating_point import OperatingPointError
-    from lintamp.analysis.small_signal import SmallSignalError
+    from lintamp.rulekit.impedance_report import impedance_report
+    from lintamp.engine.operating_point import OperatingPointError
+    from lintamp.engine.small_signal import SmallSignalError
     from lintamp.cli import EXIT_OK, UsageError
 
     path = Path(args.netlist)
@@ -62,7 +62,7 @@ def cmd_impedance(args) -> int:
             raise _Usage(f"--detach: no element {', '.join(missing)} in {args.netlist}")
         table = None
         if args.op:
-            from lintamp.analysis.op_table import load_op_table
+            from lintamp.engine.op_table import load_op_table
             try:
                 table = load_op_table(Path(args.op).read_text(encoding="utf-8"))
             except (OSError, ValueError) as exc:

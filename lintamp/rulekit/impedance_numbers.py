@@ -15,14 +15,14 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from lintamp.analysis.engine_kinds import NONLINEAR, SmallSignalError
-from lintamp.analysis.flat_places import locate_device
-from lintamp.analysis.looking_into import NodeExplanation, ac_ground_nets, explain_node
+from lintamp.engine.engine_kinds import NONLINEAR, SmallSignalError
+from lintamp.engine.flat_places import locate_device
+from lintamp.engine.looking_into import NodeExplanation, ac_ground_nets, explain_node
 from lintamp.circuit.flat import FlatCircuit
 
 if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are computed
-    from lintamp.analysis.operating_point import OperatingPoint
-    from lintamp.analysis.small_signal import ImpedanceSolver
+    from lintamp.engine.operating_point import OperatingPoint
+    from lintamp.engine.small_signal import ImpedanceSolver
 from lintamp.findings import Severity
 from lintamp.report.si import si
 
@@ -55,7 +55,7 @@ class Numbers:
     def solver(self, freq_hz: float, detach=()) -> ImpedanceSolver:
         key = (float(freq_hz), tuple(sorted(set(detach))))
         if key not in self._solvers:
-            from lintamp.analysis.small_signal import ImpedanceSolver
+            from lintamp.engine.small_signal import ImpedanceSolver
             if len(self._solvers) > 256:  # bounded memory on big decks with many ports
                 self._solvers.clear()
             self._solvers[key] = ImpedanceSolver(self.circuit, self.op, freq_hz, detach=key[1])
@@ -95,7 +95,7 @@ def _load_table(ctx):
     op_file = (ctx.options or {}).get("op_file")
     if not op_file:
         return None, ""
-    from lintamp.analysis.op_table import load_op_table
+    from lintamp.engine.op_table import load_op_table
     try:
         return load_op_table(Path(op_file).read_text(encoding="utf-8"), str(op_file)), ""
     except (OSError, ValueError) as exc:
@@ -140,7 +140,7 @@ def _numbers_for(ctx, circuit):
         shown = ", ".join(others[:6]) + (" ..." if len(others) > 6 else "")
         return NoNumbers(f"elements lintamp does not simulate: {shown}")
     # the engine (numpy, scipy) is imported here, once there is something to solve
-    from lintamp.analysis.impedance_report import resolve_operating_point
+    from lintamp.rulekit.impedance_report import resolve_operating_point
     try:
         op, source, notes = resolve_operating_point(circuit, table)
     except ENGINE_ERRORS as exc:

@@ -7,7 +7,7 @@ attached to the node then gets
   from the 1 A injection, so the branches combine in parallel to exactly the
   headline (KCL);
 * a reviewer's formula (Razavi ch. 3 / Sedra & Smith ch. 7 / Gray & Meyer ch. 3
-  forms, see :mod:`lintamp.analysis.formulas`) evaluated with the device's
+  forms, see :mod:`lintamp.engine.formulas`) evaluated with the device's
   operating-point values and with the impedance of its far terminals computed
   with the device detached (R_D, R_S, R_E, R_B);
 * a note when formula and MNA disagree by more than 5 % (typically local
@@ -27,11 +27,11 @@ import math
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
-from lintamp.analysis import formulas as fm
+from lintamp.engine import formulas as fm
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
 if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when a node is explained
-    from lintamp.analysis.operating_point import OperatingPoint
+    from lintamp.engine.operating_point import OperatingPoint
 
 MISMATCH_LIMIT = 0.05
 INF = math.inf
@@ -103,7 +103,7 @@ class _Explainer:
         self.freq_hz = freq_hz
         self.detach = tuple(detach)
         self.omega = 2 * math.pi * freq_hz
-        from lintamp.analysis.small_signal import ImpedanceSolver
+        from lintamp.engine.small_signal import ImpedanceSolver
         self.solver = ImpedanceSolver(circuit, op, freq_hz, detach=self.detach)
         self.op = self.solver.op
         self.ac_ground = ac_ground_nets(circuit, self.detach)
@@ -115,7 +115,7 @@ class _Explainer:
     def aux_solver(self, extra_detach=(), grounded=(), driven=None):
         key = (tuple(sorted(extra_detach)), tuple(sorted(grounded)), driven)
         if key not in self._aux:
-            from lintamp.analysis.small_signal import ImpedanceSolver
+            from lintamp.engine.small_signal import ImpedanceSolver
             self._aux[key] = ImpedanceSolver(
                 self.circuit, self.op, self.freq_hz, detach=self.detach + tuple(extra_detach),
                 grounded=grounded, driven=driven,

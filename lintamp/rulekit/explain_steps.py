@@ -1,6 +1,6 @@
 """Looking-into explanations as the reasoning steps a finding carries.
 
-:func:`lintamp.analysis.looking_into.explain_node` gives the exact impedance and
+:func:`lintamp.engine.looking_into.explain_node` gives the exact impedance and
 one textbook term per attached branch; this turns it into short sentences with
 the numbers, lowest-impedance branch first (the one that sets the node).
 """
@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from lintamp.analysis.looking_into import NodeExplanation
+from lintamp.engine.looking_into import NodeExplanation
 from lintamp.report.si import si, si_for_key
 
 MAX_BRANCHES = 4

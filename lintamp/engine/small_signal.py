@@ -17,10 +17,10 @@ import math
 
 import numpy as np
 
-from lintamp.analysis.engine_kinds import NONLINEAR, SmallSignalError  # noqa: F401 - re-exported
-from lintamp.analysis.linear import add_to_diagonal, assemble, factor, to_sparse
-from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
-from lintamp.analysis.operating_point import OperatingPoint, solve_operating_point
+from lintamp.engine.engine_kinds import NONLINEAR, SmallSignalError  # noqa: F401 - re-exported
+from lintamp.engine.linear import add_to_diagonal, assemble, factor, to_sparse
+from lintamp.engine.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
+from lintamp.engine.operating_point import OperatingPoint, solve_operating_point
 from lintamp.circuit.flat import FlatCircuit
 
 OPEN_SHUNT_S = 1e-12  # added per node only when Y is singular (a node with no AC path)
@@ -198,7 +198,7 @@ class ImpedanceSolver:
 
         On a sparse matrix, from :data:`SELECTED_MIN` nets on, the nets are ordered
         last and one more LU gives all of them at once (the diagonal of the
-        inverse, :mod:`lintamp.analysis.inverse_diagonal`); otherwise, and for a
+        inverse, :mod:`lintamp.engine.inverse_diagonal`); otherwise, and for a
         net whose error bound that path refuses, blocks of right-hand sides share
         the LU.  Either way each value is the one :meth:`z` gives.
 
@@ -212,7 +212,7 @@ class ImpedanceSolver:
         wanted = np.unique(idx[idx >= 0])
         z_of = {}
         if len(wanted) >= SELECTED_MIN and not isinstance(self._matrix, np.ndarray):
-            from lintamp.analysis.inverse_diagonal import inverse_diagonal
+            from lintamp.engine.inverse_diagonal import inverse_diagonal
 
             for start in range(0, len(wanted), SELECTED_GROUP):
                 group = wanted[start : start + SELECTED_GROUP]

@@ -13,10 +13,10 @@ from __future__ import annotations
 import cmath
 import math
 
-from lintamp.analysis.looking_into import explain_node
-from lintamp.analysis.op_table import TableEntry, impedance_class_by_inspection, operating_point_from_table
-from lintamp.analysis.operating_point import CannotEvaluateError, OperatingPoint, OperatingPointError, solve_operating_point
-from lintamp.analysis.stages import recognise_stages
+from lintamp.engine.looking_into import explain_node
+from lintamp.engine.op_table import TableEntry, impedance_class_by_inspection, operating_point_from_table
+from lintamp.engine.operating_point import CannotEvaluateError, OperatingPoint, OperatingPointError, solve_operating_point
+from lintamp.engine.stages import recognise_stages
 from lintamp.circuit.flat import FlatCircuit
 
 OPEN_OHM = 1e11

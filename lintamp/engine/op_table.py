@@ -32,8 +32,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lintamp.analysis.looking_into import ac_ground_nets
-from lintamp.analysis.operating_point import DeviceOperatingPoint, OperatingPoint
+from lintamp.engine.looking_into import ac_ground_nets
+from lintamp.engine.operating_point import DeviceOperatingPoint, OperatingPoint
 from lintamp.circuit.flat import FlatCircuit
 
 NUMERIC = ("gm", "gds", "gmb", "ids", "gpi", "go", "gmu", "ic", "gd", "id",

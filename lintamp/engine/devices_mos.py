@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lintamp.analysis.devices_common import (
+from lintamp.engine.devices_common import (
     CHARGE_C,
     EPS_OX_F_PER_M,
     EPS_SI_F_PER_M,

@@ -14,8 +14,8 @@ from __future__ import annotations
 from collections import deque
 from dataclasses import dataclass, field
 
-from lintamp.analysis.dc_paths import bottom_up
-from lintamp.analysis.loops import is_port_source
+from lintamp.connectivity.dc_paths import bottom_up
+from lintamp.connectivity.loops import is_port_source
 from lintamp.circuit.design import CellView
 from lintamp.circuit.values import cell_scope, top_scope
 

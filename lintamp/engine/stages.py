@@ -14,10 +14,10 @@ from collections import Counter
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
-from lintamp.analysis.looking_into import ac_ground_nets
+from lintamp.engine.looking_into import ac_ground_nets
 
 if TYPE_CHECKING:
-    from lintamp.analysis.operating_point import OperatingPoint
+    from lintamp.engine.operating_point import OperatingPoint
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
 MOS = ("nmos", "pmos")

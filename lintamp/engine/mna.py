@@ -4,7 +4,7 @@ The compiled form is shared by the DC operating point (real, with nonlinear
 devices added each Newton step) and the small-signal solve (complex
 ``G + j*omega*C``).  Every stamp records which element it came from so that the
 current into each element at a node can be read back from a solution
-(:mod:`lintamp.analysis.looking_into` uses that).
+(:mod:`lintamp.engine.looking_into` uses that).
 
 Unknown vector: node voltages first (every net except ground, then internal nodes
 of series resistances), then branch currents of voltage-defined elements

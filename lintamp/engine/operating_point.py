@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from lintamp.analysis.devices_bjt import (
+from lintamp.engine.devices_bjt import (
     BjtGroup,
     bjt_capacitances,
     bjt_controls,
@@ -26,14 +26,14 @@ from lintamp.analysis.devices_bjt import (
     bjt_limit,
     bjt_params,
 )
-from lintamp.analysis.devices_diode import (
+from lintamp.engine.devices_diode import (
     DiodeGroup,
     diode_capacitance,
     diode_evaluate,
     diode_limit,
     diode_params,
 )
-from lintamp.analysis.devices_mos import (
+from lintamp.engine.devices_mos import (
     MosGroup,
     UnsupportedModel,
     junction_capacitances,
@@ -43,8 +43,8 @@ from lintamp.analysis.devices_mos import (
     mos_limit,
     mos_params,
 )
-from lintamp.analysis.linear import assemble, factor, to_dense
-from lintamp.analysis.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
+from lintamp.engine.linear import assemble, factor, to_dense
+from lintamp.engine.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
 from lintamp.netlist.reader import excerpt
 

@@ -26,8 +26,8 @@ from __future__ import annotations
 import fnmatch
 from dataclasses import dataclass, field
 
-from lintamp.analysis.flat_places import local_name, net_aliases, prefix_of, view_of_path
-from lintamp.analysis.stages import recognise_stages
+from lintamp.engine.flat_places import local_name, net_aliases, prefix_of, view_of_path
+from lintamp.engine.stages import recognise_stages
 from lintamp.circuit.design import CellView, Design
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 from lintamp.location import Location

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from lintamp.analysis.devices_common import (
+from lintamp.engine.devices_common import (
     field_arrays,
     GMIN_S,
     critical_voltage,
@@ -21,7 +21,7 @@ from lintamp.analysis.devices_common import (
     safe_exp,
     thermal_voltage,
 )
-from lintamp.analysis.devices_mos import UnsupportedModel, _area_factor, _model_value
+from lintamp.engine.devices_mos import UnsupportedModel, _area_factor, _model_value
 from lintamp.circuit.flat import FlatDevice
 
 

@@ -14,7 +14,7 @@ from __future__ import annotations
 from collections import deque
 from dataclasses import dataclass, field
 
-from lintamp.analysis.dc_paths import bottom_up, is_voltage_output
+from lintamp.connectivity.dc_paths import bottom_up, is_voltage_output
 from lintamp.circuit.design import CellView, Device
 from lintamp.circuit.values import cell_scope, top_scope
 from lintamp.netlist.expr import parse_number

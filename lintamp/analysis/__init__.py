@@ -1,1 +1,0 @@
-"""Analyses of an elaborated circuit: DC paths, stages, operating point, small-signal impedance."""
