@@ -38,9 +38,9 @@ print(json.dumps({"seconds": time.perf_counter() - start, "exit": code}))
 
 
 def timed_check(path: Path, every_rule: bool) -> float:
-    argv = ["check", "--isolated", "--no-cache", "--format", "json", "-o", os.devnull]
+    argv = ["check", "--no-config", "--no-cache", "--format", "json", "-o", os.devnull]
     if not every_rule:
-        argv += ["--select", "connectivity,references,syntax"]
+        argv += ["--only", "connectivity,references,syntax"]
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     env.pop("PYTHONDONTWRITEBYTECODE", None)  # as an installed lintamp runs
     out = subprocess.run([sys.executable, "-c", RUNNER, *argv, str(path)], cwd=path.parent, env=env,

@@ -34,8 +34,8 @@ sys.path.insert(0, str(HERE))
 
 from generate import flat, hierarchical, write  # noqa: E402
 
-CHECK = ["-m", "lintamp", "check", "--isolated", "--format", "json", "-o", os.devnull]
-CONNECTIVITY = ["--select", "connectivity,references,syntax"]
+CHECK = ["-m", "lintamp", "check", "--no-config", "--format", "json", "-o", os.devnull]
+CONNECTIVITY = ["--only", "connectivity,references,syntax"]
 
 
 def timed(argv: list[str], cwd: Path) -> tuple[float, int]:

@@ -34,7 +34,7 @@ def _one(args):
     from lintamp.api import check_file
     from lintamp.config import Config, with_overrides
 
-    config = with_overrides(Config(), select=RULES)
+    config = with_overrides(Config(), only=RULES)
     start = time.perf_counter()
     result = check_file(Path(path), config, include_paths=[Path(repo)])
     elapsed = time.perf_counter() - start

@@ -107,7 +107,7 @@ def render(report, name: str) -> str:
 
     stream = io.StringIO()
     reporter = get_reporter(name)(stream, color=False, rules=all_rules(),
-                                  tool_version=__version__, statistics=True)
+                                  tool_version=__version__, counts=True)
     emit(reporter, report)
     return stream.getvalue()
 

@@ -256,12 +256,13 @@ def _check_one(job) -> FileResult:
 def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = None,
                 include_paths: Iterable[Path] = (), baseline=None,
                 options: dict | None = None, jobs: int = 1,
-                use_cache: bool = False) -> tuple[Report, list[str]]:
+                use_cache: bool = False, progress=None) -> tuple[Report, list[str]]:
     """Check files and folders; returns the decided report and any internal errors.
 
     ``jobs`` > 1 checks files in that many processes; results keep the file order,
     so the report is the same whatever ``jobs`` is.  ``use_cache`` reads and writes
-    ``.lintamp_cache/`` under the config root.
+    ``.lintamp_cache/`` under the config root.  ``progress(done, total, path)``, when
+    given, is called after each file.
     """
     from lintamp.decide import decide
     config = config or default_config()
@@ -271,12 +272,19 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
     files = collect_paths(paths, config)
     include_paths = tuple(include_paths)
     work = [(f, config, top, include_paths, options, use_cache) for f in files]
+    results: list[FileResult] = []
     if jobs > 1 and len(files) > 1:
         from concurrent.futures import ProcessPoolExecutor
         with ProcessPoolExecutor(max_workers=min(jobs, len(files))) as pool:
-            results = list(pool.map(_check_one, work, chunksize=max(1, len(work) // (4 * jobs))))
+            for result in pool.map(_check_one, work, chunksize=max(1, len(work) // (4 * jobs))):
+                results.append(result)
+                if progress is not None:
+                    progress(len(results), len(files), result.path)
     else:
-        results = [_check_one(job) for job in work]
+        for job in work:
+            results.append(_check_one(job))
+            if progress is not None:
+                progress(len(results), len(files), results[-1].path)
     seen: set[tuple] = set()
     seen_pragmas: set[tuple] = set()
     for result in results:

@@ -8,10 +8,10 @@ into exit code 2).
 
 Example::
 
-    include = ["*.sp", "*.cir"]
+    netlists = ["*.sp", "*.cir"]   # the files a folder is checked for
     exclude = ["build/**"]
-    select = ["all"]
-    ignore = ["unused-port"]
+    only = ["all"]
+    skip = ["unused-port"]
     fail-on = "warning"          # error | warning | info | never
     bandwidth = "20meg"
     include-paths = ["models"]
@@ -19,8 +19,8 @@ Example::
     [severity]
     dangling-net = "error"       # a rule or a whole category
 
-    [per-file-ignores]
-    "tb/**" = ["connectivity"]
+    [paths]                      # what changes for the files a glob matches
+    "tb/**" = { skip = ["connectivity"] }
 
     [devices]
     "acme_nfet_*" = { kind = "nmos", pins = ["d", "g", "s", "b"] }
@@ -35,7 +35,7 @@ Example::
 
 Globs
 -----
-``include`` and ``exclude`` and the ``[per-file-ignores]`` keys are matched against
+``netlists`` and ``exclude`` and the ``[paths]`` keys are matched against
 the file's path relative to the project root, with ``/`` separators.  A pattern
 without ``/`` matches the file name alone (``*.sp``) or, for ``exclude``, any folder
 name on the way (``build``); ``*`` stays inside one folder, ``**`` spans folders.
@@ -56,7 +56,7 @@ from lintamp.findings import Severity
 CONFIG_FILE = "lintamp.toml"
 PYPROJECT_FILE = "pyproject.toml"
 
-DEFAULT_INCLUDE = ("*.sp", "*.spice", "*.cir", "*.net", "*.spi", "*.ckt", "*.cdl")
+DEFAULT_NETLISTS = ("*.sp", "*.spice", "*.cir", "*.net", "*.spi", "*.ckt", "*.cdl")
 DEFAULT_EXCLUDE = (".git", ".lintamp_cache")
 
 CATEGORIES = ("syntax", "references", "connectivity", "impedance", "bias", "waivers")
@@ -172,6 +172,21 @@ class DeviceMapping:
             subckt_name.lower()) is not None
 
 
+# ---------------------------------------------------------------- per-path policy
+
+PATH_KEYS = ("skip",)  # the keys of a [paths] entry (room for a per-path severity)
+
+
+@dataclass(frozen=True, slots=True)
+class PathPolicy:
+    """What a ``[paths]`` entry changes for the files its glob matches."""
+
+    skip: tuple[str, ...] = ()  # rules or categories not reported there
+
+    def to_json(self) -> dict:
+        return {"skip": list(self.skip)}
+
+
 # ---------------------------------------------------------------- the config
 
 
@@ -181,15 +196,15 @@ class Config:
 
     root: Path = field(default_factory=Path.cwd)
     source: Path | None = None  # the file read, None for defaults
-    include: tuple[str, ...] = DEFAULT_INCLUDE
+    netlists: tuple[str, ...] = DEFAULT_NETLISTS
     exclude: tuple[str, ...] = DEFAULT_EXCLUDE
-    select: tuple[str, ...] = (ALL,)
-    ignore: tuple[str, ...] = ()
+    only: tuple[str, ...] = (ALL,)
+    skip: tuple[str, ...] = ()
     fail_on: Severity | None = Severity.WARNING  # None: never fail on findings
     bandwidth: str | None = None
     include_paths: tuple[Path, ...] = ()
     severity: dict[str, Severity] = field(default_factory=dict)
-    per_file_ignores: dict[str, tuple[str, ...]] = field(default_factory=dict)
+    paths: dict[str, PathPolicy] = field(default_factory=dict)  # root-relative glob -> policy
     devices: tuple[DeviceMapping, ...] = ()
     thresholds: dict[str, float] = field(default_factory=dict)
     ports: dict[str, tuple[str, ...]] = field(default_factory=dict)  # kind -> name globs
@@ -197,13 +212,13 @@ class Config:
     # ---- rules
 
     def rule_enabled(self, rule: str, category: str) -> bool:
-        """Whether ``select``/``ignore`` keep ``rule``.
+        """Whether ``only``/``skip`` keep ``rule``.
 
         The most specific entry wins (rule name over category over ``all``); at equal
-        specificity ``ignore`` wins.  A rule no ``select`` entry names is off.
+        specificity ``skip`` wins.  A rule no ``only`` entry names is off.
         """
-        chosen = _specificity(self.select, rule, category)
-        dropped = _specificity(self.ignore, rule, category)
+        chosen = _specificity(self.only, rule, category)
+        dropped = _specificity(self.skip, rule, category)
         return chosen > 0 and chosen > dropped
 
     def severity_for(self, rule: str, category: str, default: Severity) -> Severity:
@@ -212,10 +227,10 @@ class Config:
             return self.severity[rule]
         return self.severity.get(category, default)
 
-    def ignored_in_file(self, rule: str, category: str, relpath: str) -> bool:
-        """Whether a ``[per-file-ignores]`` entry drops ``rule`` for that root-relative path."""
-        for pattern, names in self.per_file_ignores.items():
-            if _specificity(names, rule, category) and glob_match(pattern, relpath):
+    def skipped_in_file(self, rule: str, category: str, relpath: str) -> bool:
+        """Whether a ``[paths]`` entry's ``skip`` drops ``rule`` for that root-relative path."""
+        for pattern, policy in self.paths.items():
+            if _specificity(policy.skip, rule, category) and glob_match(pattern, relpath):
                 return True
         return False
 
@@ -231,7 +246,7 @@ class Config:
             return PurePosixPath(*p.parts).as_posix() if not p.is_absolute() else p.as_posix()
 
     def wants_file(self, path: str | Path) -> bool:
-        """Whether folder discovery should check ``path`` (by ``include``/``exclude``)."""
+        """Whether folder discovery should check ``path`` (by ``netlists``/``exclude``)."""
         rel = self.relative_path(path)
         parts = rel.split("/")
         for pattern in self.exclude:
@@ -239,7 +254,7 @@ class Config:
                 return False
             if "/" not in pattern and any(glob_match(pattern, part) for part in parts[:-1]):
                 return False
-        return any(glob_match(pattern, rel) for pattern in self.include)
+        return any(glob_match(pattern, rel) for pattern in self.netlists)
 
     # ---- devices and thresholds
 
@@ -263,11 +278,11 @@ class Config:
     def fingerprint(self) -> str:
         """A digest of every setting that can change findings (for the cache key)."""
         data = {
-            "select": list(self.select), "ignore": list(self.ignore),
+            "only": list(self.only), "skip": list(self.skip),
             "bandwidth": self.bandwidth,
             "include_paths": [str(p) for p in self.include_paths],
             "severity": {k: v.label for k, v in sorted(self.severity.items())},
-            "per_file_ignores": {k: list(v) for k, v in sorted(self.per_file_ignores.items())},
+            "paths": {k: v.to_json() for k, v in sorted(self.paths.items())},
             "devices": [[d.pattern, d.kind, list(d.pins), d.value] for d in self.devices],
             "thresholds": dict(sorted(self.thresholds.items())),
             "ports": {k: list(v) for k, v in sorted(self.ports.items())},
@@ -402,7 +417,7 @@ def rule_catalog(known_rules: Mapping[str, str] | Iterable[str] | None = None) -
     return {name: catalog.get(name, "") for name in known_rules} | BUILTIN_RULE_CATEGORIES
 
 
-def load_config(path: Path | None, *, isolated: bool = False, start: Path,
+def load_config(path: Path | None, *, no_config: bool = False, start: Path,
                 known_rules: Mapping[str, str] | Iterable[str] | None = None) -> Config:
     """Read the configuration.
 
@@ -410,8 +425,8 @@ def load_config(path: Path | None, *, isolated: bool = False, start: Path,
     ----------
     path : Path or None
         The file ``--config`` named; None to look upwards from ``start``.
-    isolated : bool
-        Ignore every configuration file (``--isolated``): defaults, root = ``start``.
+    no_config : bool
+        Read no configuration file (``--no-config``): defaults, root = ``start``.
     start : Path
         Where discovery begins (usually the current folder).
     known_rules : mapping or iterable, optional
@@ -425,7 +440,7 @@ def load_config(path: Path | None, *, isolated: bool = False, start: Path,
     """
     start = Path(start)
     start_folder = start if start.is_dir() or not start.exists() else start.parent
-    if isolated:
+    if no_config:
         return Config(root=start_folder.resolve())
     if path is None:
         path = find_config(start)
@@ -454,8 +469,11 @@ def load_config(path: Path | None, *, isolated: bool = False, start: Path,
     return parse_config(data, source=path, prefix=prefix, known_rules=known_rules)
 
 
-_TOP_KEYS = ("include", "exclude", "select", "ignore", "fail-on", "bandwidth", "include-paths",
-             "severity", "per-file-ignores", "devices", "thresholds", "ports")
+_TOP_KEYS = ("netlists", "exclude", "only", "skip", "fail-on", "bandwidth", "include-paths",
+             "severity", "paths", "devices", "thresholds", "ports")
+# Keys of lintamp 0.1.0 and what they are called now: reading one is an error that says so.
+RENAMED_KEYS = {"include": "netlists", "select": "only", "ignore": "skip",
+                "per-file-ignores": "paths"}
 PORT_KINDS = ("voltage-output", "current-input", "load")
 
 
@@ -466,6 +484,11 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
     catalog = rule_catalog(known_rules)
     root = source.resolve().parent
     for key in data:
+        if key in RENAMED_KEYS:
+            new = RENAMED_KEYS[key]
+            expected = (f'[{prefix}{new}] with a table per glob, e.g. "tb/**" = {{ skip = ["unused-port"] }}'
+                        if new == "paths" else f"{prefix}{new}, its new name")
+            raise ConfigError(where, prefix + key, f"is now called {new!r}", expected)
         if key not in _TOP_KEYS:
             hint = key.replace("_", "-")
             expected = (f"the kebab-case spelling {hint!r}" if hint in _TOP_KEYS
@@ -473,14 +496,14 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
             raise ConfigError(where, prefix + key, "unknown key", expected)
     check = _Checker(where, prefix, catalog)
     config = Config(root=root, source=source)
-    if "include" in data:
-        config.include = check.globs(data["include"], "include")
+    if "netlists" in data:
+        config.netlists = check.globs(data["netlists"], "netlists")
     if "exclude" in data:
         config.exclude = check.globs(data["exclude"], "exclude")
-    if "select" in data:
-        config.select = check.selectors(data["select"], "select")
-    if "ignore" in data:
-        config.ignore = check.selectors(data["ignore"], "ignore")
+    if "only" in data:
+        config.only = check.selectors(data["only"], "only")
+    if "skip" in data:
+        config.skip = check.selectors(data["skip"], "skip")
     if "fail-on" in data:
         config.fail_on = check.fail_on(data["fail-on"], "fail-on")
     if "bandwidth" in data:
@@ -490,8 +513,8 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
             (root / p).resolve() for p in check.strings(data["include-paths"], "include-paths"))
     if "severity" in data:
         config.severity = check.severity_table(data["severity"], "severity")
-    if "per-file-ignores" in data:
-        config.per_file_ignores = check.per_file_ignores(data["per-file-ignores"], "per-file-ignores")
+    if "paths" in data:
+        config.paths = check.paths(data["paths"], "paths")
     if "devices" in data:
         config.devices = check.devices(data["devices"], "devices")
     if "thresholds" in data:
@@ -503,7 +526,7 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
 
 def parse_rule_list(text: str, *, option: str,
                     known_rules: Mapping[str, str] | Iterable[str] | None = None) -> tuple[str, ...]:
-    """Parse ``--select a,b`` / ``--ignore ...`` with the same checks as the file."""
+    """Parse ``--only a,b`` / ``--skip ...`` with the same checks as the file."""
     names = [part.strip() for part in text.split(",") if part.strip()]
     return _Checker(option, "", rule_catalog(known_rules)).selectors(tuple(names), "")
 
@@ -587,13 +610,21 @@ class _Checker:
             out[name] = Severity.parse(level)
         return out
 
-    def per_file_ignores(self, value, key: str) -> dict[str, tuple[str, ...]]:
-        out: dict[str, tuple[str, ...]] = {}
-        for pattern, names in self.table(value, key).items():
+    def paths(self, value, key: str) -> dict[str, PathPolicy]:
+        out: dict[str, PathPolicy] = {}
+        for pattern, spec in self.table(value, key).items():
             sub = f'{key}."{pattern}"'
             if not pattern.strip():
                 raise self.fail(sub, "has an empty glob", 'a path glob such as "tb/**"')
-            out[pattern] = self.selectors(self.strings(names, sub), sub) if names else ()
+            if not isinstance(spec, dict):
+                raise self.fail(sub, f"is {_shape(spec)}",
+                                f'a table such as "{pattern}" = {{ skip = ["unused-port"] }}')
+            for k in spec:
+                if k not in PATH_KEYS:
+                    raise self.fail(f"{sub}.{k}", "unknown key", " or ".join(PATH_KEYS))
+            skip = spec.get("skip", [])
+            out[pattern] = PathPolicy(
+                skip=self.selectors(self.strings(skip, f"{sub}.skip"), f"{sub}.skip") if skip else ())
         return out
 
     def devices(self, value, key: str) -> tuple[DeviceMapping, ...]:

@@ -3,8 +3,8 @@
 Rules report everything they see; :func:`decide` turns that into the run's
 :class:`~lintamp.findings.Report`, in this order:
 
-1. ``select`` / ``ignore`` drop rules that are off;
-2. ``[per-file-ignores]`` drop rules for matching files (root-relative posix paths);
+1. ``only`` / ``skip`` drop rules that are off;
+2. ``[paths]`` entries' ``skip`` drop rules for matching files (root-relative posix paths);
 3. ``[severity]`` re-grades what is left;
 4. inline waivers (``lintamp: waive RULE [SUBJECT] -- reason``) move findings to
    ``Report.waived``; a waiver without a reason waives nothing and is reported
@@ -88,8 +88,8 @@ def decide(findings: Iterable[Finding], pragmas: Iterable[Pragma], config: Confi
     pragmas : iterable of Pragma
         Every pragma read; only ``waive`` ones matter here.
     config : Config
-        Selection, severity overrides, per-file ignores; ``config.root`` makes paths
-        relative for per-file-ignore globs.
+        Selection, severity overrides, ``[paths]`` skips; ``config.root`` makes paths
+        relative for their globs.
     baseline : Baseline, optional
         Accepted findings to drop.
     known_rules : mapping rule -> category, or names, optional
@@ -113,7 +113,7 @@ def decide(findings: Iterable[Finding], pragmas: Iterable[Pragma], config: Confi
         category = catalog.get(finding.rule, "")
         if not config.rule_enabled(finding.rule, category):
             return None
-        if config.per_file_ignores and config.ignored_in_file(
+        if config.paths and config.skipped_in_file(
                 finding.rule, category, relpath(finding.location.path)):
             return None
         severity = config.severity_for(finding.rule, category, finding.severity)
@@ -182,7 +182,7 @@ def _waiver_rule_active(waiver: _Waiver, config: Config, catalog: Mapping[str, s
     category = catalog[waiver.rule]
     if not config.rule_enabled(waiver.rule, category):
         return False
-    return not (config.per_file_ignores and config.ignored_in_file(
+    return not (config.paths and config.skipped_in_file(
         waiver.rule, category, relpath(waiver.pragma.location.path)))
 
 

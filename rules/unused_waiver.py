@@ -26,8 +26,8 @@ but the waiver stayed::
 Fix
 ---
 Remove the waiver, or correct its rule name (``lintamp rules`` lists them), its
-subject, or its place.  Runs that turn the waived rule off (``--select``,
-``ignore``, ``[per-file-ignores]``) do not report the waiver.
+subject, or its place.  Runs that turn the waived rule off (``--only``,
+``--skip``, ``skip`` in the config or in its ``[paths]``) do not report the waiver.
 """
 
 from lintamp.findings import Severity

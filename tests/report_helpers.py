@@ -35,9 +35,9 @@ def sample_report(rich: Finding, tmp_path, *, baseline=False):
     return decide(findings, pragmas, Config(root=tmp_path), base, known_rules=KNOWN, files=files)
 
 
-def render(name: str, report, *, color=False, statistics=False, rules=None) -> str:
+def render(name: str, report, *, color=False, counts=False, rules=None) -> str:
     stream = io.StringIO()
     reporter = get_reporter(name)(stream, color=color, rules=all_rules() if rules is None else rules,
-                                  tool_version="0.1.0", statistics=statistics)
+                                  tool_version="0.1.0", counts=counts)
     emit(reporter, report)
     return stream.getvalue()

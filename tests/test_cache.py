@@ -73,4 +73,4 @@ def test_config_key_follows_settings_and_rules(tmp_path):
     config = Config(root=tmp_path)
     assert config_key(config, ["a", "b"]) == config_key(config, ["b", "a"])
     assert config_key(config, ["a"]) != config_key(config, ["a", "b"])
-    assert config_key(config, ["a"]) != config_key(Config(root=tmp_path, ignore=("a",)), ["a"])
+    assert config_key(config, ["a"]) != config_key(Config(root=tmp_path, skip=("a",)), ["a"])

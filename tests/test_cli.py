@@ -30,12 +30,12 @@ def test_version():
 def test_clean_file_exits_0(tmp_path):
     f = tmp_path / "ok.sp"
     f.write_text("divider\nv1 a 0 1\nr1 a b 1k\nr2 b 0 1k\n.end\n")
-    assert main(["check", "--isolated", str(f)]) == 0
+    assert main(["check", "--no-config", str(f)]) == 0
 
 
 def test_findings_exit_1_and_fail_on_never_exits_0():
-    assert main(["check", "--isolated", str(SAMPLES / "review_typos.sp")]) == 1
-    assert main(["check", "--isolated", "--fail-on", "never", str(SAMPLES / "review_typos.sp")]) == 0
+    assert main(["check", "--no-config", str(SAMPLES / "review_typos.sp")]) == 1
+    assert main(["check", "--no-config", "--fail-on", "never", str(SAMPLES / "review_typos.sp")]) == 0
 
 
 def test_missing_path_and_bad_option_exit_2(capsys):
@@ -46,14 +46,14 @@ def test_missing_path_and_bad_option_exit_2(capsys):
     assert exc.value.code == 2
 
 
-def test_unknown_rule_in_select_exits_2(capsys):
-    assert main(["check", "--isolated", "--select", "no-such-rule", str(SAMPLES)]) == 2
+def test_unknown_rule_in_only_exits_2(capsys):
+    assert main(["check", "--no-config", "--only", "no-such-rule", str(SAMPLES)]) == 2
     assert "no-such-rule" in capsys.readouterr().err
 
 
 def test_json_report_shape(tmp_path):
     out = tmp_path / "r.json"
-    code = main(["check", "--isolated", "--format", "json", "-o", str(out), str(SAMPLES)])
+    code = main(["check", "--no-config", "--format", "json", "-o", str(out), str(SAMPLES)])
     data = json.loads(out.read_text())
     assert code == 1
     assert data["tool"] == "lintamp" and data["schema"] == 1 and data["version"] == __version__
@@ -70,15 +70,15 @@ def test_json_report_shape(tmp_path):
 
 
 def test_text_report_lines():
-    out = run("check", "--isolated", "samples/review_typos.sp")
+    out = run("check", "--no-config", "samples/review_typos.sp")
     assert out.returncode == 1
     first = out.stdout.splitlines()[0]
     assert first.startswith("samples/review_typos.sp:16:1: error pin-mismatch:")
 
 
 def test_two_runs_are_byte_identical():
-    a = run("check", "--isolated", "--format", "json", "samples")
-    b = run("check", "--isolated", "--format", "json", "samples")
+    a = run("check", "--no-config", "--format", "json", "samples")
+    b = run("check", "--no-config", "--format", "json", "samples")
     assert a.stdout == b.stdout and a.stdout
 
 
@@ -167,11 +167,12 @@ def test_program_exit_writes_everything_and_keeps_the_exit_code(tmp_path):
     # the exit code must be those of main() (common practice for command-line tools)
     deck = tmp_path / "open.sp"
     deck.write_text("* one resistor to nowhere\nv1 a 0 1\nr1 a b 1k\n.end\n")
-    proc = subprocess.run([sys.executable, "-m", "lintamp", "check", "--isolated", "--no-cache",
-                           "--format", "json", str(deck)], capture_output=True, text=True, cwd=tmp_path)
+    proc = subprocess.run([sys.executable, "-m", "lintamp", "check", "--no-config", "--no-cache",
+                           "--format", "json", str(deck)], capture_output=True, text=True, cwd=tmp_path,
+                          env={"PYTHONPATH": str(REPO), "NO_COLOR": "1", "PATH": "/usr/bin:/bin"})
     doc = json.loads(proc.stdout)
     assert proc.returncode == 1 and doc["summary"]["warnings"] >= 1, proc.stderr
-    assert main(["check", "--isolated", "--no-cache", "--format", "json", "-o",
+    assert main(["check", "--no-config", "--no-cache", "--format", "json", "-o",
                  str(tmp_path / "out.json"), str(deck)]) == 1
     same = json.loads((tmp_path / "out.json").read_text())["findings"]
     assert [(f["rule"], f["line"], f["message"]) for f in same] == \

@@ -12,7 +12,7 @@ import pytest
 
 from conftest import KNOWN
 from lintamp.config import (
-    DEFAULT_INCLUDE, Config, ConfigError, find_config, glob_match, load_config,
+    DEFAULT_NETLISTS, Config, ConfigError, find_config, glob_match, load_config,
     parse_fail_on, parse_rule_list, register_threshold,
 )
 from lintamp.findings import Severity
@@ -37,9 +37,9 @@ def error_of(tmp_path: Path, text: str, name="lintamp.toml") -> str:
 def test_defaults_without_a_file(tmp_path):
     config = load_config(None, start=tmp_path, known_rules=KNOWN)
     assert config.source is None and config.root == tmp_path.resolve()
-    assert config.include == DEFAULT_INCLUDE
+    assert config.netlists == DEFAULT_NETLISTS
     assert config.fail_on is Severity.WARNING
-    assert config.select == ("all",)
+    assert config.only == ("all",)
 
 
 def test_nearest_config_wins_and_lintamp_toml_beats_pyproject(tmp_path):
@@ -56,17 +56,17 @@ def test_nearest_config_wins_and_lintamp_toml_beats_pyproject(tmp_path):
     assert load_config(None, start=deep, known_rules=KNOWN).fail_on is None
 
 
-def test_isolated_ignores_every_file(tmp_path):
+def test_no_config_reads_no_file(tmp_path):
     write(tmp_path / "lintamp.toml", 'fail-on = "error"\n')
-    assert load_config(None, isolated=True, start=tmp_path, known_rules=KNOWN).fail_on is Severity.WARNING
+    assert load_config(None, no_config=True, start=tmp_path, known_rules=KNOWN).fail_on is Severity.WARNING
 
 
 def test_full_file_is_read(tmp_path):
     config = load(tmp_path, """
-include = ["*.sp"]
+netlists = ["*.sp"]
 exclude = ["build/**"]
-select = ["connectivity", "unbuffered-output"]
-ignore = ["dangling-net"]
+only = ["connectivity", "unbuffered-output"]
+skip = ["dangling-net"]
 fail-on = "error"
 bandwidth = "20meg"
 include-paths = ["models"]
@@ -75,8 +75,8 @@ include-paths = ["models"]
 unbiased-gate = "warning"
 impedance = "info"
 
-[per-file-ignores]
-"tb/**" = ["connectivity"]
+[paths]
+"tb/**" = { skip = ["connectivity"] }
 
 [devices]
 "acme_nfet_*" = { kind = "nmos", pins = ["d", "g", "s", "b"] }
@@ -91,8 +91,8 @@ impedance = "info"
     assert not config.rule_enabled("unused-port", "references")  # not selected
     assert config.severity_for("unbiased-gate", "connectivity", Severity.ERROR) is Severity.WARNING
     assert config.severity_for("unbuffered-output", "impedance", Severity.ERROR) is Severity.INFO
-    assert config.ignored_in_file("no-dc-path", "connectivity", "tb/deep/tb1.sp")
-    assert not config.ignored_in_file("no-dc-path", "connectivity", "blocks/tb1.sp")
+    assert config.skipped_in_file("no-dc-path", "connectivity", "tb/deep/tb1.sp")
+    assert not config.skipped_in_file("no-dc-path", "connectivity", "blocks/tb1.sp")
     # INTERFACE.md: device globs are case-insensitive, first match wins.
     assert config.device_for("ACME_NFET_LVT").kind == "nmos"
     assert config.device_for("acme_rpoly_hv").value == "r"
@@ -100,8 +100,8 @@ impedance = "info"
 
 
 def test_pyproject_table_and_key_prefix_in_messages(tmp_path):
-    config = load(tmp_path, '[tool.lintamp]\nignore = ["unused-port"]\n', name="pyproject.toml")
-    assert config.ignore == ("unused-port",)
+    config = load(tmp_path, '[tool.lintamp]\nskip = ["unused-port"]\n', name="pyproject.toml")
+    assert config.skip == ("unused-port",)
     message = error_of(tmp_path, '[tool.lintamp]\nfail_on = "error"\n', name="pyproject.toml")
     assert message == (f"{tmp_path / 'pyproject.toml'}: tool.lintamp.fail_on: unknown key; "
                        "expected the kebab-case spelling 'fail-on'")
@@ -109,13 +109,15 @@ def test_pyproject_table_and_key_prefix_in_messages(tmp_path):
 
 @pytest.mark.parametrize("text, key, words", [
     ('colour = "always"\n', "colour", "unknown key"),
-    ('select = ["danglng-net"]\n', "select", "did you mean 'dangling-net'"),
-    ('ignore = "dangling-net"\n', "ignore", "single string"),
+    ('only = ["danglng-net"]\n', "only", "did you mean 'dangling-net'"),
+    ('skip = "dangling-net"\n', "skip", "single string"),
     ('fail-on = "fatal"\n', "fail-on", "error, warning, info, never"),
     ('bandwidth = "fast"\n', "bandwidth", "frequency"),
     ('[severity]\ndangling-net = "fatal"\n', "severity.dangling-net", '"error", "warning" or "info"'),
     ('[severity]\nno-such-rule = "error"\n', "severity.no-such-rule", "unknown rule"),
-    ('[per-file-ignores]\n"tb/**" = ["nope"]\n', 'per-file-ignores."tb/**"', "unknown rule"),
+    ('[paths]\n"tb/**" = { skip = ["nope"] }\n', 'paths."tb/**".skip', "unknown rule"),
+    ('[paths]\n"tb/**" = ["connectivity"]\n', 'paths."tb/**"', '{ skip = ["unused-port"] }'),
+    ('[paths]\n"tb/**" = { severity = "info" }\n', 'paths."tb/**".severity', "unknown key"),
     ('[devices]\n"x*" = { kind = "jfet", pins = ["d","g","s"] }\n', 'devices."x*".kind', "nmos pmos"),
     ('[devices]\n"x*" = { kind = "nmos", pins = ["d","g"] }\n', 'devices."x*".pins', "lacks s"),
     ('[devices]\n"x*" = { kind = "nmos", pins = ["d","g","s","q"] }\n', 'devices."x*".pins', "not a nmos terminal"),
@@ -131,7 +133,7 @@ def test_mistakes_name_file_key_problem_and_expectation(tmp_path, text, key, wor
 
 
 def test_bad_toml_gives_line_and_column(tmp_path):
-    message = error_of(tmp_path, 'select = ["a"\n')
+    message = error_of(tmp_path, 'only = ["a"\n')
     assert message.startswith(f"{tmp_path / 'lintamp.toml'}: not valid TOML")
     assert "line" in message
 
@@ -150,19 +152,19 @@ def test_thresholds_are_checked_against_what_rules_declare(tmp_path):
 
 
 def test_command_line_lists_use_the_same_checks():
-    assert parse_rule_list("dangling-net, impedance,all", option="--select", known_rules=KNOWN) == (
+    assert parse_rule_list("dangling-net, impedance,all", option="--only", known_rules=KNOWN) == (
         "dangling-net", "impedance", "all")
     with pytest.raises(ConfigError) as info:
-        parse_rule_list("dangling", option="--ignore", known_rules=KNOWN)
-    assert str(info.value).startswith("--ignore: unknown rule or category 'dangling'")
+        parse_rule_list("dangling", option="--skip", known_rules=KNOWN)
+    assert str(info.value).startswith("--skip: unknown rule or category 'dangling'")
     assert parse_fail_on("never") is None and parse_fail_on("info") is Severity.INFO
 
 
 def test_rule_names_default_to_the_registry_plus_parser_rules(tmp_path):
     # The parser-level names are valid even without rule modules (INTERFACE.md table).
-    config = load_config(write(tmp_path / "lintamp.toml", 'ignore = ["pin-mismatch", "unused-waiver"]\n'),
+    config = load_config(write(tmp_path / "lintamp.toml", 'skip = ["pin-mismatch", "unused-waiver"]\n'),
                          start=tmp_path)
-    assert config.ignore == ("pin-mismatch", "unused-waiver")
+    assert config.skip == ("pin-mismatch", "unused-waiver")
 
 
 def test_globs_and_file_selection(tmp_path):
@@ -179,10 +181,10 @@ def test_globs_and_file_selection(tmp_path):
 
 
 def test_fingerprint_changes_with_settings(tmp_path):
-    a = load(tmp_path, 'ignore = ["dangling-net"]\n')
-    b = load(tmp_path, 'ignore = ["unused-port"]\n')
+    a = load(tmp_path, 'skip = ["dangling-net"]\n')
+    b = load(tmp_path, 'skip = ["unused-port"]\n')
     assert a.fingerprint() != b.fingerprint()
-    assert a.fingerprint() == load(tmp_path, 'ignore = ["dangling-net"]\n').fingerprint()
+    assert a.fingerprint() == load(tmp_path, 'skip = ["dangling-net"]\n').fingerprint()
 
 
 def test_a_rule_threshold_is_accepted_in_a_fresh_process(tmp_path):
@@ -204,3 +206,22 @@ def test_a_rule_threshold_is_accepted_in_a_fresh_process(tmp_path):
     bad = subprocess.run(run, cwd=tmp_path, capture_output=True, text=True)
     assert bad.returncode == 2
     assert "did you mean 'output-max-loss'" in bad.stderr and "none are declared" not in bad.stderr
+
+
+@pytest.mark.parametrize("old, new", [("include", "netlists"), ("select", "only"),
+                                      ("ignore", "skip"), ("per-file-ignores", "paths")])
+def test_a_key_of_0_1_0_is_an_error_that_names_its_new_name(tmp_path, old, new):
+    # issue 23: the keys were renamed without aliases; the message must lead to the new one
+    value = '{ "tb/**" = ["unused-port"] }' if old == "per-file-ignores" else '["unused-port"]'
+    message = error_of(tmp_path, f"{old} = {value}\n")
+    assert message.startswith(f"{tmp_path / 'lintamp.toml'}: {old}: is now called '{new}'; expected ")
+    message = error_of(tmp_path, f"[tool.lintamp]\n{old} = {value}\n", name="pyproject.toml")
+    assert f"tool.lintamp.{old}: is now called '{new}'" in message
+
+
+def test_paths_entry_skips_rules_for_its_files_only(tmp_path):
+    config = load(tmp_path, '[paths]\n"tb/**" = { skip = ["unused-port"] }\n"*.cir" = {}\n')
+    assert config.skipped_in_file("unused-port", "references", "tb/a/b.sp")
+    assert not config.skipped_in_file("unused-port", "references", "blocks/b.sp")
+    assert not config.skipped_in_file("dangling-net", "connectivity", "tb/a/b.sp")
+    assert not config.skipped_in_file("unused-port", "references", "x.cir")  # an empty entry skips nothing

@@ -1,4 +1,4 @@
-"""The decision layer: selection, severity, per-file ignores, waiver scope, baseline, order.
+"""The decision layer: selection, severity, per-path skips, waiver scope, baseline, order.
 
 Findings and pragmas are built by hand in scenarios of our own; the expected
 behaviour is the contract in INTERFACE.md ("Pragmas in netlists", "Configuration").
@@ -23,13 +23,13 @@ def rules_of(report):
     return [(f.rule, f.subject) for f in report.findings]
 
 
-def test_select_ignore_and_categories(tmp_path):
+def test_only_skip_and_categories(tmp_path):
     findings = [make_finding("dangling-net"), make_finding("unbuffered-output", subject="out"),
                 make_finding("unused-port", subject="p")]
-    config = config_from({"select": ["connectivity", "unused-port"]}, tmp_path)
+    config = config_from({"only": ["connectivity", "unused-port"]}, tmp_path)
     assert rules_of(decide(findings, [], config, known_rules=KNOWN)) == [
         ("dangling-net", "n1"), ("unused-port", "p")]
-    config = config_from({"ignore": ["impedance"]}, tmp_path)
+    config = config_from({"skip": ["impedance"]}, tmp_path)
     assert {f.rule for f in decide(findings, [], config, known_rules=KNOWN).findings} == {
         "dangling-net", "unused-port"}
 
@@ -43,9 +43,9 @@ def test_severity_override_copies_the_finding(tmp_path):
     assert report.summary() == {"files": 0, "errors": 1, "warnings": 0, "infos": 0, "waived": 0}
 
 
-def test_per_file_ignores_match_root_relative_posix_paths(tmp_path, monkeypatch):
+def test_paths_skips_match_root_relative_posix_paths(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    config = config_from({"per-file-ignores": {"tb/**": ["connectivity"], "*.cir": ["all"]}}, tmp_path)
+    config = config_from({"paths": {"tb/**": {"skip": ["connectivity"]}, "*.cir": {"skip": ["all"]}}}, tmp_path)
     findings = [make_finding(path="tb/top_tb.sp"), make_finding(path="blocks/amp.sp"),
                 make_finding(path=str(tmp_path / "tb" / "abs.sp")), make_finding(path="x/y.cir"),
                 make_finding("unbuffered-output", path="tb/top_tb.sp", subject="out")]
@@ -113,12 +113,12 @@ def test_unused_and_misspelt_waivers_are_reported(tmp_path):
 
 def test_unused_waiver_is_quiet_when_its_rule_did_not_run(tmp_path):
     waiver = make_waiver("unbuffered-output", line=3)
-    config = config_from({"select": ["connectivity"]}, tmp_path)
+    config = config_from({"only": ["connectivity"]}, tmp_path)
     assert decide([], [waiver], config, known_rules=KNOWN).findings == []
-    config = config_from({"per-file-ignores": {"blocks/*": ["impedance"]}}, tmp_path)
+    config = config_from({"paths": {"blocks/*": {"skip": ["impedance"]}}}, tmp_path)
     assert decide([], [waiver], config, known_rules=KNOWN).findings == []
     # And the waiver rules themselves obey selection and severity like any rule.
-    config = config_from({"ignore": ["unused-waiver"]}, tmp_path)
+    config = config_from({"skip": ["unused-waiver"]}, tmp_path)
     assert decide([], [make_waiver("dangling-net")], config, known_rules=KNOWN).findings == []
     config = config_from({"severity": {"waivers": "error"}}, tmp_path)
     assert decide([], [make_waiver("dangling-net")], config, known_rules=KNOWN).findings[0].severity is Severity.ERROR

@@ -32,4 +32,4 @@ def test_annotations_then_full_text_report(rich_finding, tmp_path):
     assert annotations[0].startswith("::warning file=blocks/amp.sp,line=4,col=1,title=dangling-net::")
     assert all("\n" not in a for a in annotations)
     assert out[4] == "blocks/amp.sp:4:1: warning dangling-net: dangling-net on spare"
-    assert out[-1].startswith("Found 2 errors")
+    assert out[-1].startswith("4 files checked: 2 errors")

@@ -31,14 +31,14 @@ def test_plain_layout(rich_finding, tmp_path):
         "    fix: add a bias resistor from nb to a defined level",
         "    blocks/bias.sp:13:1: gate of m1",
     ]
-    assert lines[-1] == "Found 2 errors, 1 warning, 1 info in 4 files (1 waived)."
+    assert lines[-1] == "4 files checked: 2 errors, 1 warning, 1 info (1 waived)."
     assert "\x1b[" not in out
 
 
-def test_statistics_and_baseline_summary(rich_finding, tmp_path):
-    out = render("text", sample_report(rich_finding, tmp_path, baseline=True), statistics=True)
+def test_counts_and_baseline_summary(rich_finding, tmp_path):
+    out = render("text", sample_report(rich_finding, tmp_path, baseline=True), counts=True)
     assert "1  unbiased-gate" in out
-    assert out.splitlines()[-1] == ("Found 2 errors, 1 warning, 1 info in 4 files "
+    assert out.splitlines()[-1] == ("4 files checked: 2 errors, 1 warning, 1 info "
                                     "(1 waived; 0 accepted by the baseline; 1 baseline entry no longer found).")
 
 
@@ -52,7 +52,7 @@ def test_colour_output_keeps_netlist_text_literal(rich_finding, tmp_path):
 
 def test_no_findings_line(tmp_path):
     from lintamp.findings import Report
-    assert render("text", Report(files=["a.sp"])) == "No findings in 1 file.\n"
+    assert render("text", Report(files=["a.sp"])) == "1 file checked: clean.\n"
 
 
 @pytest.mark.parametrize("flag, env, tty, expected", [

@@ -27,7 +27,7 @@ DECKS = sorted((REPO / "tests" / "fixtures" / "rules").glob("*/*.sp")) + sorted(
 def _connectivity_findings(path: Path, threshold: int, monkeypatch) -> list[tuple]:
     monkeypatch.setattr(design_module, "SMALL_TABLE_TERMINALS", threshold)
     report = check_text(path.read_text(encoding="utf-8", errors="replace"), str(path),
-                        Config(select=CONNECTIVITY))
+                        Config(only=CONNECTIVITY))
     return sorted((f.rule, f.subject, f.location.line, f.message, f.nets, f.elements, f.explanation)
                   for f in report.findings)
 

@@ -95,9 +95,9 @@ def test_cache_hit_imports_no_parser_circuit_analysis_or_numerics(tmp_path):
         assert "importlib.metadata" not in hit_modules  # no plugin is installed to look for
 
 
-def test_cache_hit_with_isolated_and_select_imports_no_toml_reader(tmp_path):
+def test_cache_hit_with_no_config_and_only_imports_no_toml_reader(tmp_path):
     folder = _small_project(tmp_path)
-    args = ["check", "--isolated", "--select", "connectivity,references,syntax", "bias_block.sp"]
+    args = ["check", "--no-config", "--only", "connectivity,references,syntax", "bias_block.sp"]
     _modules_after(args, folder, _env())
     _, hit_modules, _ = _modules_after(args, folder, _env())
     assert _heavy(hit_modules, _preloaded(_env())) == []
@@ -105,7 +105,7 @@ def test_cache_hit_with_isolated_and_select_imports_no_toml_reader(tmp_path):
 
 def test_connectivity_check_of_a_deck_of_plain_numbers_needs_no_grammar_nor_numerics(tmp_path):
     folder = _small_project(tmp_path)
-    args = ["check", "--no-cache", "--isolated", "--select", "connectivity,references,syntax",
+    args = ["check", "--no-cache", "--no-config", "--only", "connectivity,references,syntax",
             "bias_block.sp"]
     _, modules, _ = _modules_after(args, folder, _env())
     assert "lintamp.netlist.parser" in modules

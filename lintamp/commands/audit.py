@@ -8,30 +8,50 @@ Nothing is ever written beside the netlist.
 
 from __future__ import annotations
 
+import argparse
 import json
 import os
 import sys
 import tempfile
 from pathlib import Path
 
+from lintamp.commands.common import (UsageError, add_config_options, epilog,
+                                     existing_file, load_config, load_op, report_internal_errors)
 
-def _config(args):
-    from lintamp.cli import UsageError
-    from lintamp.config import ConfigError, load_config, with_overrides
-    from lintamp.registry import all_rules
+FORMATS = ("text", "json", "markdown", "html")
 
-    known = {name: rule.category for name, rule in all_rules().items()}
-    explicit = Path(args.config) if args.config else None
-    if explicit is not None and not explicit.is_file():
-        raise UsageError(f"--config {args.config}: no such file")
-    try:
-        config = load_config(explicit, isolated=args.isolated,
-                             start=Path(args.netlist).resolve().parent, known_rules=known)
-    except ConfigError as exc:
-        raise UsageError(str(exc)) from None
-    if config.source is None:
-        config = with_overrides(config, root=Path.cwd().resolve())
-    return config
+EXAMPLES = epilog(
+    ("lintamp audit samples/sensor_frontend.sp",
+     "ports, stages, node impedances and findings of the block, as text"),
+    ("lintamp audit amp.sp --format html -o sheet.html",
+     "the sheet as one HTML page with its plots (the plots extra)"),
+    ("lintamp audit amp.sp --format markdown -o review/amp.md --op op.csv",
+     "markdown with PNG plots beside it, at your simulator's operating point"),
+)
+
+
+def register(sub) -> None:
+    p = sub.add_parser("audit", help="the review sheet of a block",
+                       description="The review sheet of a block: its ports and their "
+                                   "impedances, each transistor's role and bias margin, each "
+                                   "signal path's gain and -3 dB frequency, and the findings.",
+                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", metavar="NETLIST", help="the netlist file of the block")
+    p.add_argument("--top", metavar="CELL", help="the cell to elaborate as the top level")
+    p.add_argument("--format", default="text", choices=FORMATS,
+                   help="text, json, markdown or html (html and markdown with -o carry "
+                        "plots; default: text)")
+    p.add_argument("-o", "--output", metavar="FILE",
+                   help="write the sheet to FILE (replaced whole, never half-written)")
+    p.add_argument("--op", metavar="FILE",
+                   help="operating-point table from your simulator (CSV or JSON)")
+    p.add_argument("--bandwidth", metavar="FREQ", help="the signal band, e.g. 20meg")
+    p.add_argument("--include-path", action="append", default=[], metavar="DIR",
+                   help="another folder .include/.lib may read from (repeatable)")
+    add_config_options(p)
+    p.set_defaults(run=run)
+
+
 
 
 def write_atomically(path: Path, payload: bytes) -> None:
@@ -53,24 +73,15 @@ def write_atomically(path: Path, payload: bytes) -> None:
         raise
 
 
-def cmd_audit(args) -> int:
+def run(args) -> int:
     from lintamp.audit.sheet import AuditError, build_sheet
-    from lintamp.cli import EXIT_OK, EXIT_TROUBLE, UsageError
 
-    path = Path(args.netlist)
-    if not path.is_file():
-        raise UsageError(f"{args.netlist}: no such file")
+    path = existing_file(args.netlist)
     output = Path(args.output) if args.output else None
     if output is not None and not (output.parent if str(output.parent) else Path(".")).is_dir():
         raise UsageError(f"-o {args.output}: no such folder")
-    config = _config(args)
-    table = None
-    if args.op:
-        from lintamp.engine.op_table import load_op_table
-        try:
-            table = load_op_table(Path(args.op).read_text(encoding="utf-8"))
-        except (OSError, ValueError) as exc:
-            raise UsageError(f"--op {args.op}: {exc}") from None
+    config = load_config(args, path.resolve().parent)
+    table = load_op(args.op)
     want_plots = args.format in ("markdown", "html") and (args.format == "html" or output is not None)
     try:
         sheet = build_sheet(path, top=args.top, bandwidth=args.bandwidth, table=table,
@@ -112,8 +123,4 @@ def cmd_audit(args) -> int:
             for key, payload in images.items():
                 write_atomically(output.parent / f"{output.stem}-{key}.png", payload)
         write_atomically(output, text.encode("utf-8"))
-    if sheet.data.get("internal_errors"):
-        for error in sheet.data["internal_errors"]:
-            print(f"lintamp: internal error: {error}", file=sys.stderr)
-        return EXIT_TROUBLE
-    return EXIT_OK
+    return report_internal_errors(sheet.data.get("internal_errors") or (), sys.stderr)

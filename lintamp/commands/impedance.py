@@ -2,16 +2,48 @@
 
 from __future__ import annotations
 
+import argparse
 import difflib
 import json
 import sys
 from pathlib import Path
 
+from lintamp.commands.common import (EXIT_OK, UsageError, add_config_options, epilog, existing_file,
+                                     load_config, load_op)
 from lintamp.report.si import si, si_for_key
 
+EXAMPLES = epilog(
+    ("lintamp impedance samples/sensor_frontend.sp pd --freq 1k",
+     "the impedance looking into net pd at 1 kHz, with each branch's formula"),
+    ("lintamp impedance amp.sp out --detach cload --format json",
+     "the output impedance without the load capacitor, as JSON"),
+    ("lintamp impedance top.sp xbias/nbias --op op.csv",
+     "a net inside instance xbias, at the operating point your simulator found"),
+)
 
-class _Usage(Exception):
-    pass
+
+def register(sub) -> None:
+    p = sub.add_parser("impedance", help="small-signal impedance looking into a node",
+                       description="The small-signal impedance looking into NODE, with every "
+                                   "element attached and the independent sources zeroed, "
+                                   "and the reasoning branch by branch.",
+                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", metavar="NETLIST", help="the netlist file")
+    p.add_argument("node", metavar="NODE",
+                   help="the net to look into; inside a hierarchy x1/net")
+    p.add_argument("--freq", default="0", metavar="F",
+                   help="frequency, e.g. 1k or 20meg (default: 0, DC)")
+    p.add_argument("--detach", action="append", default=[], metavar="ELEMENT",
+                   help="leave this element out of the network (repeatable)")
+    p.add_argument("--top", metavar="CELL", help="the cell to elaborate as the top level")
+    p.add_argument("--op", metavar="FILE",
+                   help="operating-point table from your simulator (CSV or JSON)")
+    p.add_argument("--format", default="text", choices=["text", "json"],
+                   help="text for people, json for scripts (default: text)")
+    p.add_argument("--include-path", action="append", default=[], metavar="DIR",
+                   help="another folder .include/.lib may read from (repeatable)")
+    add_config_options(p)
+    p.set_defaults(run=run)
 
 
 def load_flat_circuit(netlist_path: Path, *, top: str | None, include_paths=(), config=None):
@@ -27,7 +59,7 @@ def load_flat_circuit(netlist_path: Path, *, top: str | None, include_paths=(), 
     try:
         circuit = flatten(design)
     except FlattenLimit as exc:
-        raise _Usage(str(exc)) from None
+        raise UsageError(str(exc)) from None
     return circuit, problems
 
 
@@ -35,42 +67,32 @@ def parse_frequency(text: str) -> float:
     from lintamp.netlist.expr import parse_number
     value = parse_number(text.strip().lower().removesuffix("hz"))
     if value is None or value < 0:
-        raise _Usage(f"--freq {text}: not a frequency (write e.g. 0, 1k, 20meg)")
+        raise UsageError(f"--freq {text}: not a frequency (write e.g. 0, 1k, 20meg)")
     return value
 
 
-def cmd_impedance(args) -> int:
+def run(args) -> int:
     from lintamp.rulekit.impedance_report import impedance_report
     from lintamp.engine.operating_point import OperatingPointError
     from lintamp.engine.small_signal import SmallSignalError
-    from lintamp.cli import EXIT_OK, UsageError
 
-    path = Path(args.netlist)
-    if not path.is_file():
-        raise UsageError(f"{args.netlist}: no such file")
+    path = existing_file(args.netlist)
     try:
         freq_hz = parse_frequency(args.freq)
-        circuit, problems = load_flat_circuit(path, top=args.top,
+        config = load_config(args, path.resolve().parent)
+        circuit, problems = load_flat_circuit(path, top=args.top, config=config,
                                               include_paths=[Path(p) for p in args.include_path])
         node = args.node.lower()
         if circuit.find_net(node) is None:
             close = difflib.get_close_matches(node, circuit.nets, n=3)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
-            raise _Usage(f"{args.netlist}: no net '{args.node}'{hint}")
+            raise UsageError(f"{args.netlist}: no net '{args.node}'{hint}")
         missing = [name for name in args.detach if circuit.device(name) is None]
         if missing:
-            raise _Usage(f"--detach: no element {', '.join(missing)} in {args.netlist}")
-        table = None
-        if args.op:
-            from lintamp.engine.op_table import load_op_table
-            try:
-                table = load_op_table(Path(args.op).read_text(encoding="utf-8"))
-            except (OSError, ValueError) as exc:
-                raise _Usage(f"--op {args.op}: {exc}") from None
+            raise UsageError(f"--detach: no element {', '.join(missing)} in {args.netlist}")
+        table = load_op(args.op)
         report = impedance_report(circuit, node, freq_hz, detach=[d.lower() for d in args.detach],
                                   table=table)
-    except _Usage as exc:
-        raise UsageError(str(exc)) from None
     except (OperatingPointError, SmallSignalError) as exc:  # the engine's documented refusals
         raise UsageError(f"{args.netlist}: {exc}") from None
     for diag in problems:

@@ -20,12 +20,13 @@ class Reporter:
     """Base class: keeps the handled findings; subclasses render."""
 
     def __init__(self, stream: TextIO, *, color: bool, rules: dict[str, RuleInfo],
-                 tool_version: str, statistics: bool = False):
+                 tool_version: str, counts: bool = False, summary: bool = True):
         self.stream = stream
         self.color = color
         self.rules = rules
         self.tool_version = tool_version
-        self.statistics = statistics
+        self.counts = counts  # the text report's findings per rule
+        self.summary = summary  # the text report's closing line (off with --quiet)
         self.findings: list[Finding] = []
 
     def start(self) -> None:

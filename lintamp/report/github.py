@@ -40,7 +40,8 @@ class GithubReporter(Reporter):
 
     def finish(self, report: Report) -> None:
         text = TextReporter(self.stream, color=False, rules=self.rules,
-                            tool_version=self.tool_version, statistics=self.statistics)
+                            tool_version=self.tool_version, counts=self.counts,
+                            summary=self.summary)
         text.start()
         for finding in self.findings:
             text.handle(finding)

@@ -38,10 +38,11 @@ class TextReporter(Reporter):
         self._write_block(list(_finding_lines(finding)))
 
     def finish(self, report: Report) -> None:
-        if self.statistics:
-            for text, style in _statistics_lines(self.findings, self.rules):
+        if self.counts:
+            for text, style in _count_lines(self.findings, self.rules):
                 self._write(text, style)
-        self._write(summary_line(report), "bold")
+        if self.summary:
+            self._write(summary_line(report), "bold")
 
     def _write(self, parts, style: str | None = None) -> None:
         self._write_block([(parts, style)])
@@ -82,7 +83,7 @@ def _finding_lines(finding: Finding):
         yield [(INDENT + printable(f"{related.location}: "), "bold"), (printable(related.note), "dim")], None
 
 
-def _statistics_lines(findings: list[Finding], rules: dict):
+def _count_lines(findings: list[Finding], rules: dict):
     counts = Counter(f.rule for f in findings)
     if not counts:
         return
@@ -95,15 +96,18 @@ def _statistics_lines(findings: list[Finding], rules: dict):
 
 
 def summary_line(report: Report) -> str:
-    """One line: counts by severity, files, waived, baseline."""
+    """One line: files checked, counts by severity, waived, baseline.
+
+    ``6 files checked: 6 errors, 2 warnings, 0 infos.`` or ``3 files checked: clean.``
+    """
     s = report.summary()
     files = plural(s["files"], "file")
     total = s["errors"] + s["warnings"] + s["infos"]
     if total == 0:
-        text = f"No findings in {files}"
+        text = f"{files} checked: clean"
     else:
-        text = (f"Found {plural(s['errors'], 'error')}, {plural(s['warnings'], 'warning')}, "
-                f"{plural(s['infos'], 'info')} in {files}")
+        text = (f"{files} checked: {plural(s['errors'], 'error')}, "
+                f"{plural(s['warnings'], 'warning')}, {plural(s['infos'], 'info')}")
     extra = []
     if s["waived"]:
         extra.append(f"{s['waived']} waived")

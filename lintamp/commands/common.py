@@ -1,0 +1,94 @@
+"""What every command shares: exit codes, the usage error, config and ``--op`` loading.
+
+Commands import this module, never :mod:`lintamp.cli`; the CLI imports the commands.
+Imports of the heavier layers stay inside the functions: a pre-commit hook pays only
+for what the command it runs needs.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+# INTERFACE.md: 0 nothing at or above --fail-on, 1 findings at or above it,
+# 2 the tool could not do its job (bad option or config, path not found, internal error).
+EXIT_OK, EXIT_FINDINGS, EXIT_TROUBLE = 0, 1, 2
+
+
+class UsageError(Exception):
+    """Bad options, config or paths: reported as one line ``lintamp: ...``, exit 2."""
+
+
+def known_rules() -> dict[str, str]:
+    """Rule name -> category of every registered rule."""
+    from lintamp.registry import all_rules
+    return {name: rule.category for name, rule in all_rules().items()}
+
+
+def add_config_options(parser) -> None:
+    """``--config FILE`` and ``--no-config``, for every command that reads the config."""
+    parser.add_argument("--config", metavar="FILE",
+                        help="read this config file instead of looking for one")
+    parser.add_argument("--no-config", action="store_true",
+                        help="read no config file: built-in defaults only")
+
+
+def load_config(args, start: Path, **changes):
+    """The configuration a command runs with: ``--config`` / ``--no-config`` / discovery
+    upwards from ``start``, then the command line's ``changes`` (Config field names).
+
+    Without a config file the project root (cache, relative paths) is the current folder.
+    A :class:`~lintamp.config.ConfigError` becomes a :class:`UsageError`.
+    """
+    from lintamp.config import ConfigError, load_config as read_config, with_overrides
+    explicit = Path(args.config) if args.config else None
+    if explicit is not None and not explicit.is_file():
+        raise UsageError(f"--config {args.config}: no such file")
+    start = start if start.is_dir() else start.parent
+    try:
+        config = read_config(explicit, no_config=args.no_config, start=start.resolve(),
+                             known_rules=known_rules())
+        if config.source is None:
+            changes.setdefault("root", Path.cwd().resolve())
+        return with_overrides(config, **changes) if changes else config
+    except ConfigError as exc:
+        raise UsageError(str(exc)) from None
+
+
+def config_error(exc) -> UsageError:
+    """A :class:`~lintamp.config.ConfigError` raised while reading an option, as a usage error."""
+    return UsageError(str(exc))
+
+
+def load_op(path_text: str | None):
+    """The ``--op FILE`` operating-point table (CSV or JSON), or None without the option."""
+    if not path_text:
+        return None
+    from lintamp.engine.op_table import load_op_table
+    try:
+        return load_op_table(Path(path_text).read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError, ValueError) as exc:
+        raise UsageError(f"--op {path_text}: {exc}") from None
+
+
+def existing_file(path_text: str) -> Path:
+    """The NETLIST argument of impedance and audit: a file that exists."""
+    path = Path(path_text)
+    if not path.is_file():
+        raise UsageError(f"{path_text}: no such file")
+    return path
+
+
+def report_internal_errors(errors, stream) -> int:
+    """Print each internal error on its own line; EXIT_TROUBLE when there was one."""
+    for error in errors:
+        print(f"lintamp: internal error: {error}", file=stream)
+    return EXIT_TROUBLE if errors else EXIT_OK
+
+
+def epilog(*examples: tuple[str, str]) -> str:
+    """The closing lines of a command's ``--help``: a few examples, each with what it does."""
+    lines = ["examples:"]
+    for command, what in examples:
+        lines.append(f"  {command}")
+        lines.append(f"      {what}")
+    return "\n".join(lines)
