@@ -51,11 +51,12 @@ def test_hook_manifest_is_valid_for_pre_commit():
     # Checked by pre-commit's own manifest loader (pre_commit.clientlib).
     clientlib = pytest.importorskip("pre_commit.clientlib", reason="pre-commit is not installed")
     (hook,) = clientlib.load_manifest(str(REPO / ".pre-commit-hooks.yaml"))
-    assert hook["id"] == "lintamp-check" and hook["entry"] == "lintamp check"
+    assert hook["id"] == "lintamp-check" and hook["entry"] == "lintamp check --dependents"
     assert hook["language"] == "python" and hook["require_serial"] and hook["pass_filenames"]
     import re
     files = re.compile(hook["files"])
-    assert all(files.search(f"a/b.{ext}") for ext in ("sp", "spice", "cir", "net", "spi", "ckt", "cdl"))
+    assert all(files.search(f"a/b.{ext}") for ext in ("sp", "spice", "cir", "net", "spi", "ckt", "cdl",
+                                                      "lib", "inc", "mod"))
     assert not files.search("a/b.sp.orig") and not files.search("notes.txt")
 
 
@@ -89,6 +90,15 @@ def test_try_repo_blocks_then_waiver_passes(project):
     assert run(["git", "add", "hang.sp"], repo, env).returncode == 0
     allowed = run(["pre-commit", "try-repo", str(REPO), "lintamp-check", "--files", "hang.sp"], repo, env)
     assert allowed.returncode == 0, allowed.stdout + allowed.stderr
+
+    # only a model library is staged: the deck that includes it is checked (issue 23)
+    (repo / "models.lib").write_text(".model nch nmos vto=0.5 kp=200u\n")
+    (repo / "amp.sp").write_text("* amp\n.include models.lib\nv1 a 0 dc 1\nr1 a b 1k\n.end\n")
+    assert run(["git", "add", "models.lib", "amp.sp"], repo, env).returncode == 0
+    lib_only = run(["pre-commit", "try-repo", str(REPO), "lintamp-check", "--files", "models.lib"],
+                   repo, env)
+    assert lib_only.returncode != 0, lib_only.stdout + lib_only.stderr
+    assert "amp.sp" in lib_only.stdout and "dangling-net" in lib_only.stdout
 
 
 @needs_cli
