@@ -51,3 +51,25 @@ def rich_finding() -> Finding:
         related=(Related(Location("blocks/bias.sp", 13, 1), "gate of m1"),
                  Related(Location("blocks/bias.sp", 14, 1), "c1 to ground")),
     )
+
+
+# ---------------------------------------------------------------- the checkout stays clean
+
+# Where a run without a config file would put its cache if a test let it write into the
+# checkout (the current folder is the repository root when pytest runs from there).
+_CACHE_SPOTS = (REPO / ".lintamp_cache", REPO / "samples" / ".lintamp_cache",
+                REPO / "tests" / ".lintamp_cache", REPO / "tests" / "fixtures" / ".lintamp_cache")
+
+
+@pytest.fixture(autouse=True)
+def _checkout_stays_clean():
+    """Fail the test that leaves a results cache in the checkout (issue 23: the suite never
+    writes into the checkout; a test uses --no-cache or a temporary folder)."""
+    before = {spot for spot in _CACHE_SPOTS if spot.exists()}
+    yield
+    new = [spot for spot in _CACHE_SPOTS if spot.exists() and spot not in before]
+    if new:
+        import shutil
+        for spot in new:
+            shutil.rmtree(spot, ignore_errors=True)
+        pytest.fail("the test wrote into the checkout: " + ", ".join(str(p.relative_to(REPO)) for p in new))

@@ -30,12 +30,12 @@ def test_version():
 def test_clean_file_exits_0(tmp_path):
     f = tmp_path / "ok.sp"
     f.write_text("divider\nv1 a 0 1\nr1 a b 1k\nr2 b 0 1k\n.end\n")
-    assert main(["check", "--no-config", str(f)]) == 0
+    assert main(["check", "--no-config", "--no-cache", str(f)]) == 0
 
 
 def test_findings_exit_1_and_fail_on_never_exits_0():
-    assert main(["check", "--no-config", str(SAMPLES / "review_typos.sp")]) == 1
-    assert main(["check", "--no-config", "--fail-on", "never", str(SAMPLES / "review_typos.sp")]) == 0
+    assert main(["check", "--no-config", "--no-cache", str(SAMPLES / "review_typos.sp")]) == 1
+    assert main(["check", "--no-config", "--no-cache", "--fail-on", "never", str(SAMPLES / "review_typos.sp")]) == 0
 
 
 def test_missing_path_and_bad_option_exit_2(capsys):
@@ -47,13 +47,13 @@ def test_missing_path_and_bad_option_exit_2(capsys):
 
 
 def test_unknown_rule_in_only_exits_2(capsys):
-    assert main(["check", "--no-config", "--only", "no-such-rule", str(SAMPLES)]) == 2
+    assert main(["check", "--no-config", "--no-cache", "--only", "no-such-rule", str(SAMPLES)]) == 2
     assert "no-such-rule" in capsys.readouterr().err
 
 
 def test_json_report_shape(tmp_path):
     out = tmp_path / "r.json"
-    code = main(["check", "--no-config", "--format", "json", "-o", str(out), str(SAMPLES)])
+    code = main(["check", "--no-config", "--no-cache", "--format", "json", "-o", str(out), str(SAMPLES)])
     data = json.loads(out.read_text())
     assert code == 1
     assert data["tool"] == "lintamp" and data["schema"] == 1 and data["version"] == __version__
@@ -70,15 +70,15 @@ def test_json_report_shape(tmp_path):
 
 
 def test_text_report_lines():
-    out = run("check", "--no-config", "samples/review_typos.sp")
+    out = run("check", "--no-config", "--no-cache", "samples/review_typos.sp")
     assert out.returncode == 1
     first = out.stdout.splitlines()[0]
     assert first.startswith("samples/review_typos.sp:16:1: error pin-mismatch:")
 
 
 def test_two_runs_are_byte_identical():
-    a = run("check", "--no-config", "--format", "json", "samples")
-    b = run("check", "--no-config", "--format", "json", "samples")
+    a = run("check", "--no-config", "--no-cache", "--format", "json", "samples")
+    b = run("check", "--no-config", "--no-cache", "--format", "json", "samples")
     assert a.stdout == b.stdout and a.stdout
 
 

@@ -337,7 +337,7 @@ def test_json_findings_have_every_interface_field(tmp_path, capsys):
     fixtures = Path(__file__).resolve().parent / "fixtures" / "rules"
     paths = [str(p / "bad.sp") for p in sorted(fixtures.iterdir()) if (p / "bad.sp").is_file()]
     out = tmp_path / "r.json"
-    main(["check", "--no-config", "--format", "json", "-o", str(out), *paths])
+    main(["check", "--no-config", "--no-cache", "--format", "json", "-o", str(out), *paths])
     data = json.loads(out.read_text())
     assert data["schema"] == 1 and data["findings"]
     rules = set()

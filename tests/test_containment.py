@@ -89,7 +89,7 @@ _NO_HANG = textwrap.dedent("""
     import sys
     sys.path.insert(0, sys.argv[1])
     from lintamp.cli import main
-    sys.exit(main(["check", "--no-config", "--format", "json", *sys.argv[2:]]))
+    sys.exit(main(["check", "--no-config", "--no-cache", "--format", "json", *sys.argv[2:]]))
 """)
 
 
@@ -131,7 +131,7 @@ def test_no_network_is_touched(monkeypatch, capsys):
     monkeypatch.setattr(socket, "socket", refuse)
     monkeypatch.setattr(socket, "create_connection", refuse)
     monkeypatch.setattr(socket, "getaddrinfo", refuse)
-    assert main(["check", "--no-config", "--format", "sarif", str(SAMPLES)]) in (0, 1)
+    assert main(["check", "--no-config", "--no-cache", "--format", "sarif", str(SAMPLES)]) in (0, 1)
     assert main(["impedance", str(SAMPLES / "bias_block.sp"), "nb"]) in (0, 2)
     capsys.readouterr()
 
@@ -142,7 +142,7 @@ def test_a_long_garbage_line_is_quoted_by_excerpt_only(tmp_path):
                  f"* t\nx{garbage} a b {garbage}\n", f"* t\n.param {garbage}\n"):
         (tmp_path / "g.sp").write_text(text)
         out = tmp_path / "g.json"
-        main(["check", "--no-config", "--format", "json", "-o", str(out), str(tmp_path / "g.sp")])
+        main(["check", "--no-config", "--no-cache", "--format", "json", "-o", str(out), str(tmp_path / "g.sp")])
         findings = json.loads(out.read_text())["findings"]
         assert findings, text[:40]
         assert all(len(f["message"]) < 300 for f in findings), [len(f["message"]) for f in findings]
@@ -160,13 +160,14 @@ def snapshot(folder: Path) -> dict:
     return state
 
 
-def test_checked_files_and_their_folders_are_never_written(tmp_path):
+def test_checked_files_and_their_folders_are_never_written(tmp_path, monkeypatch):
     checked = tmp_path / "checked"
     checked.mkdir()
     for sample in SAMPLES.iterdir():
         (checked / sample.name).write_bytes(sample.read_bytes())
     elsewhere = tmp_path / "out"
     elsewhere.mkdir()
+    monkeypatch.chdir(elsewhere)  # no config file: the cache goes under the current folder
     before = snapshot(checked)
     for fmt in ("text", "json", "sarif", "github", "junit"):
         main(["check", "--format", fmt, "-o", str(elsewhere / f"r.{fmt}"),
@@ -226,7 +227,7 @@ def test_reports_are_byte_identical_whatever_the_path_order(tmp_path):
     for order in (files, files[::-1], [str(SAMPLES)]):
         for fmt in ("text", "json", "sarif", "junit"):
             out = tmp_path / f"{len(outputs)}.{fmt}"
-            main(["check", "--no-config", "--format", fmt, "-o", str(out), *order])
+            main(["check", "--no-config", "--no-cache", "--format", fmt, "-o", str(out), *order])
             outputs.append((fmt, out.read_bytes()))
     for fmt in ("text", "json", "sarif", "junit"):
         assert len({data for f, data in outputs if f == fmt}) == 1, fmt
@@ -238,6 +239,6 @@ def test_reports_are_byte_identical_whatever_the_jobs(tmp_path):
     outs = []
     for jobs in ("1", "2"):
         out = tmp_path / f"j{jobs}.json"
-        main(["check", "--no-config", "--format", "json", "--jobs", jobs, "-o", str(out), str(SAMPLES)])
+        main(["check", "--no-config", "--no-cache", "--format", "json", "--jobs", jobs, "-o", str(out), str(SAMPLES)])
         outs.append(out.read_bytes())
     assert outs[0] == outs[1]

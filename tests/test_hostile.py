@@ -39,7 +39,7 @@ _CHILD = textwrap.dedent("""
     out = io.StringIO()
     start = time.perf_counter()
     with contextlib.redirect_stdout(out):
-        code = main(["check", "--no-config", "--format", "json", *sys.argv[2:]])
+        code = main(["check", "--no-config", "--no-cache", "--format", "json", *sys.argv[2:]])
     seconds = time.perf_counter() - start
     peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     print(json.dumps({"code": code, "seconds": seconds, "peak_mb": peak_mb,
