@@ -244,10 +244,19 @@ def _python_files(folder: str) -> list[str]:
 
 def _check_one(job) -> FileResult:
     path, config, top, include_paths, options, use_cache = job
+    rule_paths = tuple(getattr(config, "rule_paths", ()) or ())
+    if rule_paths:  # a worker process started without them loads them too (once)
+        from lintamp.registry import load_rule_folder
+        for folder in rule_paths:
+            load_rule_folder(folder)
     if use_cache:
         from lintamp.cache import Cache, config_key
+        code = code_fingerprint()
+        if rule_paths:
+            from lintamp.registry import local_rules_fingerprint
+            code += local_rules_fingerprint(rule_paths)
         cache = Cache(Path(getattr(config, "root", Path.cwd())),
-                      config_key(config, [r.name for r in enabled_rules(config)]) + code_fingerprint() + repr(
+                      config_key(config, [r.name for r in enabled_rules(config)]) + code + repr(
                           (top, [str(p) for p in include_paths], sorted((options or {}).items()))))
         return _cached_check(path, config, cache, top, include_paths, options)
     return check_file(path, config, top=top, include_paths=include_paths, options=options)

@@ -62,6 +62,22 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return EXIT_OK
+    except Exception as exc:  # noqa: BLE001 -- the exit-2 handler: nothing is swallowed silently
+        return _could_not_run(exc)
+
+
+def _could_not_run(exc: Exception) -> int:
+    """Exit 2 for what escaped a command: a rule plugin that cannot be used gets one line
+    naming it; anything else is a bug, shown with its traceback and a request to report it."""
+    from lintamp.registry import RuleLoadError
+    if isinstance(exc, RuleLoadError):
+        print(f"lintamp: {exc}", file=sys.stderr)
+        return EXIT_TROUBLE
+    import traceback
+    traceback.print_exception(exc, file=sys.stderr)
+    print(f"lintamp: internal error: {type(exc).__name__}: {exc}; this is a bug in lintamp, "
+          "please report it with the command line and the netlist", file=sys.stderr)
+    return EXIT_TROUBLE
 
 
 def run() -> None:

@@ -28,6 +28,8 @@ Example::
     [thresholds]
     some-threshold-name = 10.0   # names that rules declare with register_threshold
 
+    rule-paths = ["lint/rules"]  # the repository's own rule modules (Python: they run)
+
     [ports]                      # net / element name globs for the impedance rules
     voltage-output = ["out", "vout*"]
     current-input = ["iin*"]
@@ -208,6 +210,7 @@ class Config:
     devices: tuple[DeviceMapping, ...] = ()
     thresholds: dict[str, float] = field(default_factory=dict)
     ports: dict[str, tuple[str, ...]] = field(default_factory=dict)  # kind -> name globs
+    rule_paths: tuple[Path, ...] = ()  # folders of the repository's own rule modules
 
     # ---- rules
 
@@ -286,6 +289,7 @@ class Config:
             "devices": [[d.pattern, d.kind, list(d.pins), d.value] for d in self.devices],
             "thresholds": dict(sorted(self.thresholds.items())),
             "ports": {k: list(v) for k, v in sorted(self.ports.items())},
+            "rule_paths": [str(p) for p in self.rule_paths],
             "root": str(self.root),
         }
         text = json.dumps(data, sort_keys=True, separators=(",", ":"))
@@ -470,7 +474,7 @@ def load_config(path: Path | None, *, no_config: bool = False, start: Path,
 
 
 _TOP_KEYS = ("netlists", "exclude", "only", "skip", "fail-on", "bandwidth", "include-paths",
-             "severity", "paths", "devices", "thresholds", "ports")
+             "severity", "paths", "devices", "thresholds", "ports", "rule-paths")
 # Keys of lintamp 0.1.0 and what they are called now: reading one is an error that says so.
 RENAMED_KEYS = {"include": "netlists", "select": "only", "ignore": "skip",
                 "per-file-ignores": "paths"}
@@ -494,8 +498,11 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
             expected = (f"the kebab-case spelling {hint!r}" if hint in _TOP_KEYS
                         else "one of " + ", ".join(_TOP_KEYS))
             raise ConfigError(where, prefix + key, "unknown key", expected)
-    check = _Checker(where, prefix, catalog)
     config = Config(root=root, source=source)
+    if "rule-paths" in data:  # first: the rules it loads are valid names in the keys below
+        config.rule_paths = _Checker(where, prefix, catalog).rule_paths(data["rule-paths"], "rule-paths", root)
+        catalog = {**catalog, **_load_rule_folders(config.rule_paths, where, prefix)}
+    check = _Checker(where, prefix, catalog)
     if "netlists" in data:
         config.netlists = check.globs(data["netlists"], "netlists")
     if "exclude" in data:
@@ -522,6 +529,18 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
     if "ports" in data:
         config.ports = check.ports(data["ports"], "ports")
     return config
+
+
+def _load_rule_folders(folders: tuple[Path, ...], where: str, prefix: str) -> dict[str, str]:
+    """Import the rules of ``rule-paths``; name -> category of every rule now known."""
+    from lintamp.registry import RuleLoadError, all_rules, load_rule_folder
+    try:
+        for folder in folders:
+            load_rule_folder(folder)
+    except RuleLoadError as exc:
+        raise ConfigError(where, prefix + "rule-paths", str(exc),
+                          "rule modules with NAME, CATEGORY, SEVERITY, SUMMARY and check(ctx)") from None
+    return {name: rule.category for name, rule in all_rules().items()}
 
 
 def parse_rule_list(text: str, *, option: str,
@@ -688,6 +707,18 @@ class _Checker:
             out[name] = float(number)
         return out
 
+
+    def rule_paths(self, value, key: str, root: Path) -> tuple[Path, ...]:
+        out: list[Path] = []
+        for text in self.strings(value, key):
+            folder = (root / text).resolve()
+            if folder != root and root not in folder.parents:
+                raise self.fail(key, f"{text!r} is outside the config's folder",
+                                "folders of the repository, e.g. \"lint/rules\"")
+            if not folder.is_dir():
+                raise self.fail(key, f"{text!r} is not a folder", "existing folders of rule modules")
+            out.append(folder)
+        return tuple(out)
 
     def ports(self, value, key: str) -> dict[str, tuple[str, ...]]:
         out: dict[str, tuple[str, ...]] = {}

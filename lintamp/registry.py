@@ -4,7 +4,10 @@ A rule module defines ``NAME``, ``CATEGORY``, ``SEVERITY`` (a :class:`Severity`)
 ``SUMMARY`` (one line), ``check(ctx)`` yielding findings, and a module docstring
 with the sections *What it finds*, *Why it matters*, *Example*, *Fix*.  That
 docstring is the single source of ``lintamp explain``, the docs and SARIF help.
-Third-party rules register modules under the entry-point group ``lintamp.rules``.
+Third-party rules register modules under the entry-point group ``lintamp.rules``;
+a repository's own rules live in the folders its config names (``rule-paths``).  A
+plugin or local rule that fails to import, lacks a rule's names, or takes the name of
+a built-in rule (or of another plugin) is a :class:`RuleLoadError`: one line, exit 2.
 """
 
 from __future__ import annotations
@@ -26,6 +29,11 @@ from typing import Callable, Iterable
 from lintamp.findings import Finding, Severity
 
 ENTRY_POINT_GROUP = "lintamp.rules"
+_RULE_NAMES = ("NAME", "CATEGORY", "SEVERITY", "SUMMARY")
+
+
+class RuleLoadError(Exception):
+    """A rule from a plugin or a rule folder that cannot be used; the text names it."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -229,6 +237,29 @@ def all_rules() -> dict[str, RuleInfo]:
     return _cache
 
 
+def _checked_rule(module: ModuleType, origin: str) -> RuleInfo:
+    """The rule a plugin or local module defines, or a :class:`RuleLoadError` naming it."""
+    missing = [name for name in _RULE_NAMES if not hasattr(module, name)]
+    if missing:
+        raise RuleLoadError(f"{origin} is not a rule module: it defines no {', '.join(missing)}")
+    if not callable(getattr(module, "check", None)):
+        raise RuleLoadError(f"{origin} defines no check(ctx) function")
+    if not isinstance(module.NAME, str) or not module.NAME or not isinstance(module.SEVERITY, Severity):
+        raise RuleLoadError(f"{origin}: NAME must be a non-empty string and SEVERITY a Severity")
+    return _from_module(module)
+
+
+def _refuse_clash(rule: RuleInfo, origin: str, known: dict[str, RuleInfo]) -> None:
+    from lintamp.config import BUILTIN_RULE_CATEGORIES
+    if rule.name in BUILTIN_RULE_CATEGORIES or (rule.name in known and known[rule.name].module.startswith(
+            "lintamp.rules.")):
+        raise RuleLoadError(f"{origin}: rule name {rule.name!r} is a built-in rule's; "
+                            "give the rule a name of its own")
+    if rule.name in known:
+        raise RuleLoadError(f"{origin}: rule name {rule.name!r} is taken by {known[rule.name].module}; "
+                            "give the rule a name of its own")
+
+
 def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
     if not _may_declare_plugins():
         return {}
@@ -236,11 +267,69 @@ def _plugin_rules(known: dict[str, RuleInfo]) -> dict[str, RuleInfo]:
 
     plugins: dict[str, RuleInfo] = {}
     for ep in entry_points(group=ENTRY_POINT_GROUP):
-        module = ep.load()
-        rule = _from_module(module)
-        if rule.name not in known:  # a plugin never replaces a built-in rule
-            plugins[rule.name] = rule
+        origin = f"rule plugin {ep.name} ({ep.value})"
+        try:
+            module = ep.load()
+        except Exception as exc:  # any failure of someone else's module: name it, exit 2
+            raise RuleLoadError(f"{origin} failed to import: {type(exc).__name__}: {exc}") from None
+        rule = _checked_rule(module, origin)
+        _refuse_clash(rule, origin, {**known, **plugins})
+        plugins[rule.name] = rule
     return plugins
+
+
+_local_folders: dict[Path, list[RuleInfo]] = {}
+
+
+def load_rule_folder(folder: Path) -> list[RuleInfo]:
+    """Import every ``*.py`` (not starting with ``_``) of a repository's rule folder and
+    add its rules to :func:`all_rules`; a folder is loaded once per process.
+
+    The modules are named ``lintamp_local_rules.<folder digest>.<file stem>``, so two
+    folders may hold files of one name.  Raises :class:`RuleLoadError`.
+    """
+    folder = Path(folder).resolve()
+    if folder in _local_folders:
+        return _local_folders[folder]
+    rules = all_rules()
+    digest = hashlib.sha256(str(folder).encode("utf-8")).hexdigest()[:12]
+    loaded: list[RuleInfo] = []
+    for path in sorted(folder.glob("*.py")):
+        if path.name.startswith("_"):
+            continue
+        module_name = f"lintamp_local_rules.r{digest}.{path.stem}"
+        origin = f"local rule {path}"
+        spec = importlib.util.spec_from_file_location(module_name, path)
+        if spec is None or spec.loader is None:
+            raise RuleLoadError(f"{origin} cannot be imported")
+        module = importlib.util.module_from_spec(spec)
+        sys.modules[module_name] = module
+        try:
+            spec.loader.exec_module(module)
+        except Exception as exc:  # the repository's own code: name the file, exit 2
+            del sys.modules[module_name]
+            raise RuleLoadError(f"{origin} failed to import: {type(exc).__name__}: {exc}") from None
+        rule = _checked_rule(module, origin)
+        _refuse_clash(rule, origin, rules)
+        rules[rule.name] = rule
+        loaded.append(rule)
+    global _cache
+    _cache = dict(sorted(rules.items()))
+    _local_folders[folder] = loaded
+    return loaded
+
+
+def local_rules_fingerprint(folders: Iterable[Path]) -> str:
+    """Size and modification time of every file of the rule folders (for the cache key)."""
+    digest = hashlib.sha256()
+    for folder in folders:
+        for path in sorted(Path(folder).glob("*.py")):
+            try:
+                st = path.stat()
+            except OSError:
+                continue
+            digest.update(f"{path}:{st.st_size}:{st.st_mtime_ns};".encode())
+    return digest.hexdigest()[:16]
 
 
 def import_rule_modules() -> None:

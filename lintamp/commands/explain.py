@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import argparse
+from pathlib import Path
 
-from lintamp.commands.common import EXIT_OK, UsageError, epilog
+from lintamp.commands.common import EXIT_OK, UsageError, add_config_options, epilog, load_config
 
 EXAMPLES = epilog(
     ("lintamp explain unbiased-gate", "what the rule finds, why it matters, an example, the fix"),
@@ -18,11 +19,13 @@ def register(sub) -> None:
                                    "carries as the rule's help.",
                        epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("rule", metavar="RULE", help="a rule name, as `lintamp rules` lists them")
+    add_config_options(p)  # the config's rule-paths add the repository's own rules
     p.set_defaults(run=run)
 
 
 def run(args) -> int:
     from lintamp.registry import all_rules
+    load_config(args, Path.cwd())
     rules = all_rules()
     rule = rules.get(args.rule)
     if rule is None:
