@@ -54,7 +54,7 @@ from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_num
 from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 from lintamp.rules._islands import MAX_LISTED, listing
 
 NAME = "device-region"

@@ -23,7 +23,7 @@ from collections import Counter
 
 from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Related, Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "duplicate-name"
 CATEGORY = "references"

@@ -23,7 +23,7 @@ Fix
 """
 
 from lintamp.findings import Related, Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "pin-mismatch"
 CATEGORY = "references"

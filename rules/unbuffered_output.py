@@ -56,7 +56,7 @@ from lintamp.rulekit.ports import port_finder
 from lintamp.connectivity.signal_band import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 
 NAME = "unbuffered-output"
 CATEGORY = "impedance"

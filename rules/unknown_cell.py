@@ -27,7 +27,7 @@ import difflib
 from lintamp.circuit.design import scopes
 from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "unknown-cell"
 CATEGORY = "references"

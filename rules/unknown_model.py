@@ -27,7 +27,7 @@ import difflib
 
 from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 from lintamp.netlist.statements import is_digital_primitive
 
 NAME = "unknown-model"

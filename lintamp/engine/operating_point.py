@@ -46,7 +46,7 @@ from lintamp.engine.devices_mos import (
 from lintamp.engine.linear import assemble, factor, to_dense
 from lintamp.engine.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 
 class OperatingPointError(RuntimeError):

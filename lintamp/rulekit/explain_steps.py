@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 
 from lintamp.engine.looking_into import NodeExplanation
-from lintamp.report.si import si, si_for_key
+from lintamp.text import si, si_for_key
 
 MAX_BRANCHES = 4
 

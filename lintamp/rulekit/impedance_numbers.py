@@ -24,7 +24,7 @@ if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are
     from lintamp.engine.operating_point import OperatingPoint
     from lintamp.engine.small_signal import ImpedanceSolver
 from lintamp.findings import Severity
-from lintamp.report.si import si
+from lintamp.text import si
 
 # what the engine may raise on odd but legal decks; a rule then skips that node, never the file
 ENGINE_ERRORS = (SmallSignalError, ArithmeticError, ValueError, IndexError, KeyError, RuntimeError)
