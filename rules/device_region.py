@@ -50,7 +50,8 @@ Fix
     bias net that should turn the device on.
 """
 
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity

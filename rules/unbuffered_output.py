@@ -51,7 +51,8 @@ import math
 
 from lintamp.rulekit.explain_steps import freq_words, looking_into_steps
 from lintamp.engine.flat_places import prefix_of
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.connectivity.signal_band import signal_band
 from lintamp.config import register_threshold

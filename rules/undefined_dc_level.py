@@ -53,7 +53,8 @@ import math
 from lintamp.engine.dc_feedback import current_defined_nodes, feedback_path, influence_graph
 from lintamp.rulekit.explain_steps import looking_into_steps
 from lintamp.engine.flat_places import local_name
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity

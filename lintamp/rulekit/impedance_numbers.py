@@ -5,7 +5,7 @@ level-1 solve), and small-signal solvers per (frequency, detached elements).
 Numbers are only handed out when they can be trusted: every nonlinear device
 has a model lintamp evaluates (or a table row), no geometry stayed symbolic,
 and the DC solve converged.  Otherwise the rules get a :class:`NoNumbers` with
-the reason, and one ``info`` finding per file says so.
+the reason (``rules/_numbers.py`` turns it into one ``info`` finding per file).
 """
 
 from __future__ import annotations
@@ -23,7 +23,6 @@ from lintamp.circuit.flat import FlatCircuit
 if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are computed
     from lintamp.engine.operating_point import OperatingPoint
     from lintamp.engine.small_signal import ImpedanceSolver
-from lintamp.findings import Severity
 from lintamp.text import si
 
 # what the engine may raise on odd but legal decks; a rule then skips that node, never the file
@@ -155,37 +154,6 @@ def _numbers_for(ctx, circuit):
 def impedance_numbers(ctx) -> Numbers | NoNumbers | None:
     """The shared numbers, or why there are none (None: no deck to simulate)."""
     return ctx.memo("impedance-numbers", lambda: _compute(ctx))
-
-
-def no_numbers_findings(ctx, numbers) -> list:
-    """At most one info finding per file saying the impedance rules had no numbers."""
-    if not isinstance(numbers, NoNumbers) or numbers.reported_elsewhere:
-        return []
-    broken = [d for d in (*ctx.netlist.diagnostics, *ctx.design.diagnostics) if d.severity == "error"]
-    if broken:
-        return []  # the deck does not simulate as written; its errors say why
-    if "singular matrix" in numbers.reason:
-        return []  # a floating node or a source loop: the connectivity rules report it
-    box = ctx.memo("impedance-numbers-reported", lambda: [False])
-    if box[0]:
-        return []
-    box[0] = True
-    top = ctx.design.top
-    location = top.devices[0].location if top.devices else top.cell.location
-    return [ctx.finding(
-        location=location, subject="(operating point)", severity=Severity.INFO,
-        message="impedance rules skipped: no trusted numbers ("
-                + (numbers.reason if len(numbers.reason) <= 100 else numbers.reason[:100] + "...") + ")",
-        explanation=[
-            f"why: {numbers.reason if len(numbers.reason) <= 400 else numbers.reason[:400] + '...'}",
-            "high-z-current-input, unbuffered-output, undefined-dc-level and device-region need "
-            "an operating point and small-signal values",
-            "lintamp solves level-1 MOS, Gummel-Poon BJT and diode models itself; other models, "
-            "PDK devices without their model cards and symbolic sizes give no numbers it trusts",
-        ],
-        fix="give the operating point from your simulator with --op FILE (CSV/JSON of gm, gds, gmb, "
-            "ids, region per device), or include the model library",
-        values={"reason": numbers.reason})]
 
 
 def fmt_ohm(z) -> str:
