@@ -22,6 +22,7 @@ Fix
     Connect exactly one net per port, in the order of the ``.subckt`` line.
 """
 
+from lintamp.circuit.kinds import MOS
 from lintamp.findings import Related, Severity
 from lintamp.text import excerpt
 
@@ -48,7 +49,7 @@ def check(ctx):
                 continue
             given = len(dev.nets)
             # a mapped BJT may omit its substrate pin, a resistor or capacitor its body
-            optional_last = (dev.spec is not None and dev.spec.kind not in ("nmos", "pmos")
+            optional_last = (dev.spec is not None and dev.spec.kind not in MOS
                              and ports and ports[-1] in ("b", "s"))
             if len(ports) - optional <= given <= len(ports) or (optional_last and given == len(ports) - 1):
                 continue

@@ -15,7 +15,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from lintamp.engine.engine_kinds import NONLINEAR, SmallSignalError
+from lintamp.circuit.kinds import MOS, NONLINEAR, TRANSISTORS
+from lintamp.engine.engine_kinds import EngineError, is_open
 from lintamp.engine.flat_places import locate_device
 from lintamp.engine.looking_into import NodeExplanation, ac_ground_nets, explain_node
 from lintamp.circuit.flat import FlatCircuit
@@ -25,8 +26,9 @@ if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are
     from lintamp.engine.small_signal import ImpedanceSolver
 from lintamp.text import si
 
-# what the engine may raise on odd but legal decks; a rule then skips that node, never the file
-ENGINE_ERRORS = (SmallSignalError, ArithmeticError, ValueError, IndexError, KeyError, RuntimeError)
+# what the engine raises on odd but legal decks (a rule then skips that node, never the
+# file); anything else is a bug and reaches the internal-error exit
+ENGINE_ERRORS = (EngineError, ArithmeticError)
 MAX_ELEMENTS = 20_000  # past this the built-in solve is not the right tool; a table is
 GEOMETRY = ("w", "l")
 
@@ -80,7 +82,7 @@ def _untrusted_devices(ctx, circuit: FlatCircuit) -> list[str]:
             why = dev.kind_detail if "PDK" in dev.kind_detail else "model not found"
             out.append(f"{dev.name} ({why})")
             continue
-        if dev.kind in ("nmos", "pmos"):
+        if dev.kind in MOS:
             _view, design_dev = locate_device(ctx.design, dev.name)
             if design_dev is not None:
                 written = [k for k in GEOMETRY if k in design_dev.element.params]
@@ -115,7 +117,7 @@ def _compute(ctx) -> Numbers | NoNumbers | None:
         return NoNumbers(f"the deck could not be flattened ({type(exc).__name__}: {exc})")
     if not circuit.devices:
         return None
-    if not any(d.kind in ("nmos", "pmos", "npn", "pnp") or "PDK" in d.kind_detail for d in circuit.devices):
+    if not any(d.kind in TRANSISTORS or "PDK" in d.kind_detail for d in circuit.devices):
         quiet = True  # no stages to judge: say nothing when numbers are missing
     else:
         quiet = False
@@ -154,11 +156,6 @@ def _numbers_for(ctx, circuit):
 def impedance_numbers(ctx) -> Numbers | NoNumbers | None:
     """The shared numbers, or why there are none (None: no deck to simulate)."""
     return ctx.memo("impedance-numbers", lambda: _compute(ctx))
-
-
-def fmt_ohm(z) -> str:
-    m = abs(z) if z is not None else math.inf
-    return "open" if not math.isfinite(m) or m >= 1e11 else si(m, "Ω")
 
 
 def device_capacitance_at(numbers: Numbers, net: int) -> tuple[float, list[str]]:
