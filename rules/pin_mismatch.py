@@ -34,7 +34,7 @@ SUMMARY = "an instance whose node count differs from its subcircuit's ports"
 
 def check(ctx):
     for view in ctx.cells():
-        for dev in view.devices_where(lambda key: key[2] == "x"):  # instances and mapped devices
+        for dev in view.devices_of(letters="x"):  # instances and mapped devices
             optional = 0
             if dev.kind == "instance" and dev.subcell is not None:
                 ports = dev.subcell.ports

@@ -88,11 +88,10 @@ def instance_prefixes(design: Design) -> list[tuple[str, CellView]]:
         prefix, view, depth = stack.pop()
         if depth > 100:
             continue
-        for dev in view.devices:
-            if dev.kind == "instance" and dev.subcell is not None:
-                child = prefix + dev.name + "/"
-                out.append((child, dev.subcell))
-                stack.append((child, dev.subcell, depth + 1))
+        for dev in view.instances():
+            child = prefix + dev.name + "/"
+            out.append((child, dev.subcell))
+            stack.append((child, dev.subcell, depth + 1))
     return out
 
 
