@@ -1,18 +1,21 @@
 """Shared building of island findings for no-dc-path, unbiased-gate and current-cutset.
 
 Each DC island (a component with no path to ground, a defined global or a port) is
-reported exactly once, by the rule :func:`lintamp.connectivity.dc_paths.island_rule`
-picks for it; bases and JFET gates that only their own junctions reach are added
+reported exactly once, by the rule its kind (:func:`lintamp.connectivity.dc_paths.island_kind`)
+names in :data:`RULE_OF_KIND`; bases and JFET gates that only their own junctions reach are added
 to unbiased-gate from the BIAS-mode analysis.
 """
 
 from __future__ import annotations
 
-from lintamp.connectivity.dc_paths import (BIAS, FULL, describe_terminal, island_rule, islands,
-                                       reaches_defined_level, unread_cells)
+from lintamp.connectivity.dc_paths import (BIAS, FULL, IslandKind, describe_terminal, island_kind,
+                                           islands, reaches_defined_level, unread_cells)
 from lintamp.findings import Related
 
 MAX_LISTED = 8
+# the rule that reports each kind of island (one the feedback may set is not reported)
+RULE_OF_KIND = {IslandKind.CURRENT_FED: "current-cutset", IslandKind.UNBIASED_CONTROL: "unbiased-gate",
+                IslandKind.FLOATING: "no-dc-path"}
 
 
 def island_findings(ctx, rule: str):
@@ -22,7 +25,7 @@ def island_findings(ctx, rule: str):
         if id(view) in skip:
             continue
         for island in islands(ctx, view, FULL):
-            if island_rule(island) == rule:
+            if RULE_OF_KIND.get(island_kind(island)) == rule:
                 yield view, island, False
         if rule != "unbiased-gate":
             continue

@@ -33,6 +33,7 @@ Fix
     source where the process gives it a separate well.
 """
 
+from lintamp.circuit.kinds import MOS
 from lintamp.connectivity.rails import get_rails
 from lintamp.findings import Related, Severity
 
@@ -66,8 +67,8 @@ def _is_soi(dev) -> bool:
 
 
 def _transistors(view):
-    for dev in view.devices_where(lambda key: key[0] in ("nmos", "pmos")):
-        if (dev.kind in ("nmos", "pmos") and dev.net("b") is not None and not _is_mos_cap(dev)
+    for dev in view.devices_of(kinds=MOS):
+        if (dev.kind in MOS and dev.net("b") is not None and not _is_mos_cap(dev)
                 and not _is_soi(dev)):
             yield dev
 

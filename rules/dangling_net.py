@@ -69,9 +69,7 @@ def check(ctx):
     for view in ctx.cells():
         if id(view) in skip or interface_view(ctx.design, view):
             continue
-        devices = view.devices
-        roleless = {net for dev in map(devices.__getitem__, view.terminal_table.extra_devices)
-                    for net in dev.nets[len(dev.pins):]}
+        roleless = view.roleless_nets()
         # a top-level net that .print/.plot/.save or a .control script looks at is observed
         observed = ctx.netlist.observed if view.cell.is_top else set()
         for net in view.net_terminals.with_degree(1):

@@ -58,14 +58,15 @@ Fix
 import math
 
 from lintamp.rulekit.explain_steps import freq_words, looking_into_steps
+from lintamp.engine.engine_kinds import OPEN_OHM
 from lintamp.engine.flat_places import prefix_of
-from lintamp.rulekit.impedance_numbers import (Numbers, device_capacitance_at, impedance_numbers,
-                                                no_numbers_findings, safely)
+from lintamp.rulekit.impedance_numbers import Numbers, device_capacitance_at, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.connectivity.signal_band import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 
 NAME = "high-z-current-input"
 CATEGORY = "impedance"
@@ -78,8 +79,6 @@ POLE_MARGIN = register_threshold(
 MAX_OHM = register_threshold(
     "current-input-max-ohm", 10e3, "ohm",
     "highest |Z_in| of a current input when the node capacitance or the band is unknown")
-OPEN_OHM = 1e11
-
 
 
 def check(ctx):

@@ -66,10 +66,8 @@ def shorted_pins(dev) -> tuple[str, str] | None:
 
 def check(ctx):
     for view in ctx.cells():
-        devices = view.devices
-        # only a device with one net on two terminals can be shorted: the terminal
-        # table finds those with array operations
-        for dev in [devices[d] for d in view.terminal_table.repeated_net_devices()]:
+        # only a device with one net on two terminals can be shorted
+        for dev in view.devices_with_repeated_nets():
             pins = shorted_pins(dev)
             if pins is None:
                 continue

@@ -51,12 +51,14 @@ import math
 
 from lintamp.rulekit.explain_steps import freq_words, looking_into_steps
 from lintamp.engine.flat_places import prefix_of
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.connectivity.signal_band import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.engine.engine_kinds import OPEN_OHM
+from lintamp.text import si
 
 NAME = "unbuffered-output"
 CATEGORY = "impedance"
@@ -115,7 +117,7 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
         return None  # a passive network is not a driver whose output could be buffered
     z_out = numbers.z(port.name, freq_hz, port.detach)
     r_out = abs(z_out)
-    if r_out >= 1e11:
+    if r_out >= OPEN_OHM:
         return None  # nothing drives the node at all (the connectivity rules say so)
     values = {"z_ohm": r_out, "freq_hz": freq_hz}
     problems = []

@@ -50,14 +50,16 @@ Fix
 
 import math
 
+from lintamp.circuit.kinds import BJT, MOS, TRANSISTORS
 from lintamp.engine.dc_feedback import current_defined_nodes, feedback_path, influence_graph
 from lintamp.rulekit.explain_steps import looking_into_steps
 from lintamp.engine.flat_places import local_name
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 
 NAME = "undefined-dc-level"
 CATEGORY = "impedance"
@@ -102,7 +104,7 @@ def _headroom(numbers, dev, vce_min):
     if dop is None:
         return None
     v = dop.values
-    if dev.kind in ("nmos", "pmos"):
+    if dev.kind in MOS:
         if "vds_v" not in v or "vdsat_v" not in v:
             return None
         vds = abs(v["vds_v"])
@@ -123,7 +125,7 @@ def _current(numbers, dev):
 
 
 def _judge(ctx, numbers, finder, node, mismatch, vce_min):
-    transistors = [d for d in node.devices if d.kind in ("nmos", "pmos", "npn", "pnp")]
+    transistors = [d for d in node.devices if d.kind in TRANSISTORS]
     rooms = {}
     for dev in transistors:
         room = _headroom(numbers, dev, vce_min)
@@ -200,8 +202,8 @@ def _vds_words(name, room):
 
 
 def _terminal_words(dev):
-    if dev.kind in ("nmos", "pmos"):
+    if dev.kind in MOS:
         return f"drain of {local_name(dev.name)} ({dev.kind.upper()}, gate on another net)"
-    if dev.kind in ("npn", "pnp"):
+    if dev.kind in BJT:
         return f"collector of {local_name(dev.name)} ({dev.kind.upper()})"
     return f"{dev.kind} {local_name(dev.name)}"

@@ -29,7 +29,7 @@ import difflib
 from lintamp.circuit.design import visible_params
 from lintamp.circuit.values import BadExpression, undefined_names
 from lintamp.findings import Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "undefined-param"
 CATEGORY = "syntax"

@@ -27,7 +27,7 @@ import difflib
 from lintamp.circuit.design import scopes
 from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "unknown-cell"
 CATEGORY = "references"
@@ -40,7 +40,7 @@ def check(ctx):
     incomplete = ctx.options.get("includes_missing", False)
     for view in ctx.cells():
         library = not ctx.design.in_deck(view)
-        for dev in view.devices_where(lambda key: key[0] == "instance"):
+        for dev in view.devices_of(kinds=("instance",)):
             if dev.kind != "instance" or dev.subcell is not None or not dev.element.model:
                 continue
             names = [c for scope in scopes(view.cell) for c in scope.cells]

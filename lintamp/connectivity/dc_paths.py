@@ -40,6 +40,7 @@ their nets *unknown*, and a component holding an unknown net is never reported.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from enum import Enum
 from itertools import compress
 from operator import attrgetter
 from typing import TYPE_CHECKING
@@ -888,20 +889,29 @@ def reaches_defined_level(ctx, view: CellView, net: str, mode: str = FULL) -> bo
     return bool(anchored(ddc, ctx.design, dc)[dc.labels[dc.index[net]]])
 
 
-# -- helpers the connectivity rules share ---------------------------------------------------
-def island_rule(island: Island) -> str | None:
-    """Which rule reports an island: a current feed makes it a cut set, a gate or base an
-    unbiased gate, anything else a plain missing DC path.  None when a controlled
+# -- what kind of island it is ------------------------------------------------------------
+class IslandKind(Enum):
+    """What leaves an island without a DC level: the fact a rule picks its islands by."""
+
+    CURRENT_FED = "current-fed"          # current feeds from outside set its current, not its level
+    UNBIASED_CONTROL = "unbiased-control"  # a gate or base on it has no DC bias
+    FLOATING = "floating"                # nothing on it sets a level
+    FEEDBACK_MAY_SET = "feedback-may-set"  # a controlled feed a control input observes
+
+
+def island_kind(island: Island) -> IslandKind:
+    """The kind of an island: a current feed makes it current-fed, a gate or base an
+    unbiased control, anything else floating.  ``FEEDBACK_MAY_SET`` when a controlled
     current source feeds an island that a control input observes: feedback through
     the controlled sources may set its level (an OTA macromodel's G output into a
     capacitor, closed by feedback), which connectivity alone cannot judge."""
     if island.controlled_feeds and island.sensed:
-        return None
+        return IslandKind.FEEDBACK_MAY_SET
     if island.current_feeds:
-        return "current-cutset"
+        return IslandKind.CURRENT_FED
     if island.controls:
-        return "unbiased-gate"
-    return "no-dc-path"
+        return IslandKind.UNBIASED_CONTROL
+    return IslandKind.FLOATING
 
 
 _OPEN_WHY = {

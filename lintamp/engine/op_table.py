@@ -32,15 +32,17 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lintamp.circuit.kinds import BJT, MOS, NONLINEAR, TRANSISTORS
 from lintamp.engine.looking_into import ac_ground_nets
 from lintamp.engine.operating_point import DeviceOperatingPoint, OperatingPoint
 from lintamp.circuit.flat import FlatCircuit
+from lintamp.engine.engine_kinds import EngineError, UnknownNet
 
 NUMERIC = ("gm", "gds", "gmb", "ids", "gpi", "go", "gmu", "ic", "gd", "id",
            "cgs", "cgd", "cgb", "cbd", "cbs", "cbe", "cbc")
 
 
-class OpTableError(ValueError):
+class OpTableError(EngineError, ValueError):
     """A table that cannot be read (message says where)."""
 
 
@@ -145,16 +147,16 @@ def operating_point_from_table(circuit: FlatCircuit, table: dict[str, TableEntry
     devices = dict(base.devices) if base is not None else {}
     missing = []
     for dev in circuit.devices:
-        if dev.kind not in ("nmos", "pmos", "npn", "pnp", "diode"):
+        if dev.kind not in NONLINEAR:
             continue
         entry = table.get(dev.name)
         if entry is None:
             if dev.name not in devices:
                 missing.append(dev.name)
             continue
-        if dev.kind in ("nmos", "pmos"):
+        if dev.kind in MOS:
             devices[dev.name] = _mos_entry(entry, dev)
-        elif dev.kind in ("npn", "pnp"):
+        elif dev.kind in BJT:
             devices[dev.name] = _bjt_entry(entry, dev)
         else:
             devices[dev.name] = _diode_entry(entry, dev)
@@ -188,7 +190,7 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
     """
     net = circuit.find_net(node)
     if net is None:
-        raise ValueError(f"no net named {node!r}")
+        raise UnknownNet(f"no net named {node!r}")
     acg = ac_ground_nets(circuit)
     if net in acg:
         return "ac-ground", [f"{node} is ground or tied to it by a voltage source"]
@@ -198,7 +200,7 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
             continue
         at = {i for i, n in enumerate(d.nodes) if n == net}
         k = d.kind
-        if k in ("nmos", "pmos", "npn", "pnp"):
+        if k in TRANSISTORS:
             out, ctl, com = 0, 1, 2
             if {out, ctl} <= at:
                 found.append(("low", f"diode-connected {d.name}: ~1/gm"))
@@ -206,7 +208,7 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
                 found.append(("low", f"{'source' if k in ('nmos', 'pmos') else 'emitter'} of {d.name}: ~1/gm"))
             elif out in at:
                 found.append(("high", f"{'drain' if k in ('nmos', 'pmos') else 'collector'} of {d.name}: ~r_o or more"))
-            elif ctl in at and k in ("npn", "pnp"):
+            elif ctl in at and k in BJT:
                 found.append(("high", f"base of {d.name}: ~r_pi + (beta+1) R_E"))
             else:
                 found.append(("open", f"gate of {d.name}: open"))

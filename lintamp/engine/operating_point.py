@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lintamp.circuit.kinds import BJT, MOS, NONLINEAR
 from lintamp.engine.devices_bjt import (
     BjtGroup,
     bjt_capacitances,
@@ -43,13 +44,14 @@ from lintamp.engine.devices_mos import (
     mos_limit,
     mos_params,
 )
+from lintamp.engine.engine_kinds import EngineError
 from lintamp.engine.linear import assemble, factor, to_dense
 from lintamp.engine.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 
-class OperatingPointError(RuntimeError):
+class OperatingPointError(EngineError, RuntimeError):
     """No DC operating point: singular system or no convergence (message says where)."""
 
 
@@ -116,15 +118,15 @@ class _DeviceSet:
         fam: dict[str, list] = {"mos": [], "bjt": [], "diode": []}
         for dev, keys in cc.nonlinear:
             try:
-                if dev.kind in ("nmos", "pmos"):
+                if dev.kind in MOS:
                     fam["mos"].append((mos_params(dev, temp_c), dev, keys))
-                elif dev.kind in ("npn", "pnp"):
+                elif dev.kind in BJT:
                     fam["bjt"].append((bjt_params(dev, temp_c), dev, keys))
                 else:
                     fam["diode"].append((diode_params(dev, temp_c), dev, keys))
             except UnsupportedModel as exc:
                 unsupported.append((dev.name, str(exc)))
-            if dev.model is None and dev.kind in ("nmos", "pmos", "npn", "pnp", "diode"):
+            if dev.model is None and dev.kind in NONLINEAR:
                 pass  # SPICE defaults apply, as in ngspice
         if unsupported:
             raise CannotEvaluateError(unsupported)
@@ -396,7 +398,7 @@ def _series_resistances(circuit: FlatCircuit) -> dict[str, dict[str, float]]:
     out: dict[str, dict[str, float]] = {}
     for dev in circuit.devices:
         try:
-            if dev.kind in ("npn", "pnp"):
+            if dev.kind in BJT:
                 q = bjt_params(dev, circuit.temperature_c)
                 rs = {"c": q.rc_ohm, "b": q.rb_ohm, "e": q.re_ohm}
             elif dev.kind == "diode":

@@ -22,6 +22,7 @@ from typing import BinaryIO, Callable, Iterable, Iterator, Protocol
 
 from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic
+from lintamp.text import EXCERPT_CHARS, excerpt  # noqa: F401 - the parser imports them from here
 
 MAX_INCLUDE_DEPTH = 40
 MAX_FILE_BYTES = 256 * 1024 * 1024
@@ -29,7 +30,6 @@ MAX_CARD_CHARS = 4 * 1024 * 1024  # a logical card longer than this is refused, 
 # A physical line longer than this is skipped unread: it is never held in memory whole,
 # so a 100 MB one-line file costs one read buffer, not 100 MB (real lines are < 10 KB).
 MAX_LINE_BYTES = 1024 * 1024
-EXCERPT_CHARS = 60
 _READ_CHUNK_BYTES = 256 * 1024
 _HEAD_BYTES = 8192
 # Byte-order marks of encodings simulators do not read (UTF-8's own BOM is skipped).
@@ -37,12 +37,6 @@ _FOREIGN_BOMS = ((b"\x00\x00\xfe\xff", "UTF-32"), (b"\xff\xfe\x00\x00", "UTF-32"
                  (b"\xfe\xff", "UTF-16"), (b"\xff\xfe", "UTF-16"))
 
 _PLACEHOLDER = re.compile(r"\$\{|\$[A-Za-z_]|@@|@[A-Za-z_]|\{[A-Za-z_]\w*\}")
-
-
-def excerpt(text: str, limit: int = EXCERPT_CHARS) -> str:
-    """A short, printable piece of untrusted text for messages."""
-    text = "".join(ch if ch.isprintable() else "?" for ch in text[: limit + 1])
-    return text if len(text) <= limit else text[:limit] + "..."
 
 
 @dataclass(slots=True)

@@ -26,6 +26,7 @@ from __future__ import annotations
 import fnmatch
 from dataclasses import dataclass, field
 
+from lintamp.circuit.kinds import MOS, TRANSISTORS
 from lintamp.engine.flat_places import local_name, net_aliases, prefix_of, view_of_path
 from lintamp.engine.stages import recognise_stages
 from lintamp.circuit.design import CellView, Design
@@ -87,11 +88,10 @@ def instance_prefixes(design: Design) -> list[tuple[str, CellView]]:
         prefix, view, depth = stack.pop()
         if depth > 100:
             continue
-        for dev in view.devices:
-            if dev.kind == "instance" and dev.subcell is not None:
-                child = prefix + dev.name + "/"
-                out.append((child, dev.subcell))
-                stack.append((child, dev.subcell, depth + 1))
+        for dev in view.instances():
+            child = prefix + dev.name + "/"
+            out.append((child, dev.subcell))
+            stack.append((child, dev.subcell, depth + 1))
     return out
 
 
@@ -233,7 +233,7 @@ class PortFinder:
         for dev in self.on_net.get(net, []):
             if dev.kind in ("isource", "vccs", "cccs") and net in dev.nodes[:2]:
                 out.append(dev.name)
-            elif prefix and not dev.name.startswith(prefix) and dev.kind in ("nmos", "pmos", "npn", "pnp") \
+            elif prefix and not dev.name.startswith(prefix) and dev.kind in TRANSISTORS \
                     and dev.nodes[0] == net:
                 out.append(dev.name)
         return out
@@ -241,7 +241,7 @@ class PortFinder:
     def current_interfaces(self) -> list[PortNet]:
         out = []
         for dev in self.circuit.devices:
-            if dev.kind not in ("nmos", "pmos", "npn", "pnp"):
+            if dev.kind not in TRANSISTORS:
                 continue
             role = self.roles.get(dev.name)
             if role is None or role.role not in DRIVER_ROLES:
@@ -250,13 +250,13 @@ class PortFinder:
             if net in self.ac_ground:
                 continue
             for other in self.on_net.get(net, []):
-                if other is dev or other.kind not in ("nmos", "pmos", "npn", "pnp"):
+                if other is dev or other.kind not in TRANSISTORS:
                     continue
                 orole = self.roles.get(other.name)
                 into_source = other.nodes[2] == net and orole is not None and orole.role in RECEIVER_ROLES
                 into_diode = other.nodes[0] == net and other.nodes[1] == net
                 if into_source or into_diode:
-                    what = "source" if other.kind in ("nmos", "pmos") else "emitter"
+                    what = "source" if other.kind in MOS else "emitter"
                     where = f"{what} of {other.name}" if into_source else f"diode-connected {other.name}"
                     out.append(PortNet(net, self.circuit.nets[net],
                                        f"{role.role} {dev.name} drives a current into the {where}",
@@ -304,11 +304,11 @@ class PortFinder:
         """Only mirror outputs, fixed-bias current sources or cascodes drive the net:
         a current output by design (a bias-current port), not a voltage output."""
         drivers = [d for d in self.on_net.get(net, [])
-                   if d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[0] == net and d.nodes[1] != net]
+                   if d.kind in TRANSISTORS and d.nodes[0] == net and d.nodes[1] != net]
         if not drivers:
             return False
         others = [d for d in self.on_net.get(net, []) if d not in drivers and d.kind not in PASSIVE
-                  and not (d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[1] == net
+                  and not (d.kind in TRANSISTORS and d.nodes[1] == net
                            and d.nodes[0] != net)]
         roles = [self.roles.get(d.name) for d in drivers]
         return not others and all(r is not None and r.role in CURRENT_OUTPUT_ROLES for r in roles)
@@ -325,7 +325,7 @@ class PortFinder:
                 for dev in self.on_net.get(net, []):
                     if dev.name in skip:
                         continue
-                    if dev.kind in ("nmos", "pmos", "npn", "pnp") and (
+                    if dev.kind in TRANSISTORS and (
                             any_terminal or net in (dev.nodes[0], dev.nodes[2])):
                         return True
                     if dev.kind in ("vcvs", "vccs", "cccs", "ccvs") and (any_terminal or net in dev.nodes[:2]):
