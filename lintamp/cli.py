@@ -9,6 +9,7 @@ command it runs needs.
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
@@ -172,6 +173,11 @@ def cmd_check(args) -> int:
             raise UsageError(f"{p}: no such file or folder")
     if args.jobs < 1:
         raise UsageError("--jobs must be at least 1")
+    args.jobs = min(args.jobs, os.cpu_count() or 1)  # more processes than cores only thrash
+    if args.bandwidth:  # refused here as audit refuses it, not ignored
+        from lintamp.connectivity.signal_band import parse_frequency_text
+        if parse_frequency_text(args.bandwidth) is None:
+            raise UsageError(f"--bandwidth {args.bandwidth}: not a frequency (write e.g. 20meg, 1.5g or 2e7)")
     config = _load_config(args)
     baseline = None
     if args.baseline:
@@ -188,7 +194,11 @@ def cmd_check(args) -> int:
                                  use_cache=not args.no_cache)
     if args.write_baseline:
         from lintamp.baseline import write_baseline
-        write_baseline(Path(args.write_baseline), report)
+        from lintamp.config import ConfigError
+        try:  # never through a link, never over a netlist checked (lintamp.safe_paths)
+            write_baseline(Path(args.write_baseline), report, protect=report.files)
+        except ConfigError as exc:
+            raise UsageError(f"--write-baseline: {exc}") from None
     _write_report(args, report)
     for error in errors:
         print(f"lintamp: internal error: {error}", file=sys.stderr)
@@ -208,11 +218,16 @@ def _write_report(args, report) -> None:
 
     reporter_cls = get_reporter(args.format)
     if args.output:
-        out = Path(args.output)
-        with open(out, "w", encoding="utf-8", newline="\n") as stream:
-            reporter = reporter_cls(stream, color=False, rules=all_rules(),
-                                    tool_version=__version__, statistics=args.statistics)
-            emit(reporter, report)
+        import io
+        from lintamp.safe_paths import write_atomic
+        stream = io.StringIO(newline="\n")
+        reporter = reporter_cls(stream, color=False, rules=all_rules(),
+                                tool_version=__version__, statistics=args.statistics)
+        emit(reporter, report)
+        try:  # never through a link, never over a netlist checked
+            write_atomic(Path(args.output), stream.getvalue().encode("utf-8"), protect=report.files)
+        except OSError as exc:
+            raise UsageError(f"-o {args.output}: cannot write it ({exc.strerror or exc})") from None
         return
     color = want_color(args.color, sys.stdout) if args.format == "text" else False
     reporter = reporter_cls(sys.stdout, color=color, rules=all_rules(), tool_version=__version__,

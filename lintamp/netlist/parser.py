@@ -19,7 +19,8 @@ from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, run_pattern,
-                                    open_regular, probed_nets, read, read_text)
+                                    open_regular, probed_nets, read, read_text,
+                                    sandbox_roots)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
                                         Model, Netlist, Origin, ParamDef, PlainRun, Pragma, Source,
                                         new_plain_element)
@@ -1100,7 +1101,7 @@ def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
     # The reader streams the file; only its first line is needed here.  A file that
     # cannot be read is reported by the reader.
     try:
-        with open_regular(path) as handle:
+        with open_regular(path, sandbox_roots(opts)) as handle:  # no peek through a link out
             head = handle.read(4096).removeprefix(b"\xef\xbb\xbf")
     except OSError:
         head = b""
