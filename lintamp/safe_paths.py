@@ -153,6 +153,19 @@ def read_regular(path: str | Path, *, limit: int, roots: Iterable[Path] = ()) ->
     return data
 
 
+MAX_TABLE_BYTES = 64 * 1024 * 1024  # an operating-point table bigger than this is not one
+
+
+def read_text(path: str | Path, *, limit: int = MAX_TABLE_BYTES, roots: Iterable[Path] = ()) -> str:
+    """:func:`read_regular`, decoded as UTF-8 when valid, else latin-1 (for ``--op``
+    tables: a pipe or a device such as /dev/zero is refused without blocking)."""
+    data = read_regular(path, limit=limit, roots=roots)
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        return data.decode("latin-1")
+
+
 def _same_file(a: os.stat_result, b: os.stat_result) -> bool:
     return (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino)
 

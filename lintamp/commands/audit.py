@@ -9,9 +9,7 @@ Nothing is ever written beside the netlist.
 from __future__ import annotations
 
 import json
-import os
 import sys
-import tempfile
 from pathlib import Path
 
 
@@ -34,23 +32,15 @@ def _config(args):
     return config
 
 
-def write_atomically(path: Path, payload: bytes) -> None:
-    """Write ``payload`` to ``path`` through a temporary file in the same folder."""
-    folder = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+def write_atomically(path: Path, payload: bytes, protect=()) -> None:
+    """Write ``payload`` to ``path`` through a temporary file in the same folder; never
+    through a symbolic link nor over a file in ``protect`` (lintamp.safe_paths)."""
+    from lintamp.cli import UsageError
+    from lintamp.safe_paths import write_atomic
     try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(payload)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; a sheet is for sharing
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+        write_atomic(path, payload, protect=protect, durable=False)
+    except OSError as exc:
+        raise UsageError(f"-o {path}: cannot write it ({exc.strerror or exc})") from None
 
 
 def cmd_audit(args) -> int:
@@ -67,10 +57,11 @@ def cmd_audit(args) -> int:
     table = None
     if args.op:
         from lintamp.engine.op_table import load_op_table
+        from lintamp.safe_paths import read_text
         try:
-            table = load_op_table(Path(args.op).read_text(encoding="utf-8"))
+            table = load_op_table(read_text(args.op))  # no pipe, no device
         except (OSError, ValueError) as exc:
-            raise UsageError(f"--op {args.op}: {exc}") from None
+            raise UsageError(f"--op {args.op}: {getattr(exc, 'strerror', None) or exc}") from None
     want_plots = args.format in ("markdown", "html") and (args.format == "html" or output is not None)
     try:
         sheet = build_sheet(path, top=args.top, bandwidth=args.bandwidth, table=table,
@@ -96,11 +87,14 @@ def cmd_audit(args) -> int:
         text = json.dumps(sheet.data, indent=2, allow_nan=False, default=str) + "\n"
     elif args.format == "text":
         from lintamp.audit.render_text import render_text
-        text = render_text(sheet.data)
+        from lintamp.report.base import printable
+        # names are the netlist's: no ESC or OSC-8 sequence reaches the terminal or the log
+        text = "\n".join(printable(line) for line in render_text(sheet.data).split("\n"))
     elif args.format == "markdown":
         from lintamp.audit.render_markdown import render_markdown
+        from lintamp.audit.plots import plot_file_name
         stem = output.stem if output is not None else "audit"
-        names = {key: f"{stem}-{key}.png" for key in images}
+        names = {key: plot_file_name(stem, key) for key in images}
         text = render_markdown(sheet.data, names)
     else:
         from lintamp.audit.render_html import render_html
@@ -108,10 +102,11 @@ def cmd_audit(args) -> int:
     if output is None:
         sys.stdout.write(text)
     else:
+        inputs = [path]  # the netlist checked is never overwritten
         if args.format == "markdown":
             for key, payload in images.items():
-                write_atomically(output.parent / f"{output.stem}-{key}.png", payload)
-        write_atomically(output, text.encode("utf-8"))
+                write_atomically(output.parent / names[key], payload, inputs)
+        write_atomically(output, text.encode("utf-8"), inputs)
     if sheet.data.get("internal_errors"):
         for error in sheet.data["internal_errors"]:
             print(f"lintamp: internal error: {error}", file=sys.stderr)

@@ -24,8 +24,9 @@ def load_flat_circuit(netlist_path: Path, *, top: str | None, include_paths=(), 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     problems = [d for d in netlist.diagnostics if d.severity == "error"]
     design = load_design(netlist, config, top=top)
-    try:
-        circuit = flatten(design)
+    from lintamp.rulekit.impedance_numbers import MAX_ELEMENTS
+    try:  # the element guard of check's impedance rules: a small deck of nested
+        circuit = flatten(design, limit=MAX_ELEMENTS)  # instances must not run for minutes
     except FlattenLimit as exc:
         raise _Usage(str(exc)) from None
     return circuit, problems
@@ -64,22 +65,24 @@ def cmd_impedance(args) -> int:
         if args.op:
             from lintamp.engine.op_table import load_op_table
             try:
-                table = load_op_table(Path(args.op).read_text(encoding="utf-8"))
+                from lintamp.safe_paths import read_text
+                table = load_op_table(read_text(args.op))  # no pipe, no device
             except (OSError, ValueError) as exc:
-                raise _Usage(f"--op {args.op}: {exc}") from None
+                raise _Usage(f"--op {args.op}: {getattr(exc, 'strerror', None) or exc}") from None
         report = impedance_report(circuit, node, freq_hz, detach=[d.lower() for d in args.detach],
                                   table=table)
     except _Usage as exc:
         raise UsageError(str(exc)) from None
     except (OperatingPointError, SmallSignalError) as exc:  # the engine's documented refusals
         raise UsageError(f"{args.netlist}: {exc}") from None
+    from lintamp.report.base import printable  # names are the netlist's: no ESC reaches the terminal
     for diag in problems:
-        print(f"lintamp: {diag.location}: {diag.message} (the impedance is computed without it)",
+        print(printable(f"lintamp: {diag.location}: {diag.message} (the impedance is computed without it)"),
               file=sys.stderr)
     if args.format == "json":
         print(json.dumps(report, indent=2, sort_keys=False, allow_nan=False, default=str))
     else:
-        print(render_text(report))
+        print("\n".join(printable(line) for line in render_text(report).split("\n")))
     return EXIT_OK
 
 
