@@ -682,19 +682,26 @@ class _Reader:
             if spectre:
                 continue
             code, comment = _strip_inline_comment(stripped, opts)
-            # trailing backslash continues onto the next line (HSPICE / Spectre style)
-            while code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
-                got = next(lines, None)
-                if got is None:
-                    break
-                if got[1] is None:  # an over-long line ends the statement; said below
-                    pushed_back = got
-                    break
-                code = code.rstrip()[:-1] + " "
-                if len(code) > MAX_CARD_CHARS:  # a statement that never ends: stop joining
-                    break
-                more, _ = _strip_inline_comment(got[1].lstrip(), opts)
-                code += more
+            # trailing backslash continues onto the next line (HSPICE / Spectre style);
+            # the pieces are joined once at the end: O(length), not O(length x lines)
+            if code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
+                joined, size, last = [], 0, code
+                while last.rstrip().endswith("\\") and not last.rstrip().endswith("\\\\\\"):
+                    got = next(lines, None)
+                    if got is None:
+                        break
+                    if got[1] is None:  # an over-long line ends the statement; said below
+                        pushed_back = got
+                        break
+                    piece = last.rstrip()[:-1] + " "
+                    joined.append(piece)
+                    size += len(piece)
+                    last = ""
+                    if size > MAX_CARD_CHARS:  # a statement that never ends: stop joining
+                        break
+                    last, _ = _strip_inline_comment(got[1].lstrip(), opts)
+                joined.append(last)
+                code = "".join(joined)
             if head == "+" and cdl_open is not None:
                 cdl_open.text += " " + code[1:].strip()
                 continue
