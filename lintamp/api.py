@@ -57,7 +57,7 @@ def project_root(path: Path, config) -> Path:
     source = getattr(config, "source", None)
     if source is not None:
         return Path(source).resolve().parent
-    start = path.resolve().parent
+    start = Path(os.path.abspath(path)).parent.resolve()  # where the name is, not where a link leads
     for folder in (start, *start.parents):
         if (folder / ".git").exists():
             return folder
@@ -176,8 +176,7 @@ def _cached_check(path: Path, config, cache, top, include_paths, options) -> Fil
     the result entry is keyed by all of them, so an edit to any include misses.
     Files with missing includes are not cached (the missing file may appear).
     """
-    manifest_key = [path]
-    files = _read_manifest(cache, manifest_key)
+    files = cache.get_manifest(path)
     if files is not None:
         entry = cache.get_entry([path, *files])
         if entry is not None:
@@ -185,23 +184,9 @@ def _cached_check(path: Path, config, cache, top, include_paths, options) -> Fil
     result = check_file(path, config, top=top, include_paths=include_paths, options=options)
     if not result.internal_errors and not any(f.rule == "missing-include" for f in result.findings):
         included = [Path(f) for f in result.files_read[1:]]
-        _write_manifest(cache, manifest_key, included)
+        cache.put_manifest(path, included)
         cache.put([path, *included], result.findings, result.pragmas)
     return result
-
-
-def _read_manifest(cache, key_paths) -> list[Path] | None:
-    entry = cache.get_entry(key_paths)
-    if entry is None:
-        return None
-    return [Path(p.args[0]) for p in entry.pragmas if p.verb == "manifest-file"] \
-        if all(p.verb == "manifest-file" for p in entry.pragmas) else None
-
-
-def _write_manifest(cache, key_paths, included: list[Path]) -> None:
-    marks = [Pragma(verb="manifest-file", args=(str(p),), reason="", location=Location(str(p), 1, 1))
-             for p in included]
-    cache.put(key_paths, [], marks)
 
 
 _CODE_KEY: str | None = None
@@ -250,14 +235,15 @@ def _check_one(job) -> FileResult:
         for folder in rule_paths:
             load_rule_folder(folder)
     if use_cache:
-        from lintamp.cache import Cache, config_key
+        from lintamp.cache import Cache, config_key, file_digest
         code = code_fingerprint()
         if rule_paths:
             from lintamp.registry import local_rules_fingerprint
             code += local_rules_fingerprint(rule_paths)
         cache = Cache(Path(getattr(config, "root", Path.cwd())),
                       config_key(config, [r.name for r in enabled_rules(config)]) + code + repr(
-                          (top, [str(p) for p in include_paths], sorted((options or {}).items()))))
+                          (top, [str(p) for p in include_paths], sorted((options or {}).items()),
+                           file_digest((options or {}).get("op_file")))))  # the table's content
         return _cached_check(path, config, cache, top, include_paths, options)
     return check_file(path, config, top=top, include_paths=include_paths, options=options)
 

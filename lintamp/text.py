@@ -41,7 +41,7 @@ def si(value: float | None, unit: str = "", digits: int = 3) -> str:
     else:
         scale, prefix = _PREFIXES[-1]
     scaled = value / scale
-    if abs(scaled) >= 1000:  # beyond the largest prefix
+    if abs(scaled) >= 1000 or abs(scaled) < 0.9995e-3:  # beyond the largest or smallest prefix
         return f"{value:.{digits}g} {unit}".strip()
     decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(scaled)))))
     return f"{scaled:.{decimals}f} {prefix}{unit}".strip()

@@ -36,7 +36,7 @@ def test_the_open_limit_is_at_or_above():
 
 
 def _check(capsys):
-    code = main(["check", "--isolated", "--no-cache", "--format", "json", "--select", RULE,
+    code = main(["check", "--no-config", "--no-cache", "--format", "json", "--only", RULE,
                  str(SAMPLE)])
     out = capsys.readouterr()
     return code, out.out, out.err

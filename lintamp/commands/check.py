@@ -9,6 +9,7 @@ named ones), shows progress on a terminal, writes the report and picks the exit 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
@@ -122,6 +123,12 @@ def run(args) -> int:
             raise UsageError(f"{p}: no such file or folder")
     if args.jobs < 1:
         raise UsageError("--jobs must be at least 1")
+    args.jobs = min(args.jobs, os.cpu_count() or 1)  # more processes than cores only thrash
+    if args.bandwidth:  # refused here as audit refuses it, not ignored
+        from lintamp.connectivity.signal_band import parse_frequency_text
+        if parse_frequency_text(args.bandwidth) is None:
+            raise UsageError(f"--bandwidth {args.bandwidth}: not a frequency "
+                             "(write e.g. 20meg, 1.5g or 2e7)")
     config = _config(args)
     baseline = _baseline(args)
     files = _files(args, config)
@@ -135,7 +142,11 @@ def run(args) -> int:
                                      use_cache=not args.no_cache, progress=progress)
     if args.write_baseline:
         from lintamp.baseline import write_baseline
-        write_baseline(Path(args.write_baseline), report)
+        from lintamp.config import ConfigError
+        try:  # never through a link, never over a netlist checked (lintamp.safe_paths)
+            write_baseline(Path(args.write_baseline), report, protect=report.files)
+        except ConfigError as exc:
+            raise UsageError(f"--write-baseline: {exc}") from None
     write_report(args, report)
     if report_internal_errors(errors, sys.stderr):
         return EXIT_TROUBLE
@@ -151,9 +162,15 @@ def write_report(args, report) -> None:
 
     reporter_cls = get_reporter(args.format)
     if args.output:
-        with open(Path(args.output), "w", encoding="utf-8", newline="\n") as stream:
-            emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
-                              counts=args.counts, summary=not args.quiet), report)
+        import io
+        from lintamp.safe_paths import write_atomic
+        stream = io.StringIO(newline="\n")
+        emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
+                          counts=args.counts, summary=not args.quiet), report)
+        try:  # never through a link, never over a netlist checked
+            write_atomic(Path(args.output), stream.getvalue().encode("utf-8"), protect=report.files)
+        except OSError as exc:
+            raise UsageError(f"-o {args.output}: cannot write it ({exc.strerror or exc})") from None
         return
     color = want_color(args.color, sys.stdout) if args.format == "text" else False
     emit(reporter_cls(sys.stdout, color=color, rules=all_rules(), tool_version=__version__,

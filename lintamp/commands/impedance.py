@@ -56,8 +56,9 @@ def load_flat_circuit(netlist_path: Path, *, top: str | None, include_paths=(), 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     problems = [d for d in netlist.diagnostics if d.severity == "error"]
     design = load_design(netlist, config, top=top)
-    try:
-        circuit = flatten(design)
+    from lintamp.rulekit.impedance_numbers import MAX_ELEMENTS
+    try:  # the element guard of check's impedance rules: a small deck of nested
+        circuit = flatten(design, limit=MAX_ELEMENTS)  # instances must not run for minutes
     except FlattenLimit as exc:
         raise UsageError(str(exc)) from None
     return circuit, problems
@@ -95,13 +96,14 @@ def run(args) -> int:
                                   table=table)
     except (OperatingPointError, SmallSignalError) as exc:  # the engine's documented refusals
         raise UsageError(f"{args.netlist}: {exc}") from None
+    from lintamp.report.base import printable  # names are the netlist's: no ESC reaches the terminal
     for diag in problems:
-        print(f"lintamp: {diag.location}: {diag.message} (the impedance is computed without it)",
-              file=sys.stderr)
+        print(printable(f"lintamp: {diag.location}: {diag.message} "
+                        "(the impedance is computed without it)"), file=sys.stderr)
     if args.format == "json":
         print(json.dumps(report, indent=2, sort_keys=False, allow_nan=False, default=str))
     else:
-        print(render_text(report))
+        print("\n".join(printable(line) for line in render_text(report).split("\n")))
     return EXIT_OK
 
 

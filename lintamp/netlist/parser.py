@@ -19,7 +19,8 @@ from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, run_pattern,
-                                    open_regular, probed_nets, read, read_text)
+                                    open_regular, probed_nets, read, read_text,
+                                    sandbox_roots)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
                                         Model, Netlist, Origin, ParamDef, PlainRun, Pragma, Source,
                                         new_plain_element)
@@ -272,10 +273,12 @@ class ParseContext:
         defined so far.  A condition that cannot be evaluated here (a name only an
         instance gives) takes its branch if none before it was taken, with a note,
         so that alternative definitions of one element never both count."""
-        outer_reading = all(level[0] for level in self.conditions)
+        # each level keeps whether the levels around it were read when it opened (they
+        # cannot change while it is open): O(1) per card, not O(depth)
+        outer_reading = not self.skipping
         if word == ".if":
             holds = self._condition(card, word) if outer_reading else False
-            self.conditions.append([bool(holds), bool(holds) or not outer_reading, card])
+            self.conditions.append([bool(holds), bool(holds) or not outer_reading, card, outer_reading])
         elif not self.conditions:
             self.error(card, 0, f"{word} without a .if before it", expected=".if (CONDITION)")
             return
@@ -290,7 +293,7 @@ class ParseContext:
                 level[1] = level[0]
             else:  # .else
                 level[0] = level[1] = True
-        self.skipping = not all(level[0] for level in self.conditions)
+        self.skipping = bool(self.conditions) and not (self.conditions[-1][3] and self.conditions[-1][0])
 
     def _condition(self, card: Card, word: str) -> bool:
         from lintamp.netlist.expr import ExprError, evaluate_params, evaluate_value
@@ -606,7 +609,7 @@ class ParseContext:
         self.cell.funcs[m.group(1).lower()] = FuncDef(m.group(1).lower(), args, body, card.location)
 
     def finish(self) -> Netlist:
-        for _, _, card in self.conditions:
+        for _, _, card, _ in self.conditions:
             self.netlist.diagnostics.append(Diagnostic(
                 "parse-error", card.location, ".if is never closed", expected=".endif"))
         if self.deferred:
@@ -1100,7 +1103,7 @@ def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
     # The reader streams the file; only its first line is needed here.  A file that
     # cannot be read is reported by the reader.
     try:
-        with open_regular(path) as handle:
+        with open_regular(path, sandbox_roots(opts)) as handle:  # no peek through a link out
             head = handle.read(4096).removeprefix(b"\xef\xbb\xbf")
     except OSError:
         head = b""

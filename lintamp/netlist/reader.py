@@ -14,18 +14,27 @@ from __future__ import annotations
 
 import os
 import re
-import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from itertools import chain
 from typing import BinaryIO, Callable, Iterable, Iterator, Protocol
 
+from lintamp import safe_paths
 from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic
 from lintamp.text import EXCERPT_CHARS, excerpt  # noqa: F401 - the parser imports them from here
 
 MAX_INCLUDE_DEPTH = 40
-MAX_FILE_BYTES = 256 * 1024 * 1024
+MAX_FILE_BYTES = safe_paths.MAX_NETLIST_BYTES  # 256 MB
+# All the bytes one check reads, its includes and their re-reads counted: a file that
+# includes the next one twice, forty deep, would otherwise read 2**40 files.
+MAX_TOTAL_BYTES = 512 * 1024 * 1024
+# How often one file (one .lib section of it) is read in one check: a library read
+# twice is already a duplicate; 2,000 reads of it are an attack, not a design.
+MAX_READS_PER_FILE = 8
+# Diagnostics of one rule in one file beyond this are counted, not kept: a million
+# stray '+' lines give one message per line up to here, then one that counts the rest.
+MAX_DIAGNOSTICS_PER_RULE = 1000
 MAX_CARD_CHARS = 4 * 1024 * 1024  # a logical card longer than this is refused, not parsed
 # A physical line longer than this is skipped unread: it is never held in memory whole,
 # so a 100 MB one-line file costs one read buffer, not 100 MB (real lines are < 10 KB).
@@ -311,32 +320,24 @@ def _chunks(handle: BinaryIO, head: bytes) -> Iterator[bytes]:
         yield chunk
 
 
-def open_regular(path: Path) -> BinaryIO:
-    """Open ``path`` for reading only if it is a regular file.
+def sandbox_roots(opts: ReadOptions) -> list[Path]:
+    """The real folders a read may come from: the project root and the include paths."""
+    return [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
 
-    Opened non-blocking so that a FIFO cannot stall the open itself; then the
-    open file (not the name, which could be swapped) must be a regular file.
+
+def open_regular(path: Path, roots: Iterable[Path] = ()) -> BinaryIO:
+    """Open ``path`` for reading only if it is a regular file (see
+    :func:`lintamp.safe_paths.open_regular`: non-blocking open, then the open file,
+    not the name, must be a regular file).
 
     Raises
     ------
     OSError
         The file cannot be opened; or it is a folder, device, pipe or socket
-        (``strerror`` says which).
+        (``strerror`` says which); or, given ``roots``, a symbolic link leads it
+        out of them.
     """
-    fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
-    try:
-        mode = os.fstat(fd).st_mode
-        if not stat.S_ISREG(mode):
-            what = ("a folder" if stat.S_ISDIR(mode) else "a pipe" if stat.S_ISFIFO(mode)
-                    else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "not a regular file")
-            raise OSError(0, f"it is {what}, not a netlist file" if what != "not a regular file"
-                          else "it is not a regular file")
-        if hasattr(os, "set_blocking"):
-            os.set_blocking(fd, True)
-        return os.fdopen(fd, "rb")
-    except BaseException:
-        os.close(fd)
-        raise
+    return safe_paths.open_regular(path, roots=roots)
 
 
 def looks_binary(data: bytes) -> bool:
@@ -408,7 +409,11 @@ class _Reader:
         self.reading = reading or (lambda: True)
         self.n_cards = 0
         self.stack: list[tuple[str, str]] = []  # (realpath, section) being read
-        self.allowed = [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
+        self.allowed = sandbox_roots(opts)
+        self.bytes_read = 0  # every file and re-read counted (MAX_TOTAL_BYTES)
+        self.reads: dict[tuple[str, str], int] = {}  # (realpath, section) -> times read
+        self.diag_counts: dict[tuple[str, str], int] = {}  # (file shown, rule) -> diagnostics
+        self.over_budget = False
 
     # -- paths ---------------------------------------------------------------
     def display(self, path: Path) -> str:
@@ -431,13 +436,59 @@ class _Reader:
             self.stack.append((str(path.resolve()), ""))
         except OSError:
             pass
+        if data is None and safe_paths.escapes_by_symlink(path, self.allowed):
+            # a committed link out of the project: refused unopened, nothing of it quoted
+            shown = self.display(path)
+            self._diag("parse-error", Location(shown, 1, 1),
+                       f"{shown} is a symbolic link to a file outside the project root and the "
+                       "include paths; not read", expected="a netlist file inside the project")
+            return self.result
         self._read_file(path, top_level=title, section=None, data=data, at=None)
+        self._count_dropped()
         return self.result
 
     def _diag(self, rule: str, loc: Location, message: str, *, severity="error",
               subject="", expected="") -> None:
+        key = (loc.path, rule)
+        count = self.diag_counts.get(key, 0) + 1
+        self.diag_counts[key] = count
+        if count > MAX_DIAGNOSTICS_PER_RULE:
+            return  # counted; one message says how many at the end (_count_dropped)
         self.result.diagnostics.append(
             Diagnostic(rule, loc, message, subject=subject, severity=severity, expected=expected))
+
+    def _count_dropped(self) -> None:
+        """One diagnostic per file and rule that had more than MAX_DIAGNOSTICS_PER_RULE,
+        saying how many more there were."""
+        for (shown, rule), count in self.diag_counts.items():
+            if count > MAX_DIAGNOSTICS_PER_RULE:
+                more = count - MAX_DIAGNOSTICS_PER_RULE
+                self.result.diagnostics.append(Diagnostic(
+                    rule, Location(shown, 1, 1),
+                    f"{more} more {rule} problems in {shown} not listed (the first "
+                    f"{MAX_DIAGNOSTICS_PER_RULE} are)", subject=f"{more} more", severity="error"
+                    if rule == "parse-error" else "warning"))
+
+    def _budget(self, real: Path, section: str | None, size: int, loc: Location) -> bool:
+        """Whether one more read of ``real`` (``size`` bytes) fits the check's budget:
+        at most MAX_READS_PER_FILE reads of one file and section, MAX_TOTAL_BYTES in all."""
+        if self.over_budget:
+            return False
+        key = (str(real), section or "")
+        times = self.reads.get(key, 0)
+        if times >= MAX_READS_PER_FILE:
+            self._diag("bad-include", loc, f"{self.display(real)} already read {times} times in "
+                       "this check; not read again", subject=self.display(real))
+            return False
+        if self.bytes_read + size > MAX_TOTAL_BYTES:
+            self.over_budget = True
+            self._diag("bad-include", loc, f"the includes add up to more than {MAX_TOTAL_BYTES} "
+                       f"bytes; {self.display(real)} and the includes after it are not read",
+                       subject=self.display(real))
+            return False
+        self.reads[key] = times + 1
+        self.bytes_read += size
+        return True
 
     def _read_file(self, path: Path, *, top_level: bool, section: str | None,
                    data: bytes | None, at: Location | None) -> None:
@@ -460,6 +511,8 @@ class _Reader:
             if size > MAX_FILE_BYTES:
                 self._diag("bad-include" if at else "parse-error", at or Location(shown, 1, 1),
                            f"{shown}: file is {size} bytes, over the {MAX_FILE_BYTES}-byte limit; not read")
+                return
+            if not self._budget(path, section, size, at or Location(shown, 1, 1)):
                 return
             head = handle.read(_HEAD_BYTES)
             if self._refuse(head, shown, at):
@@ -623,19 +676,26 @@ class _Reader:
             if spectre:
                 continue
             code, comment = _strip_inline_comment(stripped, opts)
-            # trailing backslash continues onto the next line (HSPICE / Spectre style)
-            while code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
-                got = next(lines, None)
-                if got is None:
-                    break
-                if got[1] is None:  # an over-long line ends the statement; said below
-                    pushed_back = got
-                    break
-                code = code.rstrip()[:-1] + " "
-                if len(code) > MAX_CARD_CHARS:  # a statement that never ends: stop joining
-                    break
-                more, _ = _strip_inline_comment(got[1].lstrip(), opts)
-                code += more
+            # trailing backslash continues onto the next line (HSPICE / Spectre style);
+            # the pieces are joined once at the end: O(length), not O(length x lines)
+            if code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
+                joined, size, last = [], 0, code
+                while last.rstrip().endswith("\\") and not last.rstrip().endswith("\\\\\\"):
+                    got = next(lines, None)
+                    if got is None:
+                        break
+                    if got[1] is None:  # an over-long line ends the statement; said below
+                        pushed_back = got
+                        break
+                    piece = last.rstrip()[:-1] + " "
+                    joined.append(piece)
+                    size += len(piece)
+                    last = ""
+                    if size > MAX_CARD_CHARS:  # a statement that never ends: stop joining
+                        break
+                    last, _ = _strip_inline_comment(got[1].lstrip(), opts)
+                joined.append(last)
+                code = "".join(joined)
             if head == "+" and cdl_open is not None:
                 cdl_open.text += " " + code[1:].strip()
                 continue
@@ -891,6 +951,7 @@ def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
     reader.result.files.append(path)
     reader._read_lines(_text_lines(text, reader._runs()), path, Path(path), top_level=True,
                        section=None)
+    reader._count_dropped()
     return reader.result
 
 

@@ -96,9 +96,10 @@ def _load_table(ctx):
     op_file = (ctx.options or {}).get("op_file")
     if not op_file:
         return None, ""
+    from lintamp import safe_paths
     from lintamp.engine.op_table import load_op_table
-    try:
-        return load_op_table(Path(op_file).read_text(encoding="utf-8"), str(op_file)), ""
+    try:  # a regular file only: a pipe or /dev/zero is refused without blocking
+        return load_op_table(safe_paths.read_text(op_file), str(op_file)), ""
     except (OSError, ValueError) as exc:
         return None, f"--op {op_file}: {exc}"
 
