@@ -360,7 +360,8 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
 
     ``;`` always starts a comment; ``$`` only at the line start or after a blank,
     and not when a name follows it (``M$1``, ``$PDK_ROOT``, ``${dir}`` are names or
-    placeholders); ``//`` after a blank when enabled.
+    placeholders; ``$1.68`` is a comment, as ngspice-39 reads it); ``//`` after a
+    blank when enabled.
     """
     if ";" not in line and "$" not in line and "/" not in line:
         return line, ""
@@ -383,7 +384,7 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
             if ch == ";":
                 return line[:i], line[i + 1:]
             if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t") and (
-                    i + 1 == n or not (line[i + 1].isalnum() or line[i + 1] in "_{")):
+                    i + 1 == n or not ((line[i + 1].isalpha() or line[i + 1] in "_{"))):
                 return line[:i], line[i + 1:]
             if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
                     i == 0 or line[i - 1] in " \t"):
@@ -743,6 +744,8 @@ class _Reader:
                            f"include path '{excerpt(target)}' holds an unexpanded placeholder; "
                            "the file it names is not read", severity="warning", subject=target)
             return None
+        written = target
+        target = expand_home(target)
         target_path = Path(target.replace("\\", "/"))
         candidates = []
         if target_path.is_absolute():
@@ -774,20 +777,26 @@ class _Reader:
                 self._diag("bad-include", loc, f"'{excerpt(target)}' is a folder, device or pipe, "
                            "not a netlist file; not read", subject=target)
             else:
-                self._outside(target, loc)
+                self._outside(written, loc)
             return None
         if not quiet:
             self._diag("missing-include", loc,
-                       f"include file '{excerpt(target)}' not found (looked beside "
+                       f"include file '{excerpt(written)}' not found (looked beside "
                        f"{self.display(including)}" + (" and in the include paths" if self.opts.include_paths else "")
-                       + "); checking goes on without it", severity="warning", subject=target)
+                       + "); checking goes on without it", severity="warning", subject=written)
         return None
 
     def _outside(self, target: str, loc: Location) -> None:
+        # A library named by an absolute or home path (a PDK installed on the author's
+        # machine) is one the reviewer may not have: a warning, as a missing file is.
+        # A relative path that climbs out of the project is an error.
+        machine_path = is_machine_path(target)
         self._diag("bad-include", loc,
                    f"'{excerpt(target)}' resolves outside the project root and the "
                    "include paths; not read (add its folder with --include-path "
-                   "if it is trusted)", subject=target)
+                   "if it is trusted)", subject=target,
+                   severity="warning" if machine_path else "error",
+                   expected=OUTSIDE_EXPECTED)
 
     def _enter(self, real: Path, section: str | None, loc: Location) -> bool:
         key = (str(real), section or "")
@@ -846,6 +855,26 @@ class _Reader:
                            for _, text, _ in physical_lines(_chunks(handle, b"")))
         except OSError:
             return False
+
+
+OUTSIDE_EXPECTED = "a file inside the project root or the include paths"
+
+
+def expand_home(target: str) -> str:
+    """``~`` and ``~/...`` as ngspice-39 expands them in include paths (HOME from the
+    environment); ``$NAME`` and ``${NAME}`` it does not expand, and neither does this."""
+    if target == "~" or target.startswith(("~/", "~\\")):
+        home = os.environ.get("HOME")
+        if home:
+            return home.rstrip("/\\") + target[1:]
+    return target
+
+
+def is_machine_path(target: str) -> bool:
+    """Whether an include names a place on the author's machine: an absolute path, a
+    home path or a Windows drive path (not a relative path climbing out)."""
+    t = target.replace("\\", "/")
+    return t.startswith(("/", "~")) or (len(t) > 2 and t[1] == ":" and t[2] == "/")
 
 
 def _split_path_tokens(code: str) -> list[str]:
