@@ -60,6 +60,7 @@ def check(ctx):
             name = dev.element.model
             book = entry[2] if _cascade.is_number_name(name) else entry[1]
             book.setdefault(name.lower(), []).append(dev)
+    in_library: dict[str, list] = {}
     for view, names, numbers in per_cell.values():
         if numbers:
             yield _numbers_finding(ctx, view, numbers)
@@ -73,9 +74,16 @@ def check(ctx):
             yield _consequence_finding(ctx, view, from_pdk, incomplete=False)
             names = {n: d for n, d in names.items() if n not in from_pdk}
         library = not ctx.design.in_deck(view)
+        if library:  # a cell library: one finding per missing name for the whole file
+            for name, devs in names.items():
+                in_library.setdefault(name, [view, []])[1].extend(devs)
+            continue
         visible = [c for scope in scopes(view.cell) for c in scope.cells]
         for devs in names.values():
-            yield _name_finding(ctx, view, devs, visible, library)
+            yield _name_finding(ctx, view, devs, visible, False)
+    for view, devs in in_library.values():
+        visible = [c for scope in scopes(view.cell) for c in scope.cells]
+        yield _name_finding(ctx, view, devs, visible, True)
 
 
 def _name_finding(ctx, view, devs, visible, library):

@@ -99,6 +99,9 @@ BUILTIN = (
     *_names("nmos", "nfet_03v3 nfet_05v0 nfet_06v0 nfet_06v0_nvt nfet_03v3_dss nfet_05v0_dss "
                     "nfet_06v0_dss"),
     *_names("pmos", "pfet_03v3 pfet_05v0 pfet_06v0 pfet_03v3_dss pfet_05v0_dss pfet_06v0_dss"),
+    # (the names its layout-versus-schematic netlists write)
+    *_names("nmos", "nmos_3p3 nmos_6p0 nmos_6p0_nat nmos_3p3_sab nmos_6p0_sab"),
+    *_names("pmos", "pmos_3p3 pmos_6p0 pmos_3p3_sab pmos_6p0_sab"),
     # IHP SG13G2
     *_names("nmos", "sg13_lv_nmos sg13_hv_nmos"),
     *_names("pmos", "sg13_lv_pmos sg13_hv_pmos"),
