@@ -34,7 +34,7 @@ Fix
 from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is_voltage_output,
                                        unread_cells)
 from lintamp.findings import Related, Severity
-from lintamp.rules import _parasitics
+from lintamp.rules import _parasitics, _supply
 
 NAME = "dangling-net"
 CATEGORY = "connectivity"
@@ -75,10 +75,15 @@ def check(ctx):
                     for net in dev.nets[len(dev.pins):]}
         # a top-level net that .print/.plot/.save or a .control script looks at is observed
         observed = ctx.netlist.observed if view.cell.is_top else set()
+        # a testbench's supply net that only blocks' supply pins reach: undriven-supply
+        # is the finding (one cause, one finding)
+        unpowered = ({net for net, _ in _supply.undriven_supplies(ctx)}
+                     if view is ctx.design.top else set())
         stubs: list = []
         unknown_pins: list = []
         for net in view.net_terminals.with_degree(1):
-            if view.is_external(net) or net in ground or net in roleless or net in observed:
+            if (view.is_external(net) or net in ground or net in roleless or net in observed
+                    or net in unpowered):
                 continue
             terminals = view.net_terminals[net]
             dev, pin = terminals[0]

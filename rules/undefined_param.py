@@ -43,7 +43,6 @@ SUMMARY = "an expression uses a parameter that is not defined in scope"
 _WHOLE_PLACEHOLDER = re.compile(r"\{\s*[A-Za-z_][\w\[\]]*\s*\}")
 _PLACEHOLDER_MARK = re.compile(r"\[\{|\$\{|\$[A-Za-z_]|^@|<%")
 _PLACEHOLDER_ERROR = re.compile(r"(found|unexpected) '(\[|\$|@|<)'")
-TEMPLATE_MIN_NAMES = 3
 
 
 def check(ctx):
@@ -156,17 +155,13 @@ def _placeholder_shaped(use) -> bool:
 
 def _is_template(ctx, shaped) -> bool:
     """A deck is a template when it holds a generator's own marks ('[{', '${', '@',
-    '<%', a placeholder in an include path) or, with no .param at all, at least
-    three different whole-value placeholders."""
+    '<%', a placeholder in an include path); whole values '{name}' alone are the
+    shape of any undefined parameter and do not make one."""
     if not shaped:
         return False
     if any(isinstance(u, BadExpression) or _PLACEHOLDER_MARK.search(_field_text(u)) for u in shaped):
         return True
-    if any("placeholder" in d.message for d in ctx.diagnostics("missing-include")):
-        return True
-    names = {u.name for u in shaped}
-    defines = any(c.params for c in ctx.netlist.all_cells())
-    return len(names) >= TEMPLATE_MIN_NAMES and not defines
+    return any("placeholder" in d.message for d in ctx.diagnostics("missing-include"))
 
 
 def _template_finding(ctx, shaped):

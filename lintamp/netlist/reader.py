@@ -454,7 +454,8 @@ class _Reader:
                 return
             self._note_file(shown)
             self._read_lines(physical_lines((data,), self._runs()), shown, path,
-                             top_level=top_level, section=section)
+                             top_level=top_level, section=section,
+                             script=section is None and is_control_script(data[:_HEAD_BYTES]))
             return
         try:
             handle = open_regular(path)
@@ -473,7 +474,8 @@ class _Reader:
                 return
             self._note_file(shown)
             self._read_lines(physical_lines(_chunks(handle, head), self._runs()), shown, path,
-                             top_level=top_level, section=section)
+                             top_level=top_level, section=section,
+                             script=section is None and is_control_script(head))
 
     def _runs(self) -> re.Pattern | None:
         return self.bulk.runs if self.bulk is not None else None
@@ -499,7 +501,7 @@ class _Reader:
         return False
 
     def _read_lines(self, source: Iterable[tuple[int, str | None, int]], shown: str, path: Path, *,
-                    top_level: bool, section: str | None) -> None:
+                    top_level: bool, section: str | None, script: bool = False) -> None:
         opts = self.opts
         sink = self.sink
         lines = iter(source)
@@ -507,7 +509,9 @@ class _Reader:
         # far), else [pieces, segments, first_comment, last_line, size] as it grows
         current: Card | list | None = None
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
-        in_control = False
+        # a file of simulator commands (the kind a .control block sources) is read as
+        # the inside of a .control block: the nets it looks at, no elements, no errors
+        in_control = script
         in_data = False
         spectre = False
         in_section = section is None
@@ -858,6 +862,37 @@ class _Reader:
 
 
 OUTSIDE_EXPECTED = "a file inside the project root or the include paths"
+
+# ngspice's interactive commands (the ngspice-39 manual, chapter 17): the words a
+# control script's lines begin with
+CONTROL_COMMANDS = frozenset("""
+let alter alterparam altermod set unset setplot setcs run tran ac dc op noise pz sens disto
+meas measure plot print wrdata write wrs2p echo foreach while repeat dowhile if else end
+break continue destroy linearize reset shell quit exit display listing define undefine
+compose rusage remcirc source load snload snsave save fourier spec hardcopy asciiplot iplot
+gnuplot resume stop step status delete trace rehash cd version option options setseed
+""".split())
+_CONTROL_HEAD = re.compile(r"\s*([A-Za-z_]+)")
+
+
+def is_control_script(head: bytes) -> bool:
+    """Whether a file's first bytes read as ngspice commands rather than a circuit:
+    no .control block, no .subckt, no .end, and most statements begin with a command
+    word (``let``, ``alter``, ``meas``, ``plot`` ...), three at least."""
+    text = head.decode("latin-1", errors="replace")
+    commands = statements = 0
+    for line in text.splitlines()[1:200]:  # the first line is a title when checked alone
+        stripped = line.strip()
+        if not stripped or stripped[0] in "*$;+" or stripped.startswith("//"):
+            continue
+        low = stripped.lower()
+        if low.startswith((".control", ".subckt", ".end", ".ends")):
+            return False
+        statements += 1
+        m = _CONTROL_HEAD.match(low)
+        if m and m.group(1) in CONTROL_COMMANDS:
+            commands += 1
+    return commands >= 3 and commands * 10 >= statements * 8
 
 
 def expand_home(target: str) -> str:
