@@ -1,7 +1,8 @@
 """Which block pins are supplies, and which of a testbench's supply nets nothing drives
 (shared by undriven-supply and dangling-net).
 
-For now a pin is a supply by its name alone (``vdd``, ``avdd``, ``vcc``, ``vpwr`` ...):
+For now a pin is a supply by its name alone, and a net a schematic export lists as
+its own pin (``*.iopin vdd``) is a port (``vdd``, ``avdd``, ``vcc``, ``vpwr`` ...):
 a simple local test until the intent analysis (pin directions, config, pragmas)
 answers it for every rule.
 """
@@ -32,11 +33,17 @@ def undriven_supplies(ctx) -> list[tuple[str, list]]:
         found = []
         ground = design.ground
         observed = ctx.netlist.observed
+        # a schematic export lists its own pins (*.ipin / *.opin / *.iopin): those nets
+        # are the ports of a block, powered by whatever instantiates it
+        cdl = getattr(ctx.netlist, "cdl", {}) or {}
+        pins = {word.lower() for key in (".ipin", ".opin", ".iopin", "ipin", "opin", "iopin")
+                for line in cdl.get(key, ()) for word in line.split()}
         for dev in top.devices_where(lambda key: key[0] == "instance"):
             if dev.kind != "instance" or dev.subcell is None:
                 continue
             for pin, net in zip(dev.pins, dev.nets):
-                if not is_supply_pin(pin) or net in ground or net in observed or top.is_external(net):
+                if (not is_supply_pin(pin) or net in ground or net in observed or net in pins
+                        or top.is_external(net)):
                     continue
                 terminals = top.net_terminals.get(net, [])
                 if all(d.kind == "instance" and d.subcell is not None and is_supply_pin(p)

@@ -28,6 +28,7 @@ Fix
 """
 
 import difflib
+import re
 
 from lintamp.circuit.design import scopes
 from lintamp.findings import Related, Severity
@@ -40,6 +41,7 @@ CATEGORY = "references"
 SEVERITY = Severity.ERROR
 SUMMARY = "an instance of a subcircuit that is not defined (nor mapped as a device)"
 MAX_RELATED = 20
+_TEMPLATE_MARK = re.compile(r"\$\{|\$[a-z_]|\{[a-z_]|@[a-z_]|<%", re.I)
 # Cell libraries of the open PDKs (standard cells, I/O cells, primitive devices):
 # a netlist written for layout-versus-schematic or for a PDK flow names them and
 # leaves their definitions to the PDK, which is then simply not among the files read.
@@ -51,6 +53,7 @@ PDK_LIBRARY_PREFIXES = ("sky130_fd_sc_", "sky130_osu_sc_", "sky130_fd_io__", "sk
 def check(ctx):
     yield from forward_diagnostics(ctx)
     incomplete = _cascade.incomplete(ctx)
+    templates: list = []
     per_cell: dict[int, tuple] = {}  # id(view) -> (view, {name: [devices]}, {number: [devices]})
     for view in ctx.cells():
         for dev in view.devices_where(lambda key: key[0] == "instance"):
@@ -58,8 +61,22 @@ def check(ctx):
                 continue
             entry = per_cell.setdefault(id(view), (view, {}, {}))
             name = dev.element.model
+            if _TEMPLATE_MARK.search(name):
+                templates.append((view, dev))  # a generator's placeholder: not a cell name
+                continue
             book = entry[2] if _cascade.is_number_name(name) else entry[1]
             book.setdefault(name.lower(), []).append(dev)
+    if templates:
+        view, first = templates[0]
+        yield ctx.finding(
+            location=first.location, subject="template placeholders", view=view,
+            severity=Severity.INFO, elements=[d.name for _, d in templates][:50],
+            message=f"{len(templates)} instance(s) name a placeholder a generator fills "
+                    f"('{excerpt(first.element.model, 40)}'): this deck is a template",
+            explanation=["a cell name written as ${name}, {name} or @name is the mark a "
+                         "flow replaces before it runs the simulator"],
+            fix="check the deck the flow writes from this template",
+            values={"count": len(templates)})
     in_library: dict[str, list] = {}
     for view, names, numbers in per_cell.values():
         if numbers:
