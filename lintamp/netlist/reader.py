@@ -960,7 +960,8 @@ def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
     reader = _Reader(opts, sink, reading, bulk)
     reader.result.files.append(path)
     reader._read_lines(_text_lines(text, reader._runs()), path, Path(path), top_level=True,
-                       section=None)
+                       section=None,
+                       script=is_control_script(text[:_HEAD_BYTES].encode("latin-1", "replace")))
     return reader.result
 
 
