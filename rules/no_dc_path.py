@@ -31,7 +31,8 @@ Fix
     ngspice's ``.option rshunt`` puts a large resistor from every node to ground.
 """
 
-from lintamp.findings import Severity
+from lintamp.findings import Related, Severity
+from lintamp.rules import _parasitics
 from lintamp.rules._islands import (context_steps, elements, island_findings, net_phrase,
                                     related, terminal_lines)
 
@@ -42,9 +43,13 @@ SUMMARY = "nodes with no DC path to ground"
 
 
 def check(ctx):
+    floating: dict[int, list] = {}
     for view, island, _ in island_findings(ctx, NAME):
         first = island.first_device
         if first is None:
+            continue
+        if _floating_metal(ctx, view, island):
+            floating.setdefault(id(view), [view]).append(island)
             continue
         count = len(island.nets)
         yield ctx.finding(
@@ -63,3 +68,38 @@ def check(ctx):
                 "that was meant",
             values={"island_nets": count, "terminals": len(island.terminals)},
             related=related(island, skip=first))
+    for view, *islands in floating.values():
+        yield _floating_finding(ctx, view, islands)
+
+
+def _floating_metal(ctx, view, island) -> bool:
+    """Metal an extractor wrote that only coupling capacitors (and wire resistors)
+    hold: every terminal on the island is an R or C pin, one at least a C."""
+    kinds = {dev.kind for dev, _ in island.terminals}
+    if "capacitor" not in kinds or not kinds <= set(_parasitics.PASSIVE_KINDS):
+        return False
+    return all(_parasitics.EXTRACTED_NAME.search(n) for n in island.nets) or \
+        _parasitics.looks_extracted(ctx, view)
+
+
+def _floating_finding(ctx, view, islands):
+    largest = max(islands, key=lambda i: len(i.terminals))
+    first = min((i.first_device for i in islands),
+                key=lambda d: (d.location.path, d.location.line, d.location.column))
+    nets = [n for i in islands for n in i.nets]
+    return ctx.finding(
+        location=first.location, subject="floating metal", view=view, nets=nets[:50],
+        severity=Severity.INFO,
+        message=f"{len(islands)} piece(s) of floating metal held only by coupling capacitors "
+                f"({len(nets)} net(s); largest: {net_phrase(largest)}, "
+                f"{len(largest.terminals)} terminals)",
+        explanation=["on these nets every terminal is a parasitic capacitor (or a wire "
+                     "resistor between such nets): fill, shields or unconnected wells the "
+                     "extractor wrote with their coupling", "an extraction fact; a simulator "
+                     "needs a DC return there only for its operating point (ngspice-39: "
+                     "'.option rshunt' gives one)"],
+        fix="nothing to do for the extraction; tie the metal in layout if it was meant to be "
+            "a shield or a well tap",
+        values={"count": len(islands), "island_nets": len(nets)},
+        related=[Related(largest.first_device.location, f"largest: {largest.nets[0]}")])
+

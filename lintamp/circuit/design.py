@@ -924,9 +924,8 @@ def recognise(element: Element, cell: Cell, devmap: DeviceMap,
     polarity_from = ""
     if letter == "x":
         spec = devmap.lookup(element.model or "") if element.model else None
-        if (spec is not None and getattr(spec, "builtin", False) and subcell is not None
-                and len(subcell.ports) != len(spec.pins)):
-            spec = None  # a generated wrapper that only shares the PDK's prefix: use its definition
+        if spec is not None and getattr(spec, "builtin", False) and subcell is not None:
+            spec = None  # a cell read is that cell; only a project's own [devices] entry overrides it
         if spec is not None:  # the map wins even where the subcircuit is defined
             kind = spec.kind
             pins = spec.pins

@@ -652,7 +652,28 @@ def _need(ctx, card, tokens, positional, count, what) -> bool:
 
 
 def _params(pairs) -> dict[str, str]:
-    return {k.text.lower(): v.text for k, v in pairs}
+    return {k.text.lower(): _inner_braces(v.text) for k, v in pairs}
+
+
+def _inner_braces(text: str) -> str:
+    """An expression with braces inside its quotes or braces (xschem writes
+    ``ad='int(({nf} + 1)/2) * W'``) as the same expression with parentheses there:
+    ngspice-39 evaluates both alike (checked: ``r='int(({n} + 1)/2) * 1k'``)."""
+    if len(text) < 4 or text[0] not in "'{" or "{" not in text[1:-1]:
+        return text
+    inner = text[1:-1]
+    if text[0] == "'":
+        if text[-1] != "'" or "'" in inner:
+            return text
+    else:
+        depth = 0
+        for ch in inner:  # the outer braces must enclose all of it: '{a}*{b}' is two
+            depth += (ch == "{") - (ch == "}")
+            if depth < 0:
+                return text
+        if text[-1] != "}" or depth:
+            return text
+    return text[0] + inner.replace("{", "(").replace("}", ")") + text[-1]
 
 
 def parse_passive(ctx: ParseContext, card: Card, tokens: list[Token]) -> Element | None:

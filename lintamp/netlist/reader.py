@@ -355,7 +355,8 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
 
     ``;`` always starts a comment; ``$`` only at the line start or after a blank,
     and not when a name follows it (``M$1``, ``$PDK_ROOT``, ``${dir}`` are names or
-    placeholders); ``//`` after a blank when enabled.
+    placeholders; ``$1.68`` is a comment, as ngspice-39 reads it); ``//`` after a
+    blank when enabled.
     """
     if ";" not in line and "$" not in line and "/" not in line:
         return line, ""
@@ -378,7 +379,7 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
             if ch == ";":
                 return line[:i], line[i + 1:]
             if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t") and (
-                    i + 1 == n or not (line[i + 1].isalnum() or line[i + 1] in "_{")):
+                    i + 1 == n or not ((line[i + 1].isalpha() or line[i + 1] in "_{"))):
                 return line[:i], line[i + 1:]
             if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
                     i == 0 or line[i - 1] in " \t"):
@@ -498,7 +499,8 @@ class _Reader:
                 return
             self._note_file(shown)
             self._read_lines(physical_lines((data,), self._runs()), shown, path,
-                             top_level=top_level, section=section)
+                             top_level=top_level, section=section,
+                             script=section is None and is_control_script(data[:_HEAD_BYTES]))
             return
         try:
             handle = open_regular(path)
@@ -519,7 +521,8 @@ class _Reader:
                 return
             self._note_file(shown)
             self._read_lines(physical_lines(_chunks(handle, head), self._runs()), shown, path,
-                             top_level=top_level, section=section)
+                             top_level=top_level, section=section,
+                             script=section is None and is_control_script(head))
 
     def _runs(self) -> re.Pattern | None:
         return self.bulk.runs if self.bulk is not None else None
@@ -545,7 +548,7 @@ class _Reader:
         return False
 
     def _read_lines(self, source: Iterable[tuple[int, str | None, int]], shown: str, path: Path, *,
-                    top_level: bool, section: str | None) -> None:
+                    top_level: bool, section: str | None, script: bool = False) -> None:
         opts = self.opts
         sink = self.sink
         lines = iter(source)
@@ -553,7 +556,9 @@ class _Reader:
         # far), else [pieces, segments, first_comment, last_line, size] as it grows
         current: Card | list | None = None
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
-        in_control = False
+        # a file of simulator commands (the kind a .control block sources) is read as
+        # the inside of a .control block: the nets it looks at, no elements, no errors
+        in_control = script
         in_data = False
         spectre = False
         in_section = section is None
@@ -797,6 +802,8 @@ class _Reader:
                            f"include path '{excerpt(target)}' holds an unexpanded placeholder; "
                            "the file it names is not read", severity="warning", subject=target)
             return None
+        written = target
+        target = expand_home(target)
         target_path = Path(target.replace("\\", "/"))
         candidates = []
         if target_path.is_absolute():
@@ -828,20 +835,26 @@ class _Reader:
                 self._diag("bad-include", loc, f"'{excerpt(target)}' is a folder, device or pipe, "
                            "not a netlist file; not read", subject=target)
             else:
-                self._outside(target, loc)
+                self._outside(written, loc)
             return None
         if not quiet:
             self._diag("missing-include", loc,
-                       f"include file '{excerpt(target)}' not found (looked beside "
+                       f"include file '{excerpt(written)}' not found (looked beside "
                        f"{self.display(including)}" + (" and in the include paths" if self.opts.include_paths else "")
-                       + "); checking goes on without it", severity="warning", subject=target)
+                       + "); checking goes on without it", severity="warning", subject=written)
         return None
 
     def _outside(self, target: str, loc: Location) -> None:
+        # A library named by an absolute or home path (a PDK installed on the author's
+        # machine) is one the reviewer may not have: a warning, as a missing file is.
+        # A relative path that climbs out of the project is an error.
+        machine_path = is_machine_path(target)
         self._diag("bad-include", loc,
                    f"'{excerpt(target)}' resolves outside the project root and the "
                    "include paths; not read (add its folder with --include-path "
-                   "if it is trusted)", subject=target)
+                   "if it is trusted)", subject=target,
+                   severity="warning" if machine_path else "error",
+                   expected=OUTSIDE_EXPECTED)
 
     def _enter(self, real: Path, section: str | None, loc: Location) -> bool:
         key = (str(real), section or "")
@@ -902,6 +915,57 @@ class _Reader:
             return False
 
 
+OUTSIDE_EXPECTED = "a file inside the project root or the include paths"
+
+# ngspice's interactive commands (the ngspice-39 manual, chapter 17): the words a
+# control script's lines begin with
+CONTROL_COMMANDS = frozenset("""
+let alter alterparam altermod set unset setplot setcs run tran ac dc op noise pz sens disto
+meas measure plot print wrdata write wrs2p echo foreach while repeat dowhile if else end
+break continue destroy linearize reset shell quit exit display listing define undefine
+compose rusage remcirc source load snload snsave save fourier spec hardcopy asciiplot iplot
+gnuplot resume stop step status delete trace rehash cd version option options setseed
+""".split())
+_CONTROL_HEAD = re.compile(r"\s*([A-Za-z_]+)")
+
+
+def is_control_script(head: bytes) -> bool:
+    """Whether a file's first bytes read as ngspice commands rather than a circuit:
+    no .control block, no .subckt, no .end, and most statements begin with a command
+    word (``let``, ``alter``, ``meas``, ``plot`` ...), three at least."""
+    text = head.decode("latin-1", errors="replace")
+    commands = statements = 0
+    for line in text.splitlines()[1:200]:  # the first line is a title when checked alone
+        stripped = line.strip()
+        if not stripped or stripped[0] in "*$;+" or stripped.startswith("//"):
+            continue
+        low = stripped.lower()
+        if low.startswith((".control", ".subckt", ".end", ".ends")):
+            return False
+        statements += 1
+        m = _CONTROL_HEAD.match(low)
+        if m and m.group(1) in CONTROL_COMMANDS:
+            commands += 1
+    return commands >= 3 and commands * 10 >= statements * 8
+
+
+def expand_home(target: str) -> str:
+    """``~`` and ``~/...`` as ngspice-39 expands them in include paths (HOME from the
+    environment); ``$NAME`` and ``${NAME}`` it does not expand, and neither does this."""
+    if target == "~" or target.startswith(("~/", "~\\")):
+        home = os.environ.get("HOME")
+        if home:
+            return home.rstrip("/\\") + target[1:]
+    return target
+
+
+def is_machine_path(target: str) -> bool:
+    """Whether an include names a place on the author's machine: an absolute path, a
+    home path or a Windows drive path (not a relative path climbing out)."""
+    t = target.replace("\\", "/")
+    return t.startswith(("/", "~")) or (len(t) > 2 and t[1] == ":" and t[2] == "/")
+
+
 def _split_path_tokens(code: str) -> list[str]:
     """Tokens of an include-like card; quoted paths keep their spaces."""
     out = []
@@ -950,7 +1014,8 @@ def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
     reader = _Reader(opts, sink, reading, bulk)
     reader.result.files.append(path)
     reader._read_lines(_text_lines(text, reader._runs()), path, Path(path), top_level=True,
-                       section=None)
+                       section=None,
+                       script=is_control_script(text[:_HEAD_BYTES].encode("latin-1", "replace")))
     reader._count_dropped()
     return reader.result
 

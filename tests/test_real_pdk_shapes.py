@@ -1,0 +1,279 @@
+"""Netlists in the shapes open-PDK tools write (layout extraction, schematic export,
+characterisation templates), checked for findings a reviewer keeps: one cause, one
+finding, nothing wrong.  Each netlist is our own, written in the shape those tools
+write (from memory of magic / KLayout / xschem output); the expected readings are
+ngspice-39's where a simulator decides (named beside each check), else common practice.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+
+from lintamp.api import check_text
+from lintamp.circuit.design import elaborate
+from lintamp.netlist.parser import parse_text
+
+
+def rules_of(text: str) -> Counter:
+    return Counter(f.rule for f in check_text(text, "deck.spice").findings)
+
+
+def loud(text: str) -> list:
+    return [f for f in check_text(text, "deck.spice").findings if f.severity.label != "info"]
+
+
+# -- 1. layout-extractor wrapper cells ------------------------------------------------
+# magic writes one .subckt per device geometry, named after the device and six random
+# characters, with its pins in its own order (here: source, drain, body, gate)
+WRAPPED_INVERTER = """\
+* NGSPICE file created from inv.ext - technology: sky130A
+
+.subckt sky130_fd_pr__nfet_01v8_lvt_3HBZVM a_n73_n100# a_15_n100# VSUBS a_n33_n188#
+X0 a_15_n100# a_n33_n188# a_n73_n100# VSUBS sky130_fd_pr__nfet_01v8_lvt ad=0.29 pd=2.58 as=0.29 ps=2.58 w=1 l=0.15
+.ends
+
+.subckt sky130_fd_pr__pfet_01v8_hvt_6WH9DB a_n73_n100# a_15_n100# w_n211_n319# a_n33_n197#
+X0 a_15_n100# a_n33_n197# a_n73_n100# w_n211_n319# sky130_fd_pr__pfet_01v8_hvt ad=0.29 pd=2.58 as=0.29 ps=2.58 w=1 l=0.15
+.ends
+
+.subckt inv vdd vss a y
+XXM1 vss y vss a sky130_fd_pr__nfet_01v8_lvt_3HBZVM
+XXM2 vdd y vdd a sky130_fd_pr__pfet_01v8_hvt_6WH9DB
+.ends
+"""
+
+
+def test_extractor_wrapper_cell_is_the_cell_it_defines_not_a_pdk_device_by_prefix():
+    # read as bare transistors (d g s b) the two wrappers would put both bodies on
+    # the input 'a' (a false body-tie); read as the cells they are, the transistors
+    # inside have their bodies on vss and vdd (common practice: a .subckt read is
+    # the definition a simulator uses, ngspice-39 included)
+    design = elaborate(parse_text(WRAPPED_INVERTER))
+    inv = next(v for v in design.cells if v.name == "inv")
+    assert [d.kind for d in inv.devices] == ["instance", "instance"]
+    assert all(d.subcell is not None for d in inv.devices)
+    assert not loud(WRAPPED_INVERTER)
+
+
+def test_builtin_map_names_full_device_names_only():
+    from lintamp.circuit.devicemap import DeviceMap
+    devmap = DeviceMap()
+    assert devmap.lookup("sky130_fd_pr__nfet_01v8").kind == "nmos"
+    assert devmap.lookup("SKY130_FD_PR__PFET_01V8_HVT").kind == "pmos"
+    # the extractor's suffix makes another name, which the map does not claim
+    assert devmap.lookup("sky130_fd_pr__nfet_01v8_lvt_3HBZVM") is None
+    assert all("*" not in e.pattern and "?" not in e.pattern for e in devmap.entries)
+
+
+def test_project_device_entry_overrides_a_definition():
+    from lintamp.circuit.devicemap import DeviceMap, spec_from_config
+    spec = spec_from_config("sky130_fd_pr__*_3HBZVM", {"kind": "nmos", "pins": ["s", "d", "b", "g"]})
+    design = elaborate(parse_text(WRAPPED_INVERTER), devmap=DeviceMap((spec,)))
+    inv = next(v for v in design.cells if v.name == "inv")
+    assert inv.devices[0].kind == "nmos" and inv.devices[0].net("g") == "a"
+
+
+# -- 2. control scripts -----------------------------------------------------------------
+# the file a testbench's .control block sources: ngspice commands, no circuit
+SWEEP_SCRIPT = """\
+* sweep commands sourced by the testbench's .control block
+let vstart = 0
+let vstop = 1.8
+alter v1 dc = 0.9
+alterparam rl = 2k
+meas tran tdel trig v(in) val=0.9 rise=1 targ v(out) val=0.9 fall=1
+let x = v(out)
+plot v(out) v(in)
+wrdata out.txt v(out)
+meas tran t2 when v(out)=0.5
+"""
+
+
+def test_a_control_script_is_read_as_commands_not_as_circuit():
+    # ngspice-39 runs these lines as commands ('meas' is a measurement, not a MOSFET
+    # named 'meas'), so none is an element, a parse error or a duplicate name
+    report = check_text(SWEEP_SCRIPT, "sweep.spice")
+    assert [f.rule for f in report.findings] == []
+    assert not list(parse_text(SWEEP_SCRIPT).top.elements)
+
+
+def test_a_circuit_with_a_few_command_like_names_stays_a_circuit():
+    deck = "t\nset1 a 0 c 0 sw\nrun1 a 0 1k\nV1 a 0 1\nVc c 0 1\n.model sw sw\n.end\n"
+    assert len(list(parse_text(deck).top.elements)) == 4
+
+
+# -- 3. cascades: one cause, one finding -------------------------------------------------
+# an xschem testbench whose PDK lives on the author's machine (absolute and home paths)
+TESTBENCH_WITHOUT_PDK = """\
+** sch_path: /home/user/tb_amp.sch
+**.subckt tb_amp
+V1 vdd 0 1.8
+V2 in 0 0.9
+x1 vdd out in 0 amp
+x2 vdd out2 in 0 amp
+x3 out2 0 bias_cell
+R1 out 0 {rload}
+R2 out2 0 {rload}
+.lib /nowhere/pdks/sky130A/libs.tech/combined/sky130.lib.spice tt
+.include /nowhere/pdks/sky130A/libs.ref/sky130_fd_sc_hd/spice/sky130_fd_sc_hd.spice
+.include /nowhere/pdks/sky130A/libs.tech/ngspice/corners/tt/specialized_cells.spice
+.end
+"""
+
+
+def test_an_unread_pdk_library_is_one_warning_with_its_consequences():
+    findings = check_text(TESTBENCH_WITHOUT_PDK, "tb.spice").findings
+    assert [f.severity.label for f in findings if f.severity.label != "info"] == ["warning"]
+    (cause,) = [f for f in findings if f.rule == "bad-include"]
+    assert cause.subject == "/nowhere/pdks/sky130A" and cause.values["files"] == 3
+    assert len(cause.related) == 2
+    # 2 cells used 3 times, 1 parameter used twice
+    assert (cause.values["undefined_cells"], cause.values["undefined_params"],
+            cause.values["uses"]) == (2, 1, 5)
+    consequences = Counter(f.rule for f in findings if f.severity.label == "info")
+    assert consequences["unknown-cell"] == 1 and consequences["undefined-param"] == 1
+
+
+def test_one_floating_body_is_one_finding_not_three():
+    deck = "t\nV1 vdd 0 1.8\nV2 g 0 0.9\nR1 vdd d 10k\nM1 d g 0 bx nch\n.model nch nmos\n.end\n"
+    assert [(f.rule, f.subject) for f in loud(deck)] == [("body-tie", "m1")]
+
+
+def test_unknown_cells_are_one_finding_per_cell_and_name():
+    deck = ("t\nV1 vdd 0 1.8\n" + "".join(f"X{i} vdd n{i} 0 amp\nR{i} n{i} 0 1k\n" for i in range(6))
+            + ".end\n")
+    (found,) = [f for f in loud(deck) if f.rule == "unknown-cell"]
+    assert found.values["count"] == 6 and len(found.related) == 5
+
+
+# -- 4. layout dummies --------------------------------------------------------------------
+# a schematic export with dummies drawn for matching (d = g = s on a rail or a net)
+# and a dummy resistor and capacitor with both ends on one net
+WITH_DUMMIES = """\
+** sch_path: /home/user/mirror.sch
+.subckt mirror vdd vss iref iout
+XM1 iref iref vss vss sky130_fd_pr__nfet_01v8 L=1 W=2 nf=1 m=1
+XM2 iout iref vss vss sky130_fd_pr__nfet_01v8 L=1 W=2 nf=1 m=1
+XM3 vss vss vss vss sky130_fd_pr__nfet_01v8 L=1 W=2 nf=1 m=2
+XM4 iref iref iref vss sky130_fd_pr__nfet_01v8 L=1 W=2 nf=1 m=1
+XR1 vss vss vss sky130_fd_pr__res_high_po_0p35 L=8.4 mult=1 m=1
+XC1 vdd vdd sky130_fd_pr__cap_mim_m3_1 W=10 L=10 m=1
+.ends
+"""
+
+
+def test_layout_dummies_are_one_info_per_cell():
+    findings = check_text(WITH_DUMMIES, "mirror.spice").findings
+    shorted = [f for f in findings if f.rule == "shorted-device"]
+    assert [(f.severity.label, f.values["count"]) for f in shorted] == [("info", 3)]
+
+
+def test_a_plain_card_with_a_terminal_typed_twice_is_still_a_warning():
+    deck = "t\nV1 vdd 0 1.8\nR1 vdd out 10k\nR3 out out 10k\nM4 n1 n1 n1 0 nch\nR4 vdd n1 1k\n" \
+           ".model nch nmos\n.end\n"
+    assert {(f.rule, f.subject) for f in loud(deck) if f.rule == "shorted-device"} == {
+        ("shorted-device", "r3"), ("shorted-device", "m4")}
+
+
+# -- 5. parasitic networks ------------------------------------------------------------------
+def _extracted_cell(stubs: int, floating: int) -> str:
+    """A cell as an RC extractor writes it: the wire of each net as a chain of
+    resistors with coupling capacitors, dead-end stubs, floating fill metal."""
+    lines = ["* extracted by an RC extractor", ".subckt inv_rc a y vdd vss"]
+    lines.append("X0 y.t0 a.t0 vss.t0 vss.t0 sky130_fd_pr__nfet_01v8 w=1 l=0.15")
+    lines.append("X1 y.t1 a.t1 vdd.t0 vdd.t0 sky130_fd_pr__pfet_01v8 w=2 l=0.15")
+    n = 0
+    for net in ("a", "y", "vdd", "vss"):
+        lines.append(f"R{n} {net} {net}.t0 12.5"); n += 1
+        lines.append(f"R{n} {net}.t0 {net}.t1 8.25"); n += 1
+        for k in range(5):
+            lines.append(f"C{n} {net}.t{k % 2} vss 0.0{k + 1}f"); n += 1
+    for k in range(stubs):
+        lines.append(f"R{n} y.t1 y.n{k} 3.{k}"); n += 1
+    for k in range(floating):
+        lines.append(f"C{n} m1_{100 + k}_n20# a.t0 0.02f"); n += 1
+        lines.append(f"C{n} m1_{100 + k}_n20# y.t0 0.03f"); n += 1
+    lines.append(".ends")
+    return "\n".join(lines) + "\n"
+
+
+def test_extraction_stubs_and_floating_metal_are_one_info_each_per_cell():
+    findings = check_text(_extracted_cell(stubs=7, floating=4), "inv.pex.spice").findings
+    assert not [f for f in findings if f.severity.label != "info"]
+    by_rule = {f.rule: f for f in findings if f.rule in ("dangling-net", "no-dc-path")}
+    assert by_rule["dangling-net"].values["count"] == 7
+    assert by_rule["no-dc-path"].values["count"] == 4
+
+
+def test_a_hand_drawn_floating_node_is_still_an_error():
+    # Razavi-style series capacitors with nothing at DC in the middle (common practice)
+    deck = "t\nV1 in 0 dc 0 ac 1\nC1 in n3 1p\nC2 n3 0 1p\n.end\n"
+    assert [(f.rule, f.severity.label) for f in loud(deck)] == [("no-dc-path", "error")]
+
+
+# -- 6. include paths as ngspice reads them -------------------------------------------------
+def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
+    # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
+    from lintamp.api import check_file
+    from lintamp.config import Config
+    home = tmp_path / "home"
+    (home / "lib").mkdir(parents=True)
+    (home / "lib" / "m.inc").write_text(".subckt amp a b\nR1 a b 1k\n.ends\n")
+    monkeypatch.setenv("HOME", str(home))
+    (tmp_path / "project").mkdir()
+    deck = tmp_path / "project" / "tb.spice"
+    deck.write_text("t\nV1 a 0 1\nX1 a 0 amp\n.include ~/lib/m.inc\n.end\n")
+    allowed = check_file(deck, Config(), include_paths=[home]).findings
+    assert not [f for f in allowed if f.rule in ("missing-include", "bad-include", "unknown-cell")]
+    outside = check_file(deck, Config()).findings
+    # not read (outside the allowed folders): the same warning as an absolute path
+    assert [(f.rule, f.severity.label) for f in outside if f.rule.endswith("include")] == [
+        ("bad-include", "warning")]
+
+
+def test_dollar_names_stay_placeholders_as_in_ngspice():
+    deck = "t\nV1 a 0 1\n.include '$PDK_ROOT/sky130A/libs.tech/ngspice/sky130.lib.spice'\n.end\n"
+    (found,) = [f for f in check_text(deck).findings if f.rule == "missing-include"]
+    assert found.severity.label == "warning" and "placeholder" in found.message
+
+
+# -- 7. templates ---------------------------------------------------------------------------
+CHARACTERISATION_TEMPLATE = """\
+* characterisation template: the flow writes one deck per condition from it
+.include {DUT_path}
+Vavdd avdd GND DC {Vavdd}
+Vdvdd dvdd GND DC {Vdvdd}
+Vavss avss GND DC {Vavss}
+Vena ena GND DC [{ena}*{Vdvdd}]
+Vtrim0 trim[0] GND DC [{trim[0]}*{Vdvdd}]
+Vtrim1 trim[1] GND DC [{trim[1]}*{Vdvdd}]
+XDUT avdd dvdd avss ena trim[0] trim[1] out dut
+.tran 1n 1u
+"""
+
+
+def test_a_template_full_of_placeholders_is_one_info():
+    findings = check_text(CHARACTERISATION_TEMPLATE, "template.spice").findings
+    params = [f for f in findings if f.rule == "undefined-param"]
+    assert [(f.severity.label, f.values["count"]) for f in params] == [("info", 6)]
+
+
+# -- 8. severities that do not flip -------------------------------------------------------------
+def test_undefined_param_severity_does_not_depend_on_an_unrelated_param():
+    deck = "t\nV1 a 0 1\nR1 a b rval\nR2 b 0 {rtop}\n.end\n"
+    with_param = deck.replace("t\n", "t\n.param unrelated=3\n", 1)
+    def severities(text):
+        return sorted((f.subject, f.severity.label) for f in check_text(text).findings
+                      if f.rule == "undefined-param")
+    assert severities(deck) == severities(with_param)
+
+
+# -- 9. a testbench that powers nothing ---------------------------------------------------------
+def test_testbench_that_powers_nothing_is_a_warning():
+    deck = (".subckt amp in out vdd vss\nR1 vdd out 10k\nM1 out in vss vss nch\n.ends\n"
+            "V1 vin 0 dc 0.9\nX1 vin out vdd 0 amp\nVDDA vdda 0 1.8\n.model nch nmos\n.end\n")
+    found = [(f.rule, f.subject, f.severity.label) for f in check_text("t\n" + deck).findings
+             if f.rule in ("undriven-supply", "dangling-net") and f.severity.label != "info"]
+    assert found == [("undriven-supply", "vdd", "warning")]
+    powered = deck.replace("VDDA vdda", "VDDA vdd")
+    assert not [f for f in check_text("t\n" + powered).findings if f.rule == "undriven-supply"]
