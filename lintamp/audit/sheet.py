@@ -32,9 +32,8 @@ import numpy as np
 
 from lintamp import __version__
 from lintamp.audit import forms
-from lintamp.audit.band import ac_sweep_hz, signal_band
 from lintamp.audit.chain import find_chain
-from lintamp.audit.ports import Port, classify_ports, load_elements
+from lintamp.connectivity.intent import IntentAnalysis, Port, ac_sweep_hz, band_of
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
 
@@ -137,7 +136,8 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     design_full = load_design(netlist, config)
     block = _choose_block(netlist, design_full, config, top)
-    band = signal_band(netlist, block.cell, option=bandwidth, config_value=getattr(config, "bandwidth", None))
+    band = band_of(netlist, [block.cell] if not block.cell.is_top else [], option=bandwidth,
+                   config_value=getattr(config, "bandwidth", None))
 
     result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
     report = decide(result.findings, result.pragmas, config)
@@ -161,10 +161,10 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
         if diag.severity == "error":
             data["notes"].append(f"{diag.location}: {diag.message} (the numbers are computed without it)")
 
-    config_ports = getattr(config, "ports", None) or {}
-    ports = classify_ports(block.circuit, block.cell.pragmas, candidates=block.candidates,
-                           prefix=block.prefix, config_ports=config_ports)
-    loads = load_elements(block.circuit, block.cell.pragmas, prefix=block.prefix, config_ports=config_ports)
+    intent = IntentAnalysis(netlist, block.circuit, config, {"bandwidth": bandwidth}).block(
+        block.cell, block.prefix, block.candidates)
+    ports, loads = intent.ports, intent.loads
+    data["notes"] += intent.notes
     data["loads"] = [n[len(block.prefix):] for n in loads]
     if not ports:
         data["notes"].append("no inputs or outputs found: mark them with '* lintamp: current-input NET', "

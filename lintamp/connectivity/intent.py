@@ -54,9 +54,9 @@ DEFAULT_PATTERNS: dict[str, tuple[str, ...]] = {
 BIAS_NAMES = ("ibias*", "iref*", "ib", "ib?", "ib_*", "vbias*", "vb", "vb?", "vb_*", "bias*",
               "vcasc*", "vcas*", "vref*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
               "pbias*")
-LOGIC_NAMES = ("en", "en?", "enb", "en_*", "*_en", "ena", "enable*", "pd", "pdn", "pwrdn*", "pwdn*",
-               "sel*", "clk*", "*clk", "rst*", "reset*", "latch*", "phi*", "sleep*", "stby*",
-               "standby*", "trim*", "ctrl*", "d?", "q", "qb", "cal*")
+LOGIC_NAMES = ("en", "en?", "enb", "en_*", "*_en", "*_enb", "ena", "enable*", "pwrdn*", "pwdn*",
+               "pdn", "pd_b", "pdb", "sel*", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",
+               "phi?", "phi?b", "sleep*", "stby*", "standby*", "ctrl*")
 SOURCES = ("pragma", "config", "pin direction", "testbench", "name")
 MAX_PREFIXES = 10_000
 

@@ -203,7 +203,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     # inverters: an n and a p unit with one gate and one drain; their nets are logic
     by_ctl_out: dict[tuple, list[_Unit]] = {}
     for u in units:
-        if u.kind in MOS:
+        if u.kind in MOS and u.ctl not in acg and u.out not in acg and u.out != u.com:
             by_ctl_out.setdefault((u.ctl, u.out), []).append(u)
     inverters = {id(u) for group in by_ctl_out.values() if {x.kind for x in group} == set(MOS)
                  for u in group if u.out != u.ctl}
@@ -267,7 +267,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             role = Role.DUMMY  # gate at the rail that keeps it off
         elif mos and id(u) in inverters:
             role = Role.INVERTER
-            related = [o.name for o in by_ctl_out[(ctl, out)] if o is not u]
+            related = [o.name for o in by_ctl_out[(ctl, out)] if o is not u and id(o) in inverters]
         elif mos and any(o.kind != u.kind for o in by_channel.get(frozenset((out, com)), ())):
             role = Role.TRANSMISSION_GATE
             related = [o.name for o in by_channel[frozenset((out, com))] if o.kind != u.kind]
