@@ -52,7 +52,7 @@ DEFAULT_PATTERNS: dict[str, tuple[str, ...]] = {
 # nets that carry bias or logic, not the signal: never a signal port by name or pin
 # direction (common practice)
 BIAS_NAMES = ("ibias*", "iref*", "ib", "ib?", "ib_*", "vbias*", "vb", "vb?", "vb_*", "bias*",
-              "vcasc*", "vcas*", "vref*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
+              "vcasc*", "vcas*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
               "pbias*")
 LOGIC_NAMES = ("en", "en?", "enb", "en_*", "*_en", "*_enb", "ena", "enable*", "pwrdn*", "pwdn*",
                "pdn", "pd_b", "pdb", "sel*", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",
@@ -291,6 +291,13 @@ class Intent:
     loads: list[str] = field(default_factory=list)  # flat element names
     band: SignalBand | None = None
     notes: list[str] = field(default_factory=list)
+    control_nets: dict[int, str] = field(default_factory=dict)  # flat net -> "bias" | "logic"
+
+    def stage_hints(self) -> dict:
+        """Keyword arguments for :func:`lintamp.engine.stages.recognise_stages`."""
+        return {"rails": self.rails,
+                "bias_nets": {n for n, w in self.control_nets.items() if w == "bias"},
+                "logic_nets": {n for n, w in self.control_nets.items() if w == "logic"}}
 
 
 def stimuli(circuit: FlatCircuit, acg: set[int]) -> dict[int, tuple[str, str, str]]:
@@ -450,7 +457,8 @@ class IntentAnalysis:
         except ValueError:
             band = band_of(self.netlist, [cell] if not cell.is_top else [],
                            config_value=getattr(self.config, "bandwidth", None))
-        return Intent(ports, rails, controls, self.loads(cell, prefix), band, notes)
+        control_nets = {idx_of(n): w.split(" ", 1)[0] for n, w in controls.items() if idx_of(n) is not None}
+        return Intent(ports, rails, controls, self.loads(cell, prefix), band, notes, control_nets)
 
     def loads(self, cell, prefix: str = "") -> list[str]:
         """Flat names of the elements that are the load: a ``load`` pragma, the load

@@ -191,7 +191,26 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
                 caps_to_acg.add(a)
     units = _composites(trans, terminals)
     diode_nets = {u.out for u in units if u.out == u.ctl}
+    # a mirror reference through its cascode: the gate is the drain of a device that
+    # stands on this device's drain (a cascode or wide-swing mirror)
+    by_com_out: dict[tuple, list[_Unit]] = {}
+    for u in units:
+        by_com_out.setdefault((u.com, u.out), []).append(u)
+    cascoded_refs = {id(u) for u in units if u.out != u.ctl and u.com in acg
+                     and any(c is not u for c in by_com_out.get((u.out, u.ctl), ()))}
+    diode_nets |= {u.ctl for u in units if id(u) in cascoded_refs}
+    cascoded_by_pins: dict[tuple, list[str]] = {}
+    for u in units:
+        if id(u) in cascoded_refs:
+            cascoded_by_pins.setdefault((u.kind, u.ctl, u.com), []).append(u.name)
     bias = set(bias_nets) | diode_nets | (caps_to_acg - driven)
+    # a source or emitter bypassed to AC ground by a capacitor, with only resistors and
+    # capacitors besides: AC ground for the stage's role
+    passive_only: Counter = Counter()
+    for d in circuit.devices:
+        if d.kind not in ("resistor", "capacitor"):
+            passive_only.update(set(d.nodes[:3] if d.kind in MOS + BJT else d.nodes[:2]))
+    bypassed = {n for n in caps_to_acg if passive_only[n] == 1}
     logic = set(logic_nets)
     index = getattr(circuit, "_index", None) or {}
     for name, idx in index.items():
@@ -200,13 +219,17 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             bias.add(idx)
         elif what == "logic":
             logic.add(idx)
-    # inverters: an n and a p unit with one gate and one drain; their nets are logic
+    # inverters: an n and a p unit with one gate and one drain; their nets are logic,
+    # unless two inverters drive each other (a latch: a cross-coupled pair)
     by_ctl_out: dict[tuple, list[_Unit]] = {}
     for u in units:
         if u.kind in MOS and u.ctl not in acg and u.out not in acg and u.out != u.com:
             by_ctl_out.setdefault((u.ctl, u.out), []).append(u)
     inverters = {id(u) for group in by_ctl_out.values() if {x.kind for x in group} == set(MOS)
                  for u in group if u.out != u.ctl}
+    inverter_io = {(u.ctl, u.out) for u in units if id(u) in inverters}
+    latched = {id(u) for u in units if id(u) in inverters and (u.out, u.ctl) in inverter_io}
+    inverters -= latched
     for u in units:
         if id(u) in inverters:
             logic.update((u.ctl, u.out))
@@ -245,6 +268,11 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     def on_rail(net: int, level: str) -> bool:
         return levels.get(net) == level
 
+    def pair_gate(net: int) -> bool:
+        """A gate that may carry an input: not a bias line, not a supply or ground (a net
+        a testbench holds at the common mode may: the pair is used single-ended)."""
+        return net not in bias and levels.get(net) not in ("high", "low") and net not in logic
+
     roles: dict[int, tuple[Role, list[str]]] = {}
     for u in units:
         out, ctl, com = u.out, u.ctl, u.com
@@ -253,7 +281,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         off_level = "low" if on_level == "high" else "high"
         related: list[str] = []
         if out == com:
-            if ctl == out or (ctl in acg and com in acg):
+            if ctl == out or on_rail(ctl, off_level):
                 role = Role.DUMMY if mos else Role.SHORTED
             else:
                 role = Role.MOS_CAPACITOR if mos else Role.SHORTED
@@ -265,6 +293,9 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             role = Role.DUMMY  # V_GS = 0 on a rail: never on
         elif mos and on_rail(ctl, off_level) and (com in acg or out in acg):
             role = Role.DUMMY  # gate at the rail that keeps it off
+        elif id(u) in latched:
+            role = Role.CROSS_COUPLED
+            related = [o.name for o in by_ctl_out.get((out, ctl), ()) if id(o) in latched]
         elif mos and id(u) in inverters:
             role = Role.INVERTER
             related = [o.name for o in by_ctl_out[(ctl, out)] if o is not u and id(o) in inverters]
@@ -277,8 +308,16 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             role = Role.MOS_RESISTOR  # gate on the rail that keeps it on: a triode resistance
         else:
             refs = [o.name for o in diodes.get((u.kind, ctl, com), ())]
-            if refs:
-                role, related = Role.MIRROR_OUTPUT, refs
+            pair = [] if com in acg or not pair_gate(ctl) else [
+                o for o in partners(u) if pair_gate(o.ctl) and (ctl not in quiet or o.ctl not in quiet)]
+            if id(u) in cascoded_refs:
+                role = Role.MIRROR_REFERENCE
+                related = [o.name for o in by_common.get((u.kind, com), ()) if o.ctl == ctl and o is not u]
+            elif refs or (u.kind, ctl, com) in cascoded_by_pins:
+                role = Role.MIRROR_OUTPUT
+                related = refs or cascoded_by_pins[(u.kind, ctl, com)]
+            elif pair:
+                role, related = Role.DIFFERENTIAL_PAIR, [o.name for o in pair]
             elif ctl in quiet and com in acg:
                 role = Role.CURRENT_SOURCE
             elif ctl in quiet:
@@ -292,13 +331,10 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             elif out in acg and com not in acg:
                 role = Role.SOURCE_FOLLOWER if mos else Role.EMITTER_FOLLOWER
             else:
-                pair = [] if com in acg else [o for o in partners(u) if o.ctl not in quiet]
                 cross = [o for o in by_common.get((u.kind, com), ()) if o.ctl == out and o.out == ctl]
                 if cross:
                     role, related = Role.CROSS_COUPLED, [o.name for o in cross]
-                elif pair:
-                    role, related = Role.DIFFERENTIAL_PAIR, [o.name for o in pair]
-                elif com in acg:
+                elif com in acg or com in bypassed:
                     role = Role.COMMON_SOURCE if mos else Role.COMMON_EMITTER
                 else:
                     role = Role.COMMON_SOURCE_DEGENERATED if mos else Role.COMMON_EMITTER_DEGENERATED
