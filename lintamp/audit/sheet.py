@@ -177,7 +177,7 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     data["operating_point"] = source
     data["notes"] += op_notes
     curves: list[Curve] = []
-    stages = _stages(block, op)
+    stages = _stages(block, op, intent)
     data["stages"] = stages
     if op is None and any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
         data["notes"].append("no numbers: the operating point could not be had, so impedances and gains "
@@ -212,14 +212,16 @@ def _operating_point(circuit, table):
         return None, "assumed", [f"no operating point: {exc}"]
 
 
-def _stages(block: _Block, op) -> list[dict]:
-    from lintamp.engine.stages import recognise_stages
+def _stages(block: _Block, op, intent) -> list[dict]:
+    from lintamp.engine.stages import composite_stages, recognise_stages
 
     out = []
-    for st in recognise_stages(block.circuit, op):
+    for st in composite_stages(recognise_stages(block.circuit, op, **intent.stage_hints())):
         if not st.device.startswith(block.prefix):
             continue
-        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": st.role,
+        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": str(st.role),
+               "label": st.label[len(block.prefix):] if st.label.startswith(block.prefix) else st.label,
+               "units": [u[len(block.prefix):] for u in st.units],
                "related": [r[len(block.prefix):] if r.startswith(block.prefix) else r for r in st.related],
                "region": st.region or None, "gm_s": st.gm_s,
                "ro_ohm": st.ro_ohm if st.ro_ohm is None or math.isfinite(st.ro_ohm) else None,

@@ -292,6 +292,7 @@ class Intent:
     band: SignalBand | None = None
     notes: list[str] = field(default_factory=list)
     control_nets: dict[int, str] = field(default_factory=dict)  # flat net -> "bias" | "logic"
+    input_nets: list[int] = field(default_factory=list)  # flat nets of the input ports
 
     def stage_hints(self) -> dict:
         """Keyword arguments for :func:`lintamp.engine.stages.recognise_stages`."""
@@ -458,7 +459,8 @@ class IntentAnalysis:
             band = band_of(self.netlist, [cell] if not cell.is_top else [],
                            config_value=getattr(self.config, "bandwidth", None))
         control_nets = {idx_of(n): w.split(" ", 1)[0] for n, w in controls.items() if idx_of(n) is not None}
-        return Intent(ports, rails, controls, self.loads(cell, prefix), band, notes, control_nets)
+        inputs = [i for i in (circuit.find_net(p.circuit_net) for p in ports if p.is_input) if i is not None]
+        return Intent(ports, rails, controls, self.loads(cell, prefix), band, notes, control_nets, inputs)
 
     def loads(self, cell, prefix: str = "") -> list[str]:
         """Flat names of the elements that are the load: a ``load`` pragma, the load

@@ -197,13 +197,27 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     for u in units:
         by_com_out.setdefault((u.com, u.out), []).append(u)
     cascoded_refs = {id(u) for u in units if u.out != u.ctl and u.com in acg
-                     and any(c is not u for c in by_com_out.get((u.out, u.ctl), ()))}
+                     and any(c is not u and c.out != c.ctl for c in by_com_out.get((u.out, u.ctl), ()))}
     diode_nets |= {u.ctl for u in units if id(u) in cascoded_refs}
     cascoded_by_pins: dict[tuple, list[str]] = {}
     for u in units:
         if id(u) in cascoded_refs:
             cascoded_by_pins.setdefault((u.kind, u.ctl, u.com), []).append(u.name)
-    bias = set(bias_nets) | diode_nets | (caps_to_acg - driven)
+    # a diode net carries the signal when an amplifying device drives it (a preamp's diode
+    # load); it is a quiet bias line when only sources, mirrors and bias devices do
+    signal_gates = {u.ctl for u in units if u.ctl not in acg and u.ctl not in diode_nets
+                    and u.out != u.ctl}
+    loud = {u.out for u in units if u.out != u.ctl and u.ctl in signal_gates}
+    # one gate line shared by devices on different, non-rail sources, touching nothing
+    # else: a cascode bias line (a signal input drives one device or one pair)
+    gate_users: dict[int, set[int]] = {}
+    for u in units:
+        if u.com not in acg and u.out != u.ctl:
+            gate_users.setdefault(u.ctl, set()).add(u.com)
+    gate_terminals = Counter(u.ctl for u in units for _ in u.devices)
+    shared_lines = {n for n, coms in gate_users.items()
+                    if len(coms) >= 2 and terminals[n] == gate_terminals[n] and n not in acg}
+    bias = set(bias_nets) | (diode_nets - loud) | (caps_to_acg - driven) | shared_lines
     # a source or emitter bypassed to AC ground by a capacitor, with only resistors and
     # capacitors besides: AC ground for the stage's role
     passive_only: Counter = Counter()
