@@ -183,6 +183,9 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
         data["notes"].append("no numbers: the operating point could not be had, so impedances and gains "
                              "are not computed (roles are from the topology)")
         data["ports"] = [_port_stub(p) for p in ports]
+        from lintamp.engine.stage_paths import block_paths
+        data["paths"], path_notes = block_paths(block.circuit, intent)
+        data["notes"] += path_notes
     else:
         solves = Solves(block.circuit, op)
         try:

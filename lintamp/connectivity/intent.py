@@ -350,6 +350,7 @@ class IntentAnalysis:
         self.acg = ac_ground(circuit)
         self.stimuli = stimuli(circuit, self.acg)
         self._rails: dict[int, str] | None = None
+        self.gate_lines = _shared_gate_lines(circuit, self.rails())
         self.observed = {i for i in (circuit.find_net(n) for n in getattr(netlist, "observed", ()))
                          if i is not None}
 
@@ -404,6 +405,9 @@ class IntentAnalysis:
                     g = matches(net, globs)
                     if g:
                         add(net, kind, "config", f"config [ports] {kind} {g!r}")
+        for net in ordered:
+            if idx_of(net) in self.gate_lines and net not in chosen:
+                controls[net] = "bias (one gate line for devices on different sources: a cascode bias)"
         for net in ordered:
             d = pins.get(net)
             if d in ("i", "o"):
@@ -476,6 +480,22 @@ class IntentAnalysis:
             if local and "/" not in local and matches(local, globs):
                 out.append(dev.name)
         return sorted(set(out))
+
+
+def _shared_gate_lines(circuit: FlatCircuit, rails) -> set[int]:
+    """Nets only MOS gates touch, of two or more devices standing on different sources
+    that are not rails: a cascode bias line (a signal input drives one device or one
+    pair).  O(devices)."""
+    other: set[int] = set()
+    sources: dict[int, set[int]] = {}
+    for dev in circuit.devices:
+        if dev.kind in ("nmos", "pmos"):
+            other.update((dev.nodes[0], dev.nodes[2]))
+            sources.setdefault(dev.nodes[1], set()).add(dev.nodes[2])
+        else:
+            other.update(dev.nodes)
+    return {n for n, coms in sources.items()
+            if n not in other and n not in rails and len(coms) >= 2 and not (coms & set(rails))}
 
 
 def instance_prefixes(design) -> list[tuple[str, object]]:
