@@ -464,7 +464,7 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             if form is not None:
                 entry["formula"], entry["formula_value"], terms = form
                 entry["terms"] = forms.clean_terms(terms)
-                if entry["formula_value"] is not None:
+                if entry["formula_value"] is not None and product_value is not None:
                     product_value *= entry["formula_value"]
                     product_formula.append(entry["formula"])
                 else:

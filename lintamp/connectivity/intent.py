@@ -488,14 +488,20 @@ def _shared_gate_lines(circuit: FlatCircuit, rails) -> set[int]:
     pair).  O(devices)."""
     other: set[int] = set()
     sources: dict[int, set[int]] = {}
+    drains: dict[int, set[int]] = {}
     for dev in circuit.devices:
         if dev.kind in ("nmos", "pmos"):
             other.update((dev.nodes[0], dev.nodes[2]))
             sources.setdefault(dev.nodes[1], set()).add(dev.nodes[2])
+            drains.setdefault(dev.nodes[1], set()).add(dev.nodes[0])
         else:
             other.update(dev.nodes)
-    return {n for n, coms in sources.items()
-            if n not in other and n not in rails and len(coms) >= 2 and not (coms & set(rails))}
+    out = set()
+    for n, coms in sources.items():
+        coms = coms - drains.get(n, set())  # a series stack of units stands on one source
+        if n not in other and n not in rails and len(coms) >= 2 and not (coms & set(rails)):
+            out.add(n)
+    return out
 
 
 def instance_prefixes(design) -> list[tuple[str, object]]:

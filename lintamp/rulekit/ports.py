@@ -234,10 +234,55 @@ class PortFinder:
                 continue  # named like an output, but only current sources drive it
             location = port.location or self.first_location(net, prefix)
             loads, load_why = self.loads_of(net, port.circuit_net, load_globs, pragma_loads)
+            if not loads:
+                loads, load_why = self.behind_coupling(net)
             if loads:
                 found[net] = PortNet(net, port.circuit_net, port.decided_by, location, view, sorted(loads),
                                      "; ".join(load_why))
+        for net, cap in self.coupled_loads():
+            if net in found or any(n in found for n in cap.nodes[:2]):
+                continue  # the output is already judged after its coupling capacitor
+            loads, load_why = self.loads_of(net, self.circuit.nets[net], load_globs, pragma_loads)
+            if loads:
+                found[net] = PortNet(net, self.circuit.nets[net],
+                                     f"testbench: it drives a load through coupling capacitor {cap.name}",
+                                     cap.location, self.view_of(cap.name), sorted(loads), "; ".join(load_why))
         return sorted(found.values(), key=lambda p: p.name)
+
+    def coupled_loads(self) -> list[tuple[int, FlatDevice]]:
+        """(drain or collector net, capacitor) where a capacitor couples a transistor's
+        output into a passive network that ends at AC ground with a resistor in it (a
+        line or an earpiece): that transistor output is a voltage output."""
+        out = []
+        for dev in self.circuit.devices:
+            if dev.kind != "capacitor" or len(dev.nodes) < 2:
+                continue
+            for near in dev.nodes[:2]:
+                if near in self.ac_ground:
+                    continue
+                if not any(d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[0] == near
+                           for d in self.on_net.get(near, ())):
+                    continue
+                chain = self.passive_chain(near, dev)
+                if chain and any(d.kind == "resistor" for n in chain for d in self.on_net.get(n, ())):
+                    out.append((near, dev))
+        return out
+
+    def behind_coupling(self, net: int) -> tuple[set[str], list[str]]:
+        """An output taken after a coupling capacitor: the passive elements from it to AC
+        ground are the load, and the stage behind the capacitor drives it."""
+        caps = [d for d in self.on_net.get(net, ()) if d.kind == "capacitor"
+                and any(n not in self.ac_ground and n != net for n in d.nodes[:2])]
+        if not caps:
+            return set(), []
+        loads, why = set(), []
+        for dev in self.on_net.get(net, ()):
+            if dev in caps or dev.kind not in PASSIVE:
+                continue
+            if self.passive_chain(net, dev) is not None:
+                loads.add(dev.name)
+                why.append(f"{dev.name}: to AC ground behind coupling capacitor {caps[0].name}")
+        return loads, why
 
     def is_current_output(self, net: int) -> bool:
         """Only mirror outputs, fixed-bias current sources or cascodes drive the net:
@@ -269,7 +314,7 @@ class PortFinder:
                         return True
                     if dev.kind in ("vcvs", "vccs", "cccs", "ccvs") and (any_terminal or net in dev.nodes[:2]):
                         return True
-                    if dev.kind in ("resistor", "inductor"):
+                    if dev.kind in ("resistor", "inductor", "capacitor"):  # a coupling capacitor too
                         nxt.update(n for n in dev.nodes[:2] if n not in seen and n not in self.ac_ground)
             seen |= nxt
             frontier = nxt
