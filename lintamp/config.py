@@ -456,7 +456,7 @@ def load_config(path: Path | None, *, isolated: bool = False, start: Path,
 
 _TOP_KEYS = ("include", "exclude", "select", "ignore", "fail-on", "bandwidth", "include-paths",
              "severity", "per-file-ignores", "devices", "thresholds", "ports")
-PORT_KINDS = ("voltage-output", "current-input", "load")
+PORT_KINDS = ("voltage-output", "current-input", "voltage-input", "current-output", "load", "supply", "ground")
 
 
 def parse_config(data: dict, *, source: Path, prefix: str = "",
