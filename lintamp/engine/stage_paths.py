@@ -25,6 +25,7 @@ GATE_TO_DRAIN = (Role.COMMON_SOURCE, Role.COMMON_SOURCE_DEGENERATED, Role.COMMON
                  Role.MIRROR_OUTPUT, Role.CROSS_COUPLED)
 SOURCE_TO_DRAIN = (Role.COMMON_GATE, Role.COMMON_BASE, Role.CASCODE)
 FOLLOWERS = (Role.SOURCE_FOLLOWER, Role.EMITTER_FOLLOWER)
+ENTRY_WORDS = {"gd": "gate", "gs": "gate", "sd": "source", "ch": "channel", "ctl": "control", "p": "terminal"}
 CHANNEL = (Role.SWITCH, Role.TRANSMISSION_GATE, Role.MOS_RESISTOR)
 
 
@@ -192,7 +193,7 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
                 terms = [f"r_o{tag(partner)}", f"r_o{tag(nxt[2])}"]
                 out.append({"device": label, "role": "differential pair into a mirror load",
                             "from": names[a], "to": names[nxt[1]],
-                            "form": f"g_m{t} {_par(terms)}"})
+                            "form": f"g_m{t} {_par(terms)}", "enters_at": "gate"})
                 k += 2
                 continue
             load = [f"r_o{t}"] + z.at(b, skip=(device,))
@@ -211,7 +212,8 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
             form = f"gain of {device}"
         else:
             form = ""  # a passive element: part of the next stage's load
-        out.append({"device": label, "role": role, "from": names[a], "to": names[b], "form": form})
+        out.append({"device": label, "role": role, "from": names[a], "to": names[b], "form": form,
+                    "enters_at": ENTRY_WORDS.get(how, "")})
         k += 1
     return out
 
@@ -230,4 +232,20 @@ def block_paths(circuit: FlatCircuit, intent, op=None) -> tuple[list[dict], list
         missing = "inputs" if not inputs else "outputs"
         return [], [f"no signal path: no {missing} found (mark them with pragmas, *.PININFO pin "
                     "directions or a testbench source)"]
-    return paths_by_inspection(circuit, stages, acg, inputs, outputs)
+    rows, notes = paths_by_inspection(circuit, stages, acg, inputs, outputs)
+    signal = {p.net: p.signal for p in intent.ports}
+    for row in rows:  # the shape of a path with numbers, the numbers left out
+        kind, unit = GAIN_UNITS[(signal[row["from"]], signal[row["to"]])]
+        row.update(kind=kind, gain={"mag": None, "unit": unit, "freq_hz": 0.0}, f3db_hz=None,
+                   poles_hz=None, formula_value=None, interfaces=[], by_inspection=True,
+                   notes=["by inspection: no operating point, so the forms are in symbols"])
+        for hop in row["chain"]:
+            hop.update(enters_at=hop.pop("enters_at", ""), gain={"mag": None, "unit": "V/V"},
+                       formula=hop.get("form"), formula_value=None)
+    return rows, notes
+
+
+GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
+              ("voltage", "voltage"): ("voltage gain", "V/V"),
+              ("current", "current"): ("current gain", "A/A"),
+              ("voltage", "current"): ("transconductance", "S")}
