@@ -143,6 +143,9 @@ def _judge(ctx, numbers, finder, port, margin, max_ohm):
                       + ("the node capacitance is unknown)" if band else "the signal band is unknown)"))
     expl = numbers.explain(port.name, freq_hz, detach)
     steps = [f"{port.local} is a current input: {port.why}"]
+    path = finder.path_words(port.net, toward_output=False)
+    if path:
+        steps.append(path)
     steps += looking_into_steps(expl, port.local, detach)
     if c_farad > 0:
         parts = [*(f"{n}" for n in cap_names), *(f"model capacitance of {n}" for n in dev_names)]

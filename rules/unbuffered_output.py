@@ -156,6 +156,9 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     expl = numbers.explain(port.name, freq_hz, port.detach)
     steps = [f"{port.local} is a voltage output: {port.why}",
              "its load: " + port.load_why]
+    path = finder.path_words(port.net, toward_output=True)
+    if path:
+        steps.append(path)
     steps += looking_into_steps(expl, port.local, port.detach)
     steps += [p[1] for p in problems]
     steps.append("band: " + (f"{si(band.hz, 'Hz')} from the {band.source}" if band else

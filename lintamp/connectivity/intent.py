@@ -52,7 +52,7 @@ DEFAULT_PATTERNS: dict[str, tuple[str, ...]] = {
 # nets that carry bias or logic, not the signal: never a signal port by name or pin
 # direction (common practice)
 BIAS_NAMES = ("ibias*", "iref*", "ib", "ib?", "ib_*", "vbias*", "vb", "vb?", "vb_*", "bias*",
-              "vcasc*", "vcas*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
+              "vcasc*", "vcas*", "vbcas*", "vbc?", "vbc_*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
               "pbias*")
 LOGIC_NAMES = ("en", "en?", "enb", "en_*", "*_en", "*_enb", "ena", "enable*", "pwrdn*", "pwdn*",
                "pdn", "pd_b", "pdb", "sel*", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",

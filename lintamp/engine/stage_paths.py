@@ -212,8 +212,11 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
             form = f"gain of {device}"
         else:
             form = ""  # a passive element: part of the next stage's load
+        entry = ENTRY_WORDS.get(how, "")
+        if dev is not None and dev.kind in ("npn", "pnp"):
+            entry = {"gate": "base", "source": "emitter"}.get(entry, entry)
         out.append({"device": label, "role": role, "from": names[a], "to": names[b], "form": form,
-                    "enters_at": ENTRY_WORDS.get(how, "")})
+                    "enters_at": entry})
         k += 1
     return out
 

@@ -305,7 +305,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             related = outs
         elif mos and ctl == com and com in acg:
             role = Role.DUMMY  # V_GS = 0 on a rail: never on
-        elif mos and on_rail(ctl, off_level) and (com in acg or out in acg):
+        elif mos and on_rail(ctl, off_level):
             role = Role.DUMMY  # gate at the rail that keeps it off
         elif id(u) in latched:
             role = Role.CROSS_COUPLED

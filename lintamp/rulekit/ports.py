@@ -249,6 +249,31 @@ class PortFinder:
                                      cap.location, self.view_of(cap.name), sorted(loads), "; ".join(load_why))
         return sorted(found.values(), key=lambda p: p.name)
 
+    def path_words(self, net: int, toward_output: bool = True) -> str | None:
+        """The signal path by inspection that reaches ``net`` from an input (or leaves it
+        for an output), in words for a finding's reasoning; None without one."""
+        from lintamp.engine.stage_paths import paths_by_inspection
+
+        ports = {}
+        for _, _, p in self.declared():
+            idx = self.circuit.find_net(p.circuit_net)
+            if idx is not None and idx != net:
+                ports.setdefault((p.is_input, idx), p.circuit_net)
+        here = [(self.circuit.nets[net], net)]
+        ends = [(name, idx) for (is_input, idx), name in ports.items() if is_input == toward_output]
+        if not ends:
+            return None
+        inputs, outputs = (ends, here) if toward_output else (here, ends)
+        acg = self.intent.acg | set(self.intent.rails())  # a signal source is no AC ground here
+        rows, _ = paths_by_inspection(self.circuit, list(self.roles.values()), acg, inputs[:4], outputs[:4],
+                                      limit=1)
+        if not rows:
+            return None
+        row = rows[0]
+        steps = " → ".join(f"{h['device']} ({h['role']}) → {h['to']}" for h in row["chain"])
+        return f"signal path: {row['from']} → {steps}" + (f"; by inspection {row['formula']}"
+                                                            if row["formula"] else "")
+
     def coupled_loads(self) -> list[tuple[int, FlatDevice]]:
         """(drain or collector net, capacitor) where a capacitor couples a transistor's
         output into a passive network that ends at AC ground with a resistor in it (a
