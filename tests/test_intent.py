@@ -115,3 +115,66 @@ def test_check_impedance_and_audit_agree_on_the_ports():
         assert check == audit, path
         compared += 1
     assert compared >= 5
+
+
+def test_pininfo_is_kept_on_the_cell_with_buses():
+    netlist = parse_text("* t\n.subckt a x y s<1> s<0> g\n*.PININFO x:I y:O s[1:0]:I g:B\nr1 x y 1k\n.ends\n",
+                         "t.sp")
+    cell = next(c for c in netlist.all_cells() if c.name == "a")
+    assert cell.pin_info["x"] == "i" and cell.pin_info["y"] == "o" and cell.pin_info["g"] == "b"
+    assert cell.pin_info["s<1>"] == cell.pin_info["s<0>"] == "i"
+
+
+def _audit(path: Path, top=None) -> dict:
+    args = [sys.executable, "-m", "lintamp", "audit", str(path), "--format", "json"]
+    if top:
+        args += ["--top", top]
+    out = subprocess.run(args, capture_output=True, text=True, cwd=REPO, timeout=300)
+    return json.loads(out.stdout)
+
+
+def test_every_labelled_deck_with_an_ac_stimulus_gets_its_path_from_the_right_input():
+    # the inputs are the nets the testbench's AC sources drive (ngspice-39 AC analysis
+    # drives exactly these); the output is the net the deck prints or declares
+    expected = {"ota_tb.sp": ("inp", "out"), "tia_tb.sp": ("pin", "out"), "ce_line.sp": ("sig", "line")}
+    for deck, (src, dst) in expected.items():
+        data = _audit(ROLES / deck)
+        paths = [(p["from"], p["to"]) for p in data["paths"]]
+        assert paths == [(src, dst)], deck
+        assert data["band"]["freq_hz"] is None  # the .ac stop is no band
+
+
+def test_corpus_testbenches_get_paths_from_both_inputs():
+    corpus = REPO.parent / "shared" / "corpus" / "ALIGN-analoglayout__ALIGN-public" / "CircuitsDatabase" \
+        / "Sized_Netlists" / "Low_frequency_analog"
+    if not corpus.is_dir():
+        import pytest
+        pytest.skip(f"corpus not found at {corpus}")
+    for deck in ("Current_mirror_OTA/current_mirror_ota.sp",
+                 "Cascode_current_mirror_OTA/cascode_current_mirror_ota.sp"):
+        data = _audit(corpus / deck)
+        assert {(p["from"], p["to"]) for p in data["paths"]} == {("vinn", "voutp"), ("vinp", "voutp")}
+
+
+def test_cells_without_numbers_get_paths_by_inspection():
+    data = _audit(ROLES / "miller_ota.sp", "miller_ota")
+    forms = {p["from"]: p["formula"] for p in data["paths"]}
+    # Razavi 2nd ed. sec. 10.2 (two-stage op amp): g_m1 (r_o2 || r_o4), then g_m6 (r_o6 || r_o7)
+    assert forms["inp"] == "g_m1 (r_o2 ∥ r_o4), then g_m6 (r_o6 ∥ r_o18)"
+    stages = {s["label"]: s["role"] for s in data["stages"]}
+    assert stages["m18..m29 (12 units)"] == "current-mirror output"
+    assert not any(s["device"] == "m19" for s in data["stages"])  # a composite is listed once
+    bgr = _audit(ROLES / "bandgap.sp", "bgr_core")
+    assert bgr["paths"] == [] and any("no signal path" in n for n in bgr["notes"])
+
+
+def test_unbuffered_output_judges_a_coupled_line():
+    # a common-emitter stage (R_out ~ R_C = 4.7 kohm) into 600 ohm through 100 uF loses
+    # 1 - 600/(600 + 4.39k) = 88 % (voltage divider, common practice)
+    from lintamp.api import check_text
+
+    text = (ROLES / "ce_line.sp").read_text()
+    for deck, subject in ((text, "line"), (text.replace("* lintamp: voltage-output line\n", ""), "c")):
+        found = [f for f in check_text(deck, "ce.sp").findings if f.rule == "unbuffered-output"]
+        assert [f.subject for f in found] == [subject]
+        assert abs(found[0].values["loss"] - 0.88) < 0.01
