@@ -164,6 +164,8 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     intent = IntentAnalysis(netlist, block.circuit, config, {"bandwidth": bandwidth}).block(
         block.cell, block.prefix, block.candidates)
     ports, loads = intent.ports, intent.loads
+    data["rails"] = [{"net": n, "decided_by": why} for n, why in intent.rail_nets.items()]
+    data["controls"] = [{"net": n, "decided_by": why} for n, why in intent.controls.items()]
     data["notes"] += intent.notes
     data["loads"] = [n[len(block.prefix):] for n in loads]
     if not ports:

@@ -235,7 +235,16 @@ def flat_rails(circuit: FlatCircuit, config=None, globals_=(), bidirectional=())
             if name in globals_:
                 rails[idx] = f"{name} is a .global net"
                 break
-    # nets only sources, bodies and capacitors touch: what bodies tie to, or a B pin
+    body, active, other = _touches(circuit)
+    for idx in body - active - other:
+        rails.setdefault(idx, "bodies tie to it")
+    add_bidirectional(rails, circuit, bidirectional, active, other)
+    return rails
+
+
+def _touches(circuit: FlatCircuit) -> tuple[set[int], set[int], set[int]]:
+    """(nets MOS bodies tie to, nets a transistor's drain/gate/collector/base touches,
+    nets another element than a capacitor or V source touches)."""
     body, active, other = set(), set(), set()
     for dev in circuit.devices:
         if dev.kind in TRANSISTORS:
@@ -244,14 +253,17 @@ def flat_rails(circuit: FlatCircuit, config=None, globals_=(), bidirectional=())
                 body.add(dev.nodes[3])
         elif dev.kind not in ("capacitor", "vsource"):
             other.update(dev.nodes[:2])
-    for idx in body - active - other:
-        rails.setdefault(idx, "bodies tie to it")
-    for name in bidirectional:
+    return body, active, other
+
+
+def add_bidirectional(rails: dict[int, str], circuit: FlatCircuit, names, active, other) -> None:
+    """A pin a schematic export marks B is a rail when only sources, bodies and
+    capacitors touch it."""
+    for name in names:
         idx = circuit.find_net(name)
         if idx is not None and idx not in active and idx not in other:
             rails.setdefault(idx, f"bidirectional pin {local_name(name)} that only sources and "
                                   "bodies touch")
-    return rails
 
 
 # ------------------------------------------------------------------ ports
@@ -293,6 +305,7 @@ class Intent:
     notes: list[str] = field(default_factory=list)
     control_nets: dict[int, str] = field(default_factory=dict)  # flat net -> "bias" | "logic"
     input_nets: list[int] = field(default_factory=list)  # flat nets of the input ports
+    rail_nets: dict[str, str] = field(default_factory=dict)  # the block's own nets that are rails -> why
 
     def stage_hints(self) -> dict:
         """Keyword arguments for :func:`lintamp.engine.stages.recognise_stages`."""
@@ -350,18 +363,22 @@ class IntentAnalysis:
         self.acg = ac_ground(circuit)
         self.stimuli = stimuli(circuit, self.acg)
         self._rails: dict[int, str] | None = None
+        self._touch: tuple = (set(), set(), set())
+        self._load_index: dict[str, list[str]] | None = None
         self.gate_lines = _shared_gate_lines(circuit, self.rails())
         self.observed = {i for i in (circuit.find_net(n) for n in getattr(netlist, "observed", ()))
                          if i is not None}
 
     def rails(self, bidirectional=()) -> dict[int, str]:
-        if self._rails is None or bidirectional:
-            rails = flat_rails(self.circuit, self.config, getattr(self.netlist, "globals", ()),
-                               bidirectional)
-            if bidirectional:
-                return rails
-            self._rails = rails
-        return self._rails
+        """The circuit's rails; with ``bidirectional`` (flat names of B pins) those too."""
+        if self._rails is None:
+            self._rails = flat_rails(self.circuit, self.config, getattr(self.netlist, "globals", ()))
+            self._touch = _touches(self.circuit)
+        if not bidirectional:
+            return self._rails
+        rails = dict(self._rails)
+        add_bidirectional(rails, self.circuit, bidirectional, self._touch[1], self._touch[2])
+        return rails
 
     def block(self, cell, prefix: str = "", candidates=None) -> Intent:
         """The intent of ``cell`` placed at ``prefix`` in the circuit.  ``candidates``:
@@ -464,21 +481,27 @@ class IntentAnalysis:
                            config_value=getattr(self.config, "bandwidth", None))
         control_nets = {idx_of(n): w.split(" ", 1)[0] for n, w in controls.items() if idx_of(n) is not None}
         inputs = [i for i in (circuit.find_net(p.circuit_net) for p in ports if p.is_input) if i is not None]
-        return Intent(ports, rails, controls, self.loads(cell, prefix), band, notes, control_nets, inputs)
+        own_rails = {n: rails[idx_of(n)] for n in ordered if idx_of(n) in rails and idx_of(n) != 0}
+        for n in own_rails:  # a pin direction is a stronger source than a V source or a name
+            if pins.get(n) == "b" and not own_rails[n].startswith("bidirectional"):
+                own_rails[n] = f"bidirectional pin ({n}:B in *.PININFO); also {own_rails[n]}"
+        return Intent(ports, rails, controls, self.loads(cell, prefix), band, notes, control_nets, inputs,
+                      own_rails)
 
     def loads(self, cell, prefix: str = "") -> list[str]:
         """Flat names of the elements that are the load: a ``load`` pragma, the load
         globs (config, else the default names), in the cell itself."""
-        names = {d.name for d in self.circuit.devices}
-        out: list[str] = []
-        for pragma in cell.pragmas:
-            if pragma.verb == "load":
-                out += [prefix + a.lower() for a in pragma.args if prefix + a.lower() in names]
-        globs = patterns(self.config, "load")
-        for dev in self.circuit.devices:
-            local = dev.name[len(prefix):] if dev.name.startswith(prefix) else None
-            if local and "/" not in local and matches(local, globs):
-                out.append(dev.name)
+        if self._load_index is None:  # once: prefix -> the elements named like loads
+            globs = patterns(self.config, "load")
+            self._load_index = {}
+            self._device_names = {d.name for d in self.circuit.devices}
+            for dev in self.circuit.devices:
+                head, _, local = dev.name.rpartition("/")
+                if matches(local, globs):
+                    self._load_index.setdefault(head + "/" if head else "", []).append(dev.name)
+        out = [prefix + a.lower() for pragma in cell.pragmas if pragma.verb == "load"
+               for a in pragma.args if prefix + a.lower() in self._device_names]
+        out += self._load_index.get(prefix, [])
         return sorted(set(out))
 
 

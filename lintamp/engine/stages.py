@@ -326,7 +326,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
                 o for o in partners(u) if pair_gate(o.ctl) and (ctl not in quiet or o.ctl not in quiet)]
             if id(u) in cascoded_refs:
                 role = Role.MIRROR_REFERENCE
-                related = [o.name for o in by_common.get((u.kind, com), ()) if o.ctl == ctl and o is not u]
+                related = [o.name for o in not_diodes.get((u.kind, ctl, com), ()) if o is not u]
             elif refs or (u.kind, ctl, com) in cascoded_by_pins:
                 role = Role.MIRROR_OUTPUT
                 related = refs or cascoded_by_pins[(u.kind, ctl, com)]
