@@ -551,7 +551,8 @@ _TOP_KEYS = ("netlists", "exclude", "only", "skip", "fail-on", "bandwidth", "inc
 # Keys of lintamp 0.1.0 and what they are called now: reading one is an error that says so.
 RENAMED_KEYS = {"include": "netlists", "select": "only", "ignore": "skip",
                 "per-file-ignores": "paths"}
-PORT_KINDS = ("voltage-output", "current-input", "load")
+PORT_KINDS = ("voltage-output", "current-input", "voltage-input", "current-output", "load", "supply",
+              "ground")
 
 
 def parse_config(data: dict, *, source: Path, prefix: str = "",

@@ -54,7 +54,7 @@ from lintamp.engine.flat_places import prefix_of
 from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
 from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
-from lintamp.connectivity.signal_band import signal_band
+from lintamp.connectivity.intent import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
 from lintamp.engine.engine_kinds import OPEN_OHM
@@ -158,6 +158,9 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     expl = numbers.explain(port.name, freq_hz, port.detach)
     steps = [f"{port.local} is a voltage output: {port.why}",
              "its load: " + port.load_why]
+    path = finder.path_words(port.net, toward_output=True)
+    if path:
+        steps.append(path)
     steps += looking_into_steps(expl, port.local, port.detach)
     steps += [p[1] for p in problems]
     steps.append("band: " + (f"{si(band.hz, 'Hz')} from the {band.source}" if band else
@@ -169,10 +172,7 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     related += [Related(d.location, f"{d.name}: {b.via}") for b in expl.branches[:2]
                 for d in [finder.by_name.get(b.elements[0]) if b.elements else None] if d is not None]
     message = problems[0][0] if len(problems) == 1 else problems[0][0] + "; and " + problems[1][0].split(": ", 1)[1]
-    weak = band is not None and band.weak and "band_hz" in values and (
-        "pole_hz" in values or values.get("freq_hz") == band.hz)
     return ctx.finding(
-        severity=Severity.INFO if weak else None,
         location=port.location, subject=port.local, view=port.view, message=message,
         nets=[port.local], elements=sorted(_relative(e, port) for e in port.detach), explanation=steps,
         values={k: v for k, v in values.items() if not (isinstance(v, float) and math.isinf(v))},

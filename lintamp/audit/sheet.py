@@ -32,9 +32,8 @@ import numpy as np
 
 from lintamp import __version__
 from lintamp.audit import forms
-from lintamp.audit.band import ac_sweep_hz, signal_band
 from lintamp.audit.chain import find_chain
-from lintamp.audit.ports import Port, classify_ports, load_elements
+from lintamp.connectivity.intent import IntentAnalysis, Port, ac_sweep_hz, band_of
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
 
@@ -137,7 +136,8 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     design_full = load_design(netlist, config)
     block = _choose_block(netlist, design_full, config, top)
-    band = signal_band(netlist, block.cell, option=bandwidth, config_value=getattr(config, "bandwidth", None))
+    band = band_of(netlist, [block.cell] if not block.cell.is_top else [], option=bandwidth,
+                   config_value=getattr(config, "bandwidth", None))
 
     result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
     report = decide(result.findings, result.pragmas, config)
@@ -161,10 +161,12 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
         if diag.severity == "error":
             data["notes"].append(f"{diag.location}: {diag.message} (the numbers are computed without it)")
 
-    config_ports = getattr(config, "ports", None) or {}
-    ports = classify_ports(block.circuit, block.cell.pragmas, candidates=block.candidates,
-                           prefix=block.prefix, config_ports=config_ports)
-    loads = load_elements(block.circuit, block.cell.pragmas, prefix=block.prefix, config_ports=config_ports)
+    intent = IntentAnalysis(netlist, block.circuit, config, {"bandwidth": bandwidth}).block(
+        block.cell, block.prefix, block.candidates)
+    ports, loads = intent.ports, intent.loads
+    data["rails"] = [{"net": n, "decided_by": why} for n, why in intent.rail_nets.items()]
+    data["controls"] = [{"net": n, "decided_by": why} for n, why in intent.controls.items()]
+    data["notes"] += intent.notes
     data["loads"] = [n[len(block.prefix):] for n in loads]
     if not ports:
         data["notes"].append("no inputs or outputs found: mark them with '* lintamp: current-input NET', "
@@ -177,12 +179,15 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     data["operating_point"] = source
     data["notes"] += op_notes
     curves: list[Curve] = []
-    stages = _stages(block, op)
+    stages = _stages(block, op, intent)
     data["stages"] = stages
     if op is None and any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
         data["notes"].append("no numbers: the operating point could not be had, so impedances and gains "
                              "are not computed (roles are from the topology)")
         data["ports"] = [_port_stub(p) for p in ports]
+        from lintamp.engine.stage_paths import block_paths
+        data["paths"], path_notes = block_paths(block.circuit, intent)
+        data["notes"] += path_notes
     else:
         solves = Solves(block.circuit, op)
         try:
@@ -212,14 +217,16 @@ def _operating_point(circuit, table):
         return None, "assumed", [f"no operating point: {exc}"]
 
 
-def _stages(block: _Block, op) -> list[dict]:
-    from lintamp.engine.stages import recognise_stages
+def _stages(block: _Block, op, intent) -> list[dict]:
+    from lintamp.engine.stages import composite_stages, recognise_stages
 
     out = []
-    for st in recognise_stages(block.circuit, op):
+    for st in composite_stages(recognise_stages(block.circuit, op, **intent.stage_hints())):
         if not st.device.startswith(block.prefix):
             continue
-        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": st.role,
+        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": str(st.role),
+               "label": st.label[len(block.prefix):] if st.label.startswith(block.prefix) else st.label,
+               "units": [u[len(block.prefix):] for u in st.units],
                "related": [r[len(block.prefix):] if r.startswith(block.prefix) else r for r in st.related],
                "region": st.region or None, "gm_s": st.gm_s,
                "ro_ohm": st.ro_ohm if st.ro_ohm is None or math.isfinite(st.ro_ohm) else None,
@@ -459,7 +466,7 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             if form is not None:
                 entry["formula"], entry["formula_value"], terms = form
                 entry["terms"] = forms.clean_terms(terms)
-                if entry["formula_value"] is not None:
+                if entry["formula_value"] is not None and product_value is not None:
                     product_value *= entry["formula_value"]
                     product_formula.append(entry["formula"])
                 else:

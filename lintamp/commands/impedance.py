@@ -61,15 +61,32 @@ def load_flat_circuit(netlist_path: Path, *, top: str | None, include_paths=(), 
         circuit = flatten(design, limit=MAX_ELEMENTS)  # instances must not run for minutes
     except FlattenLimit as exc:
         raise UsageError(str(exc)) from None
-    return circuit, problems
+    return circuit, problems, netlist, config
 
 
-def parse_frequency(text: str) -> float:
-    from lintamp.netlist.expr import parse_number
-    value = parse_number(text.strip().lower().removesuffix("hz"))
-    if value is None or value < 0:
+def freq_option(text: str) -> float:
+    """``--freq``: a frequency, or 0 for DC."""
+    from lintamp.connectivity.intent import parse_frequency
+
+    word = text.strip().lower()
+    if word.removesuffix("hz") in ("0", "0.0", "dc"):
+        return 0.0
+    value = parse_frequency(word)
+    if value is None:
         raise UsageError(f"--freq {text}: not a frequency (write e.g. 0, 1k, 20meg)")
     return value
+
+
+def block_ports(netlist, circuit, config, top: str | None) -> list:
+    """The ports the intent analysis finds for the block the circuit is built on (the
+    top level, or the ``--top`` cell)."""
+    from lintamp.connectivity.intent import IntentAnalysis
+
+    cell = netlist.top
+    if top:
+        cell = next((c for c in netlist.all_cells() if not c.is_top and c.name == top.lower()), netlist.top)
+    candidates = list(cell.ports) if not cell.is_top else None
+    return IntentAnalysis(netlist, circuit, config).block(cell, "", candidates).ports
 
 
 def run(args) -> int:
@@ -79,9 +96,9 @@ def run(args) -> int:
 
     path = existing_file(args.netlist)
     try:
-        freq_hz = parse_frequency(args.freq)
+        freq_hz = freq_option(args.freq)
         config = load_config(args, path.resolve().parent)
-        circuit, problems = load_flat_circuit(path, top=args.top, config=config,
+        circuit, problems, netlist, config = load_flat_circuit(path, top=args.top, config=config,
                                               include_paths=[Path(p) for p in args.include_path])
         node = args.node.lower()
         if circuit.find_net(node) is None:
@@ -94,6 +111,9 @@ def run(args) -> int:
         table = load_op(args.op)
         report = impedance_report(circuit, node, freq_hz, detach=[d.lower() for d in args.detach],
                                   table=table)
+        ports = block_ports(netlist, circuit, config, args.top)
+        report["ports"] = [p.as_json() for p in ports]
+        report["port"] = next((p.as_json() for p in ports if p.circuit_net == node), None)
     except (OperatingPointError, SmallSignalError) as exc:  # the engine's documented refusals
         raise UsageError(f"{args.netlist}: {exc}") from None
     from lintamp.report.base import printable  # names are the netlist's: no ESC reaches the terminal
@@ -123,6 +143,9 @@ def render_text(report: dict) -> str:
     else:
         head = f"{si(z['mag'], 'Ω')}  ∠ {z['phase_deg']:.1f}°"
     lines.append(f"looking into {report['node']} at {at}: {head}")
+    port = report.get("port")
+    if port:
+        lines.append(f"  {port['net']} is a {port['kind']} ({port['decided_by']})")
     lines.append(f"  operating point from {_SOURCES.get(report['operating_point'], report['operating_point'])}")
     for br in report["branches"]:
         if br.get("z_ohm") is None:

@@ -1068,6 +1068,13 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
             netlist.cdl.setdefault(word.lower(), []).append(rest.strip())
             if word.lower() == ".global":
                 netlist.globals.update(t.lower() for t in rest.split())
+            elif word.lower() == ".pininfo":
+                pins = cell_of(comment.location).pin_info
+                for item in rest.split():
+                    net, _, way = item.rpartition(":")
+                    if net and way.lower() in ("i", "o", "b"):
+                        for bit in _bus_bits(net.lower()):
+                            pins.setdefault(bit, way.lower())
             continue
         text, _, reason = comment.text.partition("--")
         words = text.split()
@@ -1086,6 +1093,20 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
             pragma.element = element.key
             pragma.element_nets = element.nodes
         cell.pragmas.append(pragma)
+
+
+_BUS = re.compile(r"^(.*)\[(\d{1,4}):(\d{1,4})\]$")
+
+
+def _bus_bits(name: str) -> list[str]:
+    """``sw[2:0]`` -> ``sw<2> sw<1> sw<0>`` and the ``[k]`` spellings; a plain name as is."""
+    m = _BUS.match(name)
+    if not m:
+        return [name]
+    hi, lo = int(m.group(2)), int(m.group(3))
+    step = -1 if hi >= lo else 1
+    bits = range(hi, lo + step, step)
+    return [name] + [f"{m.group(1)}<{k}>" for k in bits] + [f"{m.group(1)}[{k}]" for k in bits]
 
 
 _FRAGMENT_FIRST = re.compile(r"\s*\.(subckt|subcircuit|model|lib|include|inc|param|global|option|options|func|macro)\b",
