@@ -41,6 +41,9 @@ def _device_terms(terms: dict, device: str) -> dict[str, float]:
     return out
 
 
+CG_LIGHT_LOAD = 0.1  # R_D below this share of r_o: the common-gate input is close to 1/(g_m+g_mb)
+
+
 def port_short_form(via: str, terms: dict, device: str) -> tuple[str, float | None] | None:
     """The short textbook form of an engine branch, with its value."""
     t = _device_terms(terms, device)
@@ -49,14 +52,23 @@ def port_short_form(via: str, terms: dict, device: str) -> tuple[str, float | No
             continue
         gm, gmb = t.get("g_m"), t.get("g_mb", 0.0)
         try:
+            if form == "1/(g_m+g_mb)" and key == "common-gate input":
+                rd, ro = t.get("R_D", INF), t.get("r_o", INF)
+                if math.isfinite(ro) and not rd <= CG_LIGHT_LOAD * ro:
+                    # a current-source (or large) drain load: the load is in the input
+                    # (Razavi sec. 3.5: R_in = (R_D + r_o)/(1 + (g_m+g_mb) r_o))
+                    if not math.isfinite(rd):
+                        return "open (the drain load is an ideal current source)", None
+                    return "(r_o + R_L)/(1 + (g_m+g_mb) r_o)", (ro + rd) / (1 + (gm + gmb) * ro)
+                return form, 1 / (gm + gmb)
             if form == "1/(g_m+g_mb)":
                 return form, 1 / (gm + gmb)
             if form == "1/g_m":
                 return form, 1 / gm
             if form == "r_o":
                 return form, t.get("r_o")
-            if form == "g_m r_o R_S":
-                return form, gm * t["r_o"] * t["R_S"]
+            if form == "g_m r_o R_S":  # Razavi sec. 3.3.3 / 9.1: (g_m+g_mb) r_o R_S (a cascode: r_o1 r_o2)
+                return "(g_m+g_mb) r_o R_S", (gm + gmb) * t["r_o"] * t["R_S"]
             beta = t["beta"]
             if form.startswith("1/g_m + R_B"):
                 rb = t.get("R_B", 0.0)
@@ -69,80 +81,204 @@ def port_short_form(via: str, terms: dict, device: str) -> tuple[str, float | No
     return None
 
 
-def hop_form(hop, values: dict, near: dict[str, float], first_current: bool):
+def _branch_value(b):
+    z = b.z_ohm
+    if z is None:
+        return None
+    try:
+        m = abs(z)
+    except TypeError:
+        return None
+    return z if math.isfinite(m) else INF
+
+
+def port_parallel_form(circuit, branches, z_port, prefix: str = "") -> dict:
+    """The port as the parallel of its branches' forms: ``r_o (m2) || r_o (m4)``.
+
+    Returns ``port_formula`` / ``port_formula_ohm`` (each branch's exact form) and
+    ``port_approx`` / ``port_approx_ohm`` (each branch's short form where it has one),
+    or {} when a branch has no form.  Branches that carry no current (an open) drop out.
+    """
+    parts, values, short_parts, short_values = [], [], [], []
+    for b in branches:
+        share = b.z_mna_ohm
+        try:
+            open_share = share is None or not math.isfinite(abs(share)) or abs(share) >= 1e11
+        except TypeError:
+            open_share = True
+        value = _branch_value(b)
+        if open_share and (value is None or value == INF or abs(value) >= 1e11):
+            continue
+        if value is None:
+            return {}
+        dev = b.elements[0] if b.elements else ""
+        local = dev[len(prefix):] if prefix and dev.startswith(prefix) else dev
+        tag = f" ({local})" if any(s in b.formula for s in ("g_m", "r_o", "r_pi", "R_D", "R_S")) else ""
+        parts.append(b.formula if not tag else f"[{b.formula}]{tag}")
+        values.append(value)
+        short = port_short_form(b.via, b.terms, dev)
+        if short is not None and short[1] is not None and short[0] != b.formula:
+            short_parts.append(short[0] + tag)
+            short_values.append(short[1])
+        else:
+            short_parts.append(parts[-1])
+            short_values.append(value)
+    if not parts:
+        return {}
+    out = {"port_formula": " || ".join(parts), "port_formula_ohm": _mag_finite(parallel(*values))}
+    if short_parts != parts:
+        out["port_approx"] = " || ".join(short_parts)
+        out["port_approx_ohm"] = _mag_finite(parallel(*short_values))
+    return out
+
+
+def _mag_finite(z):
+    m = abs(z)
+    return m if math.isfinite(m) else None
+
+
+def _finite(x) -> bool:
+    return x is not None and math.isfinite(x)
+
+
+def hop_form(hop, values: dict, near: dict[str, float], first_current: bool, *,
+             body_at_source: bool = False):
+    """See :func:`_hop_form`; a device that is off (g_m = 0, a zero denominator) has no form."""
+    try:
+        return _hop_form(hop, values, near, first_current, body_at_source=body_at_source)
+    except (ZeroDivisionError, OverflowError):
+        return None
+
+
+def _hop_form(hop, values: dict, near: dict[str, float], first_current: bool, *,
+              body_at_source: bool = False):
     """(formula, value, terms) of one stage's small-signal gain, or None.
 
     ``values`` are the device's operating-point values; ``near`` the impedances
-    its terminals see with the device itself removed (``R_D``/``R_C`` at the output,
-    ``R_S``/``R_E`` at the common terminal, ``R_src`` at a current input), at DC.
+    its terminals see with the device itself removed, at the frequency the chain
+    is read at: ``out`` (R_D/R_C), ``common`` (R_S/R_E), ``control`` (R_B, the
+    base's own impedance), ``source`` (R_src, the rest of a current input), and
+    for a stage with a resistor R_F from output to control: ``R_F``, ``out_nf`` and
+    ``control_nf`` (the two nets with the device and R_F removed).
     ``first_current``: the stage is fed by the block's current input, so its gain
-    is a transimpedance (ohm).
+    is a transimpedance (ohm).  ``body_at_source``: g_mb does not act (v_bs = 0).
+
+    Every form is the exact hybrid-pi / square-law small-signal result for the
+    impedances given (Razavi ch. 3, Sedra & Smith ch. 7), so with the printed values it
+    reproduces the stage's MNA gain wherever the stage is unilateral.
     """
     gm = values.get("gm_s")
-    if gm is None:
+    if not _finite(gm) or gm <= 0:
         return None
     ro = values.get("ro_ohm", INF)
     ro = INF if ro is None or not math.isfinite(ro) else ro
     mos = hop.kind in ("nmos", "pmos")
-    gmb = values.get("gmb_s", 0.0) if mos else 0.0
+    gmb = 0.0 if (not mos or body_at_source) else (values.get("gmb_s") or 0.0)
+    if not math.isfinite(gmb):
+        return None
     rout = near.get("out", INF)
     rcom = near.get("common", INF)
     rsrc = near.get("source", INF)
+    rb = near.get("control", 0.0) if not mos else 0.0
+    g_o = 0.0 if not math.isfinite(ro) else 1 / ro
     terms = {"g_m_s": gm, "r_o_ohm": ro}
     if mos:
         terms["g_mb_s"] = gmb
     path = hop.entry + hop.exit
-    if mos and path == "gd" or not mos and path == "bc":
-        terms["R_D_ohm" if mos else "R_C_ohm"] = rout
+    sym_d = "R_D" if mos else "R_C"
+    sym_s = "R_S" if mos else "R_E"
+    if path in ("gd", "bc") and first_current and "R_F" in near:
+        # shunt-feedback transimpedance amplifier (Razavi, Design of Integrated Circuits
+        # for Optical Communications, ch. 4; nodal analysis of the CS with R_F drain-gate)
+        rf, rd_nf, rsrc_nf = near["R_F"], near.get("out_nf", INF), near.get("control_nf", INF)
+        if not mos:
+            rsrc_nf = parallel(rsrc_nf, values.get("rpi_ohm", INF))
+        rdp = parallel(rd_nf, ro)
+        terms.update({"R_F_ohm": rf, "R_D'_ohm": rdp, "R_src_ohm": rsrc_nf})
+        if not (_finite(rf) and _finite(rdp)) or rcom != 0:
+            return None
+        if math.isfinite(rsrc_nf):
+            form = "-(g_m R_F - 1) R_D'/(1 + g_m R_D' + (R_F + R_D')/R_src), R_D' = R_D || r_o"
+            return form, -(gm * rf - 1) * rdp / (1 + gm * rdp + (rf + rdp) / rsrc_nf), terms
+        return "-(g_m R_F - 1) R_D'/(1 + g_m R_D'), R_D' = R_D || r_o", -(gm * rf - 1) * rdp / (1 + gm * rdp), terms
+    if path in ("gd", "bc"):
+        terms[f"{sym_d}_ohm"] = rout
+        if not math.isfinite(rout):
+            return None
         if rcom == 0:
-            sym = "R_D" if mos else "R_C"
-            return f"-g_m ({sym} || r_o)", -gm * parallel(rout, ro), terms
-        if mos:  # Razavi ch. 3, CS with source degeneration, exact form
-            terms["R_S_ohm"] = rcom
-            if not math.isfinite(rcom) or not math.isfinite(rout):
-                return "-g_m r_o R_D/(R_D + R_S + r_o + (g_m+g_mb) r_o R_S)", None, terms
-            ro_f = ro if math.isfinite(ro) else 1e30
-            value = -gm * ro_f * rout / (rout + rcom + ro_f + (gm + gmb) * ro_f * rcom)
-            return "-g_m r_o R_D/(R_D + R_S + r_o + (g_m+g_mb) r_o R_S)", value, terms
-        terms["R_E_ohm"] = rcom  # Sedra & Smith ch. 7, CE with emitter resistance
-        rc = parallel(rout, ro)
-        value = -gm * rc / (1 + gm * rcom) if math.isfinite(rcom) and math.isfinite(rc) else None
-        return "-g_m (R_C || r_o)/(1 + g_m R_E)", value, terms
-    if path in ("gs", "be"):
-        rp = parallel(ro, rcom)
-        if mos:  # Razavi ch. 3, source follower
-            terms["R_S_ohm"] = rcom
-            if not math.isfinite(rp):
-                return "g_m/(g_m+g_mb)", gm / (gm + gmb), terms
-            return "g_m R'/(1 + (g_m+g_mb) R'), R' = r_o || R_S", gm * rp / (1 + (gm + gmb) * rp), terms
+            if first_current:
+                return None  # a transimpedance set by what else loads the input: the MNA says it
+            return f"-g_m ({sym_d} || r_o)", -gm * parallel(rout, ro), terms
+        terms[f"{sym_s}_ohm"] = rcom
+        if not math.isfinite(rcom) or first_current:
+            return None
+        if mos:  # Razavi ch. 3 (sec. 3.3.3), CS with source degeneration, exact form
+            form = "-g_m r_o R_D/(R_D + R_S + r_o + (g_m+g_mb) r_o R_S)"
+            if not math.isfinite(ro):
+                return form, -gm * rout / (1 + (gm + gmb) * rcom), terms
+            return form, -gm * ro * rout / (rout + rcom + ro + (gm + gmb) * ro * rcom), terms
         rpi = values.get("rpi_ohm", INF)
-        beta = gm * rpi
-        terms.update({"R_E_ohm": rcom, "r_pi_ohm": rpi})
-        if not math.isfinite(rp):
-            return "1 (emitter follower, open load)", 1.0, terms
-        return "(beta+1) R'/(r_pi + (beta+1) R'), R' = R_E || r_o", (beta + 1) * rp / (rpi + (beta + 1) * rp), terms
+        g_pi = 0.0 if not _finite(rpi) else 1 / rpi
+        terms["r_pi_ohm"] = rpi
+        # Sedra & Smith ch. 7, CE with emitter resistance, hybrid-pi with r_o, solved exactly
+        form = "-R_C (g_m - R_E/(r_pi r_o))/((1 + R_C/r_o)(1 + R_E/r_pi) + (g_m + 1/r_o) R_E)"
+        value = -rout * (gm - rcom * g_pi * g_o) / ((1 + rout * g_o) * (1 + rcom * g_pi) + (gm + g_o) * rcom)
+        return form, value, terms
+    if path in ("gs", "be"):
+        terms[f"{sym_s}_ohm"] = rcom
+        terms[f"{sym_d}_ohm"] = rout
+        if not math.isfinite(rcom) or not math.isfinite(rout) or first_current:
+            if mos and not math.isfinite(rcom) and rout == 0 and not first_current:
+                return "g_m/(g_m+g_mb+1/r_o)", gm / (gm + gmb + g_o), terms
+            return None
+        if mos:  # Razavi ch. 3 (sec. 3.4), source follower, drain load R_D included
+            form = "g_m R_S/(1 + (g_m+g_mb) R_S + (R_S + R_D)/r_o)"
+            return form, gm * rcom / (1 + (gm + gmb) * rcom + (rcom + rout) * g_o), terms
+        rpi = values.get("rpi_ohm", INF)
+        terms["r_pi_ohm"] = rpi
+        if not _finite(rpi):
+            return None
+        g_pi = 1 / rpi
+        if rout == 0:  # Sedra & Smith ch. 7, emitter follower
+            rp = parallel(rcom, ro)
+            beta = gm * rpi
+            return ("(beta+1) R'/(r_pi + (beta+1) R'), R' = R_E || r_o", (beta + 1) * rp / (rpi + (beta + 1) * rp),
+                    terms)
+        a = 1 + rout * g_o
+        form = "(g_m/a + 1/r_pi)/(1/R_E + 1/r_pi + (g_m + 1/r_o)/a), a = 1 + R_C/r_o"
+        return form, (gm / a + g_pi) / (1 / rcom + g_pi + (gm + g_o) / a), terms
     if path in ("sd", "ec"):
-        sym = "R_D" if mos else "R_C"
-        terms[f"{sym}_ohm"] = rout
-        if first_current:  # analog-knowledge 1: Zt = R_D * R_src/(R_src + R_in,CG)
-            if mos:
-                rin = (rout + ro) / (1 + (gm + gmb) * ro) if math.isfinite(ro) and math.isfinite(rout) else (
-                    1 / (gm + gmb) if math.isfinite(rout) else INF)
-            else:
-                rpi = values.get("rpi_ohm", INF)
-                rin = parallel(rpi / (gm * rpi + 1), ro) if math.isfinite(rpi) else 1 / gm
-            terms.update({"R_src_ohm": rsrc, "R_in_ohm": rin})
-            if not math.isfinite(rout):
-                return f"{sym} R_src/(R_src + R_in)", None, terms
+        terms[f"{sym_d}_ohm"] = rout
+        if not math.isfinite(rout):
+            return None
+        if mos:
+            # the current through the device is v_s (1 + (g_m+g_mb) r_o)/(r_o + R_D): Razavi sec. 3.5
+            rin = (rout + ro) / (1 + (gm + gmb) * ro) if math.isfinite(ro) else 1 / (gm + gmb)
+            through = rout / rin  # v_d / v_s
+            alpha_txt = ""
+        else:
+            rpi = values.get("rpi_ohm", INF)
+            rb = rb if _finite(rb) else INF
+            k = 1.0 if not _finite(rpi) else (0.0 if not math.isfinite(rb) else rpi / (rpi + rb))
+            transfer = (1 + gm * k * ro) / (ro + rout) if math.isfinite(ro) else gm * k
+            terms["r_pi_ohm"], terms["R_B_ohm"] = rpi, rb
+            r_dev = 1 / transfer if transfer else INF
+            rin = parallel(r_dev, rpi + rb if _finite(rpi) else INF)
+            through = rout * transfer  # v_c / v_e
+            alpha_txt = ", alpha = R_in (1 + g_m r_o r_pi/(r_pi + R_B))/(r_o + R_C)"
+        terms["R_in_ohm"] = rin
+        if first_current:  # Z_t = alpha R_D R_src/(R_src + R_in) (alpha = 1 for a MOS)
+            terms["R_src_ohm"] = rsrc
             share = 1.0 if not math.isfinite(rsrc) else rsrc / (rsrc + rin)
-            return f"{sym} R_src/(R_src + R_in)", rout * share, terms
-        if mos:  # Razavi ch. 3, CG voltage gain with R_S = 0
-            if not math.isfinite(rout):
-                return "(1 + (g_m+g_mb) r_o) R_D/(r_o + R_D)", None, terms
-            ro_f = ro if math.isfinite(ro) else 1e30
-            return "(1 + (g_m+g_mb) r_o) R_D/(r_o + R_D)", (1 + (gm + gmb) * ro_f) * rout / (ro_f + rout), terms
-        value = gm * parallel(rout, ro)
-        return "g_m (R_C || r_o)", value if math.isfinite(value) else None, terms
+            if mos:
+                return "R_D R_src/(R_src + R_in), R_in = (R_D + r_o)/(1 + (g_m+g_mb) r_o)", rout * share, terms
+            alpha = through * rin / rout
+            terms["alpha"] = alpha
+            return ("alpha R_C R_src/(R_src + R_in), R_in = (r_o + R_C)/(1 + g_m r_o r_pi/(r_pi + R_B)) || (r_pi + R_B)"
+                    + alpha_txt, alpha * rout * share, terms)
+        if mos:  # Razavi ch. 3, CG voltage gain from the source node
+            return "(1 + (g_m+g_mb) r_o) R_D/(r_o + R_D)", through, terms
+        return "(1 + g_m r_o r_pi/(r_pi + R_B)) R_C/(r_o + R_C)", through, terms
     return None
 
 

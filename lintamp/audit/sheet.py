@@ -137,7 +137,10 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     design_full = load_design(netlist, config)
     block = _choose_block(netlist, design_full, config, top)
-    band = signal_band(netlist, block.cell, option=bandwidth, config_value=getattr(config, "bandwidth", None))
+    try:
+        band = signal_band(netlist, block.cell, option=bandwidth, config_value=getattr(config, "bandwidth", None))
+    except ValueError as exc:  # a --bandwidth that is no frequency: the user's to fix
+        raise AuditError(str(exc)) from None
 
     result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
     report = decide(result.findings, result.pragmas, config)
@@ -204,8 +207,24 @@ def _sev(label: str):
     return Severity.parse(label)
 
 
+def _unevaluated_devices(circuit, table) -> dict[str, str]:
+    """Nonlinear devices whose numbers would be SPICE defaults, not the designer's: a PDK
+    subcircuit whose library is absent, a model card that is not there (device -> why)."""
+    from lintamp.engine.engine_kinds import NONLINEAR
+    out = {}
+    for dev in circuit.devices:
+        if dev.kind in NONLINEAR and dev.model is None and not (table and dev.name in table):
+            out[dev.name] = dev.kind_detail if "PDK" in (dev.kind_detail or "") else "its model card is not in the files read"
+    return out
+
+
 def _operating_point(circuit, table):
     from lintamp.rulekit.impedance_report import resolve_operating_point
+    unevaluated = _unevaluated_devices(circuit, table)
+    if unevaluated:
+        shown = ", ".join(f"{n} ({why})" for n, why in list(unevaluated.items())[:6])
+        more = f" and {len(unevaluated) - 6} more" if len(unevaluated) > 6 else ""
+        return None, "assumed", [f"no operating point: devices lintamp cannot evaluate: {shown}{more}"]
     try:
         return resolve_operating_point(circuit, table)
     except (ValueError, RuntimeError, ArithmeticError) as exc:
@@ -216,6 +235,7 @@ def _stages(block: _Block, op) -> list[dict]:
     from lintamp.engine.stages import recognise_stages
 
     out = []
+    unevaluated = _unevaluated_devices(block.circuit, None)
     for st in recognise_stages(block.circuit, op):
         if not st.device.startswith(block.prefix):
             continue
@@ -225,6 +245,10 @@ def _stages(block: _Block, op) -> list[dict]:
                "ro_ohm": st.ro_ohm if st.ro_ohm is None or math.isfinite(st.ro_ohm) else None,
                "findings": []}
         dop = op.devices.get(st.device) if op is not None else None
+        if dop is None:
+            row["gm_s"] = row["ro_ohm"] = None  # a number lintamp does not trust is not printed
+            row["unevaluated"] = unevaluated.get(st.device) or (
+                "no operating point" if op is None else "not in the operating point")
         if dop is not None:
             v = dop.values
             if dop.kind in ("nmos", "pmos"):
@@ -283,7 +307,11 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
         row["detached"] = [d[len(block.prefix):] if d.startswith(block.prefix) else d for d in detach]
         if band_hz:
             row["z_band_ohm"] = z_json(solves.z(port.circuit_net, band_hz, detach))
-        expl = explain_node(circuit, port.circuit_net, 0.0, solves.op, detach)
+        # the forms are read at DC, or in the band where DC sees an open (a coupling capacitor)
+        f_form = band_hz if (z_dc is None and band_hz) else 0.0
+        z_form = solves.z(port.circuit_net, f_form, detach) if f_form else z_dc
+        row["formula_freq_hz"] = f_form
+        expl = explain_node(circuit, port.circuit_net, f_form, solves.op, detach)
         best = _main_branch(circuit, expl.branches)
         if best is not None:
             dev = best.elements[0] if best.elements else None
@@ -295,9 +323,20 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
             row["terms"] = forms.clean_terms(best.terms)
             row["parallel"] = [{"via": b.via, "formula": b.formula, "z_ohm": mag_or_none(b.z_mna_ohm)}
                                for b in expl.branches if b is not best and mag_or_none(b.z_mna_ohm) is not None]
+            share = mag_or_none(best.z_mna_ohm)
+            row["branch_ohm"] = share
+            err = form_error_pct(row["formula_ohm"], share)
+            row["formula_error_pct"], row["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
             short = forms.port_short_form(best.via, best.terms, dev or "")
             if short:
                 row["approx"], row["approx_ohm"] = short
+                row["approx_error_pct"] = form_error_pct(row["approx_ohm"], share)
+            row.update(forms.port_parallel_form(circuit, expl.branches, z_form, block.prefix))
+            err = form_error_pct(row.get("port_formula_ohm"), z_form)
+            row["port_formula_error_pct"] = err
+            row["port_formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+            if row.get("port_approx") is not None:
+                row["port_approx_error_pct"] = form_error_pct(row.get("port_approx_ohm"), z_form)
         if plots:
             values = sweep(lambda f, n=port.circuit_net, d=tuple(detach): _z_or_open(solves, n, f, d), freqs)
             curve = Curve(f"|Z| at {port.net} ({port.kind})", "impedance", "Ω", freqs, values,
@@ -423,21 +462,46 @@ def _local(block, name: str) -> str:
     return name[len(block.prefix):] if name.startswith(block.prefix) else name
 
 
+FORM_EXACT_PCT = 2.0  # a printed form within this of the exact number reads "="; beyond it "≈ (error)"
+
+
+def form_error_pct(value, exact) -> float | None:
+    """|value - exact| / |exact| in per cent; None when either is missing or not finite."""
+    if value is None or exact is None:
+        return None
+    try:
+        value, exact = complex(value), complex(exact)
+    except (TypeError, ValueError):
+        return None
+    if not (math.isfinite(abs(value)) and math.isfinite(abs(exact))) or abs(exact) == 0:
+        return None
+    return 100.0 * abs(value - exact) / abs(exact)
+
+
 def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz):
     circuit = block.circuit
     base = tuple(detach)
+    # a voltage input is an ideal voltage source (an AC short) for every impedance the
+    # chain reads; a current input is an ideal current source (open): detached
+    seen = () if pin.signal == "voltage" else base
     name = circuit.nets
-    s_dc = solves.solver(0.0, base, driven=None if pin.signal == "current" else pin.circuit_net)
-    x = s_dc.solve_injection(pin.circuit_net) if pin.signal == "current" else None
+    # the stage gains and their forms are read at DC, or in the band where a coupling capacitor
+    # blocks DC (the DC gain is below the band's by more than 3 dB); the forms take impedances there
+    f_hz = float(band_hz) if band_hz and row.get("gain_band") and \
+        row["gain"]["mag"] < row["gain_band"]["mag"] / math.sqrt(2) else 0.0
+    row["chain_freq_hz"] = f_hz
+    s_at = solves.solver(f_hz, base, driven=None if pin.signal == "current" else pin.circuit_net)
+    x = s_at.solve_injection(pin.circuit_net) if pin.signal == "current" else None
     values_at = {}
 
     def v(net_idx: int) -> complex:
         if net_idx not in values_at:
             net = name[net_idx]
-            values_at[net_idx] = s_dc.voltage(x, net) if x is not None else s_dc.gain_to(net)
+            values_at[net_idx] = s_at.voltage(x, net) if x is not None else s_at.gain_to(net)
         return values_at[net_idx]
 
-    product_formula, product_value = [], 1.0
+    product_formula: list[str] = []
+    product_value: complex | None = 1.0
     for k, hop in enumerate(hops):
         dev = circuit.device(hop.device)
         first_current = k == 0 and pin.signal == "current"
@@ -447,33 +511,47 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
                  "from": _local(block, name[hop.from_net]), "to": _local(block, name[hop.to_net]),
                  "enters_at": hop.entry_word,
                  "gain": {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
-                          "sign": 1 if gain.real >= 0 else -1}}
+                          "sign": 1 if gain.real >= 0 else -1, "freq_hz": f_hz}}
         dop = solves.op.devices.get(hop.device) if solves.op is not None else None
+        form = None
         if dop is not None and hop.kind in ("nmos", "pmos", "npn", "pnp"):
             out_pin, com_pin = (0, 2)
-            near = {"out": _z_near(solves, dev.nodes[out_pin], name, base + (hop.device,)),
-                    "common": _z_near(solves, dev.nodes[com_pin], name, base + (hop.device,))}
+            near = {"out": _z_near(solves, dev.nodes[out_pin], name, seen + (hop.device,), f_hz),
+                    "common": _z_near(solves, dev.nodes[com_pin], name, seen + (hop.device,), f_hz)}
+            if dev.kind in ("npn", "pnp"):
+                near["control"] = _z_near(solves, dev.nodes[1], name, seen + (hop.device,), f_hz)
             if first_current:
-                near["source"] = near["common"]
-            form = forms.hop_form(hop, dop.values, near, first_current)
-            if form is not None:
-                entry["formula"], entry["formula_value"], terms = form
-                entry["terms"] = forms.clean_terms(terms)
-                if entry["formula_value"] is not None:
-                    product_value *= entry["formula_value"]
-                    product_formula.append(entry["formula"])
-                else:
-                    product_value = None
+                near["source"] = _z_near(solves, hop.from_net, name, seen + (hop.device,), f_hz)
+                if hop.entry in ("g", "b") and hop.exit in ("d", "c"):
+                    near.update(_feedback_resistor(circuit, solves, dev, name, seen, f_hz))
+            body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
+            form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
+        if form is not None:
+            entry["formula"], entry["formula_value"], terms = form
+            entry["terms"] = forms.clean_terms(terms)
+            err = form_error_pct(entry["formula_value"], gain)
+            entry["formula_error_pct"] = err
+            entry["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+        if product_value is not None:
+            if form is not None and entry.get("formula_value") is not None:
+                product_value *= entry["formula_value"]
+                product_formula.append(entry["formula"])
+            elif form is None and hop.kind not in ("nmos", "pmos", "npn", "pnp"):
+                # a passive element on the way (source resistance, coupling capacitor, divider):
+                # its share is the MNA ratio of the two nets, shown as such
+                product_value *= gain
+                product_formula.append(f"v({entry['to']})/v({entry['from']}) across {entry['device']} (MNA)")
             else:
                 product_value = None
-        else:
-            product_value = None
         row["chain"].append(entry)
-        if product_value is None:
-            product_formula = []
     if product_formula and product_value is not None:
+        exact = v(hops[-1].to_net) if x is not None else v(hops[-1].to_net)
         row["formula"] = " × ".join(f"[{f}]" for f in product_formula)
         row["formula_value"] = abs(product_value)
+        row["formula_freq_hz"] = f_hz
+        err = form_error_pct(abs(product_value), abs(exact))
+        row["formula_error_pct"] = err
+        row["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
     # interfaces: the input net, every net between two stages, the output net
     nets = [hops[0].from_net] + [h.to_net for h in hops] if hops else []
     for k, net_idx in enumerate(nets):
@@ -506,20 +584,20 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             load_nets = {n for d in circuit.devices if d.name in receiver for n in d.nodes} - {0}
             receiver = receiver + [d.name for d in circuit.devices
                                    if net_idx in d.nodes and d.name not in receiver
-                                   and d.name not in base and len(d.nodes) == 2
+                                   and d.name not in seen and len(d.nodes) == 2
                                    and d.kind in ("capacitor", "resistor", "inductor")
                                    and (set(d.nodes) - {net_idx}) & load_nets]
         others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
-                  and d.name not in base]
-        z_out = solves.z(net, 0.0, base + tuple(receiver))
-        z_in = solves.z(net, 0.0, base + tuple(others)) if receiver else None
+                  and d.name not in seen]
+        z_out = solves.z(net, 0.0, seen + tuple(receiver))
+        z_in = solves.z(net, 0.0, seen + tuple(others)) if receiver else None
         entry = {"net": _local(block, net), "role": role, "signal": signal,
                  "driver": [_local(block, o) for o in others],
                  "receiver": [_local(block, r) for r in receiver],
                  "z_out_ohm": mag_or_none(z_out), "z_in_ohm": mag_or_none(z_in)}
         if band_hz:
-            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
-            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
+            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, seen + tuple(receiver)))
+            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, seen + tuple(others)))
                                       if receiver else None)
             # judged in the signal band, where an AC-coupled load is connected
             entry.update(_verdict(signal, entry["z_out_band_ohm"], entry["z_in_band_ohm"]))
@@ -528,10 +606,24 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         row["interfaces"].append(entry)
 
 
-def _z_near(solves, net_idx: int, names, detach) -> float:
-    if net_idx == 0 or solves.solver(0.0, detach).unknown(names[net_idx]) < 0:
+def _feedback_resistor(circuit, solves, dev, names, base, f_hz) -> dict:
+    """R_F and the two nets' impedances without the device and R_F, for a stage with one
+    resistor from its output to its control terminal (shunt feedback); {} otherwise."""
+    out, ctl = dev.nodes[0], dev.nodes[1]
+    rf = [d for d in circuit.devices if d.kind == "resistor" and d.name not in base
+          and set(d.nodes[:2]) == {out, ctl} and out != ctl]
+    if len(rf) != 1:
+        return {}
+    gone = base + (dev.name, rf[0].name)
+    return {"R_F": float(rf[0].value), "R_F_name": rf[0].name,
+            "out_nf": _z_near(solves, out, names, gone, f_hz),
+            "control_nf": _z_near(solves, ctl, names, gone, f_hz)}
+
+
+def _z_near(solves, net_idx: int, names, detach, freq_hz: float = 0.0) -> float:
+    if net_idx == 0 or solves.solver(freq_hz, detach).unknown(names[net_idx]) < 0:
         return 0.0
-    z = solves.z(names[net_idx], 0.0, detach)
+    z = solves.z(names[net_idx], freq_hz, detach)
     return math.inf if z is None else abs(z)
 
 

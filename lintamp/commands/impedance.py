@@ -40,6 +40,20 @@ def parse_frequency(text: str) -> float:
 
 
 def cmd_impedance(args) -> int:
+    from lintamp.cli import EXIT_TROUBLE, UsageError
+
+    try:
+        return _impedance(args)
+    except (UsageError, KeyboardInterrupt, BrokenPipeError):
+        raise
+    except Exception as exc:  # a bug: one line naming the netlist, never a traceback
+        text = " ".join(str(exc).split())[:300]
+        print(f"lintamp: internal error while computing the impedance in {args.netlist}: "
+              f"{type(exc).__name__}: {text} (please report it with the netlist)", file=sys.stderr)
+        return EXIT_TROUBLE
+
+
+def _impedance(args) -> int:
     from lintamp.rulekit.impedance_report import impedance_report
     from lintamp.engine.operating_point import OperatingPointError
     from lintamp.engine.small_signal import SmallSignalError
@@ -77,7 +91,8 @@ def cmd_impedance(args) -> int:
         print(f"lintamp: {diag.location}: {diag.message} (the impedance is computed without it)",
               file=sys.stderr)
     if args.format == "json":
-        print(json.dumps(report, indent=2, sort_keys=False, allow_nan=False, default=str))
+        from lintamp.audit.solves import finite_for_json
+        print(json.dumps(finite_for_json(report), indent=2, sort_keys=False, allow_nan=False, default=str))
     else:
         print(render_text(report))
     return EXIT_OK
