@@ -60,7 +60,7 @@ def render_text(data: dict) -> str:
         for h in p.get("chain", []):
             line = f"    {h['device']:<8} {h['role']:<32} {h['from']} → {h['to']} (enters at the {h['enters_at']})" \
                    f"  {w.gain_text(h['gain'])}"
-            if h.get("formula"):
+            if h.get("formula") or h.get("formula_none"):
                 line += f"  {w.hop_form_text(h)}"
             out.append(line)
         for i in p.get("interfaces", []):

@@ -24,6 +24,7 @@ An open impedance is ``null`` (``"open": true`` beside it in ``z_ohm``).
 
 from __future__ import annotations
 
+import cmath
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -37,6 +38,7 @@ from lintamp.audit.chain import find_chain
 from lintamp.audit.ports import Port, classify_ports, load_elements
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
+from lintamp.engine.formulas import parallel
 
 GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
               ("voltage", "voltage"): ("voltage gain", "V/V"),
@@ -325,18 +327,25 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
                                for b in expl.branches if b is not best and mag_or_none(b.z_mna_ohm) is not None]
             share = mag_or_none(best.z_mna_ohm)
             row["branch_ohm"] = share
-            err = form_error_pct(row["formula_ohm"], share)
+            err = form_error_pct(best.z_ohm, best.z_mna_ohm) if share is not None else None
             row["formula_error_pct"], row["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
             short = forms.port_short_form(best.via, best.terms, dev or "")
             if short:
-                row["approx"], row["approx_ohm"] = short
-                row["approx_error_pct"] = form_error_pct(row["approx_ohm"], share)
+                err = form_error_pct(short[1], share)
+                if err is not None and err <= forms.APPROX_SHOWN_PCT:  # a wrong "~" line is no help
+                    row["approx"], row["approx_ohm"] = short
+                    row["approx_error_pct"] = err
             row.update(forms.port_parallel_form(circuit, expl.branches, z_form, block.prefix))
-            err = form_error_pct(row.get("port_formula_ohm"), z_form)
+            z_formula, z_short = row.pop("_z", None), row.pop("_z_short", None)
+            err = form_error_pct(z_formula, z_form)
             row["port_formula_error_pct"] = err
             row["port_formula_exact"] = err is not None and err <= FORM_EXACT_PCT
             if row.get("port_approx") is not None:
-                row["port_approx_error_pct"] = form_error_pct(row.get("port_approx_ohm"), z_form)
+                err = form_error_pct(z_short, z_form)
+                if err is None or err > forms.APPROX_SHOWN_PCT:
+                    row.pop("port_approx"), row.pop("port_approx_ohm", None)
+                else:
+                    row["port_approx_error_pct"] = err
         if plots:
             values = sweep(lambda f, n=port.circuit_net, d=tuple(detach): _z_or_open(solves, n, f, d), freqs)
             curve = Curve(f"|Z| at {port.net} ({port.kind})", "impedance", "Ω", freqs, values,
@@ -465,8 +474,16 @@ def _local(block, name: str) -> str:
 FORM_EXACT_PCT = 2.0  # a printed form within this of the exact number reads "="; beyond it "≈ (error)"
 
 
+def _signed_real(value):
+    """A real number as it is; a complex one as its magnitude with the sign of its real part."""
+    if value is None or not isinstance(value, complex):
+        return value
+    return abs(value) if value.real >= 0 else -abs(value)
+
+
 def form_error_pct(value, exact) -> float | None:
-    """|value - exact| / |exact| in per cent; None when either is missing or not finite."""
+    """| |value| - |exact| | / |exact| in per cent (|value - exact| when their real parts point
+    opposite ways); None when either is missing or not finite."""
     if value is None or exact is None:
         return None
     try:
@@ -475,6 +492,10 @@ def form_error_pct(value, exact) -> float | None:
         return None
     if not (math.isfinite(abs(value)) and math.isfinite(abs(exact))) or abs(exact) == 0:
         return None
+    # the sheet prints a magnitude with the sign of the real part: that is what is compared,
+    # unless the two point opposite ways
+    if value.real * exact.real >= 0 or min(abs(value.real) / abs(value or 1), abs(exact.real) / abs(exact)) < 0.5:
+        return 100.0 * abs(abs(value) - abs(exact)) / abs(exact)
     return 100.0 * abs(value - exact) / abs(exact)
 
 
@@ -500,8 +521,7 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             values_at[net_idx] = s_at.voltage(x, net) if x is not None else s_at.gain_to(net)
         return values_at[net_idx]
 
-    product_formula: list[str] = []
-    product_value: complex | None = 1.0
+    factors: list = []  # per hop: (text, value), "passive", or None (no form)
     for k, hop in enumerate(hops):
         dev = circuit.device(hop.device)
         first_current = k == 0 and pin.signal == "current"
@@ -526,30 +546,75 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
                     near.update(_feedback_resistor(circuit, solves, dev, name, seen, f_hz))
             body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
             form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
+        if form is not None and form[1] is not None and hop.exit in ("d", "c") and hop.entry in ("s", "e") \
+                and dev.nodes[1] != 0 and abs(v(dev.nodes[1])) > 1e-3 * abs(v(hop.from_net)):
+            form = None  # the gate/base carries signal too: not a common-gate stage
+            entry["formula_none"] = "its gate/base carries signal too (not a common-gate/base stage)"
         if form is not None:
-            entry["formula"], entry["formula_value"], terms = form
+            entry["formula"], value, terms = form
             entry["terms"] = forms.clean_terms(terms)
-            err = form_error_pct(entry["formula_value"], gain)
+            entry["formula_value"] = _signed_real(value)
+            if isinstance(value, complex) and abs(value.imag) > 1e-9 * abs(value):
+                entry["formula_phase_deg"] = math.degrees(cmath.phase(value))
+            err = form_error_pct(value, gain)
             entry["formula_error_pct"] = err
             entry["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
-        if product_value is not None:
-            if form is not None and entry.get("formula_value") is not None:
-                product_value *= entry["formula_value"]
-                product_formula.append(entry["formula"])
-            elif form is None and hop.kind not in ("nmos", "pmos", "npn", "pnp"):
-                # a passive element on the way (source resistance, coupling capacitor, divider):
-                # its share is the MNA ratio of the two nets, shown as such
-                product_value *= gain
-                product_formula.append(f"v({entry['to']})/v({entry['from']}) across {entry['device']} (MNA)")
-            else:
-                product_value = None
+        if form is not None and form[1] is not None:
+            factors.append((entry["formula"], form[1]))
+        elif form is None and hop.kind not in ("nmos", "pmos", "npn", "pnp"):
+            # a passive element on the way (source resistance, coupling capacitor, divider):
+            # its share is the MNA ratio of the two nets, shown as such
+            factors.append((f"v({entry['to']})/v({entry['from']}) across {entry['device']} (MNA)", gain))
+        else:
+            factors.append(None)
         row["chain"].append(entry)
+    for k in range(len(hops)):
+        pair = _mirror_loaded_pair(circuit, hops, k, solves.op, stage_rows,
+                                   lambda net, gone: _z_near(solves, net, name, seen + tuple(gone), f_hz))
+        if pair is None:
+            continue
+        end, text, value, devices, other_gate = pair
+        first_current = k == 0 and pin.signal == "current"
+        exact = v(hops[end].to_net) / (1.0 if first_current else v(hops[k].from_net))
+        entry = row["chain"][k]
+        entry.update(formula=text, formula_value=_signed_real(value), spans=[_local(block, d) for d in devices],
+                     spans_to=_local(block, name[hops[end].to_net]),
+                     span_gain={"mag": abs(exact), "unit": "V/V", "sign": 1 if exact.real >= 0 else -1})
+        entry.pop("terms", None)
+        err = form_error_pct(value, exact)
+        entry["formula_error_pct"], entry["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
+        factors[k] = (text, value)
+        if other_gate != 0 and abs(v(other_gate)) > 1e-3 * abs(v(hops[k].from_net)):
+            # the pair's other gate carries signal: a feedback loop closes through it, and the
+            # textbook form is the open-loop gain, not this node ratio
+            entry["in_loop_through"] = _local(block, name[other_gate])
+            factors[k] = None
+        for m in range(k + 1, end + 1):
+            for key in ("formula", "formula_value", "formula_error_pct", "formula_exact", "terms"):
+                row["chain"][m].pop(key, None)
+            row["chain"][m]["formula_none"] = f"inside the mirror-loaded pair (the form at {entry['device']})"
+            factors[m] = "inside"
+        break
+    product_formula: list[str] = []
+    product_value: complex | None = 1.0
+    loops = [e["in_loop_through"] for e in row["chain"] if e.get("in_loop_through")]
+    if loops:
+        row["notes"].append(f"the chain sits inside a feedback loop closed through {', '.join(loops)}: "
+                            "a stage's textbook form is its open-loop gain, the gains above are in the loop")
+    for factor in factors:
+        if factor is None:
+            product_value = None
+            break
+        if factor == "inside":
+            continue
+        product_formula.append(factor[0])
+        product_value *= factor[1]
     if product_formula and product_value is not None:
         exact = v(hops[-1].to_net) if x is not None else v(hops[-1].to_net)
         row["formula"] = " × ".join(f"[{f}]" for f in product_formula)
         row["formula_value"] = abs(product_value)
         row["formula_freq_hz"] = f_hz
-        err = form_error_pct(abs(product_value), abs(exact))
+        err = form_error_pct(product_value, exact)
         row["formula_error_pct"] = err
         row["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
     # interfaces: the input net, every net between two stages, the output net
@@ -606,6 +671,56 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         row["interfaces"].append(entry)
 
 
+def _mirror_loaded_pair(circuit, hops, k, op, stage_rows, z_load_of):
+    """The mirror-loaded differential pair entered at hop ``k`` (Razavi sec. 5.3.3):
+    (last hop index, form, value, devices) or None.
+
+    The input device's gate is the hop's from-net; its partner shares the tail; one
+    side's drain is diode-connected and gates a mirror output device on the other
+    side's drain, which is where the chain leaves the pair (one or two hops later).
+    The gain is g_m1 (r_o2 || r_o4), positive from the diode side's gate; ``z_load_of(net,
+    devices)`` gives what else loads the output net (Z_L, an open at DC as a rule).
+    """
+    hop = hops[k]
+    if op is None or hop.entry != "g" or hop.kind not in ("nmos", "pmos"):
+        return None
+    a = circuit.device(hop.device)
+    row = stage_rows.get(hop.device) or {}
+    if row.get("role") != "differential pair" or not row.get("related"):
+        return None
+    b = circuit.device(row["circuit_related"][0] if row.get("circuit_related") else row["related"][0])
+    if b is None or b.nodes[2] != a.nodes[2]:
+        return None
+    for out_dev, diode_side in ((b, a), (a, b)):
+        node_out, node_diode = out_dev.nodes[0], diode_side.nodes[0]
+        diode = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_diode
+                 and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
+        mirror = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_out
+                  and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
+        if not diode or not mirror:
+            continue
+        end = next((m for m in range(k, min(k + 2, len(hops))) if hops[m].to_net == node_out), None)
+        if end is None:
+            return None
+        values = {n: op.devices[n].values for n in (a.name, out_dev.name, mirror[0].name) if n in op.devices}
+        if len(values) < len({a.name, out_dev.name, mirror[0].name}):
+            return None
+        gm1 = values[a.name]["gm_s"]
+        ro2, ro4 = values[out_dev.name]["ro_ohm"], values[mirror[0].name]["ro_ohm"]
+        sign = 1.0 if out_dev is b else -1.0
+        names = (a.name, out_dev.name, mirror[0].name)
+        z_load = z_load_of(node_out, (out_dev.name, mirror[0].name))
+        text = ("g_m1 (r_o2 || r_o4" if sign > 0 else "-g_m1 (r_o2 || r_o4")
+        value = sign * gm1 * parallel(ro2, ro4, z_load)
+        text += (")" if z_load == math.inf else " || Z_L)") + \
+            f", mirror-loaded pair: 1 = {names[0]} (input), 2 = {names[1]} (output side), 4 = {names[2]} (mirror)"
+        if z_load != math.inf:
+            text += f", Z_L = the rest of {circuit.nets[node_out]}"
+        other_gate = b.nodes[1] if out_dev is b or True else a.nodes[1]
+        return end, text, value, [a.name, out_dev.name, mirror[0].name, diode[0].name], other_gate
+    return None
+
+
 def _feedback_resistor(circuit, solves, dev, names, base, f_hz) -> dict:
     """R_F and the two nets' impedances without the device and R_F, for a stage with one
     resistor from its output to its control terminal (shunt feedback); {} otherwise."""
@@ -620,11 +735,16 @@ def _feedback_resistor(circuit, solves, dev, names, base, f_hz) -> dict:
             "control_nf": _z_near(solves, ctl, names, gone, f_hz)}
 
 
-def _z_near(solves, net_idx: int, names, detach, freq_hz: float = 0.0) -> float:
+def _z_near(solves, net_idx: int, names, detach, freq_hz: float = 0.0):
+    """The impedance a terminal sees (0 at AC ground, inf for an open); real at DC,
+    complex in the band when it is not (a capacitance matters there)."""
     if net_idx == 0 or solves.solver(freq_hz, detach).unknown(names[net_idx]) < 0:
         return 0.0
     z = solves.z(names[net_idx], freq_hz, detach)
-    return math.inf if z is None else abs(z)
+    if z is None:
+        return math.inf
+    z = complex(z)
+    return z.real if abs(z.imag) <= 1e-9 * abs(z.real) else z
 
 
 def _verdict(signal: str, z_out, z_in) -> dict:

@@ -104,11 +104,19 @@ def port_form_lines(p: dict, zname: str) -> list[str]:
 
 
 def hop_form_text(h: dict) -> str:
+    if not h.get("formula"):
+        return f"(no textbook form: {h['formula_none']})" if h.get("formula_none") else ""
     fv = h.get("formula_value")
     if fv is None:
         return f"form {h['formula']} (no value: an open or missing term)"
     gain = dict(h["gain"], mag=abs(fv), sign=1 if fv >= 0 else -1)
-    return f"{h['formula']} " + form_value(gain_text(gain), h.get("formula_error_pct"))
+    text = form_value(gain_text(gain), h.get("formula_error_pct"))
+    if h.get("in_loop_through"):
+        text += f" — the open-loop gain; a feedback loop closes through {h['in_loop_through']}"
+    if h.get("spans"):
+        span = dict(h["span_gain"])
+        return (f"over {h['from']} → {h['spans_to']} ({gain_text(span)}): {h['formula']} " + text)
+    return f"{h['formula']} " + text
 
 
 def path_form_text(p: dict) -> str:

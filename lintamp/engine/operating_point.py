@@ -104,6 +104,7 @@ class SolveOptions:
     vntol_v: float = 1e-9
     abstol_a: float = 1e-14
     max_iterations: int = 100  # per Newton run (ngspice itl1)
+    step_iterations: int = 30  # per homotopy step: a step that needs more is retried smaller
     max_total_iterations: int = 5000
     gmin_start_s: float = 1e-2
     source_steps_min: float = 1e-4
@@ -277,7 +278,8 @@ class _Budget:
         self.used = 0
 
 
-def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state, x_ref=None):
+def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state, x_ref=None,
+            max_iterations=None):
     """One Newton run; returns (x, state, iterations) or None when it does not converge.
 
     ``gshunt`` ties every node to ground through that conductance (GMIN stepping) or,
@@ -290,7 +292,7 @@ def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state,
     is_node = np.arange(cc.size) < cc.n_nodes
     if x_ref is not None and gshunt:
         rhs_src = rhs_src + np.where(is_node, gshunt * x_ref, 0.0)
-    for it in range(opts.max_iterations):
+    for it in range(max_iterations or opts.max_iterations):
         if budget.left <= 0:
             return None
         budget.left -= 1
@@ -385,13 +387,14 @@ def _gmin_stepping(cc, devs, state0, opts, budget):
     while True:
         trial = gmin / factor
         final = trial < GMIN_FINAL_S
-        res = _newton(cc, devs, x, state, 1.0, 0.0 if final else trial, opts, budget, False)
+        res = _newton(cc, devs, x, state, 1.0, 0.0 if final else trial, opts, budget, False,
+                      max_iterations=opts.step_iterations)
         if res is not None:
             x, state, its = res
             if final:
                 return res
             gmin = trial
-            if its < opts.max_iterations // 4:
+            if its < opts.step_iterations // 3:
                 factor = min(factor * np.sqrt(factor), GMIN_FACTOR_MAX)
             continue
         if budget.left <= 0:
@@ -414,7 +417,8 @@ def _source_stepping(cc, devs, state0, opts, budget):
     scale, step = 0.0, 1e-3
     while scale < 1.0:
         trial = min(1.0, scale + step)
-        res = _newton(cc, devs, x, state, trial, 0.0, opts, budget, False)
+        res = _newton(cc, devs, x, state, trial, 0.0, opts, budget, False,
+                      max_iterations=opts.step_iterations)
         if res is None:
             step /= 10
             if step < opts.source_steps_min * 1e-3 or budget.left <= 0:
@@ -422,7 +426,7 @@ def _source_stepping(cc, devs, state0, opts, budget):
             continue
         x, state, its = res
         scale = trial
-        step = min(step * (1.5 if its < opts.max_iterations // 4 else 1.0), 0.1)
+        step = min(step * (1.5 if its < opts.step_iterations // 3 else 1.0), 0.1)
     return res
 
 
@@ -454,7 +458,7 @@ def _pseudo_transient(cc, devs, state0, opts, budget):
             return None
         final = g < PTRAN_END_S
         res = _newton(cc, devs, x, state, 1.0, 0.0 if final else g, opts, budget, first,
-                      x_ref=None if final else x)
+                      x_ref=None if final else x, max_iterations=opts.step_iterations)
         if res is None:
             if final:
                 g = PTRAN_END_S * 10  # not settled yet: keep stepping
