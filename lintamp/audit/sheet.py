@@ -24,6 +24,7 @@ An open impedance is ``null`` (``"open": true`` beside it in ``z_ohm``).
 
 from __future__ import annotations
 
+import cmath
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -36,6 +37,7 @@ from lintamp.audit.chain import find_chain
 from lintamp.connectivity.intent import IntentAnalysis, Port, ac_sweep_hz, band_of
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
+from lintamp.engine.formulas import parallel
 
 GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
               ("voltage", "voltage"): ("voltage gain", "V/V"),
@@ -136,8 +138,11 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     design_full = load_design(netlist, config)
     block = _choose_block(netlist, design_full, config, top)
-    band = band_of(netlist, [block.cell] if not block.cell.is_top else [], option=bandwidth,
-                   config_value=getattr(config, "bandwidth", None))
+    try:
+        band = band_of(netlist, [block.cell] if not block.cell.is_top else [], option=bandwidth,
+                       config_value=getattr(config, "bandwidth", None))
+    except ValueError as exc:  # a --bandwidth that is no frequency: the user's to fix
+        raise AuditError(str(exc)) from None
 
     result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
     report = decide(result.findings, result.pragmas, config)
@@ -209,8 +214,24 @@ def _sev(label: str):
     return Severity.parse(label)
 
 
+def _unevaluated_devices(circuit, table) -> dict[str, str]:
+    """Nonlinear devices whose numbers would be SPICE defaults, not the designer's: a PDK
+    subcircuit whose library is absent, a model card that is not there (device -> why)."""
+    from lintamp.engine.engine_kinds import NONLINEAR
+    out = {}
+    for dev in circuit.devices:
+        if dev.kind in NONLINEAR and dev.model is None and not (table and dev.name in table):
+            out[dev.name] = dev.kind_detail if "PDK" in (dev.kind_detail or "") else "its model card is not in the files read"
+    return out
+
+
 def _operating_point(circuit, table):
     from lintamp.rulekit.impedance_report import resolve_operating_point
+    unevaluated = _unevaluated_devices(circuit, table)
+    if unevaluated:
+        shown = ", ".join(f"{n} ({why})" for n, why in list(unevaluated.items())[:6])
+        more = f" and {len(unevaluated) - 6} more" if len(unevaluated) > 6 else ""
+        return None, "assumed", [f"no operating point: devices lintamp cannot evaluate: {shown}{more}"]
     try:
         return resolve_operating_point(circuit, table)
     except (ValueError, RuntimeError, ArithmeticError) as exc:
@@ -221,6 +242,7 @@ def _stages(block: _Block, op, intent) -> list[dict]:
     from lintamp.engine.stages import composite_stages, recognise_stages
 
     out = []
+    unevaluated = _unevaluated_devices(block.circuit, None)
     for st in composite_stages(recognise_stages(block.circuit, op, **intent.stage_hints())):
         if not st.device.startswith(block.prefix):
             continue
@@ -232,6 +254,10 @@ def _stages(block: _Block, op, intent) -> list[dict]:
                "ro_ohm": st.ro_ohm if st.ro_ohm is None or math.isfinite(st.ro_ohm) else None,
                "findings": []}
         dop = op.devices.get(st.device) if op is not None else None
+        if dop is None:
+            row["gm_s"] = row["ro_ohm"] = None  # a number lintamp does not trust is not printed
+            row["unevaluated"] = unevaluated.get(st.device) or (
+                "no operating point" if op is None else "not in the operating point")
         if dop is not None:
             v = dop.values
             if dop.kind in ("nmos", "pmos"):
@@ -290,7 +316,11 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
         row["detached"] = [d[len(block.prefix):] if d.startswith(block.prefix) else d for d in detach]
         if band_hz:
             row["z_band_ohm"] = z_json(solves.z(port.circuit_net, band_hz, detach))
-        expl = explain_node(circuit, port.circuit_net, 0.0, solves.op, detach)
+        # the forms are read at DC, or in the band where DC sees an open (a coupling capacitor)
+        f_form = band_hz if (z_dc is None and band_hz) else 0.0
+        z_form = solves.z(port.circuit_net, f_form, detach) if f_form else z_dc
+        row["formula_freq_hz"] = f_form
+        expl = explain_node(circuit, port.circuit_net, f_form, solves.op, detach)
         best = _main_branch(circuit, expl.branches)
         if best is not None:
             dev = best.elements[0] if best.elements else None
@@ -302,9 +332,27 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
             row["terms"] = forms.clean_terms(best.terms)
             row["parallel"] = [{"via": b.via, "formula": b.formula, "z_ohm": mag_or_none(b.z_mna_ohm)}
                                for b in expl.branches if b is not best and mag_or_none(b.z_mna_ohm) is not None]
+            share = mag_or_none(best.z_mna_ohm)
+            row["branch_ohm"] = share
+            err = form_error_pct(best.z_ohm, best.z_mna_ohm) if share is not None else None
+            row["formula_error_pct"], row["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
             short = forms.port_short_form(best.via, best.terms, dev or "")
             if short:
-                row["approx"], row["approx_ohm"] = short
+                err = form_error_pct(short[1], share)
+                if err is not None and err <= forms.APPROX_SHOWN_PCT:  # a wrong "~" line is no help
+                    row["approx"], row["approx_ohm"] = short
+                    row["approx_error_pct"] = err
+            row.update(forms.port_parallel_form(circuit, expl.branches, z_form, block.prefix))
+            z_formula, z_short = row.pop("_z", None), row.pop("_z_short", None)
+            err = form_error_pct(z_formula, z_form)
+            row["port_formula_error_pct"] = err
+            row["port_formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+            if row.get("port_approx") is not None:
+                err = form_error_pct(z_short, z_form)
+                if err is None or err > forms.APPROX_SHOWN_PCT:
+                    row.pop("port_approx"), row.pop("port_approx_ohm", None)
+                else:
+                    row["port_approx_error_pct"] = err
         if plots:
             values = sweep(lambda f, n=port.circuit_net, d=tuple(detach): _z_or_open(solves, n, f, d), freqs)
             curve = Curve(f"|Z| at {port.net} ({port.kind})", "impedance", "Ω", freqs, values,
@@ -430,21 +478,57 @@ def _local(block, name: str) -> str:
     return name[len(block.prefix):] if name.startswith(block.prefix) else name
 
 
+FORM_EXACT_PCT = 2.0  # a printed form within this of the exact number reads "="; beyond it "≈ (error)"
+
+
+def _signed_real(value):
+    """A real number as it is; a complex one as its magnitude with the sign of its real part."""
+    if value is None or not isinstance(value, complex):
+        return value
+    return abs(value) if value.real >= 0 else -abs(value)
+
+
+def form_error_pct(value, exact) -> float | None:
+    """| |value| - |exact| | / |exact| in per cent (|value - exact| when their real parts point
+    opposite ways); None when either is missing or not finite."""
+    if value is None or exact is None:
+        return None
+    try:
+        value, exact = complex(value), complex(exact)
+    except (TypeError, ValueError):
+        return None
+    if not (math.isfinite(abs(value)) and math.isfinite(abs(exact))) or abs(exact) == 0:
+        return None
+    # the sheet prints a magnitude with the sign of the real part: that is what is compared,
+    # unless the two point opposite ways
+    if value.real * exact.real >= 0 or min(abs(value.real) / abs(value or 1), abs(exact.real) / abs(exact)) < 0.5:
+        return 100.0 * abs(abs(value) - abs(exact)) / abs(exact)
+    return 100.0 * abs(value - exact) / abs(exact)
+
+
 def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz):
     circuit = block.circuit
     base = tuple(detach)
+    # a voltage input is an ideal voltage source (an AC short) for every impedance the
+    # chain reads; a current input is an ideal current source (open): detached
+    seen = () if pin.signal == "voltage" else base
     name = circuit.nets
-    s_dc = solves.solver(0.0, base, driven=None if pin.signal == "current" else pin.circuit_net)
-    x = s_dc.solve_injection(pin.circuit_net) if pin.signal == "current" else None
+    # the stage gains and their forms are read at DC, or in the band where a coupling capacitor
+    # blocks DC (the DC gain is below the band's by more than 3 dB); the forms take impedances there
+    f_hz = float(band_hz) if band_hz and row.get("gain_band") and \
+        row["gain"]["mag"] < row["gain_band"]["mag"] / math.sqrt(2) else 0.0
+    row["chain_freq_hz"] = f_hz
+    s_at = solves.solver(f_hz, base, driven=None if pin.signal == "current" else pin.circuit_net)
+    x = s_at.solve_injection(pin.circuit_net) if pin.signal == "current" else None
     values_at = {}
 
     def v(net_idx: int) -> complex:
         if net_idx not in values_at:
             net = name[net_idx]
-            values_at[net_idx] = s_dc.voltage(x, net) if x is not None else s_dc.gain_to(net)
+            values_at[net_idx] = s_at.voltage(x, net) if x is not None else s_at.gain_to(net)
         return values_at[net_idx]
 
-    product_formula, product_value = [], 1.0
+    factors: list = []  # per hop: (text, value), "passive", or None (no form)
     for k, hop in enumerate(hops):
         dev = circuit.device(hop.device)
         first_current = k == 0 and pin.signal == "current"
@@ -454,33 +538,92 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
                  "from": _local(block, name[hop.from_net]), "to": _local(block, name[hop.to_net]),
                  "enters_at": hop.entry_word,
                  "gain": {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
-                          "sign": 1 if gain.real >= 0 else -1}}
+                          "sign": 1 if gain.real >= 0 else -1, "freq_hz": f_hz}}
         dop = solves.op.devices.get(hop.device) if solves.op is not None else None
+        form = None
         if dop is not None and hop.kind in ("nmos", "pmos", "npn", "pnp"):
             out_pin, com_pin = (0, 2)
-            near = {"out": _z_near(solves, dev.nodes[out_pin], name, base + (hop.device,)),
-                    "common": _z_near(solves, dev.nodes[com_pin], name, base + (hop.device,))}
+            near = {"out": _z_near(solves, dev.nodes[out_pin], name, seen + (hop.device,), f_hz),
+                    "common": _z_near(solves, dev.nodes[com_pin], name, seen + (hop.device,), f_hz)}
+            if dev.kind in ("npn", "pnp"):
+                near["control"] = _z_near(solves, dev.nodes[1], name, seen + (hop.device,), f_hz)
             if first_current:
-                near["source"] = near["common"]
-            form = forms.hop_form(hop, dop.values, near, first_current)
-            if form is not None:
-                entry["formula"], entry["formula_value"], terms = form
-                entry["terms"] = forms.clean_terms(terms)
-                if entry["formula_value"] is not None and product_value is not None:
-                    product_value *= entry["formula_value"]
-                    product_formula.append(entry["formula"])
-                else:
-                    product_value = None
-            else:
-                product_value = None
+                near["source"] = _z_near(solves, hop.from_net, name, seen + (hop.device,), f_hz)
+                if hop.entry in ("g", "b") and hop.exit in ("d", "c"):
+                    near.update(_feedback_resistor(circuit, solves, dev, name, seen, f_hz))
+            body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
+            form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
+        if form is not None and form[1] is not None and hop.exit in ("d", "c") and hop.entry in ("s", "e") \
+                and dev.nodes[1] != 0 and abs(v(dev.nodes[1])) > 1e-3 * abs(v(hop.from_net)):
+            form = None  # the gate/base carries signal too: not a common-gate stage
+            entry["formula_none"] = "its gate/base carries signal too (not a common-gate/base stage)"
+        if form is not None:
+            entry["formula"], value, terms = form
+            entry["terms"] = forms.clean_terms(terms)
+            entry["formula_value"] = _signed_real(value)
+            if isinstance(value, complex) and abs(value.imag) > 1e-9 * abs(value):
+                entry["formula_phase_deg"] = math.degrees(cmath.phase(value))
+            err = form_error_pct(value, gain)
+            entry["formula_error_pct"] = err
+            entry["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+        if form is not None and form[1] is not None:
+            factors.append((entry["formula"], form[1]))
+        elif form is None and hop.kind not in ("nmos", "pmos", "npn", "pnp"):
+            # a passive element on the way (source resistance, coupling capacitor, divider):
+            # its share is the MNA ratio of the two nets, shown as such
+            factors.append((f"v({entry['to']})/v({entry['from']}) across {entry['device']} (MNA)", gain))
         else:
-            product_value = None
+            factors.append(None)
         row["chain"].append(entry)
-        if product_value is None:
-            product_formula = []
+    for k in range(len(hops)):
+        pair = _mirror_loaded_pair(circuit, hops, k, solves.op, stage_rows,
+                                   lambda net, gone: _z_near(solves, net, name, seen + tuple(gone), f_hz))
+        if pair is None:
+            continue
+        end, text, value, devices, other_gate = pair
+        first_current = k == 0 and pin.signal == "current"
+        exact = v(hops[end].to_net) / (1.0 if first_current else v(hops[k].from_net))
+        entry = row["chain"][k]
+        entry.update(formula=text, formula_value=_signed_real(value), spans=[_local(block, d) for d in devices],
+                     spans_to=_local(block, name[hops[end].to_net]),
+                     span_gain={"mag": abs(exact), "unit": "V/V", "sign": 1 if exact.real >= 0 else -1})
+        entry.pop("terms", None)
+        err = form_error_pct(value, exact)
+        entry["formula_error_pct"], entry["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
+        factors[k] = (text, value)
+        if other_gate != 0 and abs(v(other_gate)) > 1e-3 * abs(v(hops[k].from_net)):
+            # the pair's other gate carries signal: a feedback loop closes through it, and the
+            # textbook form is the open-loop gain, not this node ratio
+            entry["in_loop_through"] = _local(block, name[other_gate])
+            factors[k] = None
+        for m in range(k + 1, end + 1):
+            for key in ("formula", "formula_value", "formula_error_pct", "formula_exact", "terms"):
+                row["chain"][m].pop(key, None)
+            row["chain"][m]["formula_none"] = f"inside the mirror-loaded pair (the form at {entry['device']})"
+            factors[m] = "inside"
+        break
+    product_formula: list[str] = []
+    product_value: complex | None = 1.0
+    loops = [e["in_loop_through"] for e in row["chain"] if e.get("in_loop_through")]
+    if loops:
+        row["notes"].append(f"the chain sits inside a feedback loop closed through {', '.join(loops)}: "
+                            "a stage's textbook form is its open-loop gain, the gains above are in the loop")
+    for factor in factors:
+        if factor is None:
+            product_value = None
+            break
+        if factor == "inside":
+            continue
+        product_formula.append(factor[0])
+        product_value *= factor[1]
     if product_formula and product_value is not None:
+        exact = v(hops[-1].to_net) if x is not None else v(hops[-1].to_net)
         row["formula"] = " × ".join(f"[{f}]" for f in product_formula)
         row["formula_value"] = abs(product_value)
+        row["formula_freq_hz"] = f_hz
+        err = form_error_pct(product_value, exact)
+        row["formula_error_pct"] = err
+        row["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
     # interfaces: the input net, every net between two stages, the output net
     nets = [hops[0].from_net] + [h.to_net for h in hops] if hops else []
     for k, net_idx in enumerate(nets):
@@ -513,20 +656,20 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             load_nets = {n for d in circuit.devices if d.name in receiver for n in d.nodes} - {0}
             receiver = receiver + [d.name for d in circuit.devices
                                    if net_idx in d.nodes and d.name not in receiver
-                                   and d.name not in base and len(d.nodes) == 2
+                                   and d.name not in seen and len(d.nodes) == 2
                                    and d.kind in ("capacitor", "resistor", "inductor")
                                    and (set(d.nodes) - {net_idx}) & load_nets]
         others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
-                  and d.name not in base]
-        z_out = solves.z(net, 0.0, base + tuple(receiver))
-        z_in = solves.z(net, 0.0, base + tuple(others)) if receiver else None
+                  and d.name not in seen]
+        z_out = solves.z(net, 0.0, seen + tuple(receiver))
+        z_in = solves.z(net, 0.0, seen + tuple(others)) if receiver else None
         entry = {"net": _local(block, net), "role": role, "signal": signal,
                  "driver": [_local(block, o) for o in others],
                  "receiver": [_local(block, r) for r in receiver],
                  "z_out_ohm": mag_or_none(z_out), "z_in_ohm": mag_or_none(z_in)}
         if band_hz:
-            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
-            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
+            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, seen + tuple(receiver)))
+            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, seen + tuple(others)))
                                       if receiver else None)
             # judged in the signal band, where an AC-coupled load is connected
             entry.update(_verdict(signal, entry["z_out_band_ohm"], entry["z_in_band_ohm"]))
@@ -535,11 +678,80 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         row["interfaces"].append(entry)
 
 
-def _z_near(solves, net_idx: int, names, detach) -> float:
-    if net_idx == 0 or solves.solver(0.0, detach).unknown(names[net_idx]) < 0:
+def _mirror_loaded_pair(circuit, hops, k, op, stage_rows, z_load_of):
+    """The mirror-loaded differential pair entered at hop ``k`` (Razavi sec. 5.3.3):
+    (last hop index, form, value, devices) or None.
+
+    The input device's gate is the hop's from-net; its partner shares the tail; one
+    side's drain is diode-connected and gates a mirror output device on the other
+    side's drain, which is where the chain leaves the pair (one or two hops later).
+    The gain is g_m1 (r_o2 || r_o4), positive from the diode side's gate; ``z_load_of(net,
+    devices)`` gives what else loads the output net (Z_L, an open at DC as a rule).
+    """
+    hop = hops[k]
+    if op is None or hop.entry != "g" or hop.kind not in ("nmos", "pmos"):
+        return None
+    a = circuit.device(hop.device)
+    row = stage_rows.get(hop.device) or {}
+    if row.get("role") != "differential pair" or not row.get("related"):
+        return None
+    b = circuit.device(row["circuit_related"][0] if row.get("circuit_related") else row["related"][0])
+    if b is None or b.nodes[2] != a.nodes[2]:
+        return None
+    for out_dev, diode_side in ((b, a), (a, b)):
+        node_out, node_diode = out_dev.nodes[0], diode_side.nodes[0]
+        diode = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_diode
+                 and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
+        mirror = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_out
+                  and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
+        if not diode or not mirror:
+            continue
+        end = next((m for m in range(k, min(k + 2, len(hops))) if hops[m].to_net == node_out), None)
+        if end is None:
+            return None
+        values = {n: op.devices[n].values for n in (a.name, out_dev.name, mirror[0].name) if n in op.devices}
+        if len(values) < len({a.name, out_dev.name, mirror[0].name}):
+            return None
+        gm1 = values[a.name]["gm_s"]
+        ro2, ro4 = values[out_dev.name]["ro_ohm"], values[mirror[0].name]["ro_ohm"]
+        sign = 1.0 if out_dev is b else -1.0
+        names = (a.name, out_dev.name, mirror[0].name)
+        z_load = z_load_of(node_out, (out_dev.name, mirror[0].name))
+        text = ("g_m1 (r_o2 || r_o4" if sign > 0 else "-g_m1 (r_o2 || r_o4")
+        value = sign * gm1 * parallel(ro2, ro4, z_load)
+        text += (")" if z_load == math.inf else " || Z_L)") + \
+            f", mirror-loaded pair: 1 = {names[0]} (input), 2 = {names[1]} (output side), 4 = {names[2]} (mirror)"
+        if z_load != math.inf:
+            text += f", Z_L = the rest of {circuit.nets[node_out]}"
+        other_gate = b.nodes[1] if out_dev is b or True else a.nodes[1]
+        return end, text, value, [a.name, out_dev.name, mirror[0].name, diode[0].name], other_gate
+    return None
+
+
+def _feedback_resistor(circuit, solves, dev, names, base, f_hz) -> dict:
+    """R_F and the two nets' impedances without the device and R_F, for a stage with one
+    resistor from its output to its control terminal (shunt feedback); {} otherwise."""
+    out, ctl = dev.nodes[0], dev.nodes[1]
+    rf = [d for d in circuit.devices if d.kind == "resistor" and d.name not in base
+          and set(d.nodes[:2]) == {out, ctl} and out != ctl]
+    if len(rf) != 1:
+        return {}
+    gone = base + (dev.name, rf[0].name)
+    return {"R_F": float(rf[0].value), "R_F_name": rf[0].name,
+            "out_nf": _z_near(solves, out, names, gone, f_hz),
+            "control_nf": _z_near(solves, ctl, names, gone, f_hz)}
+
+
+def _z_near(solves, net_idx: int, names, detach, freq_hz: float = 0.0):
+    """The impedance a terminal sees (0 at AC ground, inf for an open); real at DC,
+    complex in the band when it is not (a capacitance matters there)."""
+    if net_idx == 0 or solves.solver(freq_hz, detach).unknown(names[net_idx]) < 0:
         return 0.0
-    z = solves.z(names[net_idx], 0.0, detach)
-    return math.inf if z is None else abs(z)
+    z = solves.z(names[net_idx], freq_hz, detach)
+    if z is None:
+        return math.inf
+    z = complex(z)
+    return z.real if abs(z.imag) <= 1e-9 * abs(z.real) else z
 
 
 def _verdict(signal: str, z_out, z_in) -> dict:

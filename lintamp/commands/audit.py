@@ -13,7 +13,7 @@ import json
 import sys
 from pathlib import Path
 
-from lintamp.commands.common import (UsageError, add_config_options, epilog,
+from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, epilog,
                                      existing_file, load_config, load_op, report_internal_errors)
 
 FORMATS = ("text", "json", "markdown", "html")
@@ -63,8 +63,6 @@ def write_atomically(path: Path, payload: bytes, protect=()) -> None:
 
 
 def run(args) -> int:
-    from lintamp.audit.sheet import AuditError, build_sheet
-
     path = existing_file(args.netlist)
     output = Path(args.output) if args.output else None
     if output is not None and not (output.parent if str(output.parent) else Path(".")).is_dir():
@@ -73,13 +71,34 @@ def run(args) -> int:
     table = load_op(args.op)
     want_plots = args.format in ("markdown", "html") and (args.format == "html" or output is not None)
     try:
+        return _audit(args, path, output, config, table, want_plots)
+    except (UsageError, KeyboardInterrupt, BrokenPipeError):
+        raise
+    except Exception as exc:  # a bug: one line naming the netlist, never a traceback
+        print(f"lintamp: internal error while auditing {args.netlist}: {type(exc).__name__}: "
+              f"{_one_line(exc)} (please report it with the netlist)", file=sys.stderr)
+        return EXIT_TROUBLE
+
+
+def _one_line(exc: BaseException) -> str:
+    text = " ".join(str(exc).split())
+    return text[:300] + ("..." if len(text) > 300 else "")
+
+
+def _audit(args, path, output, config, table, want_plots) -> int:
+    from lintamp.audit.sheet import AuditError, build_sheet
+    from lintamp.audit.solves import finite_for_json
+
+    try:
         sheet = build_sheet(path, top=args.top, bandwidth=args.bandwidth, table=table,
                             include_paths=[Path(p) for p in args.include_path], config=config,
                             plots=want_plots)
     except AuditError as exc:
         raise UsageError(str(exc)) from None
-    except ValueError as exc:  # --bandwidth that is no frequency
-        raise UsageError(str(exc)) from None
+    non_finite: list = []
+    sheet.data = finite_for_json(sheet.data, notes=non_finite)
+    if non_finite:
+        sheet.data["non_finite"] = non_finite
 
     images: dict[str, bytes] = {}
     if args.format in ("markdown", "html"):

@@ -8,7 +8,7 @@ import json
 import sys
 from pathlib import Path
 
-from lintamp.commands.common import (EXIT_OK, UsageError, add_config_options, epilog, existing_file,
+from lintamp.commands.common import (EXIT_OK, EXIT_TROUBLE, UsageError, add_config_options, epilog, existing_file,
                                      load_config, load_op)
 from lintamp.report.si import si, si_for_key
 
@@ -90,6 +90,18 @@ def block_ports(netlist, circuit, config, top: str | None) -> list:
 
 
 def run(args) -> int:
+    try:
+        return _impedance(args)
+    except (UsageError, KeyboardInterrupt, BrokenPipeError):
+        raise
+    except Exception as exc:  # a bug: one line naming the netlist, never a traceback
+        text = " ".join(str(exc).split())[:300]
+        print(f"lintamp: internal error while computing the impedance in {args.netlist}: "
+              f"{type(exc).__name__}: {text} (please report it with the netlist)", file=sys.stderr)
+        return EXIT_TROUBLE
+
+
+def _impedance(args) -> int:
     from lintamp.rulekit.impedance_report import impedance_report
     from lintamp.engine.operating_point import OperatingPointError
     from lintamp.engine.small_signal import SmallSignalError
@@ -121,7 +133,8 @@ def run(args) -> int:
         print(printable(f"lintamp: {diag.location}: {diag.message} "
                         "(the impedance is computed without it)"), file=sys.stderr)
     if args.format == "json":
-        print(json.dumps(report, indent=2, sort_keys=False, allow_nan=False, default=str))
+        from lintamp.audit.solves import finite_for_json
+        print(json.dumps(finite_for_json(report), indent=2, sort_keys=False, allow_nan=False, default=str))
     else:
         print("\n".join(printable(line) for line in render_text(report).split("\n")))
     return EXIT_OK

@@ -227,9 +227,15 @@ class _Explainer:
             return Branch(f"base of {k}", "r_pi + (beta+1)(R_E || r_o)", fm.bjt_base_ohm(gm, rpi, ro, re), 0, terms)
         if at == {"e"}:
             rb = self.z_seen(b, k)
+            rc = self.z_seen(c, k)
             terms["R_B_ohm"] = _mag(rb)
+            terms["R_C_ohm"] = _mag(rc)
             via = f"emitter of {k}" + (" (emitter-follower output)" if c in self.ac_ground else "")
-            return Branch(via, "(R_B + r_pi)/(beta+1) || r_o", fm.bjt_emitter_ohm(gm, rpi, ro, rb), 0, terms)
+            if _mag(rb) == 0:
+                form = "(r_o + R_C)/(1 + g_m r_o) || r_pi"
+            else:
+                form = "(r_o + R_C)/(1 + g_m r_o r_pi/(r_pi + R_B)) || (r_pi + R_B)"
+            return Branch(via, form, fm.bjt_emitter_exact_ohm(gm, rpi, ro, rb, rc), 0, terms)
         if at == {"c"}:
             re = self.z_seen(e, k)
             terms["R_E_ohm"] = _mag(re)

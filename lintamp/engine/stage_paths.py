@@ -52,12 +52,15 @@ def _edges(circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
         if a not in acg and b not in acg and a != b:
             adj.setdefault(a, []).append((b, cost, device, how))
 
+    by_name = {dev.name: dev for dev in circuit.devices}
     for dev in circuit.devices:
         n = dev.nodes
         if dev.kind in TRANSISTORS:
             st = roles.get(dev.name)
             if st is None or (st.units and st.units[0] != dev.name):
                 continue
+            if len(st.units) > 1:  # a composite: its ends are the stack's ends
+                n = _composite_nodes([by_name[u] for u in st.units if u in by_name], n)
             role = st.role
             if role in GATE_TO_DRAIN:
                 add(n[1], n[0], 1, dev.name, "gd")
@@ -77,6 +80,19 @@ def _edges(circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
             add(n[0], n[1], PASSIVE_COST, dev.name, "p")
             add(n[1], n[0], PASSIVE_COST, dev.name, "p")
     return adj
+
+
+def _composite_nodes(units, nodes):
+    """(drain, gate, source) of unit devices taken as one: for a series stack the drain
+    no other unit's source meets and the source no other unit's drain meets; parallel
+    units share all three."""
+    drains = {u.nodes[0] for u in units}
+    sources = {u.nodes[2] for u in units}
+    top = [d for d in drains if d not in sources]
+    bottom = [s for s in sources if s not in drains]
+    if len(top) != 1 or len(bottom) != 1:
+        return nodes
+    return (top[0], nodes[1], bottom[0], *nodes[3:])
 
 
 def _chain(adj, start: int, goal: int):
@@ -112,8 +128,17 @@ class _Impedances:
     def __init__(self, circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
         self.circuit, self.roles, self.acg = circuit, roles, acg
         self.on: dict[int, list] = {}
+        self.ends: dict[str, tuple] = {}  # a composite's (drain, gate, source), by its first unit
+        by_name = {dev.name: dev for dev in circuit.devices}
         for dev in circuit.devices:
-            for node in set(dev.nodes[:3] if dev.kind in TRANSISTORS else dev.nodes[:2]):
+            nodes = dev.nodes
+            st = roles.get(dev.name)
+            if dev.kind in TRANSISTORS and st is not None and len(st.units) > 1:
+                if st.units[0] != dev.name:
+                    continue  # a composite counts once, at its ends
+                nodes = _composite_nodes([by_name[u] for u in st.units if u in by_name], nodes)
+                self.ends[dev.name] = nodes
+            for node in set(nodes[:3] if dev.kind in TRANSISTORS else nodes[:2]):
                 self.on.setdefault(node, []).append(dev)
 
     def at(self, net: int, skip=()) -> list[str]:
@@ -128,7 +153,7 @@ class _Impedances:
             if st is not None and st.role in CHANNEL + (Role.DUMMY, Role.MOS_CAPACITOR):
                 continue  # off, or in series with a capacitor: no load at the operating point
             if dev.kind in TRANSISTORS:
-                d, g, s = dev.nodes[:3]
+                d, g, s = self.ends.get(dev.name, dev.nodes)[:3]
                 if d == net and g == net:
                     terms.append(f"1/g_m{t}")
                 elif d == net and st is not None and st.role == Role.CASCODE:

@@ -1,0 +1,166 @@
+"""The review sheet on a family of amplifier decks of our own, against ngspice-39.
+
+Each deck in ``tests/fixtures/audit_family`` (CS, degenerated CS, CG, followers,
+cascodes, mirrors, a mirror-loaded pair, shunt-feedback TIAs, BJT CE/CB/CC, a
+Darlington, a two-stage Miller op-amp open loop, as a unity-gain buffer and in
+feedback, an RC ladder, a folded cascode, a bandgap core; each with passive elements
+between the source and the first device) must
+
+* render in every format with exit 0 or 1 and never a traceback;
+* print every path gain, stage gain and port impedance within 1 % of ngspice-39's AC
+  analysis of the same deck text (``tests/family_reference.py``);
+* print every textbook form within 2 % of that exact number, or mark it as an
+  approximation with its error (the error it states is the one ngspice-39 gives);
+* solve its operating point within 1 mV of ngspice-39's ``.op``.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import math
+from contextlib import redirect_stderr, redirect_stdout
+
+import pytest
+
+import family_reference as ref
+import ngspice_harness as ng
+
+DECKS = ref.family()
+GAIN_Z_REL = 0.01  # the issue: path gains and port impedances within 1 % of ngspice-39
+FORM_REL = 0.02  # a form printed with "=" is within 2 % of the exact number
+OP_MV = 1.0  # the operating point within 1 mV of ngspice-39 .op
+
+
+def test_the_family_is_large_enough():
+    assert len(DECKS) >= 30
+
+
+@pytest.fixture(scope="module")
+def compared():
+    ng.require_ngspice()
+    return {}
+
+
+def _result(compared, path):
+    if path.stem not in compared:
+        compared[path.stem] = ref.compare_deck(path)
+    return compared[path.stem]
+
+
+@pytest.mark.parametrize("path", DECKS, ids=[p.stem for p in DECKS])
+def test_numbers_match_ngspice(compared, path):
+    res, data = _result(compared, path)
+    # ngspice-39 .op: lintamp's own DC solve (with its homotopies) lands on the same point
+    if res.ngspice_solves:
+        assert res.op_max_dev_mv <= OP_MV, f"{path.stem}: OP {res.op_max_dev_mv:.3g} mV off ngspice-39"
+    # ngspice-39 AC analysis: port impedances, path gains, stage gains
+    assert res.checks, "the sheet shows no number to compare"
+    for what, mine, theirs, err in res.checks:
+        assert err <= GAIN_Z_REL, f"{path.stem}: {what}: lintamp {mine:.6g}, ngspice-39 {theirs:.6g}"
+    for what, mine, theirs in res.signs:
+        assert mine == theirs, f"{path.stem}: {what}: sign {mine} against ngspice-39's {theirs}"
+    for what, z_ng in res.open_checks:  # an impedance the sheet calls open is open for ngspice too
+        assert z_ng > ref.OPEN_OHM, f"{path.stem}: {what} is {z_ng:.3g} ohm for ngspice-39"
+
+
+@pytest.mark.parametrize("path", DECKS, ids=[p.stem for p in DECKS])
+def test_forms_are_exact_or_marked(compared, path):
+    res, data = _result(compared, path)
+    for what, value, exact, err, marked_exact in res.forms:
+        if marked_exact:  # printed with "=": within 2 % of ngspice-39's number
+            assert err <= FORM_REL + 1e-9, f"{path.stem}: {what} = {value:.6g}, ngspice-39 {abs(exact):.6g}"
+        else:  # printed as an approximation: it is one, by about the error it states
+            assert err > FORM_REL * 0.9, f"{path.stem}: {what} marked approximate but {100 * err:.3g} % off"
+    text = _render(path, "text")[1]
+    for p in data["paths"]:
+        for h in p.get("chain", []):
+            if h.get("formula_value") is not None and not h.get("formula_exact"):
+                assert f"{h['formula_error_pct']:.3g} % off" in text
+                assert h["formula_error_pct"] / 100 == pytest.approx(
+                    next(f[3] for f in res.forms if f[0] == f"{h['device']}: {h['formula']}"), rel=0.02, abs=1e-3)
+
+
+def _render(path, fmt, out=None):
+    from lintamp.cli import main
+    stdout, stderr = io.StringIO(), io.StringIO()
+    argv = ["audit", str(path), "--format", fmt, "--no-config"] + (["-o", str(out)] if out else [])
+    with redirect_stdout(stdout), redirect_stderr(stderr):
+        code = main(argv)
+    return code, stdout.getvalue(), stderr.getvalue()
+
+
+@pytest.mark.parametrize("path", DECKS, ids=[p.stem for p in DECKS])
+def test_every_format_renders(path, tmp_path):
+    for fmt in ("text", "json", "markdown", "html"):
+        out = tmp_path / f"sheet.{fmt}" if fmt in ("markdown", "html") else None
+        code, stdout, stderr = _render(path, fmt, out)
+        assert code in (0, 1), f"{path.stem} --format {fmt}: exit {code}: {stderr}"
+        assert "Traceback" not in stderr and "internal error" not in stderr
+        if fmt == "json":  # strict JSON: no NaN, no Infinity (null with a reason instead)
+            data = json.loads(stdout, parse_constant=lambda c: pytest.fail(f"{c} in the JSON"))
+            for item in data.get("non_finite", []):
+                assert item["why"]
+        if out is not None:
+            assert out.read_text(encoding="utf-8").strip()
+
+
+def test_infinite_and_nan_values_are_null_with_a_reason(monkeypatch):
+    # an open Z_in (a CG input fed by an ideal current source) and a g_m the model gave no
+    # number for: strict JSON has neither, so each is null with its reason (RFC 8259: no NaN/Infinity)
+    import lintamp.audit.sheet as sheet
+    real = sheet.build_sheet
+
+    def with_odd_values(*a, **k):
+        built = real(*a, **k)
+        built.data["ports"][0]["z_ohm"]["mag"] = math.inf
+        built.data["stages"][0]["gm_s"] = math.nan
+        return built
+
+    monkeypatch.setattr(sheet, "build_sheet", with_odd_values)
+    path = ref.FAMILY_DIR / "cg_ideal_current_source.sp"
+    code, stdout, stderr = _render(path, "json")
+    assert code == 0, stderr
+    data = json.loads(stdout)
+    assert data["ports"][0]["z_ohm"]["mag"] is None and data["ports"][0]["z_ohm"]["mag_why"].startswith("infinite")
+    assert data["stages"][0]["gm_s"] is None and data["stages"][0]["gm_s_why"].startswith("not a number")
+    assert {n["where"] for n in data["non_finite"]} >= {"ports[0].z_ohm.mag", "stages[0].gm_s"}
+    for fmt in ("text", "markdown"):
+        code, stdout, stderr = _render(path, fmt)
+        assert code == 0 and "Traceback" not in stderr
+    assert "g_m —" in _render(path, "text")[1]
+
+
+def test_nan_never_reaches_the_sheet():
+    from lintamp.audit.solves import finite_for_json
+    notes = []
+    clean = finite_for_json({"gm_s": math.nan, "rows": [{"z_ohm": math.inf}]}, notes=notes)
+    assert clean == {"gm_s": None, "gm_s_why": "not a number (the models gave no value here)",
+                     "rows": [{"z_ohm": None, "z_ohm_why": "infinite (an open, or a value without bound)"}]}
+    assert [n["where"] for n in notes] == ["gm_s", "rows[0].z_ohm"]
+    from lintamp.audit.render_text import render_text
+    path = ref.FAMILY_DIR / "pmos_body_forward.sp"
+    code, stdout, stderr = _render(path, "text")
+    assert code in (0, 1) and "Traceback" not in stderr
+
+
+def test_internal_error_is_exit_2_with_one_line(monkeypatch, tmp_path):
+    # INTERFACE.md: exit 2 when the tool could not do its job; STYLE.md 11: never a traceback
+    import lintamp.audit.sheet as sheet
+    import lintamp.rulekit.impedance_report as report
+
+    def boom(*a, **k):
+        raise TypeError("unsupported operand type(s) for *=: 'NoneType' and 'float'")
+
+    path = ref.FAMILY_DIR / "cs_source_resistance.sp"
+    monkeypatch.setattr(sheet, "build_sheet", boom)
+    code, stdout, stderr = _render(path, "text")
+    assert code == 2
+    lines = stderr.strip().splitlines()
+    assert len(lines) == 1 and str(path) in lines[0] and "TypeError" in lines[0]
+    monkeypatch.setattr(report, "impedance_report", boom)
+    from lintamp.cli import main
+    err = io.StringIO()
+    with redirect_stdout(io.StringIO()), redirect_stderr(err):
+        code = main(["impedance", str(path), "out"])
+    assert code == 2 and len(err.getvalue().strip().splitlines()) == 1 and str(path) in err.getvalue()
