@@ -135,4 +135,5 @@ def test_installed_hook_blocks_a_commit(project):
     run(["git", "add", "models.lib"], repo, env)
     blocked = run(["git", "commit", "-qm", "rename the model"], repo, env)
     assert blocked.returncode != 0, blocked.stdout + blocked.stderr
-    assert "amp.sp" in blocked.stdout and "unknown-model" in blocked.stdout
+    said = blocked.stdout + blocked.stderr  # git shows the hook's output on stderr
+    assert "amp.sp" in said and "unknown-model" in said
