@@ -37,7 +37,7 @@ EXAMPLES = epilog(
 
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="lintamp", description="Topology and impedance checks for analog "
-                     "SPICE netlists. `lintamp COMMAND --help` describes a command.",
+                     "SPICE netlists.\n`lintamp COMMAND --help` describes a command.",
                      epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
     parser.add_argument("--version", action="version", version=f"lintamp {__version__}",
                         help="print the version and exit")

@@ -53,6 +53,30 @@ def rich_finding() -> Finding:
     )
 
 
+# ---------------------------------------------------------------- slow tests
+
+SLOW_REASON = ("builds the pre-commit hook's environment (pip installs lintamp, minutes); "
+               "run with --run-slow, as .ci/run and the README's second command do")
+
+
+def pytest_addoption(parser):
+    parser.addoption("--run-slow", action="store_true", default=False,
+                     help="also run the tests marked slow (the pre-commit end-to-end runs)")
+
+
+def pytest_configure(config):
+    config.addinivalue_line("markers", "slow: builds environments; runs only with --run-slow")
+
+
+def pytest_collection_modifyitems(config, items):
+    if config.getoption("--run-slow"):
+        return
+    skip = pytest.mark.skip(reason=SLOW_REASON)
+    for item in items:
+        if "slow" in item.keywords:
+            item.add_marker(skip)
+
+
 # ---------------------------------------------------------------- the checkout stays clean
 
 # Where a run without a config file would put its cache if a test let it write into the

@@ -89,13 +89,38 @@ def test_output_file_written_and_nothing_beside_the_netlist(tmp_path):
             assert f"]({name})" in text
 
 
+FORMATS = ("text", "json", "markdown", "html")
+
+
+@pytest.fixture(scope="module")
+def every_sheet(tmp_path_factory) -> dict[tuple[str, str], Path]:
+    """Every sample's sheet in every format, rendered once for the module, all in one
+    process (each sample once per format: the determinism test compares against these)."""
+    folder = tmp_path_factory.mktemp("sheets")
+    samples = sorted((REPO / "samples").glob("*.sp"))
+    script = ("import sys\nfrom lintamp.cli import main\nfor fmt, src, dst in zip(*[iter(sys.argv[1:])] * 3):\n"
+              "    rc = main(['audit', src, '--format', fmt, '-o', dst])\n"
+              "    print(fmt, src, rc, flush=True)\n")
+    args = []
+    sheets = {}
+    for sample in samples:
+        for fmt in FORMATS:
+            target = folder / f"{sample.stem}.{fmt}"
+            args += [fmt, str(sample), str(target)]
+            sheets[(sample.name, fmt)] = target
+    proc = subprocess.run([sys.executable, "-c", script, *args], capture_output=True, text=True,
+                          cwd=REPO, env={"PYTHONPATH": str(REPO), "PATH": "/usr/bin:/bin"}, timeout=600)
+    codes = [line.rsplit(" ", 1)[1] for line in proc.stdout.splitlines()]
+    assert codes == ["0"] * len(sheets), proc.stdout + proc.stderr
+    return sheets
+
+
 @pytest.mark.skipif(not HAVE_MPL, reason="matplotlib not installed (pip install '.[plots]')")
-def test_same_input_same_bytes(tmp_path):
-    outs = []
-    for k in range(2):
-        target = tmp_path / f"s{k}.html"
-        assert lintamp("audit", SAMPLE, "--format", "html", "-o", target).returncode == 0
-        outs.append(target.read_bytes())
+def test_same_input_same_bytes(tmp_path, every_sheet):
+    # another process renders the sheet again: the same bytes
+    target = tmp_path / "again.html"
+    assert lintamp("audit", SAMPLE, "--format", "html", "-o", target).returncode == 0
+    outs = [every_sheet[(SAMPLE.name, "html")].read_bytes(), target.read_bytes()]
     assert outs[0] == outs[1]
     assert outs[0].count(b"data:image/png;base64,") == 3
     assert b"<script" not in outs[0] and b"http://" not in outs[0] and b"https://" not in outs[0]
@@ -123,13 +148,10 @@ def test_without_matplotlib_the_sheet_says_plots_were_skipped(tmp_path):
     assert "Plots skipped" in md.read_text() and not list(tmp_path.glob("sheet-*.png"))
 
 
-def test_every_sample_renders_in_every_format(tmp_path):
-    for sample in sorted((REPO / "samples").glob("*.sp")):
-        for fmt in ("text", "json", "markdown", "html"):
-            target = tmp_path / f"{sample.stem}.{fmt}"
-            proc = lintamp("audit", sample, "--format", fmt, "-o", target)
-            assert proc.returncode == 0, (sample.name, fmt, proc.stderr)
-            assert target.stat().st_size > 0
+def test_every_sample_renders_in_every_format(every_sheet):
+    assert len(every_sheet) == len(list((REPO / "samples").glob("*.sp"))) * len(FORMATS)
+    for (sample, fmt), target in every_sheet.items():
+        assert target.stat().st_size > 0, (sample, fmt)
 
 
 ODD_DECKS = {  # scenarios of our own: each must give a sheet or a one-line error, never a traceback

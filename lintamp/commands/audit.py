@@ -37,8 +37,8 @@ def register(sub) -> None:
     p.add_argument("netlist", metavar="NETLIST", help="the netlist file of the block")
     p.add_argument("--top", metavar="CELL", help="the cell to elaborate as the top level")
     p.add_argument("--format", default="text", choices=FORMATS,
-                   help="text, json, markdown or html (html and markdown with -o carry "
-                        "plots; default: text)")
+                   help="text, json, markdown or html; html, and markdown written with -o, "
+                        "carry plots (default: text)")
     p.add_argument("-o", "--output", metavar="FILE",
                    help="write the sheet to FILE (replaced whole, never half-written)")
     p.add_argument("--op", metavar="FILE",
