@@ -57,13 +57,16 @@ def project_root(path: Path, config) -> Path:
     source = getattr(config, "source", None)
     if source is not None:
         return Path(source).resolve().parent
-    start = Path(os.path.abspath(path)).parent.resolve()  # where the name is, not where a link leads
-    for folder in (start, *start.parents):
+    # from where the name is, not where a link leads (a committed link out of the
+    # checkout must not make its target's folder the root)
+    named = Path(os.path.abspath(path)).parent
+    for folder in (named, *named.parents):
         if (folder / ".git").exists():
-            return folder
-    cwd = Path.cwd().resolve()
-    if cwd == start or cwd in start.parents:
-        return cwd
+            return folder.resolve()
+    start = named.resolve()
+    cwd = Path.cwd()
+    if cwd == named or cwd in named.parents or cwd.resolve() == start or cwd.resolve() in start.parents:
+        return cwd.resolve()
     return start
 
 
@@ -265,7 +268,9 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
         results = [_check_one(job) for job in work]
     seen: set[tuple] = set()
     seen_pragmas: set[tuple] = set()
-    for result in results:
+    # merged in path order, not the order given: where two decks report one finding of a
+    # library they both include, the same deck's copy is kept whatever the order
+    for result in sorted(results, key=lambda r: str(r.path)):
         # a file included by several checked files yields its findings once
         for finding in result.findings:
             key = (finding.fingerprint, finding.location, finding.message)
