@@ -284,8 +284,41 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
                 pragmas.append(pragma)
         errors.extend(result.internal_errors)
     report = decide(findings, pragmas, config, baseline)
+    report.findings = cap_findings(report.findings)
     report.files = [_display(f) for f in files]
     return report, errors
+
+
+MAX_FINDINGS_PER_RULE = 1000  # per file: past this a report is a flood, not a review
+
+
+def cap_findings(findings: list[Finding]) -> list[Finding]:
+    """At most :data:`MAX_FINDINGS_PER_RULE` findings of one rule in one file (after
+    waivers and the baseline), then one finding that counts the rest, at the highest
+    severity among them, so ``--fail-on`` decides as it would on all of them."""
+    counts: dict[tuple[str, str], int] = {}
+    for f in findings:
+        key = (f.location.path, f.rule)
+        counts[key] = counts.get(key, 0) + 1
+    if all(n <= MAX_FINDINGS_PER_RULE for n in counts.values()):
+        return findings
+    kept: list[Finding] = []
+    shown: dict[tuple[str, str], int] = {}
+    dropped: dict[tuple[str, str], list[Finding]] = {}
+    for f in findings:
+        key = (f.location.path, f.rule)
+        shown[key] = shown.get(key, 0) + 1
+        if shown[key] <= MAX_FINDINGS_PER_RULE:
+            kept.append(f)
+        else:
+            dropped.setdefault(key, []).append(f)
+    for (path, rule), rest in dropped.items():
+        kept.append(Finding(rule=rule, severity=max(f.severity for f in rest), location=rest[0].location,
+                            subject=f"{len(rest)} more",
+                            message=f"{len(rest)} more {rule} findings in {path} not listed "
+                                    f"(the first {MAX_FINDINGS_PER_RULE} are)"))
+    kept.sort(key=Finding.sort_key)
+    return kept
 
 
 def _display(path: Path) -> str:

@@ -543,3 +543,26 @@ def test_tiny_numbers_print_in_exponent_form():
     # common practice: below the smallest prefix (femto) an exponent, not 300 zeros
     assert si(1e-300, "F") == "1e-300 F"
     assert si(2.2e-15, "F") == "2.20 fF"
+
+
+def test_a_flood_of_bad_cards_gives_a_bounded_number_of_messages():
+    from lintamp.netlist.parser import parse_text
+    from lintamp.netlist.reader import MAX_DIAGNOSTICS_PER_RULE
+    netlist = parse_text("* t\n" + "r1 a\n" * 5000 + ".end\n", "flood.sp")  # each lacks a node
+    errors = [d for d in netlist.diagnostics if d.rule == "parse-error"]
+    assert len(errors) == MAX_DIAGNOSTICS_PER_RULE + 1
+    assert "4000 more parse-error problems" in errors[-1].message
+
+
+def test_findings_of_one_rule_in_one_file_are_capped_with_a_count(tmp_path):
+    from lintamp.api import MAX_FINDINGS_PER_RULE, check_paths
+    from lintamp.config import Config
+    from lintamp.findings import Severity
+    n = MAX_FINDINGS_PER_RULE + 500
+    # every resistor has one end on a net of its own: one dangling-net each
+    (tmp_path / "many.sp").write_text("* t\nv1 a 0 1\n" + "".join(f"r{k} a n{k} 1k\n" for k in range(n)) + ".end\n")
+    report, errors = check_paths([tmp_path / "many.sp"], Config(root=tmp_path))
+    dangling = [f for f in report.findings if f.rule == "dangling-net"]
+    assert len(dangling) == MAX_FINDINGS_PER_RULE + 1 and not errors
+    summary = [f for f in dangling if f.subject == "500 more"]
+    assert summary and summary[0].severity == Severity.WARNING and "500 more" in summary[0].message
