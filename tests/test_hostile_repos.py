@@ -566,3 +566,27 @@ def test_findings_of_one_rule_in_one_file_are_capped_with_a_count(tmp_path):
     assert len(dangling) == MAX_FINDINGS_PER_RULE + 1 and not errors
     summary = [f for f in dangling if f.subject == "500 more"]
     assert summary and summary[0].severity == Severity.WARNING and "500 more" in summary[0].message
+
+
+def test_fuzz_target_runs_impedance_and_audit_and_checks_their_escaping(tmp_path, monkeypatch):
+    from fuzz.target import COMMANDS, FuzzFailure, exercise, make_sandbox
+    sandbox = make_sandbox(tmp_path / "root")
+    work = escape_deck(tmp_path)
+    deck = (work / "esc.sp").read_bytes().replace(b".include models.lib", b"")
+    deck = deck.replace(b"* lintamp: current-input pd", b"* lintamp: current-input pd\n.model nch nmos level=1")
+    for sample in [deck, *(p.read_bytes() for p in sorted((REPO / "samples").glob("*.sp")))]:
+        exercise(sample, sandbox, commands=COMMANDS, formats=("text", "github"))
+    # the target does look: with the escaping taken away, it fails on the same deck
+    import lintamp.report.base as base
+    monkeypatch.setattr(base, "printable", lambda text: text)
+    with pytest.raises(FuzzFailure, match="control character"):
+        exercise(deck, sandbox, commands=COMMANDS, formats=())
+
+
+def test_audit_json_of_a_deck_whose_models_are_missing_is_not_a_traceback(tmp_path):
+    # found by the fuzz target's audit coverage: a sample without its models.lib gives
+    # unbounded numbers (an infinite r_o), which JSON cannot hold as numbers
+    (tmp_path / "hd.sp").write_text((REPO / "samples" / "headphone_driver.sp").read_text())
+    proc = lintamp("audit", "hd.sp", "--format", "json", cwd=tmp_path)
+    assert proc.returncode in (0, 1) and "Traceback" not in proc.stderr, proc.stderr[-1500:]
+    assert '"inf"' in proc.stdout and json.loads(proc.stdout)

@@ -43,6 +43,16 @@ def write_atomically(path: Path, payload: bytes, protect=()) -> None:
         raise UsageError(f"-o {path}: cannot write it ({exc.strerror or exc})") from None
 
 
+def json_safe(value):
+    """``value`` with every non-finite float as the string JSON reports use ("inf", "nan")."""
+    from lintamp.report.base import json_number
+    if isinstance(value, dict):
+        return {k: json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_safe(v) for v in value]
+    return json_number(value)
+
+
 def cmd_audit(args) -> int:
     from lintamp.audit.sheet import AuditError, build_sheet
     from lintamp.cli import EXIT_OK, EXIT_TROUBLE, UsageError
@@ -84,7 +94,9 @@ def cmd_audit(args) -> int:
                                    "files": sorted(plots.images)}
             images = plots.images
     if args.format == "json":
-        text = json.dumps(sheet.data, indent=2, allow_nan=False, default=str) + "\n"
+        # a number the sheet could not bound (a device without its model: an infinite
+        # r_o) is written as check's JSON writes it, "inf", not a traceback
+        text = json.dumps(json_safe(sheet.data), indent=2, allow_nan=False, default=str) + "\n"
     elif args.format == "text":
         from lintamp.audit.render_text import render_text
         from lintamp.report.base import printable
