@@ -418,7 +418,8 @@ def test_one_library_included_two_thousand_times_is_bounded(tmp_path):
     proc = subprocess.run([sys.executable, "-c", code], cwd=root, capture_output=True, text=True,
                           timeout=LIMIT_S, env={"PYTHONPATH": str(REPO), "PATH": "/usr/bin:/bin"})
     words = proc.stderr.rsplit("SECONDS", 1)[1].split()
-    assert float(words[0]) < 20 and int(words[2]) < 500, proc.stderr[-1500:]
+    # ceilings: 45 s and 500 MB (about 10 s and 75 MB here; unbounded, 76 s and 1.5 GB)
+    assert float(words[0]) < 45 and int(words[2]) < 500, proc.stderr[-1500:]
     from lintamp.netlist.reader import MAX_READS_PER_FILE
     assert f"already read {MAX_READS_PER_FILE} times" in proc.stdout
 
