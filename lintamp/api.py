@@ -57,13 +57,16 @@ def project_root(path: Path, config) -> Path:
     source = getattr(config, "source", None)
     if source is not None:
         return Path(source).resolve().parent
-    start = Path(os.path.abspath(path)).parent.resolve()  # where the name is, not where a link leads
-    for folder in (start, *start.parents):
+    # from where the name is, not where a link leads (a committed link out of the
+    # checkout must not make its target's folder the root)
+    named = Path(os.path.abspath(path)).parent
+    for folder in (named, *named.parents):
         if (folder / ".git").exists():
-            return folder
-    cwd = Path.cwd().resolve()
-    if cwd == start or cwd in start.parents:
-        return cwd
+            return folder.resolve()
+    start = named.resolve()
+    cwd = Path.cwd()
+    if cwd == named or cwd in named.parents or cwd.resolve() == start or cwd.resolve() in start.parents:
+        return cwd.resolve()
     return start
 
 
@@ -282,7 +285,9 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
                 progress(len(results), len(files), results[-1].path)
     seen: set[tuple] = set()
     seen_pragmas: set[tuple] = set()
-    for result in results:
+    # merged in path order, not the order given: where two decks report one finding of a
+    # library they both include, the same deck's copy is kept whatever the order
+    for result in sorted(results, key=lambda r: str(r.path)):
         # a file included by several checked files yields its findings once
         for finding in result.findings:
             key = (finding.fingerprint, finding.location, finding.message)
@@ -296,8 +301,41 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
                 pragmas.append(pragma)
         errors.extend(result.internal_errors)
     report = decide(findings, pragmas, config, baseline)
+    report.findings = cap_findings(report.findings)
     report.files = [_display(f) for f in files]
     return report, errors
+
+
+MAX_FINDINGS_PER_RULE = 1000  # per file: past this a report is a flood, not a review
+
+
+def cap_findings(findings: list[Finding]) -> list[Finding]:
+    """At most :data:`MAX_FINDINGS_PER_RULE` findings of one rule in one file (after
+    waivers and the baseline), then one finding that counts the rest, at the highest
+    severity among them, so ``--fail-on`` decides as it would on all of them."""
+    counts: dict[tuple[str, str], int] = {}
+    for f in findings:
+        key = (f.location.path, f.rule)
+        counts[key] = counts.get(key, 0) + 1
+    if all(n <= MAX_FINDINGS_PER_RULE for n in counts.values()):
+        return findings
+    kept: list[Finding] = []
+    shown: dict[tuple[str, str], int] = {}
+    dropped: dict[tuple[str, str], list[Finding]] = {}
+    for f in findings:
+        key = (f.location.path, f.rule)
+        shown[key] = shown.get(key, 0) + 1
+        if shown[key] <= MAX_FINDINGS_PER_RULE:
+            kept.append(f)
+        else:
+            dropped.setdefault(key, []).append(f)
+    for (path, rule), rest in dropped.items():
+        kept.append(Finding(rule=rule, severity=max(f.severity for f in rest), location=rest[0].location,
+                            subject=f"{len(rest)} more",
+                            message=f"{len(rest)} more {rule} findings in {path} not listed "
+                                    f"(the first {MAX_FINDINGS_PER_RULE} are)"))
+    kept.sort(key=Finding.sort_key)
+    return kept
 
 
 def _display(path: Path) -> str:

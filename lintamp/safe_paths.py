@@ -213,11 +213,12 @@ def check_write_target(path: str | Path, *, protect: Iterable[str | Path] = ()) 
         for part in below.parts:
             walk = walk / part
             try:
-                if walk.is_symlink():
-                    raise PathRefused(path, f"its folder {os.path.relpath(walk)} is a symbolic link; "
-                                      "lintamp does not write through links")
+                linked = walk.is_symlink()
             except OSError:
                 break
+            if linked:
+                raise PathRefused(path, f"its folder {os.path.relpath(walk)} is a symbolic link; "
+                                  "lintamp does not write through links")
     return path
 
 

@@ -47,7 +47,7 @@ def _cell(value) -> str:
 
 
 def _table(title, headers, rows, level="###") -> list[str]:
-    out = [f"{level} {title}", ""]
+    out = [f"{level} {md_text(title)}", ""]  # a title may hold net names
     if not rows:
         return out + ["none", ""]
     out.append("| " + " | ".join(headers) + " |")

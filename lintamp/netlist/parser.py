@@ -18,7 +18,8 @@ from pathlib import Path
 from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
-from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, run_pattern,
+from lintamp.netlist.reader import (MAX_DIAGNOSTICS_PER_RULE, Card, CommentLine, ReadOptions,
+                                    ReadResult, excerpt, run_pattern,
                                     open_regular, probed_nets, read, read_text,
                                     sandbox_roots)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
@@ -252,6 +253,7 @@ class ParseContext:
         # the .if card]; ``skipping`` while any of them is not read
         self.conditions: list[list] = []
         self.skipping = False
+        self._error_counts: dict[tuple[str, str, str], int] = {}
 
     # -- .if / .elseif / .else / .endif ------------------------------------------
     def reading(self) -> bool:
@@ -327,6 +329,12 @@ class ParseContext:
     # -- diagnostics ---------------------------------------------------------
     def error(self, card: Card, offset: int, message: str, expected: str = "", subject: str = "",
               rule: str = "parse-error", severity: str = "error") -> None:
+        # past MAX_DIAGNOSTICS_PER_RULE of one rule in one file: counted, said once at the end
+        key = (card.path, rule, severity)
+        count = self._error_counts.get(key, 0) + 1
+        self._error_counts[key] = count
+        if count > MAX_DIAGNOSTICS_PER_RULE:
+            return
         self.netlist.diagnostics.append(Diagnostic(
             rule, card.location_at(offset), message, subject=subject, severity=severity,
             expected=expected))
@@ -609,6 +617,13 @@ class ParseContext:
         self.cell.funcs[m.group(1).lower()] = FuncDef(m.group(1).lower(), args, body, card.location)
 
     def finish(self) -> Netlist:
+        for (path, rule, severity), count in self._error_counts.items():
+            if count > MAX_DIAGNOSTICS_PER_RULE:
+                more = count - MAX_DIAGNOSTICS_PER_RULE
+                self.netlist.diagnostics.append(Diagnostic(
+                    rule, Location(path, 1, 1), f"{more} more {rule} problems in {path} not listed "
+                    f"(the first {MAX_DIAGNOSTICS_PER_RULE} are)", subject=f"{more} more",
+                    severity=severity))
         for _, _, card, _ in self.conditions:
             self.netlist.diagnostics.append(Diagnostic(
                 "parse-error", card.location, ".if is never closed", expected=".endif"))

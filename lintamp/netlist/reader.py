@@ -29,9 +29,10 @@ MAX_FILE_BYTES = safe_paths.MAX_NETLIST_BYTES  # 256 MB
 # All the bytes one check reads, its includes and their re-reads counted: a file that
 # includes the next one twice, forty deep, would otherwise read 2**40 files.
 MAX_TOTAL_BYTES = 512 * 1024 * 1024
-# How often one file (one .lib section of it) is read in one check: a library read
-# twice is already a duplicate; 2,000 reads of it are an attack, not a design.
-MAX_READS_PER_FILE = 8
+# How often one file (one .lib section of it) is read in one check: a models file that
+# every cell file includes is read once per cell file (tens of times); 2,000 reads of
+# it, or 2**40 through a fan-out of includes, are an attack, not a design.
+MAX_READS_PER_FILE = 64
 # Diagnostics of one rule in one file beyond this are counted, not kept: a million
 # stray '+' lines give one message per line up to here, then one that counts the rest.
 MAX_DIAGNOSTICS_PER_RULE = 1000
@@ -413,7 +414,7 @@ class _Reader:
         self.allowed = sandbox_roots(opts)
         self.bytes_read = 0  # every file and re-read counted (MAX_TOTAL_BYTES)
         self.reads: dict[tuple[str, str], int] = {}  # (realpath, section) -> times read
-        self.diag_counts: dict[tuple[str, str], int] = {}  # (file shown, rule) -> diagnostics
+        self.diag_counts: dict[tuple[str, str, str], int] = {}  # (file, rule, severity) -> count
         self.over_budget = False
 
     # -- paths ---------------------------------------------------------------
@@ -450,7 +451,7 @@ class _Reader:
 
     def _diag(self, rule: str, loc: Location, message: str, *, severity="error",
               subject="", expected="") -> None:
-        key = (loc.path, rule)
+        key = (loc.path, rule, severity)
         count = self.diag_counts.get(key, 0) + 1
         self.diag_counts[key] = count
         if count > MAX_DIAGNOSTICS_PER_RULE:
@@ -461,14 +462,13 @@ class _Reader:
     def _count_dropped(self) -> None:
         """One diagnostic per file and rule that had more than MAX_DIAGNOSTICS_PER_RULE,
         saying how many more there were."""
-        for (shown, rule), count in self.diag_counts.items():
+        for (shown, rule, severity), count in self.diag_counts.items():
             if count > MAX_DIAGNOSTICS_PER_RULE:
                 more = count - MAX_DIAGNOSTICS_PER_RULE
                 self.result.diagnostics.append(Diagnostic(
                     rule, Location(shown, 1, 1),
                     f"{more} more {rule} problems in {shown} not listed (the first "
-                    f"{MAX_DIAGNOSTICS_PER_RULE} are)", subject=f"{more} more", severity="error"
-                    if rule == "parse-error" else "warning"))
+                    f"{MAX_DIAGNOSTICS_PER_RULE} are)", subject=f"{more} more", severity=severity))
 
     def _budget(self, real: Path, section: str | None, size: int, loc: Location) -> bool:
         """Whether one more read of ``real`` (``size`` bytes) fits the check's budget:
