@@ -13,5 +13,3 @@ MOS = ("nmos", "pmos")
 BJT = ("npn", "pnp")
 TRANSISTORS = MOS + BJT                 # the devices a stage is built around
 NONLINEAR = TRANSISTORS + ("diode",)    # the devices the DC solve needs a model for
-# the kinds a [devices] entry of the config may name (INTERFACE.md, "Kinds")
-MAPPABLE = NONLINEAR + ("resistor", "capacitor", "inductor")

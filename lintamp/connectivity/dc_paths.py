@@ -59,7 +59,6 @@ JFET_KINDS = frozenset({"njf", "pjf", "jfet", "mesfet"})
 TWO_TERMINAL_SHORTS = frozenset({"resistor", "inductor", "vsource", "ccvs", "switch",
                                  "cswitch", "vcvs"})
 CURRENT_KINDS = frozenset({"isource", "vccs", "cccs"})
-UNKNOWN_KINDS = frozenset({"other", "xspice", "recursive-instance"})
 _CONTROLS = attrgetter("element.controls")
 
 
@@ -161,9 +160,6 @@ class PortGroup:
 class CellSummary:
     groups: tuple[PortGroup, ...]
     group_of: tuple[int, ...]  # port position -> index into groups
-
-
-UNKNOWN_SUMMARY = None  # an instance without a usable summary: every pin unknown
 
 
 @dataclass(eq=False)
