@@ -349,7 +349,7 @@ class CellView:
         found by device class, without a step per device."""
         classes = self.device_classes
         devices = self.devices
-        wanted = [c for c, key in enumerate(classes.keys) if key[0] == "instance"]
+        wanted = [c for c, key in enumerate(classes.keys) if key.kind == "instance"]
         return [dev for dev in map(devices.__getitem__, classes.members(wanted))
                 if dev.subcell is not None]
 

@@ -506,7 +506,7 @@ def _sensing_devices(view: CellView) -> list[Device]:
     else:
         classes = view.device_classes
         chosen = list(map(devices.__getitem__, classes.members(
-            [c for c, key in enumerate(classes.keys) if key[2] in CONTROL_LETTERS])))
+            [c for c, key in enumerate(classes.keys) if key.letter in CONTROL_LETTERS])))
     return [d for d in compress(chosen, map(_CONTROLS, chosen))
             if d.kind != "coupling" and d.kind != "instance"]
 
