@@ -27,8 +27,7 @@ Fix
     element.
 """
 
-from lintamp.connectivity.dc_paths import JFET_KINDS
-from lintamp.circuit.design import BJT_KINDS, MOS_KINDS
+from lintamp.circuit.kinds import BJT_KINDS, JFET_KINDS, MOS_KINDS
 from lintamp.findings import Severity
 
 NAME = "shorted-device"

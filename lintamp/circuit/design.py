@@ -18,6 +18,7 @@ from operator import attrgetter, gt
 from typing import Iterable, Iterator, Mapping, NamedTuple
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
+from lintamp.circuit.kinds import BJT_KINDS
 from lintamp.location import Location
 from lintamp.netlist.statements import (BlockList, Cell, Diagnostic, Element, Model, Netlist,
                                         PlainRun)
@@ -45,8 +46,6 @@ PINS = {
     "switch": ("p", "n", "cp", "cn"), "cswitch": ("p", "n"),
     "line": ("p1", "n1", "p2", "n2"),
 }
-MOS_KINDS = frozenset({"nmos", "pmos", "mos"})
-BJT_KINDS = frozenset({"npn", "pnp", "bjt"})
 
 _LETTER_KIND = {"r": "resistor", "c": "capacitor", "l": "inductor", "k": "coupling",
                 "v": "vsource", "i": "isource", "e": "vcvs", "g": "vccs", "f": "cccs",

@@ -13,3 +13,7 @@ MOS = ("nmos", "pmos")
 BJT = ("npn", "pnp")
 TRANSISTORS = MOS + BJT                 # the devices a stage is built around
 NONLINEAR = TRANSISTORS + ("diode",)    # the devices the DC solve needs a model for
+# a recognised device whose polarity is unknown (no model found, no guess) is "mos" or "bjt"
+MOS_KINDS = frozenset(MOS + ("mos",))
+BJT_KINDS = frozenset(BJT + ("bjt",))
+JFET_KINDS = frozenset({"njf", "pjf", "jfet", "mesfet"})

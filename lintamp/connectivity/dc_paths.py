@@ -45,7 +45,8 @@ from itertools import compress
 from operator import attrgetter
 from typing import TYPE_CHECKING
 
-from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, SMALL_TABLE_TERMINALS, CellView, Device
+from lintamp.circuit.design import SMALL_TABLE_TERMINALS, CellView, Device
+from lintamp.circuit.kinds import BJT_KINDS, JFET_KINDS, MOS_KINDS
 from lintamp.netlist.statements import CONTROL_LETTERS
 
 if TYPE_CHECKING:  # numpy is imported only where a large cell needs it
@@ -55,7 +56,6 @@ FULL = "full"
 BIAS = "bias"
 MAX_DEPTH = 200  # nesting bound for the bottom-up summaries
 
-JFET_KINDS = frozenset({"njf", "pjf", "jfet", "mesfet"})
 TWO_TERMINAL_SHORTS = frozenset({"resistor", "inductor", "vsource", "ccvs", "switch",
                                  "cswitch", "vcvs"})
 CURRENT_KINDS = frozenset({"isource", "vccs", "cccs"})
