@@ -38,7 +38,7 @@ Fix
 
 import re
 
-from lintamp.circuit.kinds import MOS
+from lintamp.circuit.kinds import MOS, MOS_KINDS
 from lintamp.connectivity.rails import get_rails
 from lintamp.findings import Related, Severity
 
@@ -154,7 +154,7 @@ class _BodyNets:
         got = self._only_bodies.get(net)
         if got is None:
             got = self._only_bodies[net] = all(
-                (d.kind in ("nmos", "pmos", "mos") and p == "b") or d.kind == "capacitor"
+                (d.kind in MOS_KINDS and p == "b") or d.kind == "capacitor"
                 for d, p in self.terms(net))
         return got
 

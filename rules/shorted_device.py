@@ -32,8 +32,7 @@ Fix
 
 import re
 
-from lintamp.connectivity.dc_paths import JFET_KINDS
-from lintamp.circuit.design import BJT_KINDS, MOS_KINDS
+from lintamp.circuit.kinds import BJT_KINDS, JFET_KINDS, MOS_KINDS
 from lintamp.findings import Severity
 
 NAME = "shorted-device"

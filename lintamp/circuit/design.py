@@ -18,6 +18,7 @@ from operator import attrgetter, gt
 from typing import Iterable, Iterator, Mapping, NamedTuple
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
+from lintamp.circuit.kinds import BJT_KINDS
 from lintamp.location import Location
 from lintamp.netlist.statements import (BlockList, Cell, Diagnostic, Element, Model, Netlist,
                                         PlainRun)
@@ -45,9 +46,6 @@ PINS = {
     "switch": ("p", "n", "cp", "cn"), "cswitch": ("p", "n"),
     "line": ("p1", "n1", "p2", "n2"),
 }
-MOS_KINDS = frozenset({"nmos", "pmos", "mos"})
-BJT_KINDS = frozenset({"npn", "pnp", "bjt"})
-TRANSISTOR_KINDS = MOS_KINDS | BJT_KINDS | {"njf", "pjf", "jfet", "mesfet"}
 
 _LETTER_KIND = {"r": "resistor", "c": "capacitor", "l": "inductor", "k": "coupling",
                 "v": "vsource", "i": "isource", "e": "vcvs", "g": "vccs", "f": "cccs",
@@ -254,13 +252,13 @@ class CellView:
     # million plain R/C cards makes no Device for the cards the answer leaves out.
     def devices_of(self, *, kinds: Iterable[str] | None = None,
                    letters: Iterable[str] | None = None, with_model: bool = False) -> list[Device]:
-        """The devices of the given ``kinds`` and element ``letters`` (None: any), and
+        r"""The devices of the given ``kinds`` and element ``letters`` (None: any), and
         with ``with_model`` only those whose element names a model, in netlist order.
 
         Found by device class: no step per device of the classes left out.
 
         >>> from lintamp.netlist.parser import parse_text
-        >>> view = elaborate(parse_text("M1 d g 0 0 nch\nR1 d 0 1k\nX1 d sub\n")).top
+        >>> view = elaborate(parse_text("* title line\nM1 d g 0 0 nch\nR1 d 0 1k\nX1 d sub\n")).top
         >>> [d.name for d in view.devices_of(letters="mx")], [d.name for d in view.devices_of(kinds=("resistor",))]
         (['m1', 'x1'], ['r1'])
         """
@@ -273,7 +271,7 @@ class CellView:
         return list(map(self.devices.__getitem__, classes.members(wanted)))
 
     def devices_sharing_names(self) -> dict[str, list[Device]]:
-        """Each name two or more devices share, with those devices in netlist order
+        r"""Each name two or more devices share, with those devices in netlist order
         (names in order of first use); empty, the usual answer, when all differ.
 
         A big cell's names are told apart by their hashes first (one 8-byte integer
@@ -283,7 +281,7 @@ class CellView:
         are made.
 
         >>> from lintamp.netlist.parser import parse_text
-        >>> view = elaborate(parse_text("R1 a 0 1k\nC1 a 0 1p\nr1 a b 2k\n")).top
+        >>> view = elaborate(parse_text("* title line\nR1 a 0 1k\nC1 a 0 1p\nr1 a b 2k\n")).top
         >>> {name: [d.display for d in devs] for name, devs in view.devices_sharing_names().items()}
         {'r1': ['R1', 'r1']}
         """
@@ -350,7 +348,7 @@ class CellView:
         found by device class, without a step per device."""
         classes = self.device_classes
         devices = self.devices
-        wanted = [c for c, key in enumerate(classes.keys) if key[0] == "instance"]
+        wanted = [c for c, key in enumerate(classes.keys) if key.kind == "instance"]
         return [dev for dev in map(devices.__getitem__, classes.members(wanted))
                 if dev.subcell is not None]
 
@@ -708,10 +706,6 @@ class TerminalTable:
                 repeated[has] |= ids[base + a] == ids[base + b]
         return np.flatnonzero(repeated).tolist()
 
-    def degree(self, i: int) -> int:
-        """Number of terminals on net number ``i``."""
-        return int(self.net_start[i + 1] - self.net_start[i])
-
     def terminals_of(self, i: int) -> list[tuple["Device", str]]:
         """(device, pin) terminals on net number ``i``, in netlist order."""
         terms = self.term_order[self.net_start[i]:self.net_start[i + 1]]
@@ -757,13 +751,6 @@ class NetTerminals(Mapping):
 
     def __len__(self) -> int:
         return self.table.n_role_nets
-
-    def degree(self, net: str) -> int:
-        """How many terminals ``net`` has (0 for an unknown name), without building them."""
-        i = self.table.index.get(net)
-        if i is None or i >= self.table.n_role_nets:
-            return 0
-        return self.table.degree(i)
 
     def with_degree(self, count: int) -> list[str]:
         """The nets with exactly ``count`` terminals, in net order."""

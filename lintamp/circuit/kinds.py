@@ -13,5 +13,7 @@ MOS = ("nmos", "pmos")
 BJT = ("npn", "pnp")
 TRANSISTORS = MOS + BJT                 # the devices a stage is built around
 NONLINEAR = TRANSISTORS + ("diode",)    # the devices the DC solve needs a model for
-# the kinds a [devices] entry of the config may name (INTERFACE.md, "Kinds")
-MAPPABLE = NONLINEAR + ("resistor", "capacitor", "inductor")
+# a recognised device whose polarity is unknown (no model found, no guess) is "mos" or "bjt"
+MOS_KINDS = frozenset(MOS + ("mos",))
+BJT_KINDS = frozenset(BJT + ("bjt",))
+JFET_KINDS = frozenset({"njf", "pjf", "jfet", "mesfet"})

@@ -98,7 +98,7 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
     by_value: dict[int, tuple[int, int] | None] = {}  # resistors: the value decides
     wanted: set[int] = set()
     for code, (key, first) in enumerate(zip(classes.keys, classes.first_members())):
-        kind = key[0]
+        kind = key.kind
         dev = devices[first]
         if kind == "instance":
             wanted.add(code)

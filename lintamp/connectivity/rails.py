@@ -19,7 +19,6 @@ from lintamp.connectivity.loops import is_port_source
 from lintamp.circuit.design import CellView
 from lintamp.circuit.values import cell_scope, top_scope
 
-TOLERANCE_V = 1e-9
 MAX_PASSES = 2  # the second pass seeds globals found anywhere in the first
 
 

@@ -109,9 +109,6 @@ class CompiledCircuit:
     def index_of(self, key) -> int:
         return self.node_index.get(key, -1)
 
-    def owner_id(self, name: str) -> int:
-        return self.element_names.index(name)
-
 
 def _two(dev: FlatDevice) -> tuple[int, int]:
     if len(dev.nodes) < 2:

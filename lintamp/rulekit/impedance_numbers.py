@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from lintamp.circuit.kinds import MOS, NONLINEAR, TRANSISTORS
-from lintamp.engine.engine_kinds import EngineError, is_open
+from lintamp.engine.engine_kinds import EngineError
 from lintamp.engine.flat_places import locate_device
 from lintamp.engine.looking_into import NodeExplanation, ac_ground_nets, explain_node
 from lintamp.circuit.flat import FlatCircuit
@@ -24,7 +24,6 @@ from lintamp.circuit.flat import FlatCircuit
 if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are computed
     from lintamp.engine.operating_point import OperatingPoint
     from lintamp.engine.small_signal import ImpedanceSolver
-from lintamp.text import si
 
 # what the engine raises on odd but legal decks (a rule then skips that node, never the
 # file); anything else is a bug and reaches the internal-error exit
