@@ -48,6 +48,8 @@ def check(ctx):
         first = island.first_device
         if first is None:
             continue
+        if any(_parasitics.reaches_into_instance(ctx, view, n) for n in island.nets):
+            continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
         if _floating_metal(ctx, view, island):
             floating.setdefault(id(view), [view]).append(island)
             continue

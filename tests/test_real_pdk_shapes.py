@@ -277,3 +277,24 @@ def test_testbench_that_powers_nothing_is_a_warning():
     assert found == [("undriven-supply", "vdd", "warning")]
     powered = deck.replace("VDDA vdda", "VDDA vdd")
     assert not [f for f in check_text("t\n" + powered).findings if f.rule == "undriven-supply"]
+
+
+# -- reading as ngspice-39 reads ------------------------------------------------------------
+def test_a_node_inside_an_instance_named_from_outside_is_that_node():
+    # ngspice-39: 'rp x1.mid probe 1' reads the divider's midpoint (v(probe) = 1 V)
+    deck = ("t\n.subckt dv a\nr1 a mid 1k\nr2 mid 0 1k\n.ends\nv1 in 0 2\nx1 in dv\n"
+            "rp x1.mid probe 1\nrl probe 0 1meg\n.end\n")
+    assert not [f for f in loud(deck) if f.rule in ("no-dc-path", "dangling-net")]
+
+
+def test_cells_after_end_are_read():
+    # ngspice-39 reads a .subckt written after .end (checked in a batch run)
+    deck = "t\nv1 a 0 1\nx1 a 0 rr\n.op\n.end\n.subckt rr p n\nr1 p n 1k\n.ends\n"
+    assert not [f for f in loud(deck) if f.rule == "unknown-cell"]
+
+
+def test_dollar_comment_after_a_card():
+    # ngspice-39 takes ' $d g s b' after a blank as a comment (xschem writes pin notes so)
+    deck = "t\nV1 vdd 0 1.8\nx1 d g 0 0 sky130_fd_pr__nfet_01v8 w=1 l=0.15 $d g s b\nR1 vdd d 1k\nV2 g 0 1\n.end\n"
+    (x1,) = [d for d in elaborate(parse_text(deck)).top.devices if d.name == "x1"]
+    assert x1.kind == "nmos" and list(x1.nets) == ["d", "g", "0", "0"]
