@@ -19,7 +19,7 @@ from collections import Counter
 
 from lintamp.netlist.units import parse_number
 
-EXTRACTED_NAME = re.compile(r"#|\.[nt]\d+$|^\\?\$\d+$")
+EXTRACTED_NAME = re.compile(r"#|\.[nt]\d+$|^\\?\$\d+$|(^|/)vsubs$")
 PASSIVE_KINDS = ("resistor", "capacitor")
 MIN_EXTRACTED_RC = 30  # fewer plain R/C than this is a hand-drawn cell
 

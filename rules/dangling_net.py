@@ -78,6 +78,7 @@ def check(ctx):
         # a testbench's supply net that only blocks' supply pins reach: undriven-supply
         # is the finding (one cause, one finding)
         unpowered = ({net for net, _ in _supply.undriven_supplies(ctx)}
+                     | _supply.declared_pins(ctx)  # pins of an exported schematic: used outside
                      if view is ctx.design.top else set())
         stubs: list = []
         unknown_pins: list = []
@@ -93,6 +94,8 @@ def check(ctx):
                 continue  # a pin of a many-conductor line lintamp does not name
             if _parasitics.reaches_into_instance(ctx, view, net):
                 continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
+            if dev.kind == "capacitor":
+                continue  # a capacitor alone on its net: no-dc-path is the finding (one cause)
             if pin == "b" and dev.kind in ("nmos", "pmos") and len(dev.nets) <= 4:
                 continue  # a body alone on its net: body-tie says it floats (one cause, one finding)
             if dev.kind in _parasitics.PASSIVE_KINDS and _parasitics.is_extraction_net(ctx, view, net):

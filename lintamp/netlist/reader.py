@@ -772,11 +772,14 @@ class _Reader:
         # nor even told apart as present or absent.
         outside = False
         not_files = []  # inside, existing, but folders, devices or pipes
-        for cand in candidates:
+        for number, cand in enumerate(candidates):
             try:
                 real = cand.resolve()
                 if not self.inside_sandbox(real):
-                    outside = True
+                    # judged by where the path as written points (beside the including
+                    # file, or absolute): a missing file there is missing, even where an
+                    # include path joined to the same text would climb out
+                    outside = outside or number == 0
                     continue
                 if real.is_file():
                     return real
