@@ -32,7 +32,7 @@ Fix
 """
 
 from lintamp.findings import Related, Severity
-from lintamp.rules import _parasitics, _supply
+from lintamp.rules import _parasitics
 from lintamp.rules._islands import (context_steps, elements, island_findings, net_phrase,
                                     related, terminal_lines)
 
@@ -50,8 +50,6 @@ def check(ctx):
             continue
         if any(_parasitics.reaches_into_instance(ctx, view, n) for n in island.nets):
             continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
-        if view.cell.is_top and any(n in _supply.declared_pins(ctx) for n in island.nets):
-            continue  # a pin of the exported schematic (*.iopin): biased from outside
         if _floating_metal(ctx, view, island):
             floating.setdefault(id(view), [view]).append(island)
             continue

@@ -298,3 +298,33 @@ def test_dollar_comment_after_a_card():
     deck = "t\nV1 vdd 0 1.8\nx1 d g 0 0 sky130_fd_pr__nfet_01v8 w=1 l=0.15 $d g s b\nR1 vdd d 1k\nV2 g 0 1\n.end\n"
     (x1,) = [d for d in elaborate(parse_text(deck)).top.devices if d.name == "x1"]
     assert x1.kind == "nmos" and list(x1.nets) == ["d", "g", "0", "0"]
+
+
+def test_unused_ports_of_one_cell_are_one_finding():
+    # a tiny-tapeout style wrapper with spare pins (common practice: the template
+    # lists every pad whether the design uses it or not)
+    deck = ".subckt wrap ui_in[0] ui_in[1] ui_in[2] uo_out[0] vdd vss\nR1 vdd uo_out[0] 1k\n.ends\n"
+    found = [f for f in check_text("t\n" + deck).findings if f.rule == "unused-port"]
+    assert [(f.subject, f.values["ports"]) for f in found] == [("ui_in[0]", 4)]
+
+
+# an xschem export of a block's schematic: its own pins are '*.ipin' / '*.iopin' lines
+EXPORTED_SCHEMATIC = """\
+** sch_path: /home/user/buf.sch
+**.subckt buf vin vout vdd vss
+*.ipin vin
+*.opin vout
+*.iopin vdd
+*.iopin vss
+XM1 vout vin vss vss sky130_fd_pr__nfet_01v8 L=0.15 W=1 nf=1 m=1
+XM2 vout vin vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=2 nf=1 m=1
+I1 vdd vout 1u
+**.ends
+.end
+"""
+
+
+def test_a_schematic_exports_own_pins_are_ports():
+    # the gate net vin is a pin (driven by whatever instantiates the block): no
+    # unbiased-gate, no-dc-path or undriven-supply for it (xschem writes *.ipin so)
+    assert not loud(EXPORTED_SCHEMATIC)
