@@ -204,3 +204,28 @@ def alone(ctx, rule: str):
     """The diagnostics of ``rule`` that no group took."""
     taken = {id(d) for g in groups(ctx) for d in g.diagnostics}
     return [d for d in ctx.diagnostics(rule) if id(d) not in taken]
+
+
+def dropped_instances(view) -> list:
+    """The instances a schematic exporter noted it left out of this cell (xschem:
+    '*  x1 -  inv  IS MISSING !!!!'), as the parser keeps them: pragmas of the cell."""
+    return [p for p in view.cell.pragmas if p.verb == "dropped-instance"]
+
+
+def open_by_dropped(ctx, view, rule: str, nets: list[str], first_location):
+    """One info for the nets of a cell that are open because the export left
+    instances out (the unknown-cell finding says so once)."""
+    from lintamp.findings import Severity
+    dropped = dropped_instances(view)
+    names = ", ".join(p.args[0] for p in dropped[:6]) + (", ..." if len(dropped) > 6 else "")
+    shown = ", ".join(nets[:6]) + (", ..." if len(nets) > 6 else "")
+    return ctx.finding(
+        location=first_location, subject="open by left-out instances", view=view,
+        nets=nets[:50], severity=Severity.INFO,
+        message=f"{len(nets)} net(s) of {view.label} are open where the export left out "
+                f"{len(dropped)} instance(s) ({names}): {shown}",
+        explanation=["the schematic export wrote that it could not find the symbol of these "
+                     "instances and left them out (see unknown-cell); the nets they would "
+                     "join are open in the netlist as written"],
+        fix="make the symbol findable and export the netlist again",
+        values={"count": len(nets), "dropped": len(dropped)})

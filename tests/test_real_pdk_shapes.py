@@ -328,3 +328,28 @@ def test_a_schematic_exports_own_pins_are_ports():
     # the gate net vin is a pin (driven by whatever instantiates the block): no
     # unbiased-gate, no-dc-path or undriven-supply for it (xschem writes *.ipin so)
     assert not loud(EXPORTED_SCHEMATIC)
+
+
+# an xschem export whose inverter symbol was not found: the exporter writes a note
+# instead of the instance, and the nets the instance would join are open
+EXPORT_WITH_MISSING_SYMBOL = """\
+** sch_path: /home/user/ring.sch
+.subckt ring vdd vss out
+XM1 net1 bias vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=1 nf=1 m=1
+XM2 net2 bias vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=1 nf=1 m=1
+XM3 bias bias vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=1 nf=1 m=1
+I1 bias vss 10u
+C1 net3 vss 10f m=1
+C2 out vss 10f m=1
+*  x1 -  ring_inverter  IS MISSING !!!!
+*  x2 -  ring_inverter  IS MISSING !!!!
+.ends
+"""
+
+
+def test_instances_an_export_left_out_are_one_finding_with_the_open_nets_attached():
+    findings = check_text(EXPORT_WITH_MISSING_SYMBOL, "ring.spice").findings
+    assert [(f.rule, f.values.get("count")) for f in findings if f.severity.label != "info"] == [
+        ("unknown-cell", 2)]
+    (opened,) = [f for f in findings if f.rule == "dangling-net"]
+    assert opened.severity.label == "info" and set(opened.nets) == {"net1", "net2", "net3"}

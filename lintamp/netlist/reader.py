@@ -610,6 +610,12 @@ class _Reader:
                 if pragma is not None:
                     self.result.comments.append(
                         CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma"))
+                elif head == "*" and in_section and not in_control and "IS MISSING" in body \
+                        and _DROPPED_INSTANCE.match(body):
+                    # a schematic exporter's note that it left an instance out (its
+                    # symbol was not found): the netlist lacks that instance
+                    self.result.comments.append(
+                        CommentLine(body.strip(), Location(shown, lineno, indent + 1), "dropped-instance"))
                 elif head == "*" and body[:1] == "." and in_section and not in_control:
                     flush()  # a '+' after a CDL directive continues the directive, not a card
                     cdl_open = CommentLine(body.strip(), Location(shown, lineno, indent + 1), "cdl")
@@ -875,6 +881,8 @@ class _Reader:
 
 
 OUTSIDE_EXPECTED = "a file inside the project root or the include paths"
+# xschem's note for an instance whose symbol it could not find: '*  x1 -  inv  IS MISSING !!!!'
+_DROPPED_INSTANCE = re.compile(r"\s*(\S+)\s+-\s+(\S+)\s+IS MISSING\b")
 
 # ngspice's interactive commands (the ngspice-39 manual, chapter 17): the words a
 # control script's lines begin with
