@@ -20,6 +20,14 @@ from lintamp.netlist.statements import Diagnostic
 # '/foss/pdks/sky130A/libs.tech/ngspice/sky130.lib.spice').
 LIBRARY_FOLDERS = ("libs.tech", "libs.ref", "libraries", "models", "cells", "model", "lib")
 LOCAL_SET = 3
+TEMPLATE_KEY = "template placeholders"
+_TEMPLATE_PATH = re.compile(r"\$\{|@|\{[A-Za-z_]")
+
+
+def is_template_path(diag: Diagnostic) -> bool:
+    """An include path with a generator's placeholder ('{DUT_path}', '${model_file}',
+    '@@PEX_PATH'): the deck is a template the flow fills in, not a deck to run."""
+    return "placeholder" in diag.message and _TEMPLATE_PATH.search(diag.subject) is not None
 _PLACEHOLDER = re.compile(r"\$\{|\$[A-Za-z_]|@|\{[A-Za-z_]")
 _NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[a-zA-Z]*")
 
@@ -58,12 +66,13 @@ def groups(ctx) -> list[IncludeGroup]:
             for diag in ctx.diagnostics(rule):
                 if not groupable(diag):
                     continue
-                key = (rule, library_root(diag.subject))
+                key = (rule, TEMPLATE_KEY if is_template_path(diag) else library_root(diag.subject))
                 found.setdefault(key, IncludeGroup(rule, key[1])).diagnostics.append(diag)
         # files of the project's own folders are each their own cause, unless a set of
         # them (a folder of per-cell extraction files) is missing together
         kept = [g for g in found.values()
-                if len(g.diagnostics) >= LOCAL_SET or is_machine_path(g.root) or _PLACEHOLDER.search(g.root)]
+                if len(g.diagnostics) >= LOCAL_SET or is_machine_path(g.root)
+                or g.root == TEMPLATE_KEY or _PLACEHOLDER.search(g.root)]
         return sorted(kept, key=lambda g: (g.first.location.path, g.first.location.line,
                                            g.first.location.column))
     return ctx.memo(("cascade", "groups"), compute)
@@ -154,6 +163,17 @@ def group_findings(ctx, rule: str):
                 explanation.append("the includes not read " + words)
                 values.update(more)
         what = "not found" if rule == "missing-include" else "outside the project, not read"
+        if group.root == TEMPLATE_KEY:
+            yield ctx.finding(
+                location=first.location, subject=TEMPLATE_KEY, severity=Severity.INFO,
+                message=f"this deck is a template: {n} include path(s) hold placeholders a "
+                        f"generator fills (first: {excerpt(first.subject)})",
+                explanation=["a path written with {name}, ${name} or @name is the mark a "
+                             "characterisation flow replaces before it runs the simulator"]
+                            + explanation[1:],
+                values=values, fix="check the deck the flow writes from this template",
+                related=[Related(d.location, excerpt(d.subject)) for d in group.diagnostics[1:]])
+            continue
         if n > 1:
             message = (f"{n} include files under {excerpt(group.root)} are {what} "
                        f"(first: {excerpt(first.subject)})")
@@ -184,3 +204,28 @@ def alone(ctx, rule: str):
     """The diagnostics of ``rule`` that no group took."""
     taken = {id(d) for g in groups(ctx) for d in g.diagnostics}
     return [d for d in ctx.diagnostics(rule) if id(d) not in taken]
+
+
+def dropped_instances(view) -> list:
+    """The instances a schematic exporter noted it left out of this cell (xschem:
+    '*  x1 -  inv  IS MISSING !!!!'), as the parser keeps them: pragmas of the cell."""
+    return [p for p in view.cell.pragmas if p.verb == "dropped-instance"]
+
+
+def open_by_dropped(ctx, view, rule: str, nets: list[str], first_location):
+    """One info for the nets of a cell that are open because the export left
+    instances out (the unknown-cell finding says so once)."""
+    from lintamp.findings import Severity
+    dropped = dropped_instances(view)
+    names = ", ".join(p.args[0] for p in dropped[:6]) + (", ..." if len(dropped) > 6 else "")
+    shown = ", ".join(nets[:6]) + (", ..." if len(nets) > 6 else "")
+    return ctx.finding(
+        location=first_location, subject="open by left-out instances", view=view,
+        nets=nets[:50], severity=Severity.INFO,
+        message=f"{len(nets)} net(s) of {view.label} are open where the export left out "
+                f"{len(dropped)} instance(s) ({names}): {shown}",
+        explanation=["the schematic export wrote that it could not find the symbol of these "
+                     "instances and left them out (see unknown-cell); the nets they would "
+                     "join are open in the netlist as written"],
+        fix="make the symbol findable and export the netlist again",
+        values={"count": len(nets), "dropped": len(dropped)})

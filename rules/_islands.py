@@ -11,6 +11,7 @@ from __future__ import annotations
 from lintamp.connectivity.dc_paths import (BIAS, FULL, IslandKind, describe_terminal, island_kind,
                                            islands, reaches_defined_level, unread_cells)
 from lintamp.findings import Related
+from lintamp.rules._supply import declared_pins
 
 MAX_LISTED = 8
 # the rule that reports each kind of island (one the feedback may set is not reported)
@@ -21,16 +22,21 @@ RULE_OF_KIND = {IslandKind.CURRENT_FED: "current-cutset", IslandKind.UNBIASED_CO
 def island_findings(ctx, rule: str):
     """(view, island, bias_only) for every island the named rule reports."""
     skip = unread_cells(ctx)
+    pins = declared_pins(ctx)  # a schematic export's own pins: biased by its user
     for view in ctx.cells():
         if id(view) in skip:
             continue
         for island in islands(ctx, view, FULL):
+            if view.cell.is_top and pins and any(n in pins for n in island.nets):
+                continue
             if RULE_OF_KIND.get(island_kind(island)) == rule:
                 yield view, island, False
         if rule != "unbiased-gate":
             continue
         for island in islands(ctx, view, BIAS):
             if island.current_feeds or not island.controls:
+                continue
+            if view.cell.is_top and pins and any(n in pins for n in island.nets):
                 continue
             if not reaches_defined_level(ctx, view, island.nets[0], FULL):
                 continue  # already reported as a FULL island

@@ -19,7 +19,7 @@ from collections import Counter
 
 from lintamp.netlist.units import parse_number
 
-EXTRACTED_NAME = re.compile(r"#|\.[nt]\d+$|^\\?\$\d+$")
+EXTRACTED_NAME = re.compile(r"#|\.[nt]\d+$|^\\?\$\d+$|(^|/)vsubs$")
 PASSIVE_KINDS = ("resistor", "capacitor")
 MIN_EXTRACTED_RC = 30  # fewer plain R/C than this is a hand-drawn cell
 
@@ -67,3 +67,15 @@ def value_of(dev) -> float | None:
         return parse_number(text)
     except (ValueError, TypeError):
         return None
+
+
+def reaches_into_instance(ctx, view, net: str) -> bool:
+    """Whether ``net`` names a node inside one of the cell's instances (``x1.mid``):
+    ngspice-39 names the nodes of an expanded subcircuit so, and a card that writes
+    that name connects to the node inside (checked: 'rp x1.mid probe 1' reads the
+    divider's midpoint)."""
+    if "." not in net:
+        return False
+    names = ctx.memo(("parasitics", "instances", id(view)), lambda: {
+        d.name.lower() for d in view.devices_where(lambda key: key[0] == "instance")})
+    return net.split(".", 1)[0].lower() in names

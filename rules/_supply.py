@@ -33,11 +33,7 @@ def undriven_supplies(ctx) -> list[tuple[str, list]]:
         found = []
         ground = design.ground
         observed = ctx.netlist.observed
-        # a schematic export lists its own pins (*.ipin / *.opin / *.iopin): those nets
-        # are the ports of a block, powered by whatever instantiates it
-        cdl = getattr(ctx.netlist, "cdl", {}) or {}
-        pins = {word.lower() for key in (".ipin", ".opin", ".iopin", "ipin", "opin", "iopin")
-                for line in cdl.get(key, ()) for word in line.split()}
+        pins = declared_pins(ctx)
         for dev in top.devices_of(kinds=("instance",)):
             if dev.kind != "instance" or dev.subcell is None:
                 continue
@@ -57,3 +53,15 @@ def undriven_supplies(ctx) -> list[tuple[str, list]]:
                 out.append((net, terminals))
         return out
     return ctx.memo(("supply", "undriven"), compute)
+
+
+def declared_pins(ctx) -> frozenset[str]:
+    """Top-level nets a schematic export lists as its own pins (``*.ipin vin``,
+    ``*.opin``, ``*.iopin``): the exported block's ports, which whatever
+    instantiates it drives, biases and powers."""
+    def compute():
+        cdl = getattr(ctx.netlist, "cdl", {}) or {}
+        return frozenset(word.lower() for key in (".ipin", ".opin", ".iopin", "ipin", "opin", "iopin")
+                         for line in cdl.get(key, ()) for word in line.split())
+    return ctx.memo(("supply", "declared pins"), compute)
+

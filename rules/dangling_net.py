@@ -34,7 +34,7 @@ Fix
 from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is_voltage_output,
                                        unread_cells)
 from lintamp.findings import Related, Severity
-from lintamp.rules import _parasitics, _supply
+from lintamp.rules import _cascade, _parasitics, _supply
 
 NAME = "dangling-net"
 CATEGORY = "connectivity"
@@ -76,9 +76,12 @@ def check(ctx):
         # a testbench's supply net that only blocks' supply pins reach: undriven-supply
         # is the finding (one cause, one finding)
         unpowered = ({net for net, _ in _supply.undriven_supplies(ctx)}
+                     | _supply.declared_pins(ctx)  # pins of an exported schematic: used outside
                      if view is ctx.design.top else set())
         stubs: list = []
         unknown_pins: list = []
+        opened: list = []  # open because the export left instances out
+        left_out = bool(_cascade.dropped_instances(view))
         for net in view.net_terminals.with_degree(1):
             if (view.is_external(net) or net in ground or net in roleless or net in observed
                     or net in unpowered):
@@ -89,6 +92,13 @@ def check(ctx):
                 continue  # a computed test signal, or a device whose pins lintamp cannot judge
             if dev.kind == "line" and pin.startswith("t"):
                 continue  # a pin of a many-conductor line lintamp does not name
+            if _parasitics.reaches_into_instance(ctx, view, net):
+                continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
+            if left_out:
+                opened.append((net, dev.location))
+                continue
+            if dev.kind == "capacitor":
+                continue  # a capacitor alone on its net: no-dc-path is the finding (one cause)
             if pin == "b" and dev.kind in ("nmos", "pmos") and len(dev.nets) <= 4:
                 continue  # a body alone on its net: body-tie says it floats (one cause, one finding)
             if dev.kind in _parasitics.PASSIVE_KINDS and _parasitics.is_extraction_net(ctx, view, net):
@@ -122,6 +132,8 @@ def check(ctx):
                                 "reaches it"]),
                 fix=f"connect {net} where it was meant to go, or remove {dev.display}",
                 values={"terminals": 1})
+        if opened:
+            yield _cascade.open_by_dropped(ctx, view, NAME, [n for n, _ in opened], opened[0][1])
         if stubs:
             yield _stubs_finding(ctx, view, stubs)
         if unknown_pins:

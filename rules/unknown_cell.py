@@ -53,6 +53,10 @@ PDK_LIBRARY_PREFIXES = ("sky130_fd_sc_", "sky130_osu_sc_", "sky130_fd_io__", "sk
 def check(ctx):
     yield from forward_diagnostics(ctx)
     incomplete = _cascade.incomplete(ctx)
+    for view in ctx.cells():
+        dropped = _cascade.dropped_instances(view)
+        if dropped:
+            yield _dropped_finding(ctx, view, dropped)
     templates: list = []
     per_cell: dict[int, tuple] = {}  # id(view) -> (view, {name: [devices]}, {number: [devices]})
     for view in ctx.cells():
@@ -163,3 +167,21 @@ def _numbers_finding(ctx, view, numbers):
         values={"count": len(devs)},
         fix="write these cards as R/C elements (drop the X), or name the PDK's resistor or "
             "capacitor cell")
+
+
+def _dropped_finding(ctx, view, dropped):
+    """Instances the schematic export left out of a cell, one finding for the cell."""
+    symbols = sorted({p.args[1] for p in dropped if len(p.args) > 1})
+    names = ", ".join(p.args[0] for p in dropped[:8]) + (", ..." if len(dropped) > 8 else "")
+    return ctx.finding(
+        location=dropped[0].location, subject=dropped[0].args[0], view=view,
+        message=f"the schematic export left out {len(dropped)} instance(s) of "
+                f"{', '.join(excerpt(s, 40) for s in symbols)} ({names}): the symbol was not found",
+        explanation=["the exporter wrote 'IS MISSING' for these instances and no card for "
+                     "them, so the netlist is not the schematic: the nets they would join "
+                     "are open", "a simulator runs the deck without them"],
+        values={"count": len(dropped)},
+        related=[Related(p.location, f"{p.args[0]} left out") for p in dropped[1:MAX_RELATED]],
+        fix="make the symbol findable (the symbol library path of the schematic editor) and "
+            "export the netlist again")
+

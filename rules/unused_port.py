@@ -12,6 +12,8 @@ What it finds
     where an instance puts different nets on the two pins (the second one goes
     nowhere), an info otherwise.
 
+    The unused ports of one cell are one finding that lists them.
+
 Why it matters
     Whatever the parent connects to that port goes nowhere: a supply, bias or input
     that the block silently ignores.  Often a port was renamed inside the body but not
@@ -46,23 +48,35 @@ def check(ctx):
             continue
         optional = view.cell.optional_ports
         repeated = view.cell.repeated_ports
+        unused = []
+        count = ctx.design.instance_count(view)
         for port in dict.fromkeys(view.ports):
             if port in optional or view.net_terminals.get(port):
                 continue
-            count = ctx.design.instance_count(view)
             if port in repeated:
                 yield repeated_port(ctx, view, port, repeated[port], count)
                 continue
-            yield ctx.finding(
-                location=view.cell.location, subject=port, view=view, nets=[port],
-                message=f"port {port} of {view.label} is not connected to anything inside",
-                explanation=[f"{view.label} has {len(view.devices)} element(s); none touches "
-                             f"{port}",
-                             "whatever a parent connects there goes nowhere"
-                             + (f" ({count} instance(s))" if count else "")],
-                fix=f"use {port} inside {view.label}, or remove it from the .subckt line "
-                    "and from every instance",
-                values={"instances": count})
+            unused.append(port)
+        if not unused:
+            continue
+        # the unused ports of one cell are one finding (a wrapper's spare pins, a
+        # standard cell's body pins in an abstract netlist): one cause, one finding
+        port = unused[0]
+        shown = ", ".join(unused[:8]) + (f" and {len(unused) - 8} more" if len(unused) > 8 else "")
+        yield ctx.finding(
+            location=view.cell.location, subject=port, view=view, nets=unused[:50],
+            message=(f"port {port} of {view.label} is not connected to anything inside"
+                     if len(unused) == 1 else
+                     f"{len(unused)} ports of {view.label} are not connected to anything "
+                     f"inside ({shown})"),
+            explanation=[f"{view.label} has {len(view.devices)} element(s); none touches "
+                         f"{shown}",
+                         "whatever a parent connects there goes nowhere"
+                         + (f" ({count} instance(s))" if count else "")],
+            fix=f"use {'it' if len(unused) == 1 else 'them'} inside {view.label}, or remove "
+                f"{'it' if len(unused) == 1 else 'them'} from the .subckt line and from "
+                "every instance",
+            values={"instances": count, "ports": len(unused)})
 
 
 def repeated_port(ctx, view, placeholder, port, count):

@@ -277,3 +277,79 @@ def test_testbench_that_powers_nothing_is_a_warning():
     assert found == [("undriven-supply", "vdd", "warning")]
     powered = deck.replace("VDDA vdda", "VDDA vdd")
     assert not [f for f in check_text("t\n" + powered).findings if f.rule == "undriven-supply"]
+
+
+# -- reading as ngspice-39 reads ------------------------------------------------------------
+def test_a_node_inside_an_instance_named_from_outside_is_that_node():
+    # ngspice-39: 'rp x1.mid probe 1' reads the divider's midpoint (v(probe) = 1 V)
+    deck = ("t\n.subckt dv a\nr1 a mid 1k\nr2 mid 0 1k\n.ends\nv1 in 0 2\nx1 in dv\n"
+            "rp x1.mid probe 1\nrl probe 0 1meg\n.end\n")
+    assert not [f for f in loud(deck) if f.rule in ("no-dc-path", "dangling-net")]
+
+
+def test_cells_after_end_are_read():
+    # ngspice-39 reads a .subckt written after .end (checked in a batch run)
+    deck = "t\nv1 a 0 1\nx1 a 0 rr\n.op\n.end\n.subckt rr p n\nr1 p n 1k\n.ends\n"
+    assert not [f for f in loud(deck) if f.rule == "unknown-cell"]
+
+
+def test_dollar_comment_after_a_card():
+    # ngspice-39 takes ' $d g s b' after a blank as a comment (xschem writes pin notes so)
+    deck = "t\nV1 vdd 0 1.8\nx1 d g 0 0 sky130_fd_pr__nfet_01v8 w=1 l=0.15 $d g s b\nR1 vdd d 1k\nV2 g 0 1\n.end\n"
+    (x1,) = [d for d in elaborate(parse_text(deck)).top.devices if d.name == "x1"]
+    assert x1.kind == "nmos" and list(x1.nets) == ["d", "g", "0", "0"]
+
+
+def test_unused_ports_of_one_cell_are_one_finding():
+    # a tiny-tapeout style wrapper with spare pins (common practice: the template
+    # lists every pad whether the design uses it or not)
+    deck = ".subckt wrap ui_in[0] ui_in[1] ui_in[2] uo_out[0] vdd vss\nR1 vdd uo_out[0] 1k\n.ends\n"
+    found = [f for f in check_text("t\n" + deck).findings if f.rule == "unused-port"]
+    assert [(f.subject, f.values["ports"]) for f in found] == [("ui_in[0]", 4)]
+
+
+# an xschem export of a block's schematic: its own pins are '*.ipin' / '*.iopin' lines
+EXPORTED_SCHEMATIC = """\
+** sch_path: /home/user/buf.sch
+**.subckt buf vin vout vdd vss
+*.ipin vin
+*.opin vout
+*.iopin vdd
+*.iopin vss
+XM1 vout vin vss vss sky130_fd_pr__nfet_01v8 L=0.15 W=1 nf=1 m=1
+XM2 vout vin vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=2 nf=1 m=1
+I1 vdd vout 1u
+**.ends
+.end
+"""
+
+
+def test_a_schematic_exports_own_pins_are_ports():
+    # the gate net vin is a pin (driven by whatever instantiates the block): no
+    # unbiased-gate, no-dc-path or undriven-supply for it (xschem writes *.ipin so)
+    assert not loud(EXPORTED_SCHEMATIC)
+
+
+# an xschem export whose inverter symbol was not found: the exporter writes a note
+# instead of the instance, and the nets the instance would join are open
+EXPORT_WITH_MISSING_SYMBOL = """\
+** sch_path: /home/user/ring.sch
+.subckt ring vdd vss out
+XM1 net1 bias vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=1 nf=1 m=1
+XM2 net2 bias vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=1 nf=1 m=1
+XM3 bias bias vdd vdd sky130_fd_pr__pfet_01v8 L=0.15 W=1 nf=1 m=1
+I1 bias vss 10u
+C1 net3 vss 10f m=1
+C2 out vss 10f m=1
+*  x1 -  ring_inverter  IS MISSING !!!!
+*  x2 -  ring_inverter  IS MISSING !!!!
+.ends
+"""
+
+
+def test_instances_an_export_left_out_are_one_finding_with_the_open_nets_attached():
+    findings = check_text(EXPORT_WITH_MISSING_SYMBOL, "ring.spice").findings
+    assert [(f.rule, f.values.get("count")) for f in findings if f.severity.label != "info"] == [
+        ("unknown-cell", 2)]
+    (opened,) = [f for f in findings if f.rule == "dangling-net"]
+    assert opened.severity.label == "info" and set(opened.nets) == {"net1", "net2", "net3"}

@@ -1078,6 +1078,15 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
         return best
 
     for comment in comments:
+        if comment.kind == "dropped-instance":
+            # kept as a pragma of the cell that lost the instance (as the api keeps its
+            # own "manifest-file" marks): rules read what the netlist lacks from it
+            inst, _, rest = comment.text.partition(" - ")
+            symbol = rest.split()[0] if rest.split() else ""
+            cell = cell_of(comment.location)
+            cell.pragmas.append(Pragma(verb="dropped-instance", args=(inst.strip().lower(), symbol),
+                                       reason="", location=comment.location, cell=cell.name))
+            continue
         if comment.kind == "cdl":
             word, _, rest = comment.text.partition(" ")
             netlist.cdl.setdefault(word.lower(), []).append(rest.strip())

@@ -355,9 +355,10 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
     """Split ``line`` into code and inline comment, respecting quotes and braces.
 
     ``;`` always starts a comment; ``$`` only at the line start or after a blank,
-    and not when a name follows it (``M$1``, ``$PDK_ROOT``, ``${dir}`` are names or
-    placeholders; ``$1.68`` is a comment, as ngspice-39 reads it); ``//`` after a
-    blank when enabled.
+    and not when a brace follows it (``${dir}``, a generator's placeholder) or a name
+    on an include card (``.include $PDK_ROOT/...``, shown as a placeholder);
+    ``M$1`` is a name; ``$1.68`` and `` $d g s b`` are comments, as ngspice-39 reads
+    them; ``//`` after a blank when enabled.
     """
     if ";" not in line and "$" not in line and "/" not in line:
         return line, ""
@@ -380,13 +381,20 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
             if ch == ";":
                 return line[:i], line[i + 1:]
             if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t") and (
-                    i + 1 == n or not ((line[i + 1].isalpha() or line[i + 1] in "_{"))):
+                    i + 1 == n or line[i + 1] != "{" and not (
+                        (line[i + 1].isalpha() or line[i + 1] == "_") and _names_a_path(line))):
                 return line[:i], line[i + 1:]
             if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
                     i == 0 or line[i - 1] in " \t"):
                 return line[:i], line[i + 2:]
         i += 1
     return line, ""
+
+
+def _names_a_path(line: str) -> bool:
+    """An include-like card, whose ``$NAME`` stays in view as a placeholder (ngspice-39
+    would take it as a comment and then miss the file name; the placeholder says why)."""
+    return line[:4].lower() in (".inc", ".lib")
 
 
 def _pragma_text(comment: str) -> str | None:
@@ -649,6 +657,12 @@ class _Reader:
                 if pragma is not None:
                     self.result.comments.append(
                         CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma"))
+                elif head == "*" and in_section and not in_control and "IS MISSING" in body \
+                        and _DROPPED_INSTANCE.match(body):
+                    # a schematic exporter's note that it left an instance out (its
+                    # symbol was not found): the netlist lacks that instance
+                    self.result.comments.append(
+                        CommentLine(body.strip(), Location(shown, lineno, indent + 1), "dropped-instance"))
                 elif head == "*" and body[:1] == "." and in_section and not in_control:
                     flush()  # a '+' after a CDL directive continues the directive, not a card
                     cdl_open = CommentLine(body.strip(), Location(shown, lineno, indent + 1), "cdl")
@@ -742,8 +756,10 @@ class _Reader:
                     continue
             if not in_section:
                 continue
-            if word == ".end" or (word.startswith(".end") and word == ".end"):
-                break
+            if word == ".end":
+                # ngspice-39 reads on past .end (checked: an R card, a .subckt and an
+                # .include after it all take part in the circuit), so lintamp does too
+                continue
             if word in (".include", ".inc", ".incl", ".includes"):
                 self._include(code, shown, path, lineno, indent)
                 continue
@@ -816,11 +832,14 @@ class _Reader:
         # nor even told apart as present or absent.
         outside = False
         not_files = []  # inside, existing, but folders, devices or pipes
-        for cand in candidates:
+        for number, cand in enumerate(candidates):
             try:
                 real = cand.resolve()
                 if not self.inside_sandbox(real):
-                    outside = True
+                    # judged by where the path as written points (beside the including
+                    # file, or absolute): a missing file there is missing, even where an
+                    # include path joined to the same text would climb out
+                    outside = outside or number == 0
                     continue
                 if real.is_file():
                     return real
@@ -916,6 +935,8 @@ class _Reader:
 
 
 OUTSIDE_EXPECTED = "a file inside the project root or the include paths"
+# xschem's note for an instance whose symbol it could not find: '*  x1 -  inv  IS MISSING !!!!'
+_DROPPED_INSTANCE = re.compile(r"\s*(\S+)\s+-\s+(\S+)\s+IS MISSING\b")
 
 # ngspice's interactive commands (the ngspice-39 manual, chapter 17): the words a
 # control script's lines begin with
