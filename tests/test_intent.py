@@ -177,3 +177,13 @@ def test_unbuffered_output_judges_a_coupled_line():
         found = [f for f in check_text(deck, "ce.sp").findings if f.rule == "unbuffered-output"]
         assert [f.subject for f in found] == [subject]
         assert abs(found[0].values["loss"] - 0.88) < 0.01
+
+
+def test_inspection_forms_take_numbers_from_the_operating_point():
+    # Razavi 2nd ed. sec. 10.2: A_v ~ g_m1 (r_o2 || r_o4) g_m6 (r_o6 || r_o7); against the
+    # MNA gain of the same operating point the product of the forms is within 10 %
+    data = _audit(ROLES / "ota_tb.sp")
+    path = data["paths"][0]
+    form = path["by_inspection"]
+    assert form["formula"] == "g_m1 (r_o2 ∥ r_o4), then g_m6 (r_o6 ∥ r_o7)"
+    assert abs(form["value"] / path["gain"]["mag"] - 1) < 0.10
