@@ -118,12 +118,33 @@ class _Unit:
         return self.devices[0].name
 
 
-def _composites(trans: list[FlatDevice], terminals: Counter) -> list[_Unit]:
+def _oriented(dev: FlatDevice, levels: dict[int, str]):
+    """(drain, gate, source) with a MOS channel read the way it conducts: a schematic
+    export writes a symmetric device's channel pins as drawn, so the source is the pin on
+    its polarity's rail (ground side for NMOS, supply side for PMOS), else the pin the
+    body ties to, and a gate tied to one channel pin marks that pin the drain."""
+    out, ctl, com = _pins(dev)
+    if dev.kind not in MOS or out == com:
+        return out, ctl, com
+    source_level = "low" if dev.kind == "nmos" else "high"
+    body = dev.nodes[3] if len(dev.nodes) > 3 else None
+    if levels.get(out) == source_level and levels.get(com) != source_level:
+        return com, ctl, out
+    if levels.get(com) == source_level or levels.get(out) in ("high", "low"):
+        return out, ctl, com
+    if ctl == com and ctl != out:
+        return com, ctl, out  # a diode drawn with its source on the gate
+    if body is not None and body == out and body != com:
+        return com, ctl, out
+    return out, ctl, com
+
+
+def _composites(trans: list[FlatDevice], terminals: Counter, levels: dict[int, str]) -> list[_Unit]:
     """Parallel devices as one; then series stacks with one gate through a middle net
     that only the two devices touch (a long device drawn as units)."""
     parallel: dict[tuple, _Unit] = {}
     for d in trans:
-        out, ctl, com = _pins(d)
+        out, ctl, com = _oriented(d, levels)
         key = (d.kind, ctl, frozenset((out, com)) if d.kind in MOS else (out, com))
         unit = parallel.get(key)
         if unit is None:
@@ -189,7 +210,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
                 caps_to_acg.add(b)
             elif b in acg and a not in acg:
                 caps_to_acg.add(a)
-    units = _composites(trans, terminals)
+    units = _composites(trans, terminals, levels)
     diode_nets = {u.out for u in units if u.out == u.ctl}
     # a mirror reference through its cascode: the gate is the drain of a device that
     # stands on this device's drain (a cascode or wide-swing mirror)
@@ -295,8 +316,10 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         off_level = "low" if on_level == "high" else "high"
         related: list[str] = []
         if out == com:
-            if ctl == out or on_rail(ctl, off_level):
-                role = Role.DUMMY if mos else Role.SHORTED
+            if ctl == out or (mos and on_rail(ctl, off_level)):
+                role = Role.DUMMY  # every pin on one net, or a gate that keeps it off
+            elif not mos:
+                role = Role.SHORTED
             else:
                 role = Role.MOS_CAPACITOR if mos else Role.SHORTED
         elif out == ctl:
@@ -330,6 +353,11 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             elif refs or (u.kind, ctl, com) in cascoded_by_pins:
                 role = Role.MIRROR_OUTPUT
                 related = refs or cascoded_by_pins[(u.kind, ctl, com)]
+            elif pair and any(by_com_out.get((o.out, ctl)) and by_com_out.get((out, o.ctl)) for o in pair):
+                # each gate driven from the other half's drain through a device stacked on
+                # it: positive feedback, a latch's lower pair
+                role = Role.CROSS_COUPLED
+                related = [o.name for o in pair if by_com_out.get((o.out, ctl))]
             elif pair:
                 role, related = Role.DIFFERENTIAL_PAIR, [o.name for o in pair]
             elif ctl in quiet and com in acg:
