@@ -217,8 +217,12 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     by_com_out: dict[tuple, list[_Unit]] = {}
     for u in units:
         by_com_out.setdefault((u.com, u.out), []).append(u)
+    def stands(c: _Unit) -> bool:  # a device that conducts: no diode, no dummy
+        return c.out != c.ctl and c.out != c.com and levels.get(c.ctl) != (
+            "low" if c.kind in ("nmos", "npn") else "high")
+
     cascoded_refs = {id(u) for u in units if u.out != u.ctl and u.com in acg
-                     and any(c is not u and c.out != c.ctl for c in by_com_out.get((u.out, u.ctl), ()))}
+                     and any(c is not u and stands(c) for c in by_com_out.get((u.out, u.ctl), ()))}
     diode_nets |= {u.ctl for u in units if id(u) in cascoded_refs}
     cascoded_by_pins: dict[tuple, list[str]] = {}
     for u in units:
@@ -260,10 +264,23 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     for u in units:
         if u.kind in MOS and u.ctl not in acg and u.out not in acg and u.out != u.com:
             by_ctl_out.setdefault((u.ctl, u.out), []).append(u)
-    inverters = {id(u) for group in by_ctl_out.values() if {x.kind for x in group} == set(MOS)
-                 for u in group if u.out != u.ctl}
-    inverter_io = {(u.ctl, u.out) for u in units if id(u) in inverters}
-    latched = {id(u) for u in units if id(u) in inverters and (u.out, u.ctl) in inverter_io}
+    shaped = {id(u) for group in by_ctl_out.values() if {x.kind for x in group} == set(MOS)
+              for u in group if u.out != u.ctl}
+    # an inverter proper has each device's source on its own rail (NMOS low, PMOS high);
+    # a complementary pair of switches on one gate and one drain is no inverter
+    def on_own_rail(u: _Unit) -> bool:
+        return levels.get(u.com) == ("low" if u.kind == "nmos" else "high")
+
+    inverters = set()
+    for group in by_ctl_out.values():
+        members = [u for u in group if id(u) in shaped and on_own_rail(u)]
+        if {u.kind for u in members} == set(MOS):
+            inverters.update(id(u) for u in members)
+    inverter_io = {(u.ctl, u.out) for u in units if id(u) in shaped}
+    drivers_of: Counter = Counter(out for _, out in inverter_io)
+    # two inverter shapes driving each other, each the only one on its output: a latch
+    latched = {id(u) for u in units if id(u) in shaped and (u.out, u.ctl) in inverter_io
+               and drivers_of[u.out] == 1 and drivers_of[u.ctl] == 1}
     inverters -= latched
     for u in units:
         if id(u) in inverters:
@@ -286,6 +303,17 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         counts.update((("ctl", fam, u.com, u.ctl), ("out", fam, u.com, u.out),
                        ("both", fam, u.com, u.ctl, u.out)))
     pairs: dict[tuple, list[_Unit]] = {}
+    # a mirror whose devices stand on resistors or ports rather than on one rail (a
+    # degenerated or beta-multiplier mirror): same gate, sources no transistor drives
+    fed = {c.out for c in units if stands(c)}
+    loose_diodes: dict[tuple, list[_Unit]] = {}
+    loose_outputs: dict[tuple, list[_Unit]] = {}
+    for u in units:
+        if u.com not in fed and u.com != u.ctl:
+            (loose_diodes if u.out == u.ctl else loose_outputs).setdefault((u.kind, u.ctl), []).append(u)
+    # two devices on one common net, each gate on the other's drain: positive feedback
+    by_pins = {(u.kind, u.com, u.ctl, u.out): u for u in units if u.out != u.ctl}
+    crossed = {id(u) for u in by_pins.values() if (u.kind, u.com, u.out, u.ctl) in by_pins}
 
     def partners(u: _Unit) -> list[_Unit]:
         """Units on the same common net with another control and another output net."""
@@ -302,6 +330,17 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
 
     def on_rail(net: int, level: str) -> bool:
         return levels.get(net) == level
+
+    def pair_candidates(u: _Unit) -> list[_Unit]:
+        if u.com in acg or not pair_gate(u.ctl):
+            return []
+        return [o for o in partners(u) if pair_gate(o.ctl) and (u.ctl not in quiet or o.ctl not in quiet)]
+
+    def pair_of(u: _Unit) -> list[_Unit]:
+        """The other half, when the common net holds exactly two halves (a tail with
+        more devices on it is no pair)."""
+        got = pair_candidates(u)
+        return got if len(got) == 1 and len(pair_candidates(got[0])) == 1 else []
 
     def pair_gate(net: int) -> bool:
         """A gate that may carry an input: not a bias line, not a supply or ground (a net
@@ -323,7 +362,10 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             else:
                 role = Role.MOS_CAPACITOR if mos else Role.SHORTED
         elif out == ctl:
-            outs = [o.name for o in not_diodes.get((u.kind, ctl, com), ())]
+            outs = [o.name for o in not_diodes.get((u.kind, ctl, com), ()) if id(o) not in crossed]
+            if not outs and com not in fed:
+                outs = [o.name for o in loose_outputs.get((u.kind, ctl), ()) if o.com != com
+                        and id(o) not in crossed]
             role = Role.MIRROR_REFERENCE if outs else Role.DIODE_LOAD
             related = outs
         elif mos and ctl == com and com in acg:
@@ -345,9 +387,13 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             role = Role.MOS_RESISTOR  # gate on the rail that keeps it on: a triode resistance
         else:
             refs = [o.name for o in diodes.get((u.kind, ctl, com), ())]
-            pair = [] if com in acg or not pair_gate(ctl) else [
-                o for o in partners(u) if pair_gate(o.ctl) and (ctl not in quiet or o.ctl not in quiet)]
-            if id(u) in cascoded_refs:
+            if not refs and com not in fed and com not in acg:
+                refs = [o.name for o in loose_diodes.get((u.kind, ctl), ()) if o.com != com]
+            pair = pair_of(u)
+            if id(u) in crossed:
+                role = Role.CROSS_COUPLED
+                related = [by_pins[(u.kind, com, out, ctl)].name]
+            elif id(u) in cascoded_refs:
                 role = Role.MIRROR_REFERENCE
                 related = [o.name for o in not_diodes.get((u.kind, ctl, com), ()) if o is not u]
             elif refs or (u.kind, ctl, com) in cascoded_by_pins:
