@@ -55,7 +55,7 @@ BIAS_NAMES = ("ibias*", "iref*", "ib", "ib?", "ib_*", "vbias*", "vb", "vb?", "vb
               "vcasc*", "vcas*", "vbcas*", "vbc?", "vbc_*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
               "pbias*")
 LOGIC_NAMES = ("en", "en?", "enb", "en_*", "*_en", "*_enb", "ena", "enable*", "pwrdn*", "pwdn*",
-               "pdn", "pd_b", "pdb", "sel*", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",
+               "pdn", "pd_b", "pdb", "sel*", "*_sel", "*_sel_b", "*_selb", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",
                "phi?", "phi?b", "sleep*", "stby*", "standby*", "ctrl*")
 SOURCES = ("pragma", "config", "pin direction", "testbench", "name")
 MAX_PREFIXES = 10_000

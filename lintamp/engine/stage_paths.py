@@ -59,6 +59,7 @@ def _edges(circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
             if st is None or (st.units and st.units[0] != dev.name):
                 continue
             role = st.role
+            n = st.pins or n
             if role in GATE_TO_DRAIN:
                 add(n[1], n[0], 1, dev.name, "gd")
                 if role == Role.CROSS_COUPLED:  # a latch half also takes its source's signal
@@ -113,8 +114,17 @@ class _Impedances:
         self.circuit, self.roles, self.acg, self.op = circuit, roles, acg, op
         self.on: dict[int, list] = {}
         for dev in circuit.devices:
-            for node in set(dev.nodes[:3] if dev.kind in TRANSISTORS else dev.nodes[:2]):
+            st = roles.get(dev.name) if dev.kind in TRANSISTORS else None
+            if st is not None and st.units and st.units[0] != dev.name:
+                continue  # a composite is seen through its first unit, at its own ends
+            nodes = (st.pins if st is not None and st.pins else dev.nodes[:3]) if dev.kind in TRANSISTORS \
+                else dev.nodes[:2]
+            for node in set(nodes):
                 self.on.setdefault(node, []).append(dev)
+
+    def pins(self, dev):
+        st = self.roles.get(dev.name)
+        return st.pins if st is not None and st.pins else dev.nodes[:3]
 
     def value(self, device: str, key: str) -> float | None:
         """``gm_s``, ``gmb_s`` or ``ro_ohm`` of a device at the operating point (a
@@ -142,7 +152,7 @@ class _Impedances:
             if st is not None and st.role in CHANNEL + (Role.DUMMY, Role.MOS_CAPACITOR):
                 continue  # off, or in series with a capacitor: no load at the operating point
             if dev.kind in TRANSISTORS:
-                d, g, s = dev.nodes[:3]
+                d, g, s = self.pins(dev)
                 gm, ro = self.value(dev.name, "gm_s"), self.value(dev.name, "ro_ohm")
                 if d == net and g == net:
                     terms.append((f"1/g_m{t}", 1 / gm if gm else None))
@@ -221,7 +231,7 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
             partner = st.related[0] if st and st.role == Role.DIFFERENTIAL_PAIR and st.related else None
             pdev = circuit.device(partner) if partner else None
             if nxt and pdev is not None and nxt[3] == "gd" and roles.get(nxt[2]) is not None \
-                    and roles[nxt[2]].role == Role.MIRROR_OUTPUT and nxt[1] == pdev.nodes[0]:
+                    and roles[nxt[2]].role == Role.MIRROR_OUTPUT and nxt[1] == z.pins(pdev)[0]:
                 sym, r = _par([(f"r_o{tag(partner)}", z.value(partner, "ro_ohm")),
                                (f"r_o{tag(nxt[2])}", z.value(nxt[2], "ro_ohm"))])
                 out.append({"device": label, "role": "differential pair into a mirror load",
@@ -232,7 +242,7 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
             load = [(f"r_o{t}", ro)] + z.at(b, skip=(device,))
             if st and st.role in (Role.COMMON_SOURCE_DEGENERATED, Role.COMMON_EMITTER_DEGENERATED):
                 rd_sym, rd = _par(load[1:] or load)
-                rs_sym, rs = _par(z.at(dev.nodes[2], skip=(device,)) or [("Z_S", None)])
+                rs_sym, rs = _par(z.at(z.pins(dev)[2], skip=(device,)) or [("Z_S", None)])
                 form = f"g_m{t} {rd_sym}/(1 + g_m{t} {rs_sym})"
                 value = gm * rd / (1 + gm * rs) if None not in (gm, rd, rs) else None
             else:

@@ -86,6 +86,7 @@ class Stage:
     gm_s: float | None = None
     ro_ohm: float | None = None
     units: list[str] = field(default_factory=list)  # the composite's devices, this one first
+    pins: tuple = ()  # (out, control, common) nets as the stage conducts (a composite's ends)
 
     @property
     def label(self) -> str:
@@ -434,7 +435,8 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         u = unit_of[id(d)]
         role, related = roles[id(u)]
         names = [x.name for x in sorted(u.devices, key=lambda x: position[id(x)])]
-        st = Stage(d.name, role, list(related), units=names if len(names) > 1 else [])
+        st = Stage(d.name, role, list(related), units=names if len(names) > 1 else [],
+                   pins=(u.out, u.ctl, u.com))
         if op is not None and d.name in op.devices:
             dop = op.devices[d.name]
             st.region = dop.region
