@@ -27,7 +27,9 @@ to, so a cell read without a testbench still has ``vdd`` and ``vss`` as rails.
 from __future__ import annotations
 
 import fnmatch
+import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 from lintamp.circuit.flat import FlatCircuit
 
@@ -158,8 +160,17 @@ def patterns(config, kind: str) -> tuple[str, ...]:
     return tuple(ports.get(kind, DEFAULT_PATTERNS[kind]))
 
 
+@lru_cache(maxsize=256)
+def _any_of(globs: tuple[str, ...]):
+    return re.compile("|".join(f"(?:{fnmatch.translate(g.lower())})" for g in globs) or "(?!)")
+
+
 def matches(name: str, globs) -> str | None:
+    """The first of ``globs`` that ``name`` matches (case-insensitive), or None."""
     low = name.lower()
+    globs = tuple(globs)
+    if not _any_of(globs).match(low):
+        return None
     for g in globs:
         if fnmatch.fnmatchcase(low, g.lower()):
             return g

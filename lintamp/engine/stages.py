@@ -37,6 +37,7 @@ from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
 MOS = ("nmos", "pmos")
 BJT = ("npn", "pnp")
+MAX_RELATED = 64  # related devices listed per stage (a shared line may reach thousands)
 
 
 class Role(str, Enum):
@@ -101,22 +102,15 @@ def _pins(dev: FlatDevice):
     return dev.nodes[0], dev.nodes[1], dev.nodes[2]
 
 
-@dataclass
 class _Unit:
     """One composite: its devices and the pins it shows the circuit."""
 
-    devices: list[FlatDevice]
-    out: int
-    ctl: int
-    com: int
+    __slots__ = ("devices", "out", "ctl", "com", "kind", "name")
 
-    @property
-    def kind(self) -> str:
-        return self.devices[0].kind
-
-    @property
-    def name(self) -> str:
-        return self.devices[0].name
+    def __init__(self, devices: list[FlatDevice], out: int, ctl: int, com: int):
+        self.devices, self.out, self.ctl, self.com = devices, out, ctl, com
+        self.kind = devices[0].kind
+        self.name = devices[0].name
 
 
 def _oriented(dev: FlatDevice, levels: dict[int, str]):
@@ -294,6 +288,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     not_diodes: dict[tuple, list[_Unit]] = {}
     by_channel: dict[frozenset, list[_Unit]] = {}
     counts: Counter = Counter()
+    channel_kinds: dict[frozenset, set[str]] = {}
     for u in units:
         fam = u.kind
         by_common.setdefault((fam, u.com), []).append(u)
@@ -301,6 +296,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         (diodes if u.out == u.ctl else not_diodes).setdefault((fam, u.ctl, u.com), []).append(u)
         if fam in MOS:
             by_channel.setdefault(frozenset((u.out, u.com)), []).append(u)
+            channel_kinds.setdefault(frozenset((u.out, u.com)), set()).add(fam)
         counts.update((("ctl", fam, u.com, u.ctl), ("out", fam, u.com, u.out),
                        ("both", fam, u.com, u.ctl, u.out)))
     pairs: dict[tuple, list[_Unit]] = {}
@@ -375,13 +371,13 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             role = Role.DUMMY  # gate at the rail that keeps it off
         elif id(u) in latched:
             role = Role.CROSS_COUPLED
-            related = [o.name for o in by_ctl_out.get((out, ctl), ()) if id(o) in latched]
+            related = [o.name for o in by_ctl_out.get((out, ctl), ())[:MAX_RELATED] if id(o) in latched]
         elif mos and id(u) in inverters:
             role = Role.INVERTER
-            related = [o.name for o in by_ctl_out[(ctl, out)] if o is not u and id(o) in inverters]
-        elif mos and any(o.kind != u.kind for o in by_channel.get(frozenset((out, com)), ())):
+            related = [o.name for o in by_ctl_out[(ctl, out)][:MAX_RELATED] if o is not u and id(o) in inverters]
+        elif mos and len(channel_kinds.get(frozenset((out, com)), ())) == 2:
             role = Role.TRANSMISSION_GATE
-            related = [o.name for o in by_channel[frozenset((out, com))] if o.kind != u.kind]
+            related = [o.name for o in by_channel[frozenset((out, com))][:MAX_RELATED] if o.kind != u.kind]
         elif mos and ctl in logic:
             role = Role.SWITCH
         elif mos and on_rail(ctl, on_level):
@@ -420,10 +416,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             elif out in acg and com not in acg:
                 role = Role.SOURCE_FOLLOWER if mos else Role.EMITTER_FOLLOWER
             else:
-                cross = [o for o in by_common.get((u.kind, com), ()) if o.ctl == out and o.out == ctl]
-                if cross:
-                    role, related = Role.CROSS_COUPLED, [o.name for o in cross]
-                elif com in acg or com in bypassed:
+                if com in acg or com in bypassed:
                     role = Role.COMMON_SOURCE if mos else Role.COMMON_EMITTER
                 else:
                     role = Role.COMMON_SOURCE_DEGENERATED if mos else Role.COMMON_EMITTER_DEGENERATED
