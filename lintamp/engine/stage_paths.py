@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import heapq
 import re
-from dataclasses import dataclass
 
 from lintamp.circuit.flat import FlatCircuit
 from lintamp.engine.stages import Role, Stage
@@ -27,15 +26,6 @@ SOURCE_TO_DRAIN = (Role.COMMON_GATE, Role.COMMON_BASE, Role.CASCODE)
 FOLLOWERS = (Role.SOURCE_FOLLOWER, Role.EMITTER_FOLLOWER)
 ENTRY_WORDS = {"gd": "gate", "gs": "gate", "sd": "source", "ch": "channel", "ctl": "control", "p": "terminal"}
 CHANNEL = (Role.SWITCH, Role.TRANSMISSION_GATE, Role.MOS_RESISTOR)
-
-
-@dataclass
-class StageHop:
-    device: str
-    role: str
-    from_net: int
-    to_net: int
-    form: str  # the gain form in symbols
 
 
 def tag(name: str) -> str:
