@@ -77,5 +77,5 @@ def reaches_into_instance(ctx, view, net: str) -> bool:
     if "." not in net:
         return False
     names = ctx.memo(("parasitics", "instances", id(view)), lambda: {
-        d.name.lower() for d in view.devices_where(lambda key: key[0] == "instance")})
+        d.name.lower() for d in view.devices_of(kinds=("instance",))})
     return net.split(".", 1)[0].lower() in names

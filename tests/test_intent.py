@@ -177,3 +177,51 @@ def test_unbuffered_output_judges_a_coupled_line():
         found = [f for f in check_text(deck, "ce.sp").findings if f.rule == "unbuffered-output"]
         assert [f.subject for f in found] == [subject]
         assert abs(found[0].values["loss"] - 0.88) < 0.01
+
+
+def test_inspection_forms_take_numbers_from_the_operating_point():
+    # Razavi 2nd ed. sec. 10.2: A_v ~ g_m1 (r_o2 || r_o4) g_m6 (r_o6 || r_o7); against the
+    # MNA gain of the same operating point the product of the forms is within 10 %
+    data = _audit(ROLES / "ota_tb.sp")
+    path = data["paths"][0]
+    form = path["by_inspection"]
+    assert form["formula"] == "g_m1 (r_o2 ∥ r_o4), then g_m6 (r_o6 ∥ r_o7)"
+    assert abs(form["value"] / path["gain"]["mag"] - 1) < 0.10
+
+
+def test_config_ports_beat_pin_directions():
+    from lintamp.config import Config, with_overrides
+
+    deck = ("* t\n.subckt a p o2 vdd vss\n*.PININFO p:I o2:I vdd:B vss:B\nm1 o2 p vss vss nch\n"
+            "r1 vdd o2 10k\n.ends\n" + MODELS)
+    netlist = parse_text(deck, "t.sp")
+    circuit = flat_circuit_from_text(deck, "t.sp", top="a")
+    cell = next(c for c in netlist.all_cells() if c.name == "a")
+    config = with_overrides(Config(), ports={"voltage-output": ("o2",)})
+    ports = {p.net: (p.kind, p.source) for p in IntentAnalysis(netlist, circuit, config).block(
+        cell, "", list(cell.ports)).ports}
+    assert ports["o2"] == ("voltage-output", "config") and ports["p"] == ("voltage-input", "pin direction")
+
+
+def test_an_ac_current_into_a_capacitance_is_a_current_input_and_a_bare_one_a_probe():
+    sensor = "* t\nvdd vdd 0 3\nipd pd 0 ac 1\ncpd pd 0 1p\nr1 pd 0 1k\n"
+    ports, _ = ports_of(sensor)
+    assert ports["pd"] == ("current-input", "testbench")
+    probe, _ = ports_of(sensor.replace("cpd pd 0 1p\n", ""))
+    assert "pd" not in probe
+
+
+def test_rail_sources():
+    deck = ("* t\n.global vglob\n.subckt a x y vdd vss well\n*.PININFO x:I y:O vdd:B vss:B well:B\n"
+            "m1 y x vss nw nch\nm2 y x vdd vdd pch\nm3 y x vglob vss nch\nm4 y x well vdd pch\n.ends\n"
+            + MODELS)
+    netlist = parse_text(deck, "t.sp")
+    circuit = flat_circuit_from_text(deck, "t.sp", top="a")
+    cell = next(c for c in netlist.all_cells() if c.name == "a")
+    intent = IntentAnalysis(netlist, circuit, default_config()).block(cell, "", list(cell.ports))
+    why = {circuit.nets[i]: w for i, w in intent.rails.items()}
+    assert "rail pattern" in why["vdd"] and "rail pattern" in why["vss"]
+    assert "global" in why["vglob"]
+    assert "bodies" in why["nw"]  # only a body ties to it
+    assert "bidirectional" in why["well"]  # a B pin only sources and bodies touch
+    assert "x" not in why and "y" not in why

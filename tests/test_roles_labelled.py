@@ -12,6 +12,7 @@ ICs, 2nd ed., ch. 3-5 and 10; Weste & Harris, CMOS VLSI Design, ch. 1.
 
 from __future__ import annotations
 
+import sys
 from pathlib import Path
 
 import pytest
@@ -28,9 +29,9 @@ CORPUS = REPO.parent / "shared" / "corpus"
 REQUIRED_SHARE = 0.95
 
 
-def labels() -> dict[tuple[str, str], dict[str, str]]:
+def labels(name: str = "labels.tsv") -> dict[tuple[str, str], dict[str, str]]:
     out: dict[tuple[str, str], dict[str, str]] = {}
-    for line in (ROLES / "labels.tsv").read_text(encoding="utf-8").splitlines():
+    for line in (ROLES / name).read_text(encoding="utf-8").splitlines():
         if not line or line.startswith("#"):
             continue
         deck, top, device, role = line.split("\t")
@@ -55,10 +56,10 @@ def roles_of(path: Path, top: str) -> dict[str, str]:
     return {s.device: str(s.role) for s in recognise_stages(circuit, **intent.stage_hints())}
 
 
-def compare() -> tuple[int, int, list[tuple[str, str, str, str]]]:
+def compare(name: str = "labels.tsv") -> tuple[int, int, list[tuple[str, str, str, str]]]:
     total = right = 0
     misses = []
-    for (deck, top), expected in labels().items():
+    for (deck, top), expected in labels(name).items():
         path = deck_path(deck)
         if not path.is_file():
             continue
@@ -91,10 +92,21 @@ def test_our_own_cells_alone():
     assert total >= 70 and right / total >= REQUIRED_SHARE
 
 
+def test_held_out_cells():
+    # labelled after the first set had been used to tune the roles, before lintamp ran on
+    # them: the share here is the honest estimate for cells the rules were not fitted to
+    if not CORPUS.is_dir():
+        pytest.skip(f"corpus not found at {CORPUS}")
+    for name, least in (("labels_heldout.tsv", 30), ("labels_heldout2.tsv", 80)):
+        total, right, misses = compare(name)
+        assert total >= least and right / total >= 0.85, misses
+
+
 if __name__ == "__main__":  # prints the table of the report
-    total, right, misses = compare()
+    name = sys.argv[1] if len(sys.argv) > 1 else "labels.tsv"
+    total, right, misses = compare(name)
     per: dict[str, list[int]] = {}
-    for (deck, top), expected in labels().items():
+    for (deck, top), expected in labels(name).items():
         per.setdefault(deck, [0, 0])[0] += len(expected)
     for deck, _, _, _ in misses:
         per[deck][1] += 1

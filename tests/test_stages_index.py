@@ -14,7 +14,6 @@ from pathlib import Path
 
 import pytest
 
-import lintamp.engine.stages as stages_module
 from lintamp.engine.stages import BJT, MOS, Role, recognise_stages
 from lintamp.api import flat_circuit_from_text
 

@@ -197,6 +197,8 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
         solves = Solves(block.circuit, op)
         try:
             _numbers(data, block, ports, loads, solves, stages, band.freq_hz, netlist, curves, plots)
+            from lintamp.engine.stage_paths import attach_inspection
+            attach_inspection(data["paths"], block.circuit, intent, op)
         except Exception as exc:  # engine trouble on odd input must not lose the rest of the sheet
             from lintamp.engine.small_signal import SmallSignalError
             if not isinstance(exc, (SmallSignalError, ArithmeticError, ValueError, RuntimeError,

@@ -27,7 +27,9 @@ to, so a cell read without a testbench still has ``vdd`` and ``vss`` as rails.
 from __future__ import annotations
 
 import fnmatch
+import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 from lintamp.circuit.flat import FlatCircuit
 
@@ -55,7 +57,7 @@ BIAS_NAMES = ("ibias*", "iref*", "ib", "ib?", "ib_*", "vbias*", "vb", "vb?", "vb
               "vcasc*", "vcas*", "vbcas*", "vbc?", "vbc_*", "iptat*", "ictat*", "*_bias", "vbn*", "vbp*", "nbias*",
               "pbias*")
 LOGIC_NAMES = ("en", "en?", "enb", "en_*", "*_en", "*_enb", "ena", "enable*", "pwrdn*", "pwdn*",
-               "pdn", "pd_b", "pdb", "sel*", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",
+               "pdn", "pd_b", "pdb", "sel*", "*_sel", "*_sel_b", "*_selb", "clk*", "*clk", "clkb", "rst*", "reset*", "latch*",
                "phi?", "phi?b", "sleep*", "stby*", "standby*", "ctrl*")
 SOURCES = ("pragma", "config", "pin direction", "testbench", "name")
 MAX_PREFIXES = 10_000
@@ -158,8 +160,17 @@ def patterns(config, kind: str) -> tuple[str, ...]:
     return tuple(ports.get(kind, DEFAULT_PATTERNS[kind]))
 
 
+@lru_cache(maxsize=256)
+def _any_of(globs: tuple[str, ...]):
+    return re.compile("|".join(f"(?:{fnmatch.translate(g.lower())})" for g in globs) or "(?!)")
+
+
 def matches(name: str, globs) -> str | None:
+    """The first of ``globs`` that ``name`` matches (case-insensitive), or None."""
     low = name.lower()
+    globs = tuple(globs)
+    if not _any_of(globs).match(low):
+        return None
     for g in globs:
         if fnmatch.fnmatchcase(low, g.lower()):
             return g

@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import heapq
 import re
-from dataclasses import dataclass
 
 from lintamp.circuit.flat import FlatCircuit
 from lintamp.engine.stages import Role, Stage
@@ -27,15 +26,6 @@ SOURCE_TO_DRAIN = (Role.COMMON_GATE, Role.COMMON_BASE, Role.CASCODE)
 FOLLOWERS = (Role.SOURCE_FOLLOWER, Role.EMITTER_FOLLOWER)
 ENTRY_WORDS = {"gd": "gate", "gs": "gate", "sd": "source", "ch": "channel", "ctl": "control", "p": "terminal"}
 CHANNEL = (Role.SWITCH, Role.TRANSMISSION_GATE, Role.MOS_RESISTOR)
-
-
-@dataclass
-class StageHop:
-    device: str
-    role: str
-    from_net: int
-    to_net: int
-    form: str  # the gain form in symbols
 
 
 def tag(name: str) -> str:
@@ -52,16 +42,14 @@ def _edges(circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
         if a not in acg and b not in acg and a != b:
             adj.setdefault(a, []).append((b, cost, device, how))
 
-    by_name = {dev.name: dev for dev in circuit.devices}
     for dev in circuit.devices:
         n = dev.nodes
         if dev.kind in TRANSISTORS:
             st = roles.get(dev.name)
             if st is None or (st.units and st.units[0] != dev.name):
                 continue
-            if len(st.units) > 1:  # a composite: its ends are the stack's ends
-                n = _composite_nodes([by_name[u] for u in st.units if u in by_name], n)
             role = st.role
+            n = st.pins or n
             if role in GATE_TO_DRAIN:
                 add(n[1], n[0], 1, dev.name, "gd")
                 if role == Role.CROSS_COUPLED:  # a latch half also takes its source's signal
@@ -80,19 +68,6 @@ def _edges(circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
             add(n[0], n[1], PASSIVE_COST, dev.name, "p")
             add(n[1], n[0], PASSIVE_COST, dev.name, "p")
     return adj
-
-
-def _composite_nodes(units, nodes):
-    """(drain, gate, source) of unit devices taken as one: for a series stack the drain
-    no other unit's source meets and the source no other unit's drain meets; parallel
-    units share all three."""
-    drains = {u.nodes[0] for u in units}
-    sources = {u.nodes[2] for u in units}
-    top = [d for d in drains if d not in sources]
-    bottom = [s for s in sources if s not in drains]
-    if len(top) != 1 or len(bottom) != 1:
-        return nodes
-    return (top[0], nodes[1], bottom[0], *nodes[3:])
 
 
 def _chain(adj, start: int, goal: int):
@@ -123,25 +98,39 @@ def _chain(adj, start: int, goal: int):
 
 
 class _Impedances:
-    """What each net looks like in symbols, by inspection."""
+    """What each net looks like, by inspection: (symbol, ohms or None) terms."""
 
-    def __init__(self, circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int]):
-        self.circuit, self.roles, self.acg = circuit, roles, acg
+    def __init__(self, circuit: FlatCircuit, roles: dict[str, Stage], acg: set[int], op=None):
+        self.circuit, self.roles, self.acg, self.op = circuit, roles, acg, op
         self.on: dict[int, list] = {}
-        self.ends: dict[str, tuple] = {}  # a composite's (drain, gate, source), by its first unit
-        by_name = {dev.name: dev for dev in circuit.devices}
         for dev in circuit.devices:
-            nodes = dev.nodes
-            st = roles.get(dev.name)
-            if dev.kind in TRANSISTORS and st is not None and len(st.units) > 1:
-                if st.units[0] != dev.name:
-                    continue  # a composite counts once, at its ends
-                nodes = _composite_nodes([by_name[u] for u in st.units if u in by_name], nodes)
-                self.ends[dev.name] = nodes
-            for node in set(nodes[:3] if dev.kind in TRANSISTORS else nodes[:2]):
+            st = roles.get(dev.name) if dev.kind in TRANSISTORS else None
+            if st is not None and st.units and st.units[0] != dev.name:
+                continue  # a composite is seen through its first unit, at its own ends
+            nodes = (st.pins if st is not None and st.pins else dev.nodes[:3]) if dev.kind in TRANSISTORS \
+                else dev.nodes[:2]
+            for node in set(nodes):
                 self.on.setdefault(node, []).append(dev)
 
-    def at(self, net: int, skip=()) -> list[str]:
+    def pins(self, dev):
+        st = self.roles.get(dev.name)
+        return st.pins if st is not None and st.pins else dev.nodes[:3]
+
+    def value(self, device: str, key: str) -> float | None:
+        """``gm_s``, ``gmb_s`` or ``ro_ohm`` of a device at the operating point (a
+        composite's units in parallel), or None."""
+        if self.op is None:
+            return None
+        st = self.roles.get(device)
+        names = st.units if st is not None and st.units else [device]
+        got = [self.op.devices[n].values.get(key) if n in self.op.devices else None for n in names]
+        if any(v is None for v in got):
+            return None
+        if key == "ro_ohm":
+            return 1 / sum(1 / v for v in got) if all(v > 0 for v in got) else None
+        return sum(got)
+
+    def at(self, net: int, skip=()) -> list[tuple[str, float | None]]:
         terms = []
         for dev in self.on.get(net, ()):
             if dev.name in skip:
@@ -153,35 +142,46 @@ class _Impedances:
             if st is not None and st.role in CHANNEL + (Role.DUMMY, Role.MOS_CAPACITOR):
                 continue  # off, or in series with a capacitor: no load at the operating point
             if dev.kind in TRANSISTORS:
-                d, g, s = self.ends.get(dev.name, dev.nodes)[:3]
+                d, g, s = self.pins(dev)
+                gm, ro = self.value(dev.name, "gm_s"), self.value(dev.name, "ro_ohm")
                 if d == net and g == net:
-                    terms.append(f"1/g_m{t}")
+                    terms.append((f"1/g_m{t}", 1 / gm if gm else None))
                 elif d == net and st is not None and st.role == Role.CASCODE:
-                    terms.append(f"g_m{t} r_o{t} r_o{tag(st.related[0])}" if st.related else f"g_m{t} r_o{t}²")
+                    below = st.related[0] if st.related else None
+                    ro_b = self.value(below, "ro_ohm") if below else None
+                    sym = f"g_m{t} r_o{t} r_o{tag(below)}" if below else f"g_m{t} r_o{t}²"
+                    terms.append((sym, gm * ro * ro_b if None not in (gm, ro, ro_b) else None))
                 elif d == net:
-                    terms.append(f"r_o{t}")
+                    terms.append((f"r_o{t}", ro))
                 elif s == net and d != net and g != net:
-                    terms.append(f"1/g_m{t}")
+                    terms.append((f"1/g_m{t}", 1 / gm if gm else None))
             elif dev.kind == "resistor":
-                terms.append(f"R_{dev.name.rsplit('/', 1)[-1].removeprefix('r') or dev.name}")
+                terms.append((f"R_{dev.name.rsplit('/', 1)[-1].removeprefix('r') or dev.name}", dev.value))
         return terms
 
 
-def _par(terms: list[str]) -> str:
-    return terms[0] if len(terms) == 1 else "(" + " ∥ ".join(terms) + ")"
+def _par(terms: list[tuple[str, float | None]]) -> tuple[str, float | None]:
+    sym = terms[0][0] if len(terms) == 1 else "(" + " ∥ ".join(t[0] for t in terms) + ")"
+    values = [t[1] for t in terms]
+    if any(v is None for v in values) or not values:
+        return sym, None
+    if any(v == 0 for v in values):
+        return sym, 0.0
+    return sym, 1 / sum(1 / v for v in values)
 
 
 def paths_by_inspection(circuit: FlatCircuit, stages: list[Stage], acg: set[int], inputs, outputs,
-                        limit: int = 24) -> tuple[list[dict], list[str]]:
-    """Rows ``{"from", "to", "chain": [{"device", "role", "from", "to", "form"}],
-    "formula"}`` for each (input, output) pair of flat nets; and notes for the pairs
-    with no chain.  ``inputs``/``outputs``: (name, flat net) pairs."""
+                        limit: int = 24, op=None) -> tuple[list[dict], list[str]]:
+    """Rows ``{"from", "to", "chain": [{"device", "role", "from", "to", "form",
+    "form_value"}], "formula", "formula_value"}`` for each (input, output) pair of flat
+    nets, values from ``op`` when it is given (None where a number is missing); and
+    notes for the pairs with no chain.  ``inputs``/``outputs``: (name, flat net) pairs."""
     roles = {s.device: s for s in stages}
     for s in stages:
         for u in s.units:
             roles.setdefault(u, s)
     adj = _edges(circuit, roles, acg)
-    z = _Impedances(circuit, roles, acg)
+    z = _Impedances(circuit, roles, acg, op)
     rows, notes = [], []
     for in_name, i_in in inputs:
         for out_name, i_out in outputs:
@@ -193,8 +193,13 @@ def paths_by_inspection(circuit: FlatCircuit, stages: list[Stage], acg: set[int]
                              "stages joins them off AC ground")
                 continue
             chain = _forms(circuit, roles, z, hops)
+            product = 1.0
+            for h in chain:
+                if h["form"]:
+                    product = None if product is None or h["form_value"] is None else product * h["form_value"]
             rows.append({"from": in_name, "to": out_name, "chain": chain,
-                         "formula": ", then ".join(h["form"] for h in chain if h["form"])})
+                         "formula": ", then ".join(h["form"] for h in chain if h["form"]),
+                         "formula_value": product if op is not None else None})
     return rows, notes
 
 
@@ -209,28 +214,39 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
         t = tag(device)
         role = str(st.role) if st else dev.kind
         label = st.label if st else device
+        gm, gmb, ro = z.value(device, "gm_s"), z.value(device, "gmb_s") or 0.0, z.value(device, "ro_ohm")
+        value = None
         if how == "gd":
             nxt = hops[k + 1] if k + 1 < len(hops) else None
             partner = st.related[0] if st and st.role == Role.DIFFERENTIAL_PAIR and st.related else None
             pdev = circuit.device(partner) if partner else None
             if nxt and pdev is not None and nxt[3] == "gd" and roles.get(nxt[2]) is not None \
-                    and roles[nxt[2]].role == Role.MIRROR_OUTPUT and nxt[1] == pdev.nodes[0]:
-                terms = [f"r_o{tag(partner)}", f"r_o{tag(nxt[2])}"]
+                    and roles[nxt[2]].role == Role.MIRROR_OUTPUT and nxt[1] == z.pins(pdev)[0]:
+                sym, r = _par([(f"r_o{tag(partner)}", z.value(partner, "ro_ohm")),
+                               (f"r_o{tag(nxt[2])}", z.value(nxt[2], "ro_ohm"))])
                 out.append({"device": label, "role": "differential pair into a mirror load",
-                            "from": names[a], "to": names[nxt[1]],
-                            "form": f"g_m{t} {_par(terms)}", "enters_at": "gate"})
+                            "from": names[a], "to": names[nxt[1]], "form": f"g_m{t} {sym}",
+                            "form_value": gm * r if None not in (gm, r) else None, "enters_at": "gate"})
                 k += 2
                 continue
-            load = [f"r_o{t}"] + z.at(b, skip=(device,))
+            load = [(f"r_o{t}", ro)] + z.at(b, skip=(device,))
             if st and st.role in (Role.COMMON_SOURCE_DEGENERATED, Role.COMMON_EMITTER_DEGENERATED):
-                rs = _par(z.at(dev.nodes[2], skip=(device,)) or ["Z_S"])
-                form = f"g_m{t} {_par(load[1:] or load)}/(1 + g_m{t} {rs})"
+                rd_sym, rd = _par(load[1:] or load)
+                rs_sym, rs = _par(z.at(z.pins(dev)[2], skip=(device,)) or [("Z_S", None)])
+                form = f"g_m{t} {rd_sym}/(1 + g_m{t} {rs_sym})"
+                value = gm * rd / (1 + gm * rs) if None not in (gm, rd, rs) else None
             else:
-                form = f"g_m{t} {_par(load)}"
+                sym, r = _par(load)
+                form = f"g_m{t} {sym}"
+                value = gm * r if None not in (gm, r) else None
         elif how == "gs":
-            form = f"g_m{t} {_par(z.at(b, skip=(device,)) or ['Z_S'])}/(1 + g_m{t} {_par(z.at(b, skip=(device,)) or ['Z_S'])}) ≈ 1"
+            sym, r = _par(z.at(b, skip=(device,)) or [("Z_S", None)])
+            form = f"g_m{t} {sym}/(1 + g_m{t} {sym}) ≈ 1"
+            value = gm * r / (1 + (gm + gmb) * r) if None not in (gm, r) else None
         elif how == "sd":
-            form = f"(g_m{t} + g_mb{t}) {_par([f'r_o{t}'] + z.at(b, skip=(device,)))}"
+            sym, r = _par([(f"r_o{t}", ro)] + z.at(b, skip=(device,)))
+            form = f"(g_m{t} + g_mb{t}) {sym}"
+            value = (gm + gmb) * r if None not in (gm, r) else None
         elif how == "ch":
             form = f"R_on{t} in series"
         elif how == "ctl":
@@ -241,7 +257,7 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
         if dev is not None and dev.kind in ("npn", "pnp"):
             entry = {"gate": "base", "source": "emitter"}.get(entry, entry)
         out.append({"device": label, "role": role, "from": names[a], "to": names[b], "form": form,
-                    "enters_at": entry})
+                    "form_value": value, "enters_at": entry})
         k += 1
     return out
 
@@ -260,16 +276,16 @@ def block_paths(circuit: FlatCircuit, intent, op=None) -> tuple[list[dict], list
         missing = "inputs" if not inputs else "outputs"
         return [], [f"no signal path: no {missing} found (mark them with pragmas, *.PININFO pin "
                     "directions or a testbench source)"]
-    rows, notes = paths_by_inspection(circuit, stages, acg, inputs, outputs)
+    rows, notes = paths_by_inspection(circuit, stages, acg, inputs, outputs, op=op)
     signal = {p.net: p.signal for p in intent.ports}
     for row in rows:  # the shape of a path with numbers, the numbers left out
         kind, unit = GAIN_UNITS[(signal[row["from"]], signal[row["to"]])]
         row.update(kind=kind, gain={"mag": None, "unit": unit, "freq_hz": 0.0}, f3db_hz=None,
-                   poles_hz=None, formula_value=None, interfaces=[], by_inspection=True,
+                   poles_hz=None, interfaces=[], by_inspection=True,
                    notes=["by inspection: no operating point, so the forms are in symbols"])
         for hop in row["chain"]:
-            hop.update(enters_at=hop.pop("enters_at", ""), gain={"mag": None, "unit": "V/V"},
-                       formula=hop.get("form"), formula_value=None)
+            hop.update(gain={"mag": None, "unit": "V/V"}, formula=hop.get("form"),
+                       formula_value=hop.get("form_value"))
     return rows, notes
 
 
@@ -277,3 +293,16 @@ GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
               ("voltage", "voltage"): ("voltage gain", "V/V"),
               ("current", "current"): ("current gain", "A/A"),
               ("voltage", "current"): ("transconductance", "S")}
+
+
+def attach_inspection(path_rows: list[dict], circuit: FlatCircuit, intent, op) -> None:
+    """Give each path row of the sheet (numbers from the MNA solve) its chain of stages by
+    inspection, with the forms' values at the operating point: ``row["by_inspection"]``."""
+    rows, _ = block_paths(circuit, intent, op)
+    by_pair = {(r["from"], r["to"]): r for r in rows}
+    for row in path_rows:
+        got = by_pair.get((row.get("from"), row.get("to")))
+        if got is not None:
+            row["by_inspection"] = {"formula": got["formula"], "value": got["formula_value"],
+                                    "chain": [{k: h[k] for k in ("device", "role", "from", "to", "form",
+                                                                 "form_value")} for h in got["chain"]]}

@@ -37,6 +37,7 @@ from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
 MOS = ("nmos", "pmos")
 BJT = ("npn", "pnp")
+MAX_RELATED = 64  # related devices listed per stage (a shared line may reach thousands)
 
 
 class Role(str, Enum):
@@ -86,6 +87,7 @@ class Stage:
     gm_s: float | None = None
     ro_ohm: float | None = None
     units: list[str] = field(default_factory=list)  # the composite's devices, this one first
+    pins: tuple = ()  # (out, control, common) nets as the stage conducts (a composite's ends)
 
     @property
     def label(self) -> str:
@@ -100,30 +102,44 @@ def _pins(dev: FlatDevice):
     return dev.nodes[0], dev.nodes[1], dev.nodes[2]
 
 
-@dataclass
 class _Unit:
     """One composite: its devices and the pins it shows the circuit."""
 
-    devices: list[FlatDevice]
-    out: int
-    ctl: int
-    com: int
+    __slots__ = ("devices", "out", "ctl", "com", "kind", "name")
 
-    @property
-    def kind(self) -> str:
-        return self.devices[0].kind
-
-    @property
-    def name(self) -> str:
-        return self.devices[0].name
+    def __init__(self, devices: list[FlatDevice], out: int, ctl: int, com: int):
+        self.devices, self.out, self.ctl, self.com = devices, out, ctl, com
+        self.kind = devices[0].kind
+        self.name = devices[0].name
 
 
-def _composites(trans: list[FlatDevice], terminals: Counter) -> list[_Unit]:
+def _oriented(dev: FlatDevice, levels: dict[int, str]):
+    """(drain, gate, source) with a MOS channel read the way it conducts: a schematic
+    export writes a symmetric device's channel pins as drawn, so the source is the pin on
+    its polarity's rail (ground side for NMOS, supply side for PMOS), else the pin the
+    body ties to, and a gate tied to one channel pin marks that pin the drain."""
+    out, ctl, com = _pins(dev)
+    if dev.kind not in MOS or out == com:
+        return out, ctl, com
+    source_level = "low" if dev.kind == "nmos" else "high"
+    body = dev.nodes[3] if len(dev.nodes) > 3 else None
+    if levels.get(out) == source_level and levels.get(com) != source_level:
+        return com, ctl, out
+    if levels.get(com) == source_level or levels.get(out) in ("high", "low"):
+        return out, ctl, com
+    if ctl == com and ctl != out:
+        return com, ctl, out  # a diode drawn with its source on the gate
+    if body is not None and body == out and body != com:
+        return com, ctl, out
+    return out, ctl, com
+
+
+def _composites(trans: list[FlatDevice], terminals: Counter, levels: dict[int, str]) -> list[_Unit]:
     """Parallel devices as one; then series stacks with one gate through a middle net
     that only the two devices touch (a long device drawn as units)."""
     parallel: dict[tuple, _Unit] = {}
     for d in trans:
-        out, ctl, com = _pins(d)
+        out, ctl, com = _oriented(d, levels)
         key = (d.kind, ctl, frozenset((out, com)) if d.kind in MOS else (out, com))
         unit = parallel.get(key)
         if unit is None:
@@ -189,15 +205,19 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
                 caps_to_acg.add(b)
             elif b in acg and a not in acg:
                 caps_to_acg.add(a)
-    units = _composites(trans, terminals)
+    units = _composites(trans, terminals, levels)
     diode_nets = {u.out for u in units if u.out == u.ctl}
     # a mirror reference through its cascode: the gate is the drain of a device that
     # stands on this device's drain (a cascode or wide-swing mirror)
     by_com_out: dict[tuple, list[_Unit]] = {}
     for u in units:
         by_com_out.setdefault((u.com, u.out), []).append(u)
+    def stands(c: _Unit) -> bool:  # a device that conducts: no diode, no dummy
+        return c.out != c.ctl and c.out != c.com and levels.get(c.ctl) != (
+            "low" if c.kind in ("nmos", "npn") else "high")
+
     cascoded_refs = {id(u) for u in units if u.out != u.ctl and u.com in acg
-                     and any(c is not u and c.out != c.ctl for c in by_com_out.get((u.out, u.ctl), ()))}
+                     and any(c is not u and stands(c) for c in by_com_out.get((u.out, u.ctl), ()))}
     diode_nets |= {u.ctl for u in units if id(u) in cascoded_refs}
     cascoded_by_pins: dict[tuple, list[str]] = {}
     for u in units:
@@ -239,10 +259,23 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     for u in units:
         if u.kind in MOS and u.ctl not in acg and u.out not in acg and u.out != u.com:
             by_ctl_out.setdefault((u.ctl, u.out), []).append(u)
-    inverters = {id(u) for group in by_ctl_out.values() if {x.kind for x in group} == set(MOS)
-                 for u in group if u.out != u.ctl}
-    inverter_io = {(u.ctl, u.out) for u in units if id(u) in inverters}
-    latched = {id(u) for u in units if id(u) in inverters and (u.out, u.ctl) in inverter_io}
+    shaped = {id(u) for group in by_ctl_out.values() if {x.kind for x in group} == set(MOS)
+              for u in group if u.out != u.ctl}
+    # an inverter proper has each device's source on its own rail (NMOS low, PMOS high);
+    # a complementary pair of switches on one gate and one drain is no inverter
+    def on_own_rail(u: _Unit) -> bool:
+        return levels.get(u.com) == ("low" if u.kind == "nmos" else "high")
+
+    inverters = set()
+    for group in by_ctl_out.values():
+        members = [u for u in group if id(u) in shaped and on_own_rail(u)]
+        if {u.kind for u in members} == set(MOS):
+            inverters.update(id(u) for u in members)
+    inverter_io = {(u.ctl, u.out) for u in units if id(u) in shaped}
+    drivers_of: Counter = Counter(out for _, out in inverter_io)
+    # two inverter shapes driving each other, each the only one on its output: a latch
+    latched = {id(u) for u in units if id(u) in shaped and (u.out, u.ctl) in inverter_io
+               and drivers_of[u.out] == 1 and drivers_of[u.ctl] == 1}
     inverters -= latched
     for u in units:
         if id(u) in inverters:
@@ -255,6 +288,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     not_diodes: dict[tuple, list[_Unit]] = {}
     by_channel: dict[frozenset, list[_Unit]] = {}
     counts: Counter = Counter()
+    channel_kinds: dict[frozenset, set[str]] = {}
     for u in units:
         fam = u.kind
         by_common.setdefault((fam, u.com), []).append(u)
@@ -262,9 +296,21 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         (diodes if u.out == u.ctl else not_diodes).setdefault((fam, u.ctl, u.com), []).append(u)
         if fam in MOS:
             by_channel.setdefault(frozenset((u.out, u.com)), []).append(u)
+            channel_kinds.setdefault(frozenset((u.out, u.com)), set()).add(fam)
         counts.update((("ctl", fam, u.com, u.ctl), ("out", fam, u.com, u.out),
                        ("both", fam, u.com, u.ctl, u.out)))
     pairs: dict[tuple, list[_Unit]] = {}
+    # a mirror whose devices stand on resistors or ports rather than on one rail (a
+    # degenerated or beta-multiplier mirror): same gate, sources no transistor drives
+    fed = {c.out for c in units if stands(c)}
+    loose_diodes: dict[tuple, list[_Unit]] = {}
+    loose_outputs: dict[tuple, list[_Unit]] = {}
+    for u in units:
+        if u.com not in fed and u.com != u.ctl:
+            (loose_diodes if u.out == u.ctl else loose_outputs).setdefault((u.kind, u.ctl), []).append(u)
+    # two devices on one common net, each gate on the other's drain: positive feedback
+    by_pins = {(u.kind, u.com, u.ctl, u.out): u for u in units if u.out != u.ctl}
+    crossed = {id(u) for u in by_pins.values() if (u.kind, u.com, u.out, u.ctl) in by_pins}
 
     def partners(u: _Unit) -> list[_Unit]:
         """Units on the same common net with another control and another output net."""
@@ -282,6 +328,17 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
     def on_rail(net: int, level: str) -> bool:
         return levels.get(net) == level
 
+    def pair_candidates(u: _Unit) -> list[_Unit]:
+        if u.com in acg or not pair_gate(u.ctl):
+            return []
+        return [o for o in partners(u) if pair_gate(o.ctl) and (u.ctl not in quiet or o.ctl not in quiet)]
+
+    def pair_of(u: _Unit) -> list[_Unit]:
+        """The other half, when the common net holds exactly two halves (a tail with
+        more devices on it is no pair)."""
+        got = pair_candidates(u)
+        return got if len(got) == 1 and len(pair_candidates(got[0])) == 1 else []
+
     def pair_gate(net: int) -> bool:
         """A gate that may carry an input: not a bias line, not a supply or ground (a net
         a testbench holds at the common mode may: the pair is used single-ended)."""
@@ -295,12 +352,17 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         off_level = "low" if on_level == "high" else "high"
         related: list[str] = []
         if out == com:
-            if ctl == out or on_rail(ctl, off_level):
-                role = Role.DUMMY if mos else Role.SHORTED
+            if ctl == out or (mos and on_rail(ctl, off_level)):
+                role = Role.DUMMY  # every pin on one net, or a gate that keeps it off
+            elif not mos:
+                role = Role.SHORTED
             else:
                 role = Role.MOS_CAPACITOR if mos else Role.SHORTED
         elif out == ctl:
-            outs = [o.name for o in not_diodes.get((u.kind, ctl, com), ())]
+            outs = [o.name for o in not_diodes.get((u.kind, ctl, com), ()) if id(o) not in crossed]
+            if not outs and com not in fed:
+                outs = [o.name for o in loose_outputs.get((u.kind, ctl), ()) if o.com != com
+                        and id(o) not in crossed]
             role = Role.MIRROR_REFERENCE if outs else Role.DIODE_LOAD
             related = outs
         elif mos and ctl == com and com in acg:
@@ -309,27 +371,36 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             role = Role.DUMMY  # gate at the rail that keeps it off
         elif id(u) in latched:
             role = Role.CROSS_COUPLED
-            related = [o.name for o in by_ctl_out.get((out, ctl), ()) if id(o) in latched]
+            related = [o.name for o in by_ctl_out.get((out, ctl), ())[:MAX_RELATED] if id(o) in latched]
         elif mos and id(u) in inverters:
             role = Role.INVERTER
-            related = [o.name for o in by_ctl_out[(ctl, out)] if o is not u and id(o) in inverters]
-        elif mos and any(o.kind != u.kind for o in by_channel.get(frozenset((out, com)), ())):
+            related = [o.name for o in by_ctl_out[(ctl, out)][:MAX_RELATED] if o is not u and id(o) in inverters]
+        elif mos and len(channel_kinds.get(frozenset((out, com)), ())) == 2:
             role = Role.TRANSMISSION_GATE
-            related = [o.name for o in by_channel[frozenset((out, com))] if o.kind != u.kind]
+            related = [o.name for o in by_channel[frozenset((out, com))][:MAX_RELATED] if o.kind != u.kind]
         elif mos and ctl in logic:
             role = Role.SWITCH
         elif mos and on_rail(ctl, on_level):
             role = Role.MOS_RESISTOR  # gate on the rail that keeps it on: a triode resistance
         else:
             refs = [o.name for o in diodes.get((u.kind, ctl, com), ())]
-            pair = [] if com in acg or not pair_gate(ctl) else [
-                o for o in partners(u) if pair_gate(o.ctl) and (ctl not in quiet or o.ctl not in quiet)]
-            if id(u) in cascoded_refs:
+            if not refs and com not in fed and com not in acg:
+                refs = [o.name for o in loose_diodes.get((u.kind, ctl), ()) if o.com != com]
+            pair = pair_of(u)
+            if id(u) in crossed:
+                role = Role.CROSS_COUPLED
+                related = [by_pins[(u.kind, com, out, ctl)].name]
+            elif id(u) in cascoded_refs:
                 role = Role.MIRROR_REFERENCE
                 related = [o.name for o in not_diodes.get((u.kind, ctl, com), ()) if o is not u]
             elif refs or (u.kind, ctl, com) in cascoded_by_pins:
                 role = Role.MIRROR_OUTPUT
                 related = refs or cascoded_by_pins[(u.kind, ctl, com)]
+            elif pair and any(by_com_out.get((o.out, ctl)) and by_com_out.get((out, o.ctl)) for o in pair):
+                # each gate driven from the other half's drain through a device stacked on
+                # it: positive feedback, a latch's lower pair
+                role = Role.CROSS_COUPLED
+                related = [o.name for o in pair if by_com_out.get((o.out, ctl))]
             elif pair:
                 role, related = Role.DIFFERENTIAL_PAIR, [o.name for o in pair]
             elif ctl in quiet and com in acg:
@@ -345,10 +416,7 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
             elif out in acg and com not in acg:
                 role = Role.SOURCE_FOLLOWER if mos else Role.EMITTER_FOLLOWER
             else:
-                cross = [o for o in by_common.get((u.kind, com), ()) if o.ctl == out and o.out == ctl]
-                if cross:
-                    role, related = Role.CROSS_COUPLED, [o.name for o in cross]
-                elif com in acg or com in bypassed:
+                if com in acg or com in bypassed:
                     role = Role.COMMON_SOURCE if mos else Role.COMMON_EMITTER
                 else:
                     role = Role.COMMON_SOURCE_DEGENERATED if mos else Role.COMMON_EMITTER_DEGENERATED
@@ -360,7 +428,8 @@ def recognise_stages(circuit: FlatCircuit, op: OperatingPoint | None = None, rai
         u = unit_of[id(d)]
         role, related = roles[id(u)]
         names = [x.name for x in sorted(u.devices, key=lambda x: position[id(x)])]
-        st = Stage(d.name, role, list(related), units=names if len(names) > 1 else [])
+        st = Stage(d.name, role, list(related), units=names if len(names) > 1 else [],
+                   pins=(u.out, u.ctl, u.com))
         if op is not None and d.name in op.devices:
             dop = op.devices[d.name]
             st.region = dop.region

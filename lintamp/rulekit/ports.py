@@ -64,6 +64,7 @@ class PortFinder:
         self.circuit = circuit
         self.ac_ground = ac_ground
         self.intent = intent_analysis(ctx, circuit)
+        self.op = op
         self.prefixes = instance_prefixes(self.design)
         self.aliases = net_aliases(circuit)
         self.on_net: dict[int, list[FlatDevice]] = {}
@@ -255,25 +256,31 @@ class PortFinder:
         for an output), in words for a finding's reasoning; None without one."""
         from lintamp.engine.stage_paths import paths_by_inspection
 
-        ports = {}
+        ports: dict[tuple, tuple[str, str]] = {}
         for _, _, p in self.declared():
             idx = self.circuit.find_net(p.circuit_net)
             if idx is not None and idx != net:
-                ports.setdefault((p.is_input, idx), p.circuit_net)
+                ports.setdefault((p.is_input, idx), (p.circuit_net, p.kind))
         here = [(self.circuit.nets[net], net)]
-        ends = [(name, idx) for (is_input, idx), name in ports.items() if is_input == toward_output]
+        ends = [(name, idx) for (is_input, idx), (name, _) in ports.items() if is_input == toward_output]
         if not ends:
             return None
         inputs, outputs = (ends, here) if toward_output else (here, ends)
         acg = self.intent.acg | set(self.intent.rails())  # a signal source is no AC ground here
         rows, _ = paths_by_inspection(self.circuit, list(self.roles.values()), acg, inputs[:4], outputs[:4],
-                                      limit=1)
+                                      limit=1, op=self.op)
         if not rows:
             return None
         row = rows[0]
+        kinds = {name: kind for name, kind in ports.values()}
+        current_in = kinds.get(row["from"], "current-input" if not toward_output else "") == "current-input"
         steps = " → ".join(f"{h['device']} ({h['role']}) → {h['to']}" for h in row["chain"])
-        return f"signal path: {row['from']} → {steps}" + (f"; by inspection {row['formula']}"
-                                                            if row["formula"] else "")
+        value = row.get("formula_value")
+        if not row["formula"]:
+            return f"signal path: {row['from']} → {steps}"
+        unit = "" if current_in else " V/V"  # a current input's first form is no voltage gain
+        shown = f" ≈ {value:.4g}{unit}" if value is not None and not current_in else ""
+        return f"signal path: {row['from']} → {steps}; by inspection {row['formula']}{shown}"
 
     def coupled_loads(self) -> list[tuple[int, FlatDevice]]:
         """(drain or collector net, capacitor) where a capacitor couples a transistor's
