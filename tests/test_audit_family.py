@@ -164,3 +164,37 @@ def test_internal_error_is_exit_2_with_one_line(monkeypatch, tmp_path):
     with redirect_stdout(io.StringIO()), redirect_stderr(err):
         code = main(["impedance", str(path), "out"])
     assert code == 2 and len(err.getvalue().strip().splitlines()) == 1 and str(path) in err.getvalue()
+
+
+def test_unevaluated_pdk_devices_print_a_dash_with_the_reason(tmp_path):
+    # a PDK-wrapped transistor whose model library is absent: SPICE defaults would give
+    # numbers that are not the designer's (DESIGN.md "Numbers, when they can be had")
+    deck = tmp_path / "pdk.sp"
+    deck.write_text("* CS with a PDK device whose library is absent\nvdd vdd 0 1.8\n"
+                    "vin g 0 dc 0.8 ac 1\nxm1 out g 0 0 sky130_fd_pr__nfet_01v8 w=1 l=0.15\n"
+                    "rd vdd out 10k\n.end\n")
+    code, text, stderr = _render(deck, "text")
+    assert code in (0, 1), stderr
+    assert "level-1" not in text.splitlines()[1]  # the header names no model it did not use
+    assert "fS" not in text and "e+8" not in text
+    row = next(line for line in text.splitlines() if line.strip().startswith("xm1"))
+    assert "g_m —" in row and "r_o —" in row
+    assert "not evaluated: nmos (PDK subcircuit sky130_fd_pr__nfet_01v8" in text
+    data = json.loads(_render(deck, "json")[1])
+    assert data["operating_point"] == "assumed"
+    assert data["stages"][0]["gm_s"] is None and data["stages"][0]["unevaluated"]
+
+
+def test_buffer_output_is_no_high_class_without_numbers(tmp_path):
+    # BSIM-class models: no numbers; the buffer's output drives its own input gate, so
+    # by inspection its class is unknown, not "high" (it is ohms with the loop closed)
+    text = (ref.FAMILY_DIR / "miller_unity_buffer.sp").read_text()
+    text = text.replace("level=1 vto=0.5 kp=200u lambda=0.05 gamma=0.4 phi=0.7", "level=54") \
+        .replace("level=1 vto=-0.5 kp=80u lambda=0.05 gamma=0.4 phi=0.7", "level=54")
+    deck = tmp_path / "buffer_bsim.sp"
+    deck.write_text(text)
+    from lintamp.cli import main
+    out = io.StringIO()
+    with redirect_stdout(out), redirect_stderr(io.StringIO()):
+        assert main(["impedance", str(deck), "out", "--format", "json"]) == 0
+    assert json.loads(out.getvalue())["class"] == "unknown"
