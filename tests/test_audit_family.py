@@ -198,3 +198,109 @@ def test_buffer_output_is_no_high_class_without_numbers(tmp_path):
     with redirect_stdout(out), redirect_stderr(io.StringIO()):
         assert main(["impedance", str(deck), "out", "--format", "json"]) == 0
     assert json.loads(out.getvalue())["class"] == "unknown"
+
+
+# ------------------------------------------------------------------ textbook lines, by hand
+def _sheet(name):
+    from lintamp.audit.sheet import build_sheet
+    from lintamp.config import Config
+    path = ref.FAMILY_DIR / f"{name}.sp"
+    return path.read_text(), build_sheet(path, config=Config(root=path.parent), plots=False).data
+
+
+def _par(*r):
+    return 1 / sum(1 / x for x in r)
+
+
+def test_bjt_emitter_input_exact_form():
+    # Gray & Meyer, Analysis and Design of Analog ICs, 5th ed., sec. 3.3.5 (common base),
+    # hybrid-pi with r_o: R_in = (r_o + R_C)/(1 + g_m r_o) || r_pi; ngspice-39 op values
+    deck, data = _sheet("bjt_cb_current_input")
+    op = ng.operating_point(deck, (), [("q1", p) for p in ("gm", "gpi", "go")])
+    gm, rpi, ro = op["@q1[gm]"], 1 / op["@q1[gpi]"], 1 / op["@q1[go]"]
+    port = next(p for p in data["ports"] if p["net"] == "e")
+    assert port["formula"] == "(r_o + R_C)/(1 + g_m r_o) || r_pi"
+    branch = _par((ro + 3e3) / (1 + gm * ro), rpi)
+    assert port["formula_ohm"] == pytest.approx(branch, rel=0.002)
+    z_ng = abs(ng.impedance(ref.ac_off(ref.detached_for_ac(deck, ["iin"])), "e", (1.0,))[0])
+    assert _par(branch, 10e3) == pytest.approx(z_ng, rel=0.002)  # ngspice-39 AC
+
+
+def test_common_base_transimpedance_has_alpha():
+    # Sedra & Smith, Microelectronic Circuits, 7th ed., sec. 7.6 (CB): i_c = alpha i_e, so
+    # Z_t = alpha R_C R_src/(R_src + R_in); ngspice-39 AC transimpedance
+    deck, data = _sheet("bjt_cb_current_input")
+    hop = data["paths"][0]["chain"][0]
+    assert hop["formula"].startswith("alpha R_C R_src/(R_src + R_in)")
+    alpha = hop["terms"]["alpha"]
+    op = ng.operating_point(deck, (), [("q1", p) for p in ("gm", "gpi")])
+    beta = op["@q1[gm]"] / op["@q1[gpi]"]
+    assert alpha == pytest.approx(beta / (beta + 1), rel=0.02)  # alpha, up to r_o's share
+    zt = abs(ng.run_deck(deck, ["ac lin 1 1 1", "let zt = vm(out)", "print zt"])["zt"])
+    assert hop["formula_value"] == pytest.approx(zt, rel=0.002)
+
+
+def test_shunt_feedback_tia_transimpedance():
+    # Razavi, Design of Integrated Circuits for Optical Communications, 2nd ed., sec. 4.3:
+    # Z_T = -(g_m R_F - 1) R_D'/(1 + g_m R_D'), R_D' = R_D || r_o; ngspice-39 op and AC
+    deck, data = _sheet("tia_shunt_feedback")
+    op = ng.operating_point(deck, (), [("m1", "gm"), ("m1", "gds")])
+    gm, ro = op["@m1[gm]"], 1 / op["@m1[gds]"]
+    rdp = _par(10e3, ro)
+    expected = -(gm * 20e3 - 1) * rdp / (1 + gm * rdp)
+    hop = data["paths"][0]["chain"][0]
+    assert hop["formula"].startswith("-(g_m R_F - 1) R_D'/(1 + g_m R_D')")
+    assert hop["formula_value"] == pytest.approx(expected, rel=0.002)
+    zt = ng.run_deck(deck, ["ac lin 1 1 1", "let zt = vr(out)", "print zt"])["zt"]
+    assert expected == pytest.approx(zt, rel=0.002)
+
+
+def test_mirror_loaded_pair_gain():
+    # Razavi, Design of Analog CMOS ICs, 2nd ed., sec. 5.3.3: |A_v| = g_m1 (r_o2 || r_o4)
+    deck, data = _sheet("diff_pair_mirror_load")
+    op = ng.operating_point(deck, (), [("m1", "gm"), ("m2", "gds"), ("m4", "gds")])
+    expected = op["@m1[gm]"] / (op["@m2[gds]"] + op["@m4[gds]"])
+    path = data["paths"][0]
+    pair = next(h for h in path["chain"] if h.get("spans"))
+    assert pair["formula"].startswith("g_m1 (r_o2 || r_o4)")
+    assert pair["formula_value"] == pytest.approx(expected, rel=0.002)
+    av = ng.run_deck(deck, ["ac lin 1 1 1", "let av = vr(out)/vr(ga)", "print av"])["av"]
+    assert expected == pytest.approx(av, rel=0.02)  # the textbook form, within 2 % of ngspice-39
+
+
+def test_body_tied_to_source_has_no_body_effect_in_the_chain():
+    # Razavi sec. 3.3.3 with v_bs = 0: A_v = -g_m r_o R_D/(R_D + R_S + r_o + g_m r_o R_S)
+    deck, data = _sheet("cs_degenerated_body_source")
+    op = ng.operating_point(deck, (), [("m1", "gm"), ("m1", "gds"), ("m1", "gmbs")])
+    gm, ro, gmb = op["@m1[gm]"], 1 / op["@m1[gds]"], op["@m1[gmbs]"]
+    assert gmb > 0.1 * gm  # ngspice still reports a g_mb; it has no v_bs to act on
+    hop = next(h for h in data["paths"][0]["chain"] if h["device"] == "m1")
+    assert hop["terms"]["g_mb_s"] == 0.0
+    expected = -gm * ro * 6e3 / (6e3 + 2e3 + ro + gm * ro * 2e3)
+    assert hop["formula_value"] == pytest.approx(expected, rel=0.002)
+    av = ng.run_deck(deck, ["ac lin 1 10k 10k", "let av = vr(out)/vr(g)", "print av"])["av"]
+    assert expected == pytest.approx(av, rel=0.002)
+
+
+def test_cascode_output_short_form_keeps_g_mb():
+    # Razavi sec. 3.6.1: R_out ~ (g_m2 + g_mb2) r_o2 r_o1
+    deck, data = _sheet("cascode_current_source")
+    op = ng.operating_point(deck, (), [("m1", "gds"), ("m2", "gm"), ("m2", "gmbs"), ("m2", "gds")])
+    approx = (op["@m2[gm]"] + op["@m2[gmbs]"]) / (op["@m2[gds]"] * op["@m1[gds]"])
+    port = next(p for p in data["ports"] if p["net"] == "out")
+    assert port["approx"] == "(g_m+g_mb) r_o R_S"
+    assert port["approx_ohm"] == pytest.approx(approx, rel=0.002)
+    z_ng = abs(ng.impedance(ref.ac_off(ref.detached_for_ac(deck, ["rload"])), "out", (1.0,))[0])
+    assert approx == pytest.approx(z_ng, rel=0.02)
+
+
+def test_cg_input_with_a_current_source_load_shows_the_load():
+    # Razavi sec. 3.5: R_in = (R_D + r_o)/(1 + (g_m+g_mb) r_o); with a current-source drain
+    # load R_D ~ r_o, so 1/(g_m+g_mb) would be far off: the short form keeps the load
+    deck, data = _sheet("cg_current_source_load")
+    port = next(p for p in data["ports"] if p["net"] == "s")
+    assert port.get("approx") != "1/(g_m+g_mb)"
+    op = ng.operating_point(deck, (), [("m1", "gm"), ("m1", "gmbs"), ("m1", "gds")])
+    gm, gmb, ro = op["@m1[gm]"], op["@m1[gmbs]"], 1 / op["@m1[gds]"]
+    assert abs(1 / (gm + gmb) - port["branch_ohm"]) / port["branch_ohm"] > 0.1  # the wrong form's error
+    assert port["formula_ohm"] == pytest.approx(port["branch_ohm"], rel=0.002)
