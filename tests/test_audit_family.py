@@ -138,7 +138,6 @@ def test_nan_never_reaches_the_sheet():
     assert clean == {"gm_s": None, "gm_s_why": "not a number (the models gave no value here)",
                      "rows": [{"z_ohm": None, "z_ohm_why": "infinite (an open, or a value without bound)"}]}
     assert [n["where"] for n in notes] == ["gm_s", "rows[0].z_ohm"]
-    from lintamp.audit.render_text import render_text
     path = ref.FAMILY_DIR / "pmos_body_forward.sp"
     code, stdout, stderr = _render(path, "text")
     assert code in (0, 1) and "Traceback" not in stderr
