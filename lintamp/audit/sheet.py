@@ -20,6 +20,17 @@ Shape (INTERFACE.md, ``lintamp audit --format json``, with additions)::
      "summary": {"errors", "warnings", "infos", "waived"}, "plots": {...}}
 
 An open impedance is ``null`` (``"open": true`` beside it in ``z_ohm``).
+
+Every textbook form carries its error against the exact number it explains:
+``formula_error_pct`` and ``formula_exact`` (within 2 %) on a port's main branch, a
+chain row and a path (whose ``formula`` is the product of its rows' forms, a passive
+element's MNA ratio included); ``port_formula`` / ``port_formula_ohm`` (the parallel of
+the port's branches) and ``port_approx`` with ``port_formula_error_pct`` /
+``port_approx_error_pct``.  A short "~" form more than 10 % off is not given.  A chain
+row without a form says why in ``formula_none``; a row whose form spans the next rows (a
+mirror-loaded pair) lists them in ``spans``.  A stage lintamp did not evaluate has
+``gm_s``/``ro_ohm`` null and ``unevaluated`` (why).  In the JSON the command writes, an
+infinite or NaN number is ``null`` with ``<key>_why`` beside it and a ``non_finite`` list.
 """
 
 from __future__ import annotations
