@@ -223,16 +223,22 @@ def _circuit(data: dict, local: str) -> str:
 
 
 def table(results) -> str:
-    lines = ["| deck | worst gain/Z: lintamp vs ngspice-39 | error % | forms within 2 % / marked | OP max dev (mV) | OP method |",
-             "|---|---|---|---|---|---|"]
+    lines = ["| deck | path gain in the band: lintamp / ngspice-39 | error % | worst of all gain/Z checks | checks | "
+             "forms exact / marked approx. | OP max dev (mV) | OP method |",
+             "|---|---|---|---|---|---|---|---|"]
     for r in results:
+        gains = [c for c in r.checks if c[0].split(" ")[0] in ("voltage", "transimpedance", "current",
+                                                               "transconductance") and "Hz" in c[0]]
+        head = gains[-1] if gains else None
+        shown = "—" if head is None else f"{head[0].split(' at ')[0]}: {head[1]:.5g} / {head[2]:.5g}"
+        herr = "—" if head is None else f"{100 * head[3]:.4f}"
         worst = max(r.checks, key=lambda c: c[3], default=None)
-        shown = "—" if worst is None else f"{worst[0]}: {worst[1]:.5g} vs {worst[2] if isinstance(worst[2], float) else abs(worst[2]):.5g}"
+        wtxt = "—" if worst is None else f"{100 * worst[3]:.4f} % ({worst[0]})"
         exact = sum(1 for f in r.forms if f[3] <= 0.02)
         marked = sum(1 for f in r.forms if f[3] > 0.02)
-        op = "ngspice: no OP" if not r.ngspice_solves else f"{r.op_max_dev_mv:.2e}"
-        err = "—" if worst is None else f"{100 * worst[3]:.3f}"
-        lines.append(f"| {r.deck} | {shown} | {err} | {exact} / {marked} | {op} | {r.op_method} |")
+        op = "ngspice: no OP" if not r.ngspice_solves else f"{r.op_max_dev_mv:.1e}"
+        lines.append(f"| {r.deck} | {shown} | {herr} | {wtxt} | {len(r.checks)} | {exact} / {marked} | {op} | "
+                     f"{r.op_method} |")
     return "\n".join(lines)
 
 

@@ -20,6 +20,17 @@ Shape (INTERFACE.md, ``lintamp audit --format json``, with additions)::
      "summary": {"errors", "warnings", "infos", "waived"}, "plots": {...}}
 
 An open impedance is ``null`` (``"open": true`` beside it in ``z_ohm``).
+
+Every textbook form carries its error against the exact number it explains:
+``formula_error_pct`` and ``formula_exact`` (within 2 %) on a port's main branch, a
+chain row and a path (whose ``formula`` is the product of its rows' forms, a passive
+element's MNA ratio included); ``port_formula`` / ``port_formula_ohm`` (the parallel of
+the port's branches) and ``port_approx`` with ``port_formula_error_pct`` /
+``port_approx_error_pct``.  A short "~" form more than 10 % off is not given.  A chain
+row without a form says why in ``formula_none``; a row whose form spans the next rows (a
+mirror-loaded pair) lists them in ``spans``.  A stage lintamp did not evaluate has
+``gm_s``/``ro_ohm`` null and ``unevaluated`` (why).  In the JSON the command writes, an
+infinite or NaN number is ``null`` with ``<key>_why`` beside it and a ``non_finite`` list.
 """
 
 from __future__ import annotations
@@ -82,6 +93,29 @@ class _Block:
     prefix: str
     instance: str | None
     candidates: list[str]
+
+
+@dataclass
+class _Audit:
+    """What every port, path and stage row of one sheet reads, made once per sheet (instead
+    of ten parameters handed from function to function)."""
+
+    block: _Block
+    solves: Solves
+    loads: list[str]
+    stage_rows: dict[str, dict]  # flat device name -> its stage row
+    band_hz: float | None
+    netlist: object
+    curves: list[Curve]
+    plots: bool
+    freqs: np.ndarray | None = None
+
+    @property
+    def circuit(self):
+        return self.block.circuit
+
+    def local(self, name: str) -> str:
+        return _local(self.block, name)
 
 
 # ------------------------------------------------------------------ loading
@@ -196,7 +230,9 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     else:
         solves = Solves(block.circuit, op)
         try:
-            _numbers(data, block, ports, loads, solves, stages, band.freq_hz, netlist, curves, plots)
+            run = _Audit(block, solves, loads, {s["circuit_device"]: s for s in stages}, band.freq_hz,
+                         netlist, curves, plots)
+            _numbers(data, run, ports)
             from lintamp.engine.stage_paths import attach_inspection
             attach_inspection(data["paths"], block.circuit, intent, op)
         except Exception as exc:  # engine trouble on odd input must not lose the rest of the sheet
@@ -301,14 +337,15 @@ def _stage_label(stage_rows: dict, device: str | None) -> str | None:
     return f"{row['role']} ({row['device']})" if row else device
 
 
-def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves, plots):
+def _numbers(data, run: _Audit, ports):
     from lintamp.engine.looking_into import explain_node
 
+    block, solves, stage_rows, band_hz, curves, plots = (run.block, run.solves, run.stage_rows, run.band_hz,
+                                                         run.curves, run.plots)
     circuit = block.circuit
-    stage_rows = {s["circuit_device"]: s for s in stages}
-    detach_of = {p.net: (_input_detach(circuit, p) if p.is_input else list(loads)) for p in ports}
-    span = _plot_span(netlist, band_hz)
-    freqs = log_grid(span[0], span[1], PLOT_POINTS_PER_DECADE) if plots else None
+    detach_of = {p.net: (_input_detach(circuit, p) if p.is_input else list(run.loads)) for p in ports}
+    span = _plot_span(run.netlist, band_hz)
+    freqs = run.freqs = log_grid(span[0], span[1], PLOT_POINTS_PER_DECADE) if plots else None
     port_rows = []
     for port in ports:
         detach = detach_of[port.net]
@@ -375,8 +412,7 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
             if len(data["paths"]) >= MAX_PATHS:
                 data["notes"].append(f"only the first {MAX_PATHS} input/output pairs are shown")
                 return
-            data["paths"].append(_path(block, pin, pout, detach_of[pin.net], loads, solves, stage_rows,
-                                       band_hz, freqs, curves, plots))
+            data["paths"].append(_path(run, pin, pout, detach_of[pin.net]))
 
 
 def _z_or_open(solves, net, f, detach):
@@ -417,10 +453,11 @@ def _path_probe(solves, pin: Port, pout: Port, detach, out_current: bool):
     return probe
 
 
-def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, curves, plots) -> dict:
+def _path(run: _Audit, pin: Port, pout: Port, detach) -> dict:
     from lintamp.engine.looking_into import ac_ground_nets
 
-    circuit = block.circuit
+    solves, band_hz, freqs, curves, plots = run.solves, run.band_hz, run.freqs, run.curves, run.plots
+    circuit = run.circuit
     kind, unit = GAIN_UNITS[(pin.signal, pout.signal)]
     out_current = pout.signal == "current"
     probe = _path_probe(solves, pin, pout, tuple(detach), out_current)
@@ -467,7 +504,7 @@ def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, c
         row["notes"].append(f"no signal chain from {pin.net} to {pout.net} through the elements "
                             "(the gain above is whatever the MNA solve finds)")
     else:
-        _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz)
+        _chain(run, row, hops, pin, pout, detach)
     if plots:
         values = sweep(probe, freqs)
         curves.append(Curve(f"{kind} {pin.net} → {pout.net}", "gain", unit, freqs, values,
@@ -508,124 +545,169 @@ def form_error_pct(value, exact) -> float | None:
     return 100.0 * abs(value - exact) / abs(exact)
 
 
-def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz):
+@dataclass
+class StageGain:
+    """One row of a path's chain: the element the signal crosses, its gain (MNA) and the
+    textbook form that explains it, with that form's error against the gain."""
+
+    device: str
+    role: str
+    from_net: str
+    to_net: str
+    enters_at: str
+    gain: dict
+    formula: str | None = None
+    formula_value: float | None = None
+    formula_phase_deg: float | None = None
+    formula_error_pct: float | None = None
+    formula_exact: bool | None = None
+    formula_none: str | None = None  # why there is no form
+    terms: dict | None = None
+    spans: list[str] | None = None  # a form over several rows (the mirror-loaded pair)
+    spans_to: str | None = None
+    span_gain: dict | None = None
+    in_loop_through: str | None = None
+
+    def set_form(self, text: str, value, exact) -> None:
+        self.formula, self.formula_value = text, _signed_real(value)
+        if isinstance(value, complex) and abs(value.imag) > 1e-9 * abs(value):
+            self.formula_phase_deg = math.degrees(cmath.phase(value))
+        self.formula_error_pct = form_error_pct(value, exact)
+        self.formula_exact = self.formula_error_pct is not None and self.formula_error_pct <= FORM_EXACT_PCT
+
+    def drop_form(self, why: str) -> None:
+        self.formula = self.formula_value = self.formula_phase_deg = None
+        self.formula_error_pct = self.formula_exact = self.terms = None
+        self.formula_none = why
+
+    def to_json(self) -> dict:
+        out = {"device": self.device, "role": self.role, "from": self.from_net, "to": self.to_net,
+               "enters_at": self.enters_at, "gain": self.gain}
+        for key in ("formula", "formula_value", "formula_phase_deg", "formula_error_pct", "formula_exact",
+                    "formula_none", "terms", "spans", "spans_to", "span_gain", "in_loop_through"):
+            value = getattr(self, key)
+            if value is not None:
+                out[key] = value
+        return out
+
+
+class _ChainReading:
+    """The small-signal solve a chain is read from: node phasors at one frequency."""
+
+    def __init__(self, run: _Audit, row: dict, pin: Port, detach):
+        self.run = run
+        self.base = tuple(detach)
+        # a voltage input is an ideal voltage source (an AC short) for every impedance the
+        # chain reads; a current input is an ideal current source (open): detached
+        self.seen = () if pin.signal == "voltage" else self.base
+        self.current_in = pin.signal == "current"
+        # read at DC, or in the band where a coupling capacitor blocks DC (the DC gain is
+        # below the band's by more than 3 dB); the forms take impedances there
+        band = run.band_hz
+        self.f_hz = float(band) if band and row.get("gain_band") and \
+            row["gain"]["mag"] < row["gain_band"]["mag"] / math.sqrt(2) else 0.0
+        self.solver = run.solves.solver(self.f_hz, self.base, driven=None if self.current_in else pin.circuit_net)
+        self.x = self.solver.solve_injection(pin.circuit_net) if self.current_in else None
+        self._v: dict[int, complex] = {}
+
+    def v(self, net_idx: int) -> complex:
+        if net_idx not in self._v:
+            net = self.run.circuit.nets[net_idx]
+            self._v[net_idx] = self.solver.voltage(self.x, net) if self.x is not None else self.solver.gain_to(net)
+        return self._v[net_idx]
+
+    def ratio(self, hops, first: int, last: int) -> complex:
+        """v(to of hop ``last``) over v(from of hop ``first``) (per ampere from a current input)."""
+        den = 1.0 if (first == 0 and self.current_in) else self.v(hops[first].from_net)
+        return self.v(hops[last].to_net) / den if abs(den) > 0 else 0j
+
+    def z_near(self, net_idx: int, gone=()) -> complex | float:
+        return _z_near(self.run.solves, net_idx, self.run.circuit.nets, self.seen + tuple(gone), self.f_hz)
+
+
+def _stage_gain(run: _Audit, reading: _ChainReading, hops, k: int):
+    """The chain row of hop ``k`` and its factor in the path's product: (text, value), or
+    None when the stage has no form."""
+    hop = hops[k]
+    circuit = run.circuit
+    dev = circuit.device(hop.device)
+    first_current = k == 0 and reading.current_in
+    gain = reading.ratio(hops, k, k)
+    stage = StageGain(run.local(hop.device), run.stage_rows.get(hop.device, {}).get("role", dev.kind),
+                      run.local(circuit.nets[hop.from_net]), run.local(circuit.nets[hop.to_net]), hop.entry_word,
+                      {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
+                       "sign": 1 if gain.real >= 0 else -1, "freq_hz": reading.f_hz})
+    op = run.solves.op
+    dop = op.devices.get(hop.device) if op is not None else None
+    active = hop.kind in ("nmos", "pmos", "npn", "pnp")
+    if not active:
+        # a passive element on the way (source resistance, coupling capacitor, divider):
+        # its share is the MNA ratio of the two nets, shown as such
+        return stage, (f"v({stage.to_net})/v({stage.from_net}) across {stage.device} (MNA)", gain)
+    if dop is None:
+        return stage, None
+    near = {"out": reading.z_near(dev.nodes[0], (hop.device,)),
+            "common": reading.z_near(dev.nodes[2], (hop.device,))}
+    if dev.kind in ("npn", "pnp"):
+        near["control"] = reading.z_near(dev.nodes[1], (hop.device,))
+    if first_current:
+        near["source"] = reading.z_near(hop.from_net, (hop.device,))
+        if hop.entry in ("g", "b") and hop.exit in ("d", "c"):
+            near.update(_feedback_resistor(circuit, run.solves, dev, circuit.nets, reading.seen, reading.f_hz))
+    body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
+    form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
+    if form is None:
+        return stage, None
+    text, value, terms = form
+    if value is not None and hop.exit in ("d", "c") and hop.entry in ("s", "e") \
+            and dev.nodes[1] != 0 and abs(reading.v(dev.nodes[1])) > 1e-3 * abs(reading.v(hop.from_net)):
+        stage.drop_form("its gate/base carries signal too (not a common-gate/base stage)")
+        return stage, None
+    stage.set_form(text, value, gain)
+    stage.terms = forms.clean_terms(terms)
+    return stage, ((text, value) if value is not None else None)
+
+
+def _chain(run: _Audit, row: dict, hops, pin: Port, pout: Port, detach):
+    block, loads, solves, band_hz = run.block, run.loads, run.solves, run.band_hz
     circuit = block.circuit
     base = tuple(detach)
-    # a voltage input is an ideal voltage source (an AC short) for every impedance the
-    # chain reads; a current input is an ideal current source (open): detached
-    seen = () if pin.signal == "voltage" else base
     name = circuit.nets
-    # the stage gains and their forms are read at DC, or in the band where a coupling capacitor
-    # blocks DC (the DC gain is below the band's by more than 3 dB); the forms take impedances there
-    f_hz = float(band_hz) if band_hz and row.get("gain_band") and \
-        row["gain"]["mag"] < row["gain_band"]["mag"] / math.sqrt(2) else 0.0
-    row["chain_freq_hz"] = f_hz
-    s_at = solves.solver(f_hz, base, driven=None if pin.signal == "current" else pin.circuit_net)
-    x = s_at.solve_injection(pin.circuit_net) if pin.signal == "current" else None
-    values_at = {}
-
-    def v(net_idx: int) -> complex:
-        if net_idx not in values_at:
-            net = name[net_idx]
-            values_at[net_idx] = s_at.voltage(x, net) if x is not None else s_at.gain_to(net)
-        return values_at[net_idx]
-
-    factors: list = []  # per hop: (text, value), "passive", or None (no form)
-    for k, hop in enumerate(hops):
-        dev = circuit.device(hop.device)
-        first_current = k == 0 and pin.signal == "current"
-        denom = 1.0 if first_current else v(hop.from_net)
-        gain = v(hop.to_net) / denom if abs(denom) > 0 else 0j
-        entry = {"device": _local(block, hop.device), "role": stage_rows.get(hop.device, {}).get("role", dev.kind),
-                 "from": _local(block, name[hop.from_net]), "to": _local(block, name[hop.to_net]),
-                 "enters_at": hop.entry_word,
-                 "gain": {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
-                          "sign": 1 if gain.real >= 0 else -1, "freq_hz": f_hz}}
-        dop = solves.op.devices.get(hop.device) if solves.op is not None else None
-        form = None
-        if dop is not None and hop.kind in ("nmos", "pmos", "npn", "pnp"):
-            out_pin, com_pin = (0, 2)
-            near = {"out": _z_near(solves, dev.nodes[out_pin], name, seen + (hop.device,), f_hz),
-                    "common": _z_near(solves, dev.nodes[com_pin], name, seen + (hop.device,), f_hz)}
-            if dev.kind in ("npn", "pnp"):
-                near["control"] = _z_near(solves, dev.nodes[1], name, seen + (hop.device,), f_hz)
-            if first_current:
-                near["source"] = _z_near(solves, hop.from_net, name, seen + (hop.device,), f_hz)
-                if hop.entry in ("g", "b") and hop.exit in ("d", "c"):
-                    near.update(_feedback_resistor(circuit, solves, dev, name, seen, f_hz))
-            body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
-            form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
-        if form is not None and form[1] is not None and hop.exit in ("d", "c") and hop.entry in ("s", "e") \
-                and dev.nodes[1] != 0 and abs(v(dev.nodes[1])) > 1e-3 * abs(v(hop.from_net)):
-            form = None  # the gate/base carries signal too: not a common-gate stage
-            entry["formula_none"] = "its gate/base carries signal too (not a common-gate/base stage)"
-        if form is not None:
-            entry["formula"], value, terms = form
-            entry["terms"] = forms.clean_terms(terms)
-            entry["formula_value"] = _signed_real(value)
-            if isinstance(value, complex) and abs(value.imag) > 1e-9 * abs(value):
-                entry["formula_phase_deg"] = math.degrees(cmath.phase(value))
-            err = form_error_pct(value, gain)
-            entry["formula_error_pct"] = err
-            entry["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
-        if form is not None and form[1] is not None:
-            factors.append((entry["formula"], form[1]))
-        elif form is None and hop.kind not in ("nmos", "pmos", "npn", "pnp"):
-            # a passive element on the way (source resistance, coupling capacitor, divider):
-            # its share is the MNA ratio of the two nets, shown as such
-            factors.append((f"v({entry['to']})/v({entry['from']}) across {entry['device']} (MNA)", gain))
-        else:
-            factors.append(None)
-        row["chain"].append(entry)
+    reading = _ChainReading(run, row, pin, detach)
+    seen = reading.seen
+    row["chain_freq_hz"] = reading.f_hz
+    stages, factors = [], []  # factors: (text, value), "inside" (a pair's inner row), None (no form)
     for k in range(len(hops)):
-        pair = _mirror_loaded_pair(circuit, hops, k, solves.op, stage_rows,
-                                   lambda net, gone: _z_near(solves, net, name, seen + tuple(gone), f_hz))
+        stage, factor = _stage_gain(run, reading, hops, k)
+        stages.append(stage)
+        factors.append(factor)
+    for k in range(len(hops)):
+        pair = _mirror_loaded_pair(circuit, hops, k, solves.op, run.stage_rows, reading.z_near)
         if pair is None:
             continue
         end, text, value, devices, other_gate = pair
-        first_current = k == 0 and pin.signal == "current"
-        exact = v(hops[end].to_net) / (1.0 if first_current else v(hops[k].from_net))
-        entry = row["chain"][k]
-        entry.update(formula=text, formula_value=_signed_real(value), spans=[_local(block, d) for d in devices],
-                     spans_to=_local(block, name[hops[end].to_net]),
-                     span_gain={"mag": abs(exact), "unit": "V/V", "sign": 1 if exact.real >= 0 else -1})
-        entry.pop("terms", None)
-        err = form_error_pct(value, exact)
-        entry["formula_error_pct"], entry["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
+        exact = reading.ratio(hops, k, end)
+        stage = stages[k]
+        stage.terms = None
+        stage.set_form(text, value, exact)
+        stage.spans, stage.spans_to = [run.local(d) for d in devices], run.local(name[hops[end].to_net])
+        stage.span_gain = {"mag": abs(exact), "unit": "V/V", "sign": 1 if exact.real >= 0 else -1}
         factors[k] = (text, value)
-        if other_gate != 0 and abs(v(other_gate)) > 1e-3 * abs(v(hops[k].from_net)):
+        if other_gate != 0 and abs(reading.v(other_gate)) > 1e-3 * abs(reading.v(hops[k].from_net)):
             # the pair's other gate carries signal: a feedback loop closes through it, and the
             # textbook form is the open-loop gain, not this node ratio
-            entry["in_loop_through"] = _local(block, name[other_gate])
+            stage.in_loop_through = run.local(name[other_gate])
             factors[k] = None
         for m in range(k + 1, end + 1):
-            for key in ("formula", "formula_value", "formula_error_pct", "formula_exact", "terms"):
-                row["chain"][m].pop(key, None)
-            row["chain"][m]["formula_none"] = f"inside the mirror-loaded pair (the form at {entry['device']})"
+            stages[m].drop_form(f"inside the mirror-loaded pair (the form at {stage.device})")
             factors[m] = "inside"
         break
-    product_formula: list[str] = []
-    product_value: complex | None = 1.0
-    loops = [e["in_loop_through"] for e in row["chain"] if e.get("in_loop_through")]
+    row["chain"] = [st.to_json() for st in stages]
+    loops = [st.in_loop_through for st in stages if st.in_loop_through]
     if loops:
         row["notes"].append(f"the chain sits inside a feedback loop closed through {', '.join(loops)}: "
                             "a stage's textbook form is its open-loop gain, the gains above are in the loop")
-    for factor in factors:
-        if factor is None:
-            product_value = None
-            break
-        if factor == "inside":
-            continue
-        product_formula.append(factor[0])
-        product_value *= factor[1]
-    if product_formula and product_value is not None:
-        exact = v(hops[-1].to_net) if x is not None else v(hops[-1].to_net)
-        row["formula"] = " × ".join(f"[{f}]" for f in product_formula)
-        row["formula_value"] = abs(product_value)
-        row["formula_freq_hz"] = f_hz
-        err = form_error_pct(product_value, exact)
-        row["formula_error_pct"] = err
-        row["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+    _product_form(row, factors, reading.ratio(hops, 0, len(hops) - 1) if hops else None, reading.f_hz)
     # interfaces: the input net, every net between two stages, the output net
     nets = [hops[0].from_net] + [h.to_net for h in hops] if hops else []
     for k, net_idx in enumerate(nets):
@@ -678,6 +760,23 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         else:
             entry.update(_verdict(signal, entry["z_out_ohm"], entry["z_in_ohm"]))
         row["interfaces"].append(entry)
+
+
+def _product_form(row: dict, factors, exact, f_hz: float) -> None:
+    """The path's form: the product of every stage's form (a passive element's MNA ratio
+    included), when every stage has one, with its error against the path's gain."""
+    if not factors or any(f is None for f in factors):
+        return
+    used = [f for f in factors if f != "inside"]
+    value = 1.0
+    for _text, factor in used:
+        value *= factor
+    row["formula"] = " × ".join(f"[{text}]" for text, _ in used)
+    row["formula_value"] = abs(value)
+    row["formula_freq_hz"] = f_hz
+    err = form_error_pct(value, exact)
+    row["formula_error_pct"] = err
+    row["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
 
 
 def _mirror_loaded_pair(circuit, hops, k, op, stage_rows, z_load_of):

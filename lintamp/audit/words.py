@@ -122,7 +122,7 @@ def hop_form_text(h: dict) -> str:
 
 
 def path_form_text(p: dict) -> str:
-    if p.get("by_inspection"):
+    if p.get("by_inspection") is True:  # a path found with no operating point at all
         return f"product of the stages, in symbols (no operating point): {p['formula']}"
     gain = dict(p["gain"], mag=p.get("formula_value"), sign=1)
     at = p.get("formula_freq_hz")

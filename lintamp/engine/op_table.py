@@ -182,7 +182,8 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
     Classes: ``ac-ground``; ``low`` (~1/gm: a source/emitter, a diode-connected
     device, a diode); ``resistive`` (a resistor to AC ground); ``high`` (~r_o or
     more: only drains/collectors); ``open`` (only gates, capacitors, current
-    sources: no conductive path).  The lowest class present wins.
+    sources: no conductive path); ``unknown`` (only drains/collectors, but the node
+    also reaches a gate or base: feedback may set it).  The lowest class present wins.
 
     Notes
     -----
@@ -226,4 +227,30 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
     if not found:
         return "open", [f"nothing is connected to {node}"]
     best = min(found, key=lambda f: CLASS_ORDER.index(f[0]))[0]
-    return best, [why for cls, why in found if cls == best] + [why for cls, why in found if cls != best]
+    reasons = [why for cls, why in found if cls == best] + [why for cls, why in found if cls != best]
+    if best == "high":
+        loop = _drives_a_control(circuit, net, acg)
+        if loop is not None:
+            # a drain that also reaches a gate or base may sit inside a feedback loop (a
+            # unity-gain buffer's output is ohms, not r_o): by inspection alone it is unknown
+            return "unknown", [f"{node} also reaches the {loop}: feedback may lower it far below r_o; "
+                               "only numbers can tell"] + reasons
+    return best, reasons
+
+
+def _drives_a_control(circuit: FlatCircuit, net: int, acg: set[int]) -> str | None:
+    """The first gate/base that ``net`` reaches directly or through R, C, L (not AC ground)."""
+    seen, todo = {net}, [net]
+    while todo:
+        n = todo.pop()
+        for d in circuit.devices:
+            if n not in d.nodes:
+                continue
+            if d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[1] == n and d.nodes[0] != n:
+                return f"{'gate' if d.kind in ('nmos', 'pmos') else 'base'} of {d.name}"
+            if d.kind in ("resistor", "capacitor", "inductor"):
+                for m in d.nodes[:2]:
+                    if m not in seen and m not in acg:
+                        seen.add(m)
+                        todo.append(m)
+    return None
