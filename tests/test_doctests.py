@@ -10,15 +10,23 @@ from __future__ import annotations
 
 import doctest
 import importlib
+import os
 import pkgutil
 
 import pytest
 
 import lintamp
 
-MODULES = sorted(
-    name for _, name, is_pkg in pkgutil.walk_packages(lintamp.__path__, "lintamp.")
-    if not is_pkg and not name.endswith("__main__"))
+import lintamp.rules
+
+# The package's own folder and the rules' folder, walked apart: run from a source tree,
+# lintamp's __path__ also holds the checkout (to find rules/ beside it), and a walk of
+# that would find the package inside itself again.
+MODULES = sorted(set(
+    name for path, prefix in ((os.path.dirname(lintamp.__file__), "lintamp."),
+                              (lintamp.rules.__path__[0], "lintamp.rules."))
+    for _, name, is_pkg in pkgutil.walk_packages([path], prefix)
+    if not is_pkg and not name.endswith("__main__")))
 
 
 def test_the_walk_found_the_layers():
