@@ -19,12 +19,29 @@ RULE_OF_KIND = {IslandKind.CURRENT_FED: "current-cutset", IslandKind.UNBIASED_CO
                 IslandKind.FLOATING: "no-dc-path"}
 
 
+def sealed_cells(ctx) -> dict[int, object]:
+    """The cells whose ports reach nothing inside: no ports at all (a layout extraction
+    that found no pin labels) or every port unconnected.  Every island inside such a
+    cell follows from that one cause, so the island rules leave them to one finding
+    per cell (no-dc-path for a cell with no ports, unused-port for unconnected ports)."""
+    def build():
+        sealed = {}
+        for view in ctx.cells():
+            if view.cell.is_top or not view.devices:
+                continue
+            if not any(view.net_terminals.get(port) for port in view.ports):
+                sealed[id(view)] = view
+        return sealed
+    return ctx.memo("sealed-cells", build)
+
+
 def island_findings(ctx, rule: str):
     """(view, island, bias_only) for every island the named rule reports."""
     skip = unread_cells(ctx)
+    sealed = sealed_cells(ctx)
     pins = declared_pins(ctx)  # a schematic export's own pins: biased by its user
     for view in ctx.cells():
-        if id(view) in skip:
+        if id(view) in skip or id(view) in sealed:
             continue
         for island in islands(ctx, view, FULL):
             if view.cell.is_top and pins and any(n in pins for n in island.nets):

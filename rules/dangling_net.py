@@ -35,6 +35,7 @@ from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is
                                        unread_cells)
 from lintamp.findings import Related, Severity
 from lintamp.rules import _cascade, _parasitics, _supply
+from lintamp.rules._islands import sealed_cells
 
 NAME = "dangling-net"
 CATEGORY = "connectivity"
@@ -67,8 +68,9 @@ def _drives_port(dev, pin) -> bool:
 def check(ctx):
     skip = unread_cells(ctx)
     ground = ctx.design.ground
+    portless = {k for k, v in sealed_cells(ctx).items() if not v.ports}  # no-dc-path says it once
     for view in ctx.cells():
-        if id(view) in skip or interface_view(ctx.design, view):
+        if id(view) in skip or id(view) in portless or interface_view(ctx.design, view):
             continue
         roleless = view.roleless_nets()
         # a top-level net that .print/.plot/.save or a .control script looks at is observed

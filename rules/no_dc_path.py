@@ -33,8 +33,9 @@ Fix
 
 from lintamp.findings import Related, Severity
 from lintamp.rules import _cascade, _parasitics
+from lintamp.connectivity.dc_paths import FULL, islands
 from lintamp.rules._islands import (context_steps, elements, island_findings, net_phrase,
-                                    related, terminal_lines)
+                                    related, sealed_cells, terminal_lines)
 
 NAME = "no-dc-path"
 CATEGORY = "connectivity"
@@ -73,8 +74,13 @@ def check(ctx):
                 "that was meant",
             values={"island_nets": count, "terminals": len(island.terminals)},
             related=related(island, skip=first))
-    for view, *islands in floating.values():
-        yield _floating_finding(ctx, view, islands)
+    for view, *found in floating.values():
+        yield _floating_finding(ctx, view, found)
+    for view in sealed_cells(ctx).values():
+        if not view.ports:
+            finding = _portless_finding(ctx, view)
+            if finding is not None:
+                yield finding
 
 
 
@@ -108,3 +114,30 @@ def _floating_finding(ctx, view, islands):
             "a shield or a well tap",
         values={"count": len(islands), "island_nets": len(nets)},
         related=[Related(largest.first_device.location, f"largest: {largest.nets[0]}")])
+
+
+def _portless_finding(ctx, view):
+    """A .subckt with devices and no ports (a layout extraction that found no pin
+    labels): every net inside floats, one finding for the cell instead of one per net."""
+    found = [i for i in islands(ctx, view, FULL) if i.first_device is not None]
+    if not found:
+        return None  # it holds its own sources and ground: a closed circuit
+    gates = sum(1 for i in found for dev, pin in i.terminals if pin in ("g", "b"))
+    first = min((i.first_device for i in found),
+                key=lambda d: (d.location.path, d.location.line, d.location.column))
+    nets = [n for i in found for n in i.nets]
+    return ctx.finding(
+        location=view.cell.location, subject=view.cell.name, view=view, nets=nets[:50],
+        severity=Severity.WARNING,
+        message=f".subckt {view.label} has no ports: its {len(nets)} net(s) reach nothing "
+                "outside, so none of them has a DC level",
+        explanation=[f"{view.label} holds {len(view.devices)} element(s) and lists no port on its "
+                     ".subckt line; nothing inside is a source or ground",
+                     "a layout extraction writes such a cell when the layout carries no pin "
+                     "labels; LVS then has nothing to compare, and an instance of it "
+                     "connects to nothing",
+                     f"the {len(found)} floating island(s) inside ({gates} gate or base pin(s)) "
+                     "follow from this one cause and are not listed one by one"],
+        fix="label the pins in the layout (or add the ports to the .subckt line) and extract again",
+        values={"islands": len(found), "island_nets": len(nets), "gates": gates},
+        related=[Related(first.location, f"first element: {first.display}")])

@@ -353,3 +353,75 @@ def test_instances_an_export_left_out_are_one_finding_with_the_open_nets_attache
         ("unknown-cell", 2)]
     (opened,) = [f for f in findings if f.rule == "dangling-net"]
     assert opened.severity.label == "info" and set(opened.nets) == {"net1", "net2", "net3"}
+
+
+# -- a layout extraction with no pin labels --------------------------------------------
+# KLayout writes '.SUBCKT name' with no ports when the layout carries no pin labels
+# (common practice: LVS then has nothing to compare); every net inside floats.  That is
+# one cause: one finding for the cell, not one unbiased-gate, dangling-net and body-tie
+# per net.
+PORTLESS_BIAS = """\
+* Extracted by KLayout with an LVS runset
+
+.SUBCKT bias_core
+R$1 11 13 rhigh w=1u l=12u
+M$3 10 6 2 1 lv_nmos L=1u W=1u
+M$5 6 6 2 1 lv_nmos L=1u W=1u
+M$7 6 4 2 1 lv_nmos L=0.15u W=0.5u
+M$9 6 8 11 9 lv_pmos L=1u W=4u
+M$11 13 8 8 9 lv_pmos L=1u W=2u
+M$15 13 14 10 9 lv_pmos L=0.15u W=0.5u
+.ENDS bias_core
+"""
+
+
+def test_a_cell_with_no_ports_is_one_warning_for_the_cell():
+    report = check_text(PORTLESS_BIAS, "bias_core.cir")
+    noisy = [f for f in report.findings if f.severity.label != "info"]
+    assert [(f.rule, f.subject) for f in noisy] == [("no-dc-path", "bias_core")]
+    assert noisy[0].values["gates"] > 0 and noisy[0].values["islands"] >= 1
+
+
+def test_a_cell_with_ports_still_gets_its_unbiased_gate():
+    # the same cell with its pins labelled, but one gate net (4) left to nothing: that
+    # gate is still an unbiased-gate error (ngspice-39 .op: 'singular matrix: check node 4')
+    text = PORTLESS_BIAS.replace(".SUBCKT bias_core", ".SUBCKT bias_core 2 9 13 8")
+    rules = rules_of(text)
+    assert rules["unbiased-gate"] >= 1
+    assert not [f for f in check_text(text, "b.cir").findings
+                if f.rule == "no-dc-path" and f.subject == "bias_core"]
+
+
+# -- a standard-cell library's unused supply and well pins ----------------------------
+# sky130-style standard cells keep VGND VNB VPB VPWR on every cell; a tie or diode cell
+# leaves some unused by design (common practice in open PDK cell libraries)
+CELL_LIBRARY = """\
+* a cell library in CDL
+.subckt lib__conb_1 HI LO VGND VNB VPB VPWR
+R0 VGND LO 0.01 short
+R1 HI VPWR 0.01 short
+.ends
+.subckt lib__diode_2 DIODE VGND VNB VPB VPWR
+D0 VNB DIODE ndiode area=0.43
+.ends
+.subckt lib__buf_1 A X VGND VNB VPB VPWR SPARE
+M0 X A VGND VNB nshort w=0.42 l=0.15
+M1 X A VPWR VPB pshort w=0.64 l=0.15
+.ends
+"""
+
+
+def test_a_library_cells_unused_power_pins_are_infos_and_a_signal_pin_stays_a_warning():
+    found = [f for f in check_text(CELL_LIBRARY, "lib.cdl").findings if f.rule == "unused-port"]
+    by_cell = {f.cell: f.severity.label for f in found}
+    assert by_cell["lib__conb_1"] == "info" and by_cell["lib__diode_2"] == "info"
+    assert by_cell["lib__buf_1"] == "warning"  # SPARE is no supply or well pin
+
+
+def test_an_instantiated_cells_unused_supply_pin_stays_a_warning():
+    # in a deck that uses the cell, its ignored supply is what the rule is for
+    deck = ("* deck\n" + CELL_LIBRARY.split("\n", 1)[1]
+            + "x1 hi lo 0 0 vdd vdd lib__conb_1\nv1 vdd 0 1.8\n.end\n")
+    found = [f for f in check_text(deck, "deck.sp").findings
+             if f.rule == "unused-port" and f.cell == "lib__conb_1"]
+    assert [f.severity.label for f in found] == ["warning"]
