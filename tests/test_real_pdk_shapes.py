@@ -425,3 +425,15 @@ def test_an_instantiated_cells_unused_supply_pin_stays_a_warning():
     found = [f for f in check_text(deck, "deck.sp").findings
              if f.rule == "unused-port" and f.cell == "lib__conb_1"]
     assert [f.severity.label for f in found] == ["warning"]
+
+def test_a_dummy_is_no_load_or_diode_in_stage_recognition():
+    # Razavi, Design of Analog CMOS ICs, 2nd ed., sec. 5.1: the diode-connected device of
+    # a mirror has its gate on its drain and its source on the rail; a dummy (drain,
+    # gate and source on one net) carries no current and is neither load nor diode
+    from lintamp.api import flat_circuit_from_text
+    from lintamp.engine.stages import recognise_stages
+    deck = ("t\n.model nch nmos\nV1 vdd 0 1.8\nI1 vdd ref 10u\nM1 ref ref 0 0 nch w=1u l=1u\n"
+            "M2 out ref 0 0 nch w=1u l=1u\nR1 vdd out 10k\nM3 ref ref ref 0 nch w=1u l=1u\n.end\n")
+    roles = {s.device: s.role for s in recognise_stages(flat_circuit_from_text(deck))}
+    assert "diode" in roles["m1"]
+    assert "diode" not in roles.get("m3", "") and "load" not in roles.get("m3", "")
