@@ -315,3 +315,31 @@ def test_garbage_and_missing_models_do_not_crash():
     for deck in ("x\nm1 a b c d nomodel\n", "x\nr1 a 0 {undefined}\ni1 a 0 ac 1\nc1 a 0 1p\n", "x\n.end\n",
                  "x\nq1 c b e missing\nvcc c 0 5\n"):
         check_deck(deck)
+
+
+# A two-stage amplifier of behavioural stages (a G source with its own output resistor,
+# as schematic libraries draw an ideal OTA) with a Miller capacitor and nulling resistor
+# from its output back to the first stage: the Miller capacitor is no coupling capacitor,
+# and the stage's own output resistor is no load.  ngspice-39 AC analysis: with only the
+# 10 pF load, |v(out)| at 1 kHz is the full two-stage gain (no divider loss at all).
+BEHAVIOURAL_MILLER = """behavioural two-stage amplifier
+.subckt stage cm inp inn out rout=1e6 gain=1000
+G1 out cm inp inn {gain/rout}
+R1 out cm {rout}
+.ends
+v1 cm 0 1
+vin in cm dc 0 ac 1
+x1 cm in cm mid stage rout=10e6 gain=5000
+x2 cm mid cm out stage rout=100e3 gain=100
+cc out n2 1p
+rc n2 mid 10k
+cl out 0 10p
+.ac dec 10 1 1g
+.print ac v(out)
+.end
+"""
+
+
+def test_a_miller_capacitor_is_no_coupling_capacitor_and_a_stages_own_resistor_no_load():
+    findings = check_deck(BEHAVIOURAL_MILLER)
+    assert [f for f in findings if f.rule == "unbuffered-output"] == []

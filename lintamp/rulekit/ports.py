@@ -306,7 +306,9 @@ class PortFinder:
         ground are the load, and the stage behind the capacitor drives it."""
         caps = [d for d in self.on_net.get(net, ()) if d.kind == "capacitor"
                 and any(n not in self.ac_ground and n != net for n in d.nodes[:2])]
-        if not caps:
+        if not caps or self._driven_here(net):
+            # a stage that drives the net itself (a Miller capacitor on an amplifier's
+            # output is no coupling capacitor): its own resistors are no load
             return set(), []
         loads, why = set(), []
         for dev in self.on_net.get(net, ()):
@@ -316,6 +318,16 @@ class PortFinder:
                 loads.add(dev.name)
                 why.append(f"{dev.name}: to AC ground behind coupling capacitor {caps[0].name}")
         return loads, why
+
+    def _driven_here(self, net: int) -> bool:
+        """A transistor's drain, collector, source or emitter, or a controlled source's
+        output, on the net itself."""
+        for d in self.on_net.get(net, ()):
+            if d.kind in TRANSISTORS and net in (d.nodes[0], d.nodes[2]):
+                return True
+            if d.kind in ("vccs", "vcvs", "cccs", "ccvs") and net in d.nodes[:2]:
+                return True
+        return False
 
     def is_current_output(self, net: int) -> bool:
         """Only mirror outputs, fixed-bias current sources or cascodes drive the net:
