@@ -317,25 +317,36 @@ def test_garbage_and_missing_models_do_not_crash():
         check_deck(deck)
 
 
-# A two-stage amplifier of behavioural stages (a G source with its own output resistor,
-# as schematic libraries draw an ideal OTA) with a Miller capacitor and nulling resistor
-# from its output back to the first stage: the Miller capacitor is no coupling capacitor,
-# and the stage's own output resistor is no load.  ngspice-39 AC analysis: with only the
-# 10 pF load, |v(out)| at 1 kHz is the full two-stage gain (no divider loss at all).
-BEHAVIOURAL_MILLER = """behavioural two-stage amplifier
-.subckt stage cm inp inn out rout=1e6 gain=1000
-G1 out cm inp inn {gain/rout}
-R1 out cm {rout}
+# A fully differential two-stage amplifier of behavioural stages (G sources with their
+# own output resistors, as schematic libraries draw an ideal OTA) with Miller capacitors
+# and nulling resistors from each output back to the first stage: a Miller capacitor is
+# no coupling capacitor, and a stage's own output resistor is no load (common practice:
+# the load is the 10 pF on each output; nothing divides the signal down).
+BEHAVIOURAL_MILLER = """fully differential behavioural two-stage amplifier
+xa cmv inp inm m2 m1 gstage rout=10e6 gain=5000
+xb cmv m1 m2 outp outm gstage rout=100e3 gain=100
+cm1 outm k1 1p
+rm1 k1 m1 10k
+cm2 outp k2 1p
+rm2 k2 m2 10k
+vcmi icm gnd1 0.8
+vp inp icm dc 0 ac 0.5 0
+vm inm icm dc 0 ac 0.5 180
+cl1 outp gnd1 10p
+cl2 outm gnd1 10p
+vg gnd1 0 0
+vcm cmv gnd1 1.65
+.control
+ac dec 10 1 1g
+let vd = v(outp) - v(outm)
+plot vdb(vd)
+.endc
+.subckt gstage cmv ip im op om rout=1e6 gain=1000
+G1 om cmv ip im {0.5*gain/rout}
+R1 om cmv {rout}
+G2 op cmv im ip {0.5*gain/rout}
+R2 op cmv {rout}
 .ends
-v1 cm 0 1
-vin in cm dc 0 ac 1
-x1 cm in cm mid stage rout=10e6 gain=5000
-x2 cm mid cm out stage rout=100e3 gain=100
-cc out n2 1p
-rc n2 mid 10k
-cl out 0 10p
-.ac dec 10 1 1g
-.print ac v(out)
 .end
 """
 
