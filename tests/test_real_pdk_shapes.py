@@ -437,3 +437,18 @@ def test_a_dummy_is_no_load_or_diode_in_stage_recognition():
     roles = {s.device: s.role for s in recognise_stages(flat_circuit_from_text(deck))}
     assert "diode" in roles["m1"]
     assert "diode" not in roles.get("m3", "") and "load" not in roles.get("m3", "")
+
+
+def test_gf180_capacitors_and_diodes_are_devices_by_their_full_names():
+    # gf180mcu's MIM and MOS capacitors and its diodes, as its xschem exports instantiate
+    # them (names from the PDK's model library, from memory); their .subckt lives in the
+    # PDK's model files, which a design repository does not hold
+    text = ("* gf180 block\n.subckt blk vout net1 vdd vss\n"
+            "XC1 vout net1 cap_mim_2f0fF c_width=25e-6 c_length=20e-6\n"
+            "XC2 vdd vss cap_nmos_06v0 c_width=3000 c_length=3000\n"
+            "XD1 vss vout diode_nd2ps_03v3 area=1e-12\n.ends\n")
+    design = elaborate(parse_text(text))
+    view = next(v for v in design.cells if v.cell.name == "blk")
+    assert {d.name: d.kind for d in view.devices} == {"xc1": "capacitor", "xc2": "capacitor",
+                                                      "xd1": "diode"}
+    assert not [f for f in check_text(text, "blk.spice").findings if f.rule == "unknown-cell"]

@@ -102,6 +102,12 @@ BUILTIN = (
     # (the names its layout-versus-schematic netlists write)
     *_names("nmos", "nmos_3p3 nmos_6p0 nmos_6p0_nat nmos_3p3_sab nmos_6p0_sab"),
     *_names("pmos", "pmos_3p3 pmos_6p0 pmos_3p3_sab pmos_6p0_sab"),
+    # (its capacitors and diodes: two terminals, top/gate first)
+    *_names("capacitor", "cap_mim_1f0fF cap_mim_1f5fF cap_mim_2f0fF cap_nmos_03v3 cap_pmos_03v3 "
+                         "cap_nmos_06v0 cap_pmos_06v0 cap_nmos_03v3_b cap_pmos_03v3_b "
+                         "cap_nmos_06v0_b cap_pmos_06v0_b"),
+    *_names("diode", "diode_nd2ps_03v3 diode_pd2nw_03v3 diode_nd2ps_06v0 diode_pd2nw_06v0 "
+                     "diode_nw2ps_03v3 diode_nw2ps_06v0 diode_pw2dw diode_dw2ps"),
     # IHP SG13G2
     *_names("nmos", "sg13_lv_nmos sg13_hv_nmos"),
     *_names("pmos", "sg13_lv_pmos sg13_hv_pmos"),
