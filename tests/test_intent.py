@@ -203,12 +203,19 @@ def test_config_ports_beat_pin_directions():
     assert ports["o2"] == ("voltage-output", "config") and ports["p"] == ("voltage-input", "pin direction")
 
 
-def test_an_ac_current_into_a_capacitance_is_a_current_input_and_a_bare_one_a_probe():
+def test_an_ac_current_into_an_input_is_a_current_input_and_one_on_an_output_a_probe():
+    # common practice: a sensor is a current source with its capacitance or its source
+    # resistance (a Norton source) into a stage's input; a 1 A AC source on a drain with
+    # nothing else there is how a testbench measures an output impedance
     sensor = "* t\nvdd vdd 0 3\nipd pd 0 ac 1\ncpd pd 0 1p\nr1 pd 0 1k\n"
     ports, _ = ports_of(sensor)
     assert ports["pd"] == ("current-input", "testbench")
-    probe, _ = ports_of(sensor.replace("cpd pd 0 1p\n", ""))
-    assert "pd" not in probe
+    norton, _ = ports_of(sensor.replace("cpd pd 0 1p\n", ""))
+    assert norton["pd"] == ("current-input", "testbench")
+    stage = ("* t\nvdd vdd 0 3\nvg g 0 1\nm1 d g 0 0 nch\nrd vdd d 10k\niprobe 0 d ac 1\n"
+             + MODELS)
+    probe, _ = ports_of(stage)
+    assert "d" not in probe or probe["d"][0] != "current-input"
 
 
 def test_rail_sources():

@@ -329,8 +329,16 @@ def stimuli(circuit: FlatCircuit, acg: set[int]) -> dict[int, tuple[str, str, st
     """Flat net -> (kind, flat source name, words) for every source with an AC value or a
     waveform whose other end is at AC ground (directly, or through a common-mode source:
     ``vinp inp cm`` on ``vcm cm 0``).  An I source counts only into a net with a
-    capacitor to AC ground (a sensor's model); a bare one is an impedance probe."""
+    capacitor to AC ground (a sensor's model), or into a net no drain, collector or
+    controlled-source output drives (a Norton source feeding a gate, a source or an
+    emitter); one on an output node, with no capacitance there, is an impedance probe."""
     caps: set[int] = set()
+    driven: set[int] = set()
+    for dev in circuit.devices:
+        if dev.kind in ("nmos", "pmos", "npn", "pnp") and dev.nodes:
+            driven.add(dev.nodes[0])
+        elif dev.kind in ("vccs", "vcvs", "cccs", "ccvs") and len(dev.nodes) >= 2:
+            driven.update(dev.nodes[:2])
     for dev in circuit.devices:
         if dev.kind == "capacitor" and len(dev.nodes) >= 2:
             a, b = dev.nodes[0], dev.nodes[1]
@@ -350,7 +358,7 @@ def stimuli(circuit: FlatCircuit, acg: set[int]) -> dict[int, tuple[str, str, st
         stim = "AC" if src.ac_mag else "waveform"
         name = dev.display_name or dev.name
         if dev.kind == "isource":
-            if net not in caps:
+            if net not in caps and net in driven:
                 continue
             out.setdefault(net, ("current-input", dev.name, f"{stim} I source {name}"))
         else:
