@@ -194,6 +194,40 @@ def circular_params(cell: Cell) -> Iterator[tuple[str, CircularDefinition]]:
             yield name, error
 
 
+def recursive_funcs(cell: Cell) -> Iterator[tuple[object, ExprError]]:
+    """The ``.func`` definitions of ``cell`` that call themselves, directly or through
+    other functions in scope, each with an error naming the cycle.  A function is
+    expanded where it is called, so a recursive one has no value at all.
+
+    Notes
+    -----
+    O(functions in scope + calls): strongly connected components of the call graph.
+    """
+    if not cell.funcs:
+        return
+    import networkx as nx
+
+    scope = _funcs_of(cell)
+    graph = nx.DiGraph()
+    for name, func in scope.items():
+        graph.add_node(name)
+        graph.add_edges_from((name, called) for called in func.body.calls if called in scope)
+    cyclic: dict[str, list[str]] = {}
+    for component in nx.strongly_connected_components(graph):
+        if len(component) > 1 or any(graph.has_edge(n, n) for n in component):
+            members = sorted(component)
+            for name in members:
+                cyclic[name] = members
+    for func in cell.funcs.values():
+        members = cyclic.get(func.name)
+        if members is None or func.name not in scope:
+            continue
+        through = "itself" if members == [func.name] else "itself through " + ", ".join(
+            f"{m}()" for m in members if m != func.name)
+        yield func, ExprError(f"{func.name}() calls {through}; a function is expanded where it "
+                              "is called, so a recursive one has no value", 0)
+
+
 def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
     """Every use of a parameter name that no scope defines, cell by cell.
 
@@ -232,6 +266,8 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
         where = {p.name: p.location for p in cell.params}
         for name, error in circular_params(cell):
             yield BadExpression(None, f".param {name}", error, where.get(name, cell.location), cell)
+        for func, error in recursive_funcs(cell):
+            yield BadExpression(None, f".func {func.name}", error, func.location, cell)
         for p in cell.params:
             if p.text.startswith('"'):
                 continue  # a string parameter
