@@ -428,21 +428,6 @@ class DeviceClasses:
                                      count=len(devices))
         self.keys: list[DeviceClass] = [DeviceClass(*key) for key in numbering]
 
-    def first_members(self) -> list[int]:
-        """The number of the first device of each class (classes are numbered in order
-        of first appearance, so this list is increasing)."""
-        if self.small:
-            first: dict[int, int] = {}
-            for d, code in enumerate(self.codes):
-                first.setdefault(code, d)
-            return list(first.values())
-        import numpy as np
-
-        # a new class takes the next number, so its first device is where the running
-        # maximum of the codes steps up
-        running = np.maximum.accumulate(self.codes) if len(self.codes) else self.codes
-        return np.flatnonzero(np.diff(running, prepend=-1) > 0).tolist()
-
     def members(self, wanted) -> list[int]:
         """Numbers of the devices whose class is in ``wanted``, in netlist order."""
         wanted = set(wanted)

@@ -43,9 +43,9 @@ from dataclasses import dataclass, field
 from enum import Enum
 from itertools import compress
 from operator import attrgetter
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Callable
 
-from lintamp.circuit.design import SMALL_TABLE_TERMINALS, CellView, Device
+from lintamp.circuit.design import SMALL_TABLE_TERMINALS, CellView, Device, DeviceClass
 from lintamp.circuit.kinds import BJT_KINDS, JFET_KINDS, MOS_KINDS
 from lintamp.netlist.statements import CONTROL_LETTERS
 
@@ -77,12 +77,17 @@ class DevicePlan:
 
 def is_voltage_output(dev: Device) -> bool:
     """A behavioural element whose output is a voltage (B with V=, E/H VALUE/TABLE)."""
-    letter = dev.element.letter
-    return (letter == "b" and dev.element.model == "v") or letter in ("e", "h")
+    return writes_a_voltage(dev.element.letter, dev.element.model)
 
 
-def _pos(dev: Device, *pins: str) -> tuple[int, ...]:
-    return tuple(i for i, p in enumerate(dev.pins) if p in pins)
+def writes_a_voltage(letter: str, model: str | None) -> bool:
+    """:func:`is_voltage_output` from an element's letter and model name as written
+    (what a :class:`~lintamp.circuit.design.DeviceClass` holds)."""
+    return (letter == "b" and model == "v") or letter in ("e", "h")
+
+
+def _pos(pin_roles: tuple[str, ...], *pins: str) -> tuple[int, ...]:
+    return tuple(i for i, p in enumerate(pin_roles) if p in pins)
 
 
 def device_plan(dev: Device) -> DevicePlan:
@@ -92,46 +97,58 @@ def device_plan(dev: Device) -> DevicePlan:
     --------
     A MOS joins drain, source and body; its gate is a control pin.
     """
-    kind = dev.kind
-    n = min(len(dev.nets), len(dev.pins))
+    return class_plan(DeviceClass(dev.kind, dev.pins, dev.element.letter, dev.element.model),
+                      lambda: dev)
+
+
+def class_plan(key: DeviceClass, first: Callable[[], Device]) -> DevicePlan:
+    """The DC role of each pin of every device of one class (see :func:`device_plan`).
+
+    The class key decides it; ``first()`` gives a device of the class and is asked
+    only for the kinds whose roles also need its model or its net count (lines, and
+    kinds lintamp cannot judge), never for a plain R, C or L.
+    """
+    kind, pins = key.kind, key.pins
     if kind in ("vcvs", "switch"):
-        return DevicePlan(groups=(_pos(dev, "p", "n"),),
-                          senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
+        return DevicePlan(groups=(_pos(pins, "p", "n"),),
+                          senses=tuple(i for i, p in enumerate(pins) if p not in ("p", "n")))
     if kind in TWO_TERMINAL_SHORTS:
-        extra = tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n"))  # a mapped R's body
-        return DevicePlan(groups=(_pos(dev, "p", "n"),), unknown=extra)
+        extra = tuple(i for i, p in enumerate(pins) if p not in ("p", "n"))  # a mapped R's body
+        return DevicePlan(groups=(_pos(pins, "p", "n"),), unknown=extra)
     if kind == "diode":
-        return DevicePlan(groups=(_pos(dev, "a", "k"),))
+        return DevicePlan(groups=(_pos(pins, "a", "k"),))
     if kind == "behavioral":
-        senses = tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n"))
-        if is_voltage_output(dev):
-            return DevicePlan(groups=(_pos(dev, "p", "n"),), senses=senses)
-        return DevicePlan(currents=_pos(dev, "p", "n"), senses=senses)
+        senses = tuple(i for i, p in enumerate(pins) if p not in ("p", "n"))
+        if writes_a_voltage(key.letter, key.model):
+            return DevicePlan(groups=(_pos(pins, "p", "n"),), senses=senses)
+        return DevicePlan(currents=_pos(pins, "p", "n"), senses=senses)
     if kind in CURRENT_KINDS:
-        return DevicePlan(currents=_pos(dev, "p", "n"),
-                          senses=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
+        return DevicePlan(currents=_pos(pins, "p", "n"),
+                          senses=tuple(i for i, p in enumerate(pins) if p not in ("p", "n")))
     if kind == "capacitor":
-        return DevicePlan(unknown=tuple(i for i, p in enumerate(dev.pins) if p not in ("p", "n")))
+        return DevicePlan(unknown=tuple(i for i, p in enumerate(pins) if p not in ("p", "n")))
     if kind in MOS_KINDS:
-        return DevicePlan(groups=(_pos(dev, "d", "s", "b"),), controls=_pos(dev, "g"),
-                          unknown=tuple(i for i, p in enumerate(dev.pins)
+        return DevicePlan(groups=(_pos(pins, "d", "s", "b"),), controls=_pos(pins, "g"),
+                          unknown=tuple(i for i, p in enumerate(pins)
                                         if p not in ("d", "g", "s", "b")))
     if kind in BJT_KINDS:
-        return DevicePlan(groups=(_pos(dev, "c", "e"),), full_only=(_pos(dev, "c", "b", "e"),),
-                          controls=_pos(dev, "b"),
-                          unknown=tuple(i for i, p in enumerate(dev.pins)
+        return DevicePlan(groups=(_pos(pins, "c", "e"),), full_only=(_pos(pins, "c", "b", "e"),),
+                          controls=_pos(pins, "b"),
+                          unknown=tuple(i for i, p in enumerate(pins)
                                         if p not in ("c", "b", "e", "s")))
     if kind in JFET_KINDS:
-        return DevicePlan(groups=(_pos(dev, "d", "s"),), full_only=(_pos(dev, "d", "g", "s"),),
-                          controls=_pos(dev, "g"))
-    letter = dev.element.letter
+        return DevicePlan(groups=(_pos(pins, "d", "s"),), full_only=(_pos(pins, "d", "g", "s"),),
+                          controls=_pos(pins, "g"))
+    if kind == "coupling":
+        return DevicePlan()
+    dev = first()
+    n = min(len(dev.nets), len(dev.pins))
+    letter = key.letter
     is_line = letter == "t" or (letter == "o" and (dev.model is None or dev.model.type == "ltra")) \
         or (letter == "u" and dev.model is not None and dev.model.type == "urc")
     if kind == "line" and is_line:  # a U without a URC model is a digital primitive
         return DevicePlan(groups=tuple(g for g in ((0, 1), (2, 3)) if max(g) < n)
                           + ((tuple(range(4, n)),) if n > 4 else ()))
-    if kind == "coupling":
-        return DevicePlan()
     return DevicePlan(unknown=tuple(range(n)))
 
 
@@ -261,7 +278,7 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
         if key.kind == "instance":
             instance_codes.append(code)
             continue  # below, one by one (their roles come from the subcell's summary)
-        plan = device_plan(devices[int(members[0])])
+        plan = class_plan(key, lambda: devices[int(members[0])])
         base = ops.take(dev_start, members)
 
         def pin_ids(p):  # net number of pin ``p`` of every device of the batch

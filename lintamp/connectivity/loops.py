@@ -14,7 +14,7 @@ from __future__ import annotations
 from collections import deque
 from dataclasses import dataclass, field
 
-from lintamp.connectivity.dc_paths import bottom_up, is_voltage_output
+from lintamp.connectivity.dc_paths import bottom_up, is_voltage_output, writes_a_voltage
 from lintamp.circuit.design import CellView, Device
 from lintamp.circuit.values import cell_scope, top_scope
 from lintamp.netlist.expr import parse_number
@@ -85,8 +85,8 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
     :func:`rigid_pins`, and each instance of a known cell with ``None``.
 
     The same devices as ``rigid_pins`` asked of every device, but decided once per
-    device class (:attr:`CellView.device_classes`): only resistors are looked at
-    one by one, for their value.
+    device class (:attr:`CellView.device_classes`, from the class key alone): only
+    resistors are looked at one by one, for their value.
 
     Notes
     -----
@@ -97,16 +97,15 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
     always: dict[int, tuple[int, int] | None] = {}    # the class alone decides
     by_value: dict[int, tuple[int, int] | None] = {}  # resistors: the value decides
     wanted: set[int] = set()
-    for code, (key, first) in enumerate(zip(classes.keys, classes.first_members())):
+    for code, key in enumerate(classes.keys):
         kind = key.kind
-        dev = devices[first]
         if kind == "instance":
             wanted.add(code)
-        elif kind in RIGID_KINDS or (kind == "behavioral" and is_voltage_output(dev)):
-            always[code] = _pn(dev)
+        elif kind in RIGID_KINDS or (kind == "behavioral" and writes_a_voltage(key.letter, key.model)):
+            always[code] = _pn_of(key.pins)
             wanted.add(code)
         elif kind == "resistor":
-            by_value[code] = _pn(dev)
+            by_value[code] = _pn_of(key.pins)
             wanted.add(code)
     codes = classes.codes
     zero_text: dict[str, bool] = {}
@@ -139,8 +138,12 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
 
 
 def _pn(dev: Device) -> tuple[int, int] | None:
+    return _pn_of(dev.pins)
+
+
+def _pn_of(pins: tuple[str, ...]) -> tuple[int, int] | None:
     try:
-        return dev.pins.index("p"), dev.pins.index("n")
+        return pins.index("p"), pins.index("n")
     except ValueError:
         return None
 
