@@ -13,7 +13,7 @@ import sys
 from pathlib import Path
 
 from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, config_error,
-                                     epilog, load_config, report_internal_errors)
+                                     epilog, load_config, output_target, report_internal_errors)
 
 FORMATS = ("text", "json", "sarif", "github", "junit")
 
@@ -122,38 +122,47 @@ def run(args) -> int:
             raise UsageError(f"{p}: no such file or folder")
     if args.jobs < 1:
         raise UsageError("--jobs must be at least 1")
+    output = output_target("-o", args.output) if args.output else None
+    baseline_out = output_target("--write-baseline", args.write_baseline) if args.write_baseline else None
     config = _config(args)
     baseline = _baseline(args)
     files = _files(args, config)
     options = {"bandwidth": args.bandwidth, "op_file": args.op}
     from lintamp.commands.progress import progress_for
-    with progress_for(files, sys.stderr, machine_stdout=args.format != "text" and not args.output) \
+    with progress_for(files, sys.stderr, machine_stdout=args.format != "text" and output is None) \
             as progress:
         report, errors = check_paths(files, config, top=args.top,
                                      include_paths=[Path(p) for p in args.include_path],
                                      baseline=baseline, options=options, jobs=args.jobs,
                                      use_cache=not args.no_cache, progress=progress)
-    if args.write_baseline:
+    if baseline_out is not None:
         from lintamp.baseline import write_baseline
-        write_baseline(Path(args.write_baseline), report)
-    write_report(args, report)
+        from lintamp.config import ConfigError
+        try:
+            write_baseline(baseline_out, report)
+        except ConfigError as exc:  # a folder it may not write in
+            raise config_error(exc) from None
+    write_report(args, report, output)
     if report_internal_errors(errors, sys.stderr):
         return EXIT_TROUBLE
     return exit_code(report, config.fail_on)
 
 
-def write_report(args, report) -> None:
-    """The report in ``--format``, to ``-o FILE`` (never coloured) or to stdout."""
+def write_report(args, report, output: Path | None = None) -> None:
+    """The report in ``--format``, to ``output`` (``-o FILE``, never coloured) or to stdout."""
     from lintamp import __version__
     from lintamp.registry import all_rules
     from lintamp.report import get_reporter, want_color
     from lintamp.report.base import emit
 
     reporter_cls = get_reporter(args.format)
-    if args.output:
-        with open(Path(args.output), "w", encoding="utf-8", newline="\n") as stream:
-            emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
-                              counts=args.counts, summary=not args.quiet), report)
+    if output is not None:
+        try:
+            with open(output, "w", encoding="utf-8", newline="\n") as stream:
+                emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
+                                  counts=args.counts, summary=not args.quiet), report)
+        except OSError as exc:
+            raise UsageError(f"-o {output}: cannot write it ({exc.strerror or exc})") from None
         return
     color = want_color(args.color, sys.stdout) if args.format == "text" else False
     emit(reporter_cls(sys.stdout, color=color, rules=all_rules(), tool_version=__version__,
