@@ -72,8 +72,10 @@ def register(sub) -> None:
 
 def _config(args):
     from lintamp.commands.common import known_rules
-    from lintamp.config import ConfigError, parse_fail_on, parse_rule_list
-    known = known_rules()
+    from lintamp.config import ConfigError, parse_fail_on, parse_rule_list, with_overrides
+    start = Path(args.paths[0]) if args.paths else Path.cwd()
+    config = load_config(args, start)
+    known = known_rules()  # after the config: its rule-paths may have added rules
     changes = {}
     try:
         if args.only:
@@ -86,8 +88,7 @@ def _config(args):
         raise config_error(exc) from None
     if args.bandwidth:
         changes["bandwidth"] = args.bandwidth
-    start = Path(args.paths[0]) if args.paths else Path.cwd()
-    return load_config(args, start, **changes)
+    return with_overrides(config, **changes) if changes else config
 
 
 def _baseline(args):
