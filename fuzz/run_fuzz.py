@@ -8,7 +8,11 @@ Seeds are the samples and the real netlists in ``../shared/corpus`` (files under
 8 KB; the corpus part is skipped with a message when absent), plus decks from the
 card grammar in :mod:`fuzz.grammar`.  Each input goes through
 :func:`fuzz.target.exercise` in process (read, parse, elaborate, rules, decide,
-every reporter; one in 25 also flattens and asks the engine for an impedance).
+every reporter), then, with ``--commands`` (default: all three), through what
+``lintamp impedance`` and ``lintamp audit`` do with it as well (the impedance of a
+net and its text, the review sheet as text, JSON and Markdown; their text must hold
+no raw control character).  ``--commands check`` is the fast check-only run (one
+input in 25 then also asks the engine for an impedance).
 A crash is an exception escaping lintamp, a failed rule, a finding without a
 place, an input that takes longer than ``--timeout`` seconds, or a MemoryError
 under the per-worker address-space limit.  Every distinct crash (by exception
@@ -37,7 +41,7 @@ if str(REPO) not in sys.path:
     sys.path.insert(0, str(REPO))
 
 from fuzz import grammar  # noqa: E402
-from fuzz.target import exercise, make_sandbox  # noqa: E402
+from fuzz.target import COMMANDS, exercise, make_sandbox  # noqa: E402
 
 CORPUS = REPO.parent / "shared" / "corpus"
 MAX_SEED_BYTES = 8 * 1024
@@ -103,9 +107,9 @@ def crash_key(exc: BaseException) -> str:
     return f"{detail}@{place}"
 
 
-def run_batch(args: tuple[int, int, float]) -> dict:
+def run_batch(args: tuple) -> dict:
     """``count`` inputs from ``seed``; returns counts and the first input of each crash."""
-    seed, count, timeout_s = args
+    seed, count, timeout_s, commands = args
     r = random.Random(seed)
     crashes: dict[str, dict] = {}
     slowest = 0.0
@@ -116,7 +120,7 @@ def run_batch(args: tuple[int, int, float]) -> dict:
         signal.setitimer(signal.ITIMER_REAL, timeout_s)
         try:
             exercise(data, _SANDBOX, engine=engine, formats=("text", "json") if index % 10 else
-                     ("text", "json", "sarif", "github", "junit"))
+                     ("text", "json", "sarif", "github", "junit"), commands=commands)
         except InputTimeout:
             key = f"timeout>{timeout_s}s"
             crashes.setdefault(key, {"input": data.hex(), "trace": "timeout", "count": 0})
@@ -153,6 +157,8 @@ def main(argv=None) -> int:
     parser.add_argument("--seed", type=int, default=1)
     parser.add_argument("--batch", type=int, default=2000)
     parser.add_argument("--timeout", type=float, default=10.0, help="seconds per input")
+    parser.add_argument("--commands", default="check,impedance,audit",
+                        help="what each input goes through (comma-separated; default: all three)")
     parser.add_argument("--out", type=Path, default=Path(tempfile.gettempdir()) / "lintamp-fuzz")
     args = parser.parse_args(argv)
     out = args.out.resolve()
@@ -160,7 +166,11 @@ def main(argv=None) -> int:
         parser.error("--out must be outside the repository")
     out.mkdir(parents=True, exist_ok=True)
     sandbox = make_sandbox(out / "sandbox")
-    batches = [(args.seed * 1_000_003 + i, min(args.batch, args.inputs - i * args.batch), args.timeout)
+    commands = tuple(c.strip() for c in args.commands.split(",") if c.strip())
+    if not commands or any(c not in COMMANDS for c in commands):
+        parser.error(f"--commands: a comma-separated list of {', '.join(COMMANDS)}")
+    batches = [(args.seed * 1_000_003 + i, min(args.batch, args.inputs - i * args.batch), args.timeout,
+                commands)
                for i in range((args.inputs + args.batch - 1) // args.batch)]
     tried = 0
     crashes: dict[str, dict] = {}

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import io
 import os
+import re
 from pathlib import Path
 
 from lintamp.api import analyse, default_config, load_design
@@ -58,9 +59,17 @@ def make_sandbox(folder: Path) -> Path:
     return folder
 
 
+COMMANDS = ("check", "impedance", "audit")
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f]")  # what no text output may hold raw
+
+
 def exercise(data: bytes, sandbox: Path, *, engine: bool = False, formats=FORMATS,
-             config=None) -> int:
+             config=None, commands=("check",)) -> int:
     """Check ``data`` as the file ``sandbox/deck.sp``; returns the number of findings.
+
+    ``commands`` beyond ``check``: ``impedance`` (as ``engine``, with its text
+    rendered) and ``audit`` (the review sheet, rendered as text, JSON and Markdown);
+    their text outputs must hold no raw control character (ESC, OSC-8 ...).
 
     Raises
     ------
@@ -84,10 +93,38 @@ def exercise(data: bytes, sandbox: Path, *, engine: bool = False, formats=FORMAT
     for finding in report.findings:
         check_finding(finding)
     for name in formats:
-        render(report, name)
-    if engine:
+        out = render(report, name)
+        if name in ("text", "github") and _CONTROL.search(out):
+            raise FuzzFailure(f"the {name} report holds a raw control character")
+    if engine or "impedance" in commands:
         run_engine(netlist, config)
+    if "audit" in commands:
+        run_audit(data, sandbox, config)
     return len(report.findings)
+
+
+def run_audit(data: bytes, sandbox: Path, config) -> None:
+    """``lintamp audit`` on ``data``: the sheet, rendered as text, JSON and Markdown."""
+    import json
+
+    from lintamp.audit.render_markdown import render_markdown
+    from lintamp.audit.render_text import render_text
+    from lintamp.audit.sheet import AuditError, build_sheet
+    from lintamp.report.base import printable
+
+    path = sandbox / f"audit-{os.getpid()}.sp"
+    path.write_bytes(data)
+    try:
+        sheet = build_sheet(path, config=config, plots=False)
+    except AuditError:
+        return  # documented refusal: one line, exit 2
+    text = "\n".join(printable(line) for line in render_text(sheet.data).split("\n"))  # as the command
+    from lintamp.commands.audit import json_safe
+    json.dumps(json_safe(sheet.data), allow_nan=False, default=str)  # as the command writes it
+    markdown = render_markdown(sheet.data, {})
+    for name, out in (("text", text), ("markdown", markdown)):
+        if _CONTROL.search(out):
+            raise FuzzFailure(f"the audit {name} output holds a raw control character")
 
 
 def check_finding(finding) -> None:
@@ -126,7 +163,12 @@ def run_engine(netlist, config) -> None:
         return
     nets = [n for n in circuit.nets if n != "0"]
     if nets:
+        from lintamp.commands.impedance import render_text
+        from lintamp.report.base import printable
         try:
-            impedance_report(circuit, nets[0], 1e3)
+            report = impedance_report(circuit, nets[0], 1e3)
         except (OperatingPointError, SmallSignalError):
-            pass  # documented refusals: `lintamp impedance` says them in one line, exit 2
+            return  # documented refusals: `lintamp impedance` says them in one line, exit 2
+        text = "\n".join(printable(line) for line in render_text(report).split("\n"))  # as the command
+        if _CONTROL.search(text):
+            raise FuzzFailure("the impedance text holds a raw control character")

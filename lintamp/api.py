@@ -57,13 +57,16 @@ def project_root(path: Path, config) -> Path:
     source = getattr(config, "source", None)
     if source is not None:
         return Path(source).resolve().parent
-    start = path.resolve().parent
-    for folder in (start, *start.parents):
+    # from where the name is, not where a link leads (a committed link out of the
+    # checkout must not make its target's folder the root)
+    named = Path(os.path.abspath(path)).parent
+    for folder in (named, *named.parents):
         if (folder / ".git").exists():
-            return folder
-    cwd = Path.cwd().resolve()
-    if cwd == start or cwd in start.parents:
-        return cwd
+            return folder.resolve()
+    start = named.resolve()
+    cwd = Path.cwd()
+    if cwd == named or cwd in named.parents or cwd.resolve() == start or cwd.resolve() in start.parents:
+        return cwd.resolve()
     return start
 
 
@@ -176,8 +179,7 @@ def _cached_check(path: Path, config, cache, top, include_paths, options) -> Fil
     the result entry is keyed by all of them, so an edit to any include misses.
     Files with missing includes are not cached (the missing file may appear).
     """
-    manifest_key = [path]
-    files = _read_manifest(cache, manifest_key)
+    files = cache.get_manifest(path)
     if files is not None:
         entry = cache.get_entry([path, *files])
         if entry is not None:
@@ -185,23 +187,9 @@ def _cached_check(path: Path, config, cache, top, include_paths, options) -> Fil
     result = check_file(path, config, top=top, include_paths=include_paths, options=options)
     if not result.internal_errors and not any(f.rule == "missing-include" for f in result.findings):
         included = [Path(f) for f in result.files_read[1:]]
-        _write_manifest(cache, manifest_key, included)
+        cache.put_manifest(path, included)
         cache.put([path, *included], result.findings, result.pragmas)
     return result
-
-
-def _read_manifest(cache, key_paths) -> list[Path] | None:
-    entry = cache.get_entry(key_paths)
-    if entry is None:
-        return None
-    return [Path(p.args[0]) for p in entry.pragmas if p.verb == "manifest-file"] \
-        if all(p.verb == "manifest-file" for p in entry.pragmas) else None
-
-
-def _write_manifest(cache, key_paths, included: list[Path]) -> None:
-    marks = [Pragma(verb="manifest-file", args=(str(p),), reason="", location=Location(str(p), 1, 1))
-             for p in included]
-    cache.put(key_paths, [], marks)
 
 
 _CODE_KEY: str | None = None
@@ -250,14 +238,15 @@ def _check_one(job) -> FileResult:
         for folder in rule_paths:
             load_rule_folder(folder)
     if use_cache:
-        from lintamp.cache import Cache, config_key
+        from lintamp.cache import Cache, config_key, file_digest
         code = code_fingerprint()
         if rule_paths:
             from lintamp.registry import local_rules_fingerprint
             code += local_rules_fingerprint(rule_paths)
         cache = Cache(Path(getattr(config, "root", Path.cwd())),
                       config_key(config, [r.name for r in enabled_rules(config)]) + code + repr(
-                          (top, [str(p) for p in include_paths], sorted((options or {}).items()))))
+                          (top, [str(p) for p in include_paths], sorted((options or {}).items()),
+                           file_digest((options or {}).get("op_file")))))  # the table's content
         return _cached_check(path, config, cache, top, include_paths, options)
     return check_file(path, config, top=top, include_paths=include_paths, options=options)
 
@@ -296,7 +285,9 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
                 progress(len(results), len(files), results[-1].path)
     seen: set[tuple] = set()
     seen_pragmas: set[tuple] = set()
-    for result in results:
+    # merged in path order, not the order given: where two decks report one finding of a
+    # library they both include, the same deck's copy is kept whatever the order
+    for result in sorted(results, key=lambda r: str(r.path)):
         # a file included by several checked files yields its findings once
         for finding in result.findings:
             key = (finding.fingerprint, finding.location, finding.message)
@@ -310,8 +301,41 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
                 pragmas.append(pragma)
         errors.extend(result.internal_errors)
     report = decide(findings, pragmas, config, baseline)
+    report.findings = cap_findings(report.findings)
     report.files = [_display(f) for f in files]
     return report, errors
+
+
+MAX_FINDINGS_PER_RULE = 1000  # per file: past this a report is a flood, not a review
+
+
+def cap_findings(findings: list[Finding]) -> list[Finding]:
+    """At most :data:`MAX_FINDINGS_PER_RULE` findings of one rule in one file (after
+    waivers and the baseline), then one finding that counts the rest, at the highest
+    severity among them, so ``--fail-on`` decides as it would on all of them."""
+    counts: dict[tuple[str, str], int] = {}
+    for f in findings:
+        key = (f.location.path, f.rule)
+        counts[key] = counts.get(key, 0) + 1
+    if all(n <= MAX_FINDINGS_PER_RULE for n in counts.values()):
+        return findings
+    kept: list[Finding] = []
+    shown: dict[tuple[str, str], int] = {}
+    dropped: dict[tuple[str, str], list[Finding]] = {}
+    for f in findings:
+        key = (f.location.path, f.rule)
+        shown[key] = shown.get(key, 0) + 1
+        if shown[key] <= MAX_FINDINGS_PER_RULE:
+            kept.append(f)
+        else:
+            dropped.setdefault(key, []).append(f)
+    for (path, rule), rest in dropped.items():
+        kept.append(Finding(rule=rule, severity=max(f.severity for f in rest), location=rest[0].location,
+                            subject=f"{len(rest)} more",
+                            message=f"{len(rest)} more {rule} findings in {path} not listed "
+                                    f"(the first {MAX_FINDINGS_PER_RULE} are)"))
+    kept.sort(key=Finding.sort_key)
+    return kept
 
 
 def _display(path: Path) -> str:

@@ -14,7 +14,7 @@ covers N findings.  :func:`lintamp.decide.decide` applies it.
 from __future__ import annotations
 
 import json
-import os
+import os  # noqa: F401  (tests reach the writer's os functions through this module)
 from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -23,6 +23,7 @@ from lintamp.config import ConfigError
 from lintamp.findings import Finding, Report
 
 SCHEMA = 1
+MAX_BASELINE_BYTES = 256 * 1024 * 1024  # a bigger file is not a baseline lintamp wrote
 _ENTRY_KEYS = ("fingerprint", "rule", "path", "subject", "message")
 
 
@@ -64,19 +65,21 @@ def baseline_bytes(baseline: Baseline) -> bytes:
     return (json.dumps(doc, indent=2, sort_keys=True, ensure_ascii=False) + "\n").encode("utf-8")
 
 
-def write_baseline(path: Path, report: Report) -> Baseline:
+def write_baseline(path: Path, report: Report, *, protect=()) -> Baseline:
     """Write the report's findings (not the waived ones) as the new baseline, atomically.
 
     Findings already covered by an old baseline are not in ``report.findings``;
     call :func:`lintamp.decide.decide` without a baseline to record everything.
+    ``protect``: files never overwritten (the netlists checked); nor is a symbolic
+    link written through (see :func:`lintamp.safe_paths.write_atomic`).
     """
     baseline = Baseline.from_findings(report.findings)
     baseline.path = Path(path)
     try:
-        atomic_write_bytes(Path(path), baseline_bytes(baseline))
+        atomic_write_bytes(Path(path), baseline_bytes(baseline), protect=protect)
     except OSError as err:
         raise BaselineError(str(path), "", f"cannot write it ({err.strerror or err})",
-                            "a writable folder") from None
+                            "a writable regular file, not a link or a netlist") from None
     return baseline
 
 
@@ -89,9 +92,10 @@ def load_baseline(path: Path) -> Baseline:
         When the file is missing, unreadable, not JSON, of another tool or schema,
         or has entries of the wrong shape; the message says which and where.
     """
+    from lintamp.safe_paths import read_regular
     where = str(path)
     try:
-        raw = Path(path).read_bytes()
+        raw = read_regular(path, limit=MAX_BASELINE_BYTES)  # never a pipe or /dev/zero
     except FileNotFoundError:
         raise BaselineError(where, "", "file not found",
                             "a file written by `lintamp check --write-baseline`") from None
@@ -99,6 +103,9 @@ def load_baseline(path: Path) -> Baseline:
         raise BaselineError(where, "", f"cannot read it ({err.strerror or err})", "a readable file") from None
     try:
         doc = json.loads(raw.decode("utf-8"))
+    except RecursionError:
+        raise BaselineError(where, "", "is nested too deeply to be a baseline",
+                            "a baseline written by lintamp (rewrite it with --write-baseline)") from None
     except (UnicodeDecodeError, json.JSONDecodeError) as err:
         where_in = f"{where}:{err.lineno}:{err.colno}" if isinstance(err, json.JSONDecodeError) else where
         raise BaselineError(where_in, "", f"not valid JSON ({getattr(err, 'msg', err)})",
@@ -118,42 +125,13 @@ def load_baseline(path: Path) -> Baseline:
     return Baseline(entries=[{k: e[k] for k in _ENTRY_KEYS} for e in entries], path=Path(path))
 
 
-def atomic_write_bytes(path: Path, data: bytes) -> None:
+def atomic_write_bytes(path: Path, data: bytes, *, protect=(), durable: bool = True) -> None:
     """Replace ``path`` with ``data`` so that readers see the old file or the new, never half.
 
-    The bytes go to a temporary file in the same folder, are flushed to disk, then
-    renamed over the target (``os.replace`` is atomic on one file system).  If
-    anything fails, the temporary file is removed and the old file stays as it was.
+    :func:`lintamp.safe_paths.write_atomic`: a temporary file in the same folder,
+    flushed to disk, renamed over the target; never through a symbolic link, never
+    over a file in ``protect``; the old file's permissions kept.  If anything fails,
+    the temporary file is removed and the old file stays as it was.
     """
-    import tempfile  # here, not at the top: reading a baseline or a cache entry never needs it
-
-    path = Path(path)
-    folder = path.parent if str(path.parent) else Path(".")
-    fd, tmp_name = tempfile.mkstemp(dir=folder, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
-            handle.flush()
-            os.fsync(handle.fileno())
-        os.replace(tmp_name, path)
-    except BaseException:
-        try:
-            os.unlink(tmp_name)
-        except OSError:
-            pass
-        raise
-    _fsync_folder(folder)
-
-
-def _fsync_folder(folder: Path) -> None:
-    # Makes the rename itself durable; not every platform lets a folder be opened.
-    try:
-        fd = os.open(folder, os.O_RDONLY)
-    except OSError:
-        return
-    try:
-        os.fsync(fd)
-    except OSError:
-        pass
-    finally:
-        os.close(fd)
+    from lintamp.safe_paths import write_atomic
+    write_atomic(path, data, protect=protect, durable=durable)

@@ -312,6 +312,7 @@ def _specificity(names: Iterable[str], rule: str, category: str) -> int:
 # ---------------------------------------------------------------- globs
 
 _glob_cache: dict[tuple[str, bool], re.Pattern] = {}
+LINEAR_GLOB_STARS = 3  # globs with this many stars or more are matched without backtracking
 
 
 def _glob_regex(pattern: str, *, whole_name: bool = False) -> re.Pattern:
@@ -349,9 +350,79 @@ def _glob_regex(pattern: str, *, whole_name: bool = False) -> re.Pattern:
         else:
             out.append(re.escape(c))
         i += 1
-    compiled = re.compile("".join(out), re.DOTALL)
+    try:
+        compiled = re.compile("".join(out), re.DOTALL)
+    except re.error as exc:  # a bad class such as [z-a]
+        raise GlobError(f"is not a valid glob ({exc.msg})") from None
+    if pattern.count("*") >= LINEAR_GLOB_STARS:  # a regular expression would backtrack: *a*a*a*b
+        compiled = _LinearGlob(pattern, whole_name)
     _glob_cache[(pattern, whole_name)] = compiled
     return compiled
+
+
+class GlobError(ValueError):
+    """A config glob that cannot be matched (the message says why)."""
+
+
+class _LinearGlob:
+    """A glob matched in O(pattern x text) steps, whatever its stars (the same
+    language as :func:`_glob_regex`'s expression, without its backtracking)."""
+
+    def __init__(self, pattern: str, whole_name: bool):
+        self.whole_name = whole_name
+        self.tokens: list[tuple[str, object]] = []
+        i, n = 0, len(pattern)
+        while i < n:
+            c = pattern[i]
+            if c == "*":
+                if pattern.startswith("**", i) and not whole_name:
+                    i += 2
+                    if i < n and pattern[i] == "/":
+                        self.tokens.append(("folders", None))
+                        i += 1
+                    else:
+                        self.tokens.append(("any", None))
+                    continue
+                self.tokens.append(("star", None))
+            elif c == "?":
+                self.tokens.append(("one", None))
+            elif c == "[" and pattern.find("]", i + 2 if pattern[i + 1:i + 2] in ("!", "]") else i + 1) >= 0:
+                end = pattern.find("]", i + 2 if pattern[i + 1:i + 2] in ("!", "]") else i + 1)
+                body = pattern[i + 1:end]
+                if body.startswith("!"):
+                    body = "^" + body[1:]
+                self.tokens.append(("class", re.compile("[" + body.replace("\\", "\\\\") + "]", re.DOTALL)))
+                i = end
+            else:
+                self.tokens.append(("char", c))
+            i += 1
+
+    def fullmatch(self, text: str):
+        n = len(text)
+        reach = [False] * (n + 1)
+        reach[0] = True
+        for kind, data in self.tokens:
+            new = [False] * (n + 1)
+            if kind == "star":
+                active = False
+                for p in range(n + 1):
+                    active = reach[p] or (active and (self.whole_name or text[p - 1] != "/"))
+                    new[p] = active
+            elif kind in ("any", "folders"):
+                first = reach.index(True) if True in reach else n + 1
+                for p in range(first, n + 1):
+                    new[p] = kind == "any" or reach[p] or (p > first and text[p - 1] == "/")
+            else:
+                for p in range(n):
+                    if reach[p]:
+                        ch = text[p]
+                        new[p + 1] = (ch == data if kind == "char" else
+                                      (self.whole_name or ch != "/") if kind == "one" else
+                                      data.fullmatch(ch) is not None)
+            reach = new
+            if True not in reach:
+                return None
+        return True if reach[n] else None
 
 
 def glob_match(pattern: str, relpath: str) -> bool:
@@ -395,8 +466,8 @@ def _has_tool_table(pyproject: Path) -> bool:
 
     try:
         data = tomllib.loads(pyproject.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-        return False
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError, RecursionError):
+        return False  # another tool's file, nested too deep to parse: not ours
     tool = data.get("tool")
     return isinstance(tool, dict) and "lintamp" in tool
 
@@ -463,6 +534,8 @@ def load_config(path: Path | None, *, no_config: bool = False, start: Path,
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise ConfigError(str(path), "", f"not valid TOML: {err}", "TOML syntax (https://toml.io)") from None
+    except RecursionError:
+        raise ConfigError(str(path), "", "nested too deeply to read", "a flatter TOML file") from None
     prefix = ""
     if path.name == PYPROJECT_FILE:
         prefix = "tool.lintamp."
@@ -478,7 +551,8 @@ _TOP_KEYS = ("netlists", "exclude", "only", "skip", "fail-on", "bandwidth", "inc
 # Keys of lintamp 0.1.0 and what they are called now: reading one is an error that says so.
 RENAMED_KEYS = {"include": "netlists", "select": "only", "ignore": "skip",
                 "per-file-ignores": "paths"}
-PORT_KINDS = ("voltage-output", "current-input", "load")
+PORT_KINDS = ("voltage-output", "current-input", "voltage-input", "current-output", "load", "supply",
+              "ground")
 
 
 def parse_config(data: dict, *, source: Path, prefix: str = "",
@@ -516,8 +590,14 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
     if "bandwidth" in data:
         config.bandwidth = check.bandwidth(data["bandwidth"], "bandwidth")
     if "include-paths" in data:
-        config.include_paths = tuple(
-            (root / p).resolve() for p in check.strings(data["include-paths"], "include-paths"))
+        from lintamp.safe_paths import include_root_inside, repository_of
+        try:  # a committed config may not open the sandbox: folders inside the repository only
+            config.include_paths = tuple(
+                include_root_inside(root, p, repository_of(root))
+                for p in check.strings(data["include-paths"], "include-paths"))
+        except ValueError as exc:
+            raise check.fail("include-paths", str(exc),
+                             "folders inside the repository (give others with --include-path)") from None
     if "severity" in data:
         config.severity = check.severity_table(data["severity"], "severity")
     if "paths" in data:
@@ -587,7 +667,15 @@ class _Checker:
         for item in items:
             if not item.strip():
                 raise self.fail(key, "has an empty pattern", "glob patterns such as \"*.sp\"")
+            self.valid_glob(item, key)
         return items
+
+    def valid_glob(self, pattern: str, key: str, *, whole_name: bool = False) -> None:
+        try:
+            _glob_regex(pattern.strip().removeprefix("./") if not whole_name else pattern.lower(),
+                        whole_name=whole_name)
+        except GlobError as exc:
+            raise self.fail(key, f"{pattern!r} {exc}", "glob patterns such as \"*.sp\" or \"[a-z]*\"") from None
 
     def selectors(self, value, key: str) -> tuple[str, ...]:
         items = value if isinstance(value, tuple) else self.strings(value, key)
@@ -638,6 +726,7 @@ class _Checker:
             if not isinstance(spec, dict):
                 raise self.fail(sub, f"is {_shape(spec)}",
                                 f'a table such as "{pattern}" = {{ skip = ["unused-port"] }}')
+            self.valid_glob(pattern, sub)
             for k in spec:
                 if k not in PATH_KEYS:
                     raise self.fail(f"{sub}.{k}", "unknown key", " or ".join(PATH_KEYS))
@@ -650,6 +739,7 @@ class _Checker:
         out: list[DeviceMapping] = []
         for pattern, spec in self.table(value, key).items():
             sub = f'{key}."{pattern}"'
+            self.valid_glob(pattern, sub, whole_name=True)
             spec = self.table(spec, sub)
             for k in spec:
                 if k not in ("kind", "pins", "value"):

@@ -1,33 +1,59 @@
 """Shared building of island findings for no-dc-path, unbiased-gate and current-cutset.
 
 Each DC island (a component with no path to ground, a defined global or a port) is
-reported exactly once, by the rule :func:`lintamp.connectivity.dc_paths.island_rule`
-picks for it; bases and JFET gates that only their own junctions reach are added
+reported exactly once, by the rule its kind (:func:`lintamp.connectivity.dc_paths.island_kind`)
+names in :data:`RULE_OF_KIND`; bases and JFET gates that only their own junctions reach are added
 to unbiased-gate from the BIAS-mode analysis.
 """
 
 from __future__ import annotations
 
-from lintamp.connectivity.dc_paths import (BIAS, FULL, describe_terminal, island_rule, islands,
-                                       reaches_defined_level, unread_cells)
+from lintamp.connectivity.dc_paths import (BIAS, FULL, IslandKind, describe_terminal, island_kind,
+                                           islands, reaches_defined_level, unread_cells)
 from lintamp.findings import Related
+from lintamp.rules._supply import declared_pins
 
 MAX_LISTED = 8
+# the rule that reports each kind of island (one the feedback may set is not reported)
+RULE_OF_KIND = {IslandKind.CURRENT_FED: "current-cutset", IslandKind.UNBIASED_CONTROL: "unbiased-gate",
+                IslandKind.FLOATING: "no-dc-path"}
+
+
+def sealed_cells(ctx) -> dict[int, object]:
+    """The cells whose ports reach nothing inside: no ports at all (a layout extraction
+    that found no pin labels) or every port unconnected.  Every island inside such a
+    cell follows from that one cause, so the island rules leave them to one finding
+    per cell (no-dc-path for a cell with no ports, unused-port for unconnected ports)."""
+    def build():
+        sealed = {}
+        for view in ctx.cells():
+            if view.cell.is_top or not view.devices:
+                continue
+            if not any(view.net_terminals.get(port) for port in view.ports):
+                sealed[id(view)] = view
+        return sealed
+    return ctx.memo("sealed-cells", build)
 
 
 def island_findings(ctx, rule: str):
     """(view, island, bias_only) for every island the named rule reports."""
     skip = unread_cells(ctx)
+    sealed = sealed_cells(ctx)
+    pins = declared_pins(ctx)  # a schematic export's own pins: biased by its user
     for view in ctx.cells():
-        if id(view) in skip:
+        if id(view) in skip or id(view) in sealed:
             continue
         for island in islands(ctx, view, FULL):
-            if island_rule(island) == rule:
+            if view.cell.is_top and pins and any(n in pins for n in island.nets):
+                continue
+            if RULE_OF_KIND.get(island_kind(island)) == rule:
                 yield view, island, False
         if rule != "unbiased-gate":
             continue
         for island in islands(ctx, view, BIAS):
             if island.current_feeds or not island.controls:
+                continue
+            if view.cell.is_top and pins and any(n in pins for n in island.nets):
                 continue
             if not reaches_defined_level(ctx, view, island.nets[0], FULL):
                 continue  # already reported as a FULL island

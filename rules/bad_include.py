@@ -6,6 +6,11 @@ What it finds
     resolve outside the project root and the configured include paths (absolute
     paths, ``..`` escapes, symbolic links pointing out).
 
+    An absolute or home path (a library on the author's machine: ``/foss/pdks/...``,
+    ``~/pdk/...``) is a warning, as a missing file is, one per library with the
+    other include lines as related locations; a relative path that climbs out of
+    the project, a cycle or a chain too deep is an error.
+
 Why it matters
     A cycle makes a simulator loop or fail; a path out of the project reads files
     the netlist's author does not control (a CI gate reads netlists from anyone
@@ -21,12 +26,15 @@ Fix
     ``--include-path``.
 """
 
-from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Severity
+from lintamp.rules import _cascade
 
 NAME = "bad-include"
 CATEGORY = "references"
 SEVERITY = Severity.ERROR
 SUMMARY = "an include cycle, an include outside the allowed folders, or includes nested too deep"
 
-check = forward_diagnostics
+def check(ctx):
+    yield from _cascade.group_findings(ctx, NAME)
+    for diag in _cascade.alone(ctx, NAME):
+        yield ctx.from_diagnostic(diag)

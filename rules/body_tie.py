@@ -8,14 +8,17 @@ What it finds
     * a body junction that the known rail voltages forward-bias by more than 0.3 V: an
       NMOS body above its source or drain, a PMOS body below them;
     * a floating body: a body net that touches nothing but bodies (and capacitors) and
-      is not a port;
+      is not a port (several such nets in one cell, as an extraction with untied wells
+      writes them, are one finding);
     * where no voltages are known, one body net shared by NMOS and PMOS devices: one of
       the two kinds sits on the wrong side.
 
     Not reported: a body on its own source, bodies on intermediate rails whose
     junctions the known voltages do not forward-bias, bulk-driven or dynamic-threshold
     designs (body on a signal net), MOS capacitors (drain = source = body), and SOI
-    devices (their fourth node is the substrate, not a body).
+    devices (their fourth node is the substrate, not a body), and a body on a net named
+    for the device's own rail (a PMOS on ``vdd``) that the deck holds at the other end
+    (a supply swept up from 0 V).
 
 Why it matters
     A forward-biased source/drain-body junction conducts IS*exp(V/VT): the device leaks
@@ -33,8 +36,12 @@ Fix
     source where the process gives it a separate well.
 """
 
+import re
+
+from lintamp.circuit.kinds import MOS, MOS_KINDS
 from lintamp.connectivity.rails import get_rails
 from lintamp.findings import Related, Severity
+from lintamp.rules._islands import sealed_cells
 
 NAME = "body-tie"
 CATEGORY = "connectivity"
@@ -66,10 +73,18 @@ def _is_soi(dev) -> bool:
 
 
 def _transistors(view):
-    for dev in view.devices_where(lambda key: key[0] in ("nmos", "pmos")):
-        if (dev.kind in ("nmos", "pmos") and dev.net("b") is not None and not _is_mos_cap(dev)
+    for dev in view.devices_of(kinds=MOS):
+        if (dev.kind in MOS and dev.net("b") is not None and not _is_mos_cap(dev)
                 and not _is_soi(dev)):
             yield dev
+
+
+_SUPPLY_NAME = re.compile(r"([ad]?v(dd|cc|pwr|pp|pb)\w*|vdd)", re.I)
+_GROUND_NAME = re.compile(r"([ad]?v(ss|ee|gnd|nb)\w*|[ad]?gnd\w*|0)", re.I)
+
+
+def _named_for_own_rail(net: str, nmos: bool) -> bool:
+    return (_GROUND_NAME if nmos else _SUPPLY_NAME).fullmatch(net) is not None
 
 
 def _fmt(v: float) -> str:
@@ -78,7 +93,10 @@ def _fmt(v: float) -> str:
 
 def check(ctx):
     rails = get_rails(ctx)
+    portless = {k for k, v in sealed_cells(ctx).items() if not v.ports}  # no-dc-path says it once
     for view in ctx.cells():
+        if id(view) in portless:
+            continue
         known = rails.of(view)
         low, high = rails.lowest_v, rails.highest_v
         if not ctx.design.in_deck(view) or low is None:
@@ -86,8 +104,37 @@ def check(ctx):
             low, high = (min(local), max(local)) if local else (None, None)
         shared_done = set()
         body_nets = _BodyNets(view)
+        floating: list = []
         for dev in _transistors(view):
-            yield from _check_device(ctx, view, dev, known, low, high, shared_done, body_nets)
+            yield from _check_device(ctx, view, dev, known, low, high, shared_done, body_nets,
+                                     floating)
+        if len(floating) == 1:
+            yield floating[0][2]
+        elif floating:
+            yield _floating_bodies(ctx, view, floating, body_nets)
+
+
+def _floating_bodies(ctx, view, floating, body_nets):
+    """Several body nets that float in one cell (an extraction that left its wells
+    and substrate untied, most often): one finding with the nets and their bodies."""
+    nets = [net for net, _, _ in floating]
+    first = floating[0][1]
+    bodies = sum(len(body_nets.terms(n)) for n in nets)
+    shown = ", ".join(nets[:6]) + (f" and {len(nets) - 6} more" if len(nets) > 6 else "")
+    return ctx.finding(
+        location=first.location, subject=nets[0], view=view, nets=nets[:50],
+        elements=[dev.name for _, dev, _ in floating][:50],
+        message=f"{len(nets)} body nets float: they touch only transistor bodies ({shown})",
+        explanation=[f"{bodies} transistor bodies sit on nets that nothing else reaches",
+                     "a body reached only through its own junctions settles wherever their "
+                     "leakage puts it; the threshold voltage follows",
+                     "in an extracted netlist this is most often a well or the substrate "
+                     "the extraction did not tie to its rail"],
+        fix="tie the wells and the substrate to their rails (well taps), or extract with "
+            "the substrate connected",
+        values={"body_nets": len(nets), "bodies": bodies},
+        related=[Related(dev.location, f"body of {dev.display} on {net}")
+                 for net, dev, _ in floating[1:9]])
 
 
 class _BodyNets:
@@ -111,7 +158,7 @@ class _BodyNets:
         got = self._only_bodies.get(net)
         if got is None:
             got = self._only_bodies[net] = all(
-                (d.kind in ("nmos", "pmos", "mos") and p == "b") or d.kind == "capacitor"
+                (d.kind in MOS_KINDS and p == "b") or d.kind == "capacitor"
                 for d, p in self.terms(net))
         return got
 
@@ -136,7 +183,7 @@ def _where(dev, view) -> dict:
     return dict(location=dev.location, subject=dev.name, view=view)
 
 
-def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets):
+def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets, floating):
     nmos = dev.kind == "nmos"
     body, src, drn = dev.net("b"), dev.net("s"), dev.net("d")
     if body == src:
@@ -145,7 +192,9 @@ def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets):
     vb = known.volts.get(body)
     if vb is not None and low is not None and high is not None and high > low:
         wrong_rail = high if nmos else low
-        if abs(vb - wrong_rail) < 1e-9:
+        # a body on a net named for its own rail (a PMOS on vdd) is tied as meant even
+        # where the deck holds that rail at the other end (a supply swept up from 0 V)
+        if abs(vb - wrong_rail) < 1e-9 and not _named_for_own_rail(body, nmos):
             yield ctx.finding(
                 **_where(dev, view), nets=[body], elements=[dev.name],
                 message=f"{kind} {dev.display} has its body on the "
@@ -185,7 +234,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets):
         if body not in shared_done and body_nets.only_bodies(body):
             shared_done.add(body)
             others = [d for d, _ in terms if d is not dev and d.kind != "capacitor"]
-            yield ctx.finding(
+            floating.append((body, dev, ctx.finding(
                 **_where(dev, view), nets=[body],
                 message=f"the body net {body} of {dev.display} floats: it touches only "
                         "transistor bodies",
@@ -196,7 +245,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets):
                              "their leakage puts it; the threshold voltage follows"],
                 fix=f"tie {body} to the {'lowest' if nmos else 'highest'} rail or to the source",
                 values={"bodies": len(terms)}, elements=[dev.name] + [d.name for d in others[:8]],
-                related=[Related(d.location, f"body of {d.display}") for d in others[:8]])
+                related=[Related(d.location, f"body of {d.display}") for d in others[:8]])))
             return
     if body in shared_done or view.is_external(body) and not terms:
         return

@@ -33,7 +33,9 @@ Fix
 
 from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is_voltage_output,
                                        unread_cells)
-from lintamp.findings import Severity
+from lintamp.findings import Related, Severity
+from lintamp.rules import _cascade, _parasitics, _supply
+from lintamp.rules._islands import sealed_cells
 
 NAME = "dangling-net"
 CATEGORY = "connectivity"
@@ -66,16 +68,25 @@ def _drives_port(dev, pin) -> bool:
 def check(ctx):
     skip = unread_cells(ctx)
     ground = ctx.design.ground
+    portless = {k for k, v in sealed_cells(ctx).items() if not v.ports}  # no-dc-path says it once
     for view in ctx.cells():
-        if id(view) in skip or interface_view(ctx.design, view):
+        if id(view) in skip or id(view) in portless or interface_view(ctx.design, view):
             continue
-        devices = view.devices
-        roleless = {net for dev in map(devices.__getitem__, view.terminal_table.extra_devices)
-                    for net in dev.nets[len(dev.pins):]}
+        roleless = view.roleless_nets()
         # a top-level net that .print/.plot/.save or a .control script looks at is observed
         observed = ctx.netlist.observed if view.cell.is_top else set()
+        # a testbench's supply net that only blocks' supply pins reach: undriven-supply
+        # is the finding (one cause, one finding)
+        unpowered = ({net for net, _ in _supply.undriven_supplies(ctx)}
+                     | _supply.declared_pins(ctx)  # pins of an exported schematic: used outside
+                     if view is ctx.design.top else set())
+        stubs: list = []
+        unknown_pins: list = []
+        opened: list = []  # open because the export left instances out
+        left_out = bool(_cascade.dropped_instances(view))
         for net in view.net_terminals.with_degree(1):
-            if view.is_external(net) or net in ground or net in roleless or net in observed:
+            if (view.is_external(net) or net in ground or net in roleless or net in observed
+                    or net in unpowered):
                 continue
             terminals = view.net_terminals[net]
             dev, pin = terminals[0]
@@ -83,6 +94,21 @@ def check(ctx):
                 continue  # a computed test signal, or a device whose pins lintamp cannot judge
             if dev.kind == "line" and pin.startswith("t"):
                 continue  # a pin of a many-conductor line lintamp does not name
+            if _parasitics.reaches_into_instance(ctx, view, net):
+                continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
+            if left_out:
+                opened.append((net, dev.location))
+                continue
+            if dev.kind == "capacitor":
+                continue  # a capacitor alone on its net: no-dc-path is the finding (one cause)
+            if pin == "b" and dev.kind in ("nmos", "pmos") and len(dev.nets) <= 4:
+                continue  # a body alone on its net: body-tie says it floats (one cause, one finding)
+            if dev.kind in _parasitics.PASSIVE_KINDS and _parasitics.is_extraction_net(ctx, view, net):
+                stubs.append((net, dev, pin))  # a dead-end stub of an extracted RC network
+                continue
+            if dev.kind == "instance" and dev.subcell is None:
+                unknown_pins.append((net, dev, pin))  # unknown-cell is the finding
+                continue
             if dev.kind == "instance" and _drives_port(dev, pin):
                 # an output pin left open (an unused complementary output) is common and
                 # harmless; say so quietly
@@ -108,3 +134,46 @@ def check(ctx):
                                 "reaches it"]),
                 fix=f"connect {net} where it was meant to go, or remove {dev.display}",
                 values={"terminals": 1})
+        if opened:
+            yield _cascade.open_by_dropped(ctx, view, NAME, [n for n, _ in opened], opened[0][1])
+        if stubs:
+            yield _stubs_finding(ctx, view, stubs)
+        if unknown_pins:
+            yield _unknown_pins_finding(ctx, view, unknown_pins)
+
+
+def _stubs_finding(ctx, view, stubs):
+    """The dead-end stubs of a cell's extracted RC network: one info with a count."""
+    def size(item):
+        value = _parasitics.value_of(item[1])
+        return value if value is not None else -1.0
+    net, dev, pin = max(stubs, key=size)
+    first = min(stubs, key=lambda s: (s[1].location.line, s[1].location.column))
+    return ctx.finding(
+        location=first[1].location, subject="extraction stubs", view=view,
+        nets=[s[0] for s in stubs][:50], elements=[s[1].name for s in stubs][:50],
+        severity=Severity.INFO,
+        message=f"{len(stubs)} dead-end stub(s) of the extracted RC network "
+                f"(largest: {net}, on {describe_terminal(dev, pin)})",
+        explanation=["each of these nets is touched by one resistor or capacitor pin only: a "
+                     "wire segment or a coupling capacitor the extractor wrote up to where the "
+                     "metal ends", "an extraction fact, not a connection the design lacks"],
+        fix="nothing to do for the extraction; look again only where a stub is a net the "
+            "design names",
+        values={"count": len(stubs)},
+        related=[Related(dev.location, f"largest stub: {net}")])
+
+
+def _unknown_pins_finding(ctx, view, items):
+    """Nets that only an unknown cell's pin touches: consequences of unknown-cell."""
+    first = min(items, key=lambda s: (s[1].location.line, s[1].location.column))
+    shown = ", ".join(s[0] for s in items[:5]) + (", ..." if len(items) > 5 else "")
+    return ctx.finding(
+        location=first[1].location, subject="nets on unknown cells", view=view,
+        nets=[s[0] for s in items][:50], elements=sorted({s[1].name for s in items})[:50],
+        severity=Severity.INFO,
+        message=f"{len(items)} net(s) touched only by a pin of an undefined cell ({shown})",
+        explanation=["the cell these pins belong to is not defined here (see unknown-cell), "
+                     "so whether its pins are open outputs or inputs is not known"],
+        fix="define or include the cell, then check again", values={"count": len(items)})
+

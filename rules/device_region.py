@@ -50,11 +50,13 @@ Fix
     bias net that should turn the device on.
 """
 
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings
+from lintamp.circuit.kinds import BJT, MOS, TRANSISTORS
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 from lintamp.rules._islands import MAX_LISTED, listing
 
 NAME = "device-region"
@@ -102,7 +104,7 @@ def _switching_deck(circuit, op, transistors) -> bool:
     if not any(d.source is not None and d.source.time_varying for d in circuit.devices):
         return False
     analog = sum(1 for d in transistors if op.devices[d.name].region in ("saturation", "forward-active")
-                 and not (d.kind in ("npn", "pnp") and op.devices[d.name].region == "saturation"))
+                 and not (d.kind in BJT and op.devices[d.name].region == "saturation"))
     return analog * 2 < len(transistors)
 
 
@@ -113,11 +115,11 @@ def _dc_conduction_count(circuit) -> dict[int, int]:
         if dev.kind == "capacitor":
             continue
         pins = dev.nodes[:2]
-        if dev.kind in ("nmos", "pmos"):
+        if dev.kind in MOS:
             pins = (dev.nodes[0], dev.nodes[2])
         elif dev.kind in ("vcvs", "vccs"):
             pins = dev.nodes[:2]
-        elif dev.kind in ("npn", "pnp"):
+        elif dev.kind in BJT:
             pins = dev.nodes[:3]
         for n in set(pins):
             count[n] = count.get(n, 0) + 1
@@ -156,7 +158,7 @@ def check(ctx):
     margin = ctx.threshold(SAT_MARGIN.name, SAT_MARGIN.default)
     vce_min = ctx.threshold(VCE_MIN.name, VCE_MIN.default)
     switches = _switch_gates(circuit, op, numbers.ac_ground)
-    transistors = [d for d in circuit.devices if d.kind in ("nmos", "pmos", "npn", "pnp") and d.name in op.devices]
+    transistors = [d for d in circuit.devices if d.kind in TRANSISTORS and d.name in op.devices]
     off = sum(1 for d in transistors if op.devices[d.name].region == "cutoff")
     # most devices off: supplies at 0 V, a sweep or a logic state -- not a working point
     judge_cutoff = off * 2 <= len(transistors)
@@ -165,7 +167,7 @@ def check(ctx):
     dc_nets = _dc_conduction_count(circuit)
     seen = set()
     for dev in circuit.devices:
-        if dev.kind not in ("nmos", "pmos", "npn", "pnp"):
+        if dev.kind not in TRANSISTORS:
             continue
         stage = finder.roles.get(dev.name)
         dop = op.devices.get(dev.name)
@@ -202,7 +204,7 @@ def check(ctx):
 def _problem(dev, role, dop, margin, vce_min):
     v = dop.values
     region = dop.region
-    mos = dev.kind in ("nmos", "pmos")
+    mos = dev.kind in MOS
     if role in NEEDS_CURRENT:
         if region == "cutoff":
             return (f"{role} is cut off (no current)",

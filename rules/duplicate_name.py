@@ -19,11 +19,9 @@ Fix
     Rename one of them (``R6 b c 22k``).
 """
 
-from collections import Counter
-
 from lintamp.rulekit.context import forward_diagnostics
 from lintamp.findings import Related, Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "duplicate-name"
 CATEGORY = "references"
@@ -31,38 +29,10 @@ SEVERITY = Severity.ERROR
 SUMMARY = "two elements with one name in one scope"
 
 
-_BIG = 100_000  # names: above this many, compared by hash in an array before any set
-
-
-def _repeated_names(devices) -> list[str] | None:
-    """The devices' names (a DeviceList's, in order) where two of them are equal;
-    None where all are distinct.  A big cell's names are told apart by their hashes
-    first (one 8-byte integer each, sorted; the parser hashed the names of the runs of
-    plain cards as it read them), so that the usual answer, all distinct, needs no
-    list or set of a million strings; equal hashes fall back to the names."""
-    if len(devices) > _BIG:
-        hashes = devices.name_hashes()
-        hashes.sort()
-        if not (hashes[1:] == hashes[:-1]).any():
-            return None
-    names = devices.names()
-    return None if len(set(names)) == len(names) else names
-
-
 def check(ctx):
     yield from forward_diagnostics(ctx)
     for view in ctx.cells():
-        names = _repeated_names(view.devices)
-        if names is None:
-            continue  # the usual case, found without a list per name
-        counts = Counter(names)
-        by_name: dict[str, list] = {}
-        for d, name in enumerate(names):  # only the devices that share a name are made
-            if counts[name] > 1:
-                by_name.setdefault(name, []).append(view.devices[d])
-        for name, devs in by_name.items():
-            if len(devs) < 2:
-                continue
+        for name, devs in view.devices_sharing_names().items():
             first, second = devs[0], devs[1]
             others = f" (and {len(devs) - 2} more)" if len(devs) > 2 else ""
             yield ctx.finding(

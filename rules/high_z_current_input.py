@@ -58,14 +58,15 @@ Fix
 import math
 
 from lintamp.rulekit.explain_steps import freq_words, looking_into_steps
+from lintamp.engine.engine_kinds import OPEN_OHM
 from lintamp.engine.flat_places import prefix_of
-from lintamp.rulekit.impedance_numbers import (Numbers, device_capacitance_at, impedance_numbers,
-                                                no_numbers_findings, safely)
+from lintamp.rulekit.impedance_numbers import Numbers, device_capacitance_at, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
-from lintamp.connectivity.signal_band import signal_band
+from lintamp.connectivity.intent import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 
 NAME = "high-z-current-input"
 CATEGORY = "impedance"
@@ -78,8 +79,6 @@ POLE_MARGIN = register_threshold(
 MAX_OHM = register_threshold(
     "current-input-max-ohm", 10e3, "ohm",
     "highest |Z_in| of a current input when the node capacitance or the band is unknown")
-OPEN_OHM = 1e11
-
 
 
 def check(ctx):
@@ -143,21 +142,21 @@ def _judge(ctx, numbers, finder, port, margin, max_ohm):
                       + ("the node capacitance is unknown)" if band else "the signal band is unknown)"))
     expl = numbers.explain(port.name, freq_hz, detach)
     steps = [f"{port.local} is a current input: {port.why}"]
+    path = finder.path_words(port.net, toward_output=False)
+    if path:
+        steps.append(path)
     steps += looking_into_steps(expl, port.local, detach)
     if c_farad > 0:
         parts = [*(f"{n}" for n in cap_names), *(f"model capacitance of {n}" for n in dev_names)]
         steps.append(f"node capacitance C = {si(c_farad, 'F')} ({', '.join(parts)})")
     steps.append(limit_step)
     steps.append("band: " + (f"{si(band.hz, 'Hz')} from the {band.source}" if band else
-                             "unknown (no --bandwidth, bandwidth pragma, config bandwidth or .ac sweep)")
+                             "unknown (no --bandwidth, bandwidth pragma or config bandwidth; the .ac sweep's range is not the band)")
                  + f"; impedance evaluated at {freq_words(freq_hz)}")
     steps.append(f"numbers from {numbers.source_words}")
     related = [Related(d.location, f"{d.name}: {b.via}") for b in expl.branches[:3]
                for d in [finder.by_name.get(b.elements[0]) if b.elements else None] if d is not None]
-    weak = band is not None and band.weak and "band_hz" in values and (
-        "pole_hz" in values or values.get("freq_hz") == band.hz)
     return ctx.finding(
-        severity=Severity.INFO if weak else None,
         location=port.location, subject=port.local, view=port.view, message=message,
         nets=[port.local], elements=[_relative(e, port) for b in expl.branches[:3] for e in b.elements],
         explanation=steps, values=values, related=related,

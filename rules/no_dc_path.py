@@ -31,9 +31,11 @@ Fix
     ngspice's ``.option rshunt`` puts a large resistor from every node to ground.
 """
 
-from lintamp.findings import Severity
+from lintamp.findings import Related, Severity
+from lintamp.rules import _cascade, _parasitics
+from lintamp.connectivity.dc_paths import FULL, islands
 from lintamp.rules._islands import (context_steps, elements, island_findings, net_phrase,
-                                    related, terminal_lines)
+                                    related, sealed_cells, terminal_lines)
 
 NAME = "no-dc-path"
 CATEGORY = "connectivity"
@@ -42,9 +44,18 @@ SUMMARY = "nodes with no DC path to ground"
 
 
 def check(ctx):
+    floating: dict[int, list] = {}
     for view, island, _ in island_findings(ctx, NAME):
         first = island.first_device
         if first is None:
+            continue
+        if _cascade.dropped_instances(view):
+            continue  # open where the export left instances out: unknown-cell says it once
+
+        if any(_parasitics.reaches_into_instance(ctx, view, n) for n in island.nets):
+            continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
+        if _floating_metal(ctx, view, island):
+            floating.setdefault(id(view), [view]).append(island)
             continue
         count = len(island.nets)
         yield ctx.finding(
@@ -63,3 +74,70 @@ def check(ctx):
                 "that was meant",
             values={"island_nets": count, "terminals": len(island.terminals)},
             related=related(island, skip=first))
+    for view, *found in floating.values():
+        yield _floating_finding(ctx, view, found)
+    for view in sealed_cells(ctx).values():
+        if not view.ports:
+            finding = _portless_finding(ctx, view)
+            if finding is not None:
+                yield finding
+
+
+
+def _floating_metal(ctx, view, island) -> bool:
+    """Metal an extractor wrote that only coupling capacitors (and wire resistors)
+    hold: every terminal on the island is an R or C pin, one at least a C."""
+    kinds = {dev.kind for dev, _ in island.terminals}
+    if "capacitor" not in kinds or not kinds <= set(_parasitics.PASSIVE_KINDS):
+        return False
+    return all(_parasitics.EXTRACTED_NAME.search(n) for n in island.nets) or \
+        _parasitics.looks_extracted(ctx, view)
+
+
+def _floating_finding(ctx, view, islands):
+    largest = max(islands, key=lambda i: len(i.terminals))
+    first = min((i.first_device for i in islands),
+                key=lambda d: (d.location.path, d.location.line, d.location.column))
+    nets = [n for i in islands for n in i.nets]
+    return ctx.finding(
+        location=first.location, subject="floating metal", view=view, nets=nets[:50],
+        severity=Severity.INFO,
+        message=f"{len(islands)} piece(s) of floating metal held only by coupling capacitors "
+                f"({len(nets)} net(s); largest: {net_phrase(largest)}, "
+                f"{len(largest.terminals)} terminals)",
+        explanation=["on these nets every terminal is a parasitic capacitor (or a wire "
+                     "resistor between such nets): fill, shields or unconnected wells the "
+                     "extractor wrote with their coupling", "an extraction fact; a simulator "
+                     "needs a DC return there only for its operating point (ngspice-39: "
+                     "'.option rshunt' gives one)"],
+        fix="nothing to do for the extraction; tie the metal in layout if it was meant to be "
+            "a shield or a well tap",
+        values={"count": len(islands), "island_nets": len(nets)},
+        related=[Related(largest.first_device.location, f"largest: {largest.nets[0]}")])
+
+
+def _portless_finding(ctx, view):
+    """A .subckt with devices and no ports (a layout extraction that found no pin
+    labels): every net inside floats, one finding for the cell instead of one per net."""
+    found = [i for i in islands(ctx, view, FULL) if i.first_device is not None]
+    if not found:
+        return None  # it holds its own sources and ground: a closed circuit
+    gates = sum(1 for i in found for dev, pin in i.terminals if pin in ("g", "b"))
+    first = min((i.first_device for i in found),
+                key=lambda d: (d.location.path, d.location.line, d.location.column))
+    nets = [n for i in found for n in i.nets]
+    return ctx.finding(
+        location=view.cell.location, subject=view.cell.name, view=view, nets=nets[:50],
+        severity=Severity.WARNING,
+        message=f".subckt {view.label} has no ports: its {len(nets)} net(s) reach nothing "
+                "outside, so none of them has a DC level",
+        explanation=[f"{view.label} holds {len(view.devices)} element(s) and lists no port on its "
+                     ".subckt line; nothing inside is a source or ground",
+                     "a layout extraction writes such a cell when the layout carries no pin "
+                     "labels; LVS then has nothing to compare, and an instance of it "
+                     "connects to nothing",
+                     f"the {len(found)} floating island(s) inside ({gates} gate or base pin(s)) "
+                     "follow from this one cause and are not listed one by one"],
+        fix="label the pins in the layout (or add the ports to the .subckt line) and extract again",
+        values={"islands": len(found), "island_nets": len(nets), "gates": gates},
+        related=[Related(first.location, f"first element: {first.display}")])

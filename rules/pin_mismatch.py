@@ -22,8 +22,9 @@ Fix
     Connect exactly one net per port, in the order of the ``.subckt`` line.
 """
 
+from lintamp.circuit.kinds import MOS
 from lintamp.findings import Related, Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 NAME = "pin-mismatch"
 CATEGORY = "references"
@@ -33,7 +34,7 @@ SUMMARY = "an instance whose node count differs from its subcircuit's ports"
 
 def check(ctx):
     for view in ctx.cells():
-        for dev in view.devices_where(lambda key: key[2] == "x"):  # instances and mapped devices
+        for dev in view.devices_of(letters="x"):  # instances and mapped devices
             optional = 0
             if dev.kind == "instance" and dev.subcell is not None:
                 ports = dev.subcell.ports
@@ -48,7 +49,7 @@ def check(ctx):
                 continue
             given = len(dev.nets)
             # a mapped BJT may omit its substrate pin, a resistor or capacitor its body
-            optional_last = (dev.spec is not None and dev.spec.kind not in ("nmos", "pmos")
+            optional_last = (dev.spec is not None and dev.spec.kind not in MOS
                              and ports and ports[-1] in ("b", "s"))
             if len(ports) - optional <= given <= len(ports) or (optional_last and given == len(ports) - 1):
                 continue

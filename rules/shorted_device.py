@@ -9,7 +9,10 @@ What it finds
     drain = source but its gate elsewhere -- the shape of a layout dummy (gate at the
     off rail) as well as of a MOS capacitor, common in extracted netlists -- or with
     all four terminals on one net (a dummy tied to its rail, as schematic flows
-    write edge dummies).
+    write edge dummies).  PDK devices (subcircuits the device map names) with drain,
+    gate and source on one net, a BJT with every terminal on one net, or a PDK
+    resistor with both ends on one net are layout dummies: one info per cell with
+    their count.
 
 Why it matters
     The device does nothing (a dead element, a transistor that can never carry
@@ -27,8 +30,9 @@ Fix
     element.
 """
 
-from lintamp.connectivity.dc_paths import JFET_KINDS
-from lintamp.circuit.design import BJT_KINDS, MOS_KINDS
+import re
+
+from lintamp.circuit.kinds import BJT_KINDS, JFET_KINDS, MOS_KINDS
 from lintamp.findings import Severity
 
 NAME = "shorted-device"
@@ -64,14 +68,41 @@ def shorted_pins(dev) -> tuple[str, str] | None:
     return None
 
 
+_EXTRACTION_NODE = re.compile(r"\.[nt]\d+$")
+
+
+def _root(net: str | None) -> str | None:
+    """An extracted node's net ('avss.t80' is a node of 'avss')."""
+    return _EXTRACTION_NODE.sub("", net) if net else net
+
+
+def is_layout_dummy(dev) -> bool:
+    """A PDK device (a subcircuit the device map names) placed for matching or
+    density with no job: a MOS with drain, gate and source on one net, a BJT with
+    every terminal on one net (an extractor's nodes of one net count as one), a
+    resistor or capacitor with both ends on one net.  Plain M/Q/R cards are never dummies."""
+    if dev.spec is None:
+        return False
+    net = dev.net
+    if dev.kind in MOS_KINDS:
+        return _root(net("d")) == _root(net("s")) == _root(net("g"))
+    if dev.kind in BJT_KINDS:
+        return _root(net("c")) == _root(net("e")) == _root(net("b"))
+    if dev.kind in ("resistor", "capacitor"):
+        return net("p") is not None and net("p") == net("n")
+    return False
+
+
 def check(ctx):
     for view in ctx.cells():
-        devices = view.devices
-        # only a device with one net on two terminals can be shorted: the terminal
-        # table finds those with array operations
-        for dev in [devices[d] for d in view.terminal_table.repeated_net_devices()]:
+        dummies = []
+        # only a device with one net on two terminals can be shorted
+        for dev in view.devices_with_repeated_nets():
             pins = shorted_pins(dev)
             if pins is None:
+                continue
+            if is_layout_dummy(dev):
+                dummies.append(dev)
                 continue
             net = dev.net(pins[0])
             values = {"pins": f"{pins[0]},{pins[1]}"}
@@ -97,3 +128,20 @@ def check(ctx):
                 fix="connect the terminal typed twice to the net that was meant, or remove "
                     "the element",
                 values=values)
+        if dummies:
+            first = dummies[0]
+            kinds = sorted({d.kind for d in dummies})
+            yield ctx.finding(
+                location=first.location, subject="layout dummies", view=view,
+                elements=[d.name for d in dummies][:50], severity=Severity.INFO,
+                message=f"{len(dummies)} dummy device(s) ({', '.join(kinds)}) with their "
+                        f"terminals tied on one net, e.g. {first.display} on {first.nets[0]}",
+                explanation=["PDK devices with drain, gate and source (or every terminal, or "
+                             "both ends) on one net: dummies placed for matching, "
+                             "etch or density, which carry no current",
+                             "they are not loads or diode connections in any impedance "
+                             "reasoning"],
+                fix="nothing to do when they are dummies; a device meant to work has a "
+                    "terminal typed twice",
+                values={"count": len(dummies)})
+

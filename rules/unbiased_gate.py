@@ -9,7 +9,11 @@ What it finds
 
 Why it matters
     A gate draws no DC current, so nothing sets the net's voltage; the nodal matrix is
-    singular and ngspice-39 stops with ``singular matrix: check node nb``.  A floating
+    singular.  ngspice-39 does not stop: it warns ``singular matrix: check node nb``,
+    tries GMIN stepping and source stepping (both fail), and its transient operating
+    point then settles on a dead point -- the floating gate at 0 V, the devices on it
+    off (drain current about a picoampere), a current source into them at megavolts --
+    and simulates on from there without another word.  A floating
     BJT base does not stop the simulator -- junction GMIN lets it settle near 0.4 V --
     but the transistor is then off (collector current around a nanoampere), silently.
 
@@ -85,8 +89,10 @@ def check(ctx):
                      + (" and a coupling capacitor is open at DC" if has_cap else "")
                      + f", so nothing sets {net}'s voltage",
                      *context_steps(view, island),
-                     "a simulator stops here with a singular matrix (ngspice-39: "
-                     f"'singular matrix: check node {net}')"]
+                     "the nodal matrix is singular: ngspice-39 warns 'singular matrix: "
+                     f"check node {net}', fails GMIN and source stepping, and its transient "
+                     f"operating point lands on a dead point ({net} at 0 V, the devices it "
+                     "drives off), from which it simulates on without another warning"]
             if has_cap:
                 fix = (f"bias {net}: a resistor from it to a defined level (the coupling "
                        "capacitor and that resistor set the input's high-pass corner, "

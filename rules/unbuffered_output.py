@@ -51,12 +51,14 @@ import math
 
 from lintamp.rulekit.explain_steps import freq_words, looking_into_steps
 from lintamp.engine.flat_places import prefix_of
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
-from lintamp.connectivity.signal_band import signal_band
+from lintamp.connectivity.intent import signal_band
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.engine.engine_kinds import OPEN_OHM
+from lintamp.text import si
 
 NAME = "unbuffered-output"
 CATEGORY = "impedance"
@@ -115,7 +117,7 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
         return None  # a passive network is not a driver whose output could be buffered
     z_out = numbers.z(port.name, freq_hz, port.detach)
     r_out = abs(z_out)
-    if r_out >= 1e11:
+    if r_out >= OPEN_OHM:
         return None  # nothing drives the node at all (the connectivity rules say so)
     values = {"z_ohm": r_out, "freq_hz": freq_hz}
     problems = []
@@ -156,6 +158,9 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     expl = numbers.explain(port.name, freq_hz, port.detach)
     steps = [f"{port.local} is a voltage output: {port.why}",
              "its load: " + port.load_why]
+    path = finder.path_words(port.net, toward_output=True)
+    if path:
+        steps.append(path)
     steps += looking_into_steps(expl, port.local, port.detach)
     steps += [p[1] for p in problems]
     steps.append("band: " + (f"{si(band.hz, 'Hz')} from the {band.source}" if band else
@@ -167,10 +172,7 @@ def _judge(ctx, numbers, finder, port, max_loss, margin):
     related += [Related(d.location, f"{d.name}: {b.via}") for b in expl.branches[:2]
                 for d in [finder.by_name.get(b.elements[0]) if b.elements else None] if d is not None]
     message = problems[0][0] if len(problems) == 1 else problems[0][0] + "; and " + problems[1][0].split(": ", 1)[1]
-    weak = band is not None and band.weak and "band_hz" in values and (
-        "pole_hz" in values or values.get("freq_hz") == band.hz)
     return ctx.finding(
-        severity=Severity.INFO if weak else None,
         location=port.location, subject=port.local, view=port.view, message=message,
         nets=[port.local], elements=sorted(_relative(e, port) for e in port.detach), explanation=steps,
         values={k: v for k, v in values.items() if not (isinstance(v, float) and math.isinf(v))},

@@ -18,8 +18,10 @@ What it finds
     nothing) reaches a controller from the node.  A follower or unity-feedback
     op amp, a divider back to the inverting input, and common-mode feedback all
     reach one; a diode-connected or resistive load is not a current-defined node
-    at all.  A complementary pair on one gate (a logic inverter) and a device
-    that is cut off (a switch) are not judged.
+    at all.  A complementary pair on one gate (a logic inverter), a device
+    that is cut off (a switch), and a load biased from a replica of its driver (the
+    current-mirror load of a differential pair: the diode side's twin of the driver
+    shares its tail, so the mirror sets the output) are not judged.
 
 Why it matters
     Two current sources in series agree on one current only at one exact
@@ -50,14 +52,16 @@ Fix
 
 import math
 
+from lintamp.circuit.kinds import BJT, MOS, TRANSISTORS
 from lintamp.engine.dc_feedback import current_defined_nodes, feedback_path, influence_graph
 from lintamp.rulekit.explain_steps import looking_into_steps
 from lintamp.engine.flat_places import local_name
-from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, no_numbers_findings, safely
+from lintamp.rulekit.impedance_numbers import Numbers, impedance_numbers, safely
+from lintamp.rules._numbers import no_numbers_findings
 from lintamp.rulekit.ports import port_finder
 from lintamp.config import register_threshold
 from lintamp.findings import Related, Severity
-from lintamp.report.si import si
+from lintamp.text import si
 
 NAME = "undefined-dc-level"
 CATEGORY = "impedance"
@@ -84,8 +88,11 @@ def check(ctx):
     graph = influence_graph(circuit)
     finder = port_finder(ctx, numbers)
     seen = set()
+    replica = _ReplicaLoads(circuit)
     for node in current_defined_nodes(circuit, fixed):
         if feedback_path(graph, node.net, node.controllers, fixed) is not None:
+            continue
+        if replica.sets(node):
             continue
         finding = safely(_judge, ctx, numbers, finder, node, mismatch, vce_min)
         if finding is None:
@@ -96,13 +103,46 @@ def check(ctx):
             yield finding
 
 
+class _ReplicaLoads:
+    """Nodes whose load is biased from a replica of their driver: a current-mirror load.
+
+    The load's gate (base) net is diode-connected by a device of the load's kind, and
+    the same net is the drain (collector) of a twin of the driver that shares the
+    driver's source (emitter), as in a mirror-loaded differential pair: the mirror
+    copies the twin's current onto the node, so the node sits where the two sides
+    match (Razavi sec. 5.3: the output follows the diode side, v_out = v_d1 at balance).
+    """
+
+    def __init__(self, circuit):
+        self.by_drain: dict[int, list] = {}
+        for dev in circuit.devices:
+            if dev.kind in ("nmos", "pmos", "npn", "pnp"):
+                self.by_drain.setdefault(dev.nodes[0], []).append(dev)
+
+    def sets(self, node) -> bool:
+        transistors = [d for d in node.devices if d.kind in ("nmos", "pmos", "npn", "pnp")]
+        for load in transistors:
+            gate = load.nodes[1]
+            at_gate = self.by_drain.get(gate, [])
+            diode = [d for d in at_gate if d.kind == load.kind and d.nodes[1] == gate and d is not load]
+            if not diode:
+                continue
+            for driver in transistors:
+                if driver is load or driver.kind == load.kind:
+                    continue
+                if any(t.kind == driver.kind and t is not driver and t.nodes[2] == driver.nodes[2]
+                       for t in at_gate):
+                    return True
+        return False
+
+
 def _headroom(numbers, dev, vce_min):
     """(headroom V, V_DS or V_CE, V_DSAT or V_CE,min, region) of a device, or None."""
     dop = numbers.op.devices.get(dev.name)
     if dop is None:
         return None
     v = dop.values
-    if dev.kind in ("nmos", "pmos"):
+    if dev.kind in MOS:
         if "vds_v" not in v or "vdsat_v" not in v:
             return None
         vds = abs(v["vds_v"])
@@ -123,7 +163,7 @@ def _current(numbers, dev):
 
 
 def _judge(ctx, numbers, finder, node, mismatch, vce_min):
-    transistors = [d for d in node.devices if d.kind in ("nmos", "pmos", "npn", "pnp")]
+    transistors = [d for d in node.devices if d.kind in TRANSISTORS]
     rooms = {}
     for dev in transistors:
         room = _headroom(numbers, dev, vce_min)
@@ -200,8 +240,8 @@ def _vds_words(name, room):
 
 
 def _terminal_words(dev):
-    if dev.kind in ("nmos", "pmos"):
+    if dev.kind in MOS:
         return f"drain of {local_name(dev.name)} ({dev.kind.upper()}, gate on another net)"
-    if dev.kind in ("npn", "pnp"):
+    if dev.kind in BJT:
         return f"collector of {local_name(dev.name)} ({dev.kind.upper()})"
     return f"{dev.kind} {local_name(dev.name)}"

@@ -27,7 +27,7 @@ import difflib
 
 from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 from lintamp.netlist.statements import is_digital_primitive
 
 NAME = "unknown-model"
@@ -47,7 +47,7 @@ def check(ctx):
     for view in ctx.cells():
         if not ctx.design.in_deck(view):
             continue  # a library cell: the file that includes it may define the model
-        for dev in view.devices_where(lambda key: key[2] in _NEEDS_MODEL and bool(key[3])):
+        for dev in view.devices_of(letters=_NEEDS_MODEL, with_model=True):
             el = dev.element
             if el.letter not in _NEEDS_MODEL or not el.model or dev.model is not None:
                 continue

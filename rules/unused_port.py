@@ -12,6 +12,8 @@ What it finds
     where an instance puts different nets on the two pins (the second one goes
     nowhere), an info otherwise.
 
+    The unused ports of one cell are one finding that lists them.
+
 Why it matters
     Whatever the parent connects to that port goes nowhere: a supply, bias or input
     that the block silently ignores.  Often a port was renamed inside the body but not
@@ -46,23 +48,44 @@ def check(ctx):
             continue
         optional = view.cell.optional_ports
         repeated = view.cell.repeated_ports
+        unused = []
+        count = ctx.design.instance_count(view)
         for port in dict.fromkeys(view.ports):
             if port in optional or view.net_terminals.get(port):
                 continue
-            count = ctx.design.instance_count(view)
             if port in repeated:
                 yield repeated_port(ctx, view, port, repeated[port], count)
                 continue
-            yield ctx.finding(
-                location=view.cell.location, subject=port, view=view, nets=[port],
-                message=f"port {port} of {view.label} is not connected to anything inside",
-                explanation=[f"{view.label} has {len(view.devices)} element(s); none touches "
-                             f"{port}",
-                             "whatever a parent connects there goes nowhere"
-                             + (f" ({count} instance(s))" if count else "")],
-                fix=f"use {port} inside {view.label}, or remove it from the .subckt line "
-                    "and from every instance",
-                values={"instances": count})
+            unused.append(port)
+        if not unused:
+            continue
+        # the unused ports of one cell are one finding (a wrapper's spare pins, a
+        # standard cell's body pins in an abstract netlist): one cause, one finding
+        port = unused[0]
+        shown = ", ".join(unused[:8]) + (f" and {len(unused) - 8} more" if len(unused) > 8 else "")
+        # a library cell the deck does not use, whose unused pins are all supply or well
+        # pins (a standard cell keeps VPWR/VGND/VPB/VNB for one interface across the
+        # library; a tie or diode cell leaves some of them unused by design)
+        library_power = (not ctx.design.in_deck(view)
+                         and all(_power_pin(ctx, p) for p in unused))
+        yield ctx.finding(
+            location=view.cell.location, subject=port, view=view, nets=unused[:50],
+            severity=Severity.INFO if library_power else None,
+            message=(f"port {port} of {view.label} is not connected to anything inside"
+                     if len(unused) == 1 else
+                     f"{len(unused)} ports of {view.label} are not connected to anything "
+                     f"inside ({shown})"),
+            explanation=[f"{view.label} has {len(view.devices)} element(s); none touches "
+                         f"{shown}",
+                         "whatever a parent connects there goes nowhere"
+                         + (f" ({count} instance(s))" if count else ""),
+                         *(["a library cell this deck does not instantiate, and only supply or "
+                            "well pins are unused: a cell library keeps them for one pin "
+                            "interface across its cells"] if library_power else [])],
+            fix=f"use {'it' if len(unused) == 1 else 'them'} inside {view.label}, or remove "
+                f"{'it' if len(unused) == 1 else 'them'} from the .subckt line and from "
+                "every instance",
+            values={"instances": count, "ports": len(unused)})
 
 
 def repeated_port(ctx, view, placeholder, port, count):
@@ -92,3 +115,13 @@ def repeated_port(ctx, view, placeholder, port, count):
         fix=f"list {port} once on the .subckt line and drop the extra node from every "
             "instance, or give the second pin its own name if it is a separate net",
         values={"instances": count, "pin": second + 1, "first_pin": first + 1})
+
+
+WELL_PINS = ("vpb", "vnb", "vpw", "vnw", "vsub", "sub", "bulk", "nwell", "pwell", "vbn", "vbp")
+
+
+def _power_pin(ctx, port: str) -> bool:
+    """A supply, ground or well pin by name (the intent analysis's patterns)."""
+    from lintamp.connectivity.intent import matches, patterns
+    return port in WELL_PINS or bool(matches(port, patterns(ctx.config, "supply"))
+                                     or matches(port, patterns(ctx.config, "ground")))

@@ -79,6 +79,14 @@ def pytest_collection_modifyitems(config, items):
 
 # ---------------------------------------------------------------- the checkout stays clean
 
+try:  # hypothesis keeps found examples in .hypothesis/ of the current folder: not here
+    from hypothesis import settings as _hypothesis_settings
+except ImportError:  # the test extras are not installed: those tests fail on import anyway
+    pass
+else:
+    _hypothesis_settings.register_profile("lintamp", database=None)
+    _hypothesis_settings.load_profile("lintamp")
+
 # Where a run without a config file would put its cache if a test let it write into the
 # checkout (the current folder is the repository root when pytest runs from there).
 _CACHE_SPOTS = (REPO / ".lintamp_cache", REPO / "samples" / ".lintamp_cache",

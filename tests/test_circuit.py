@@ -73,13 +73,13 @@ def test_recursive_subcircuit_is_cut():
     assert "recursive" in d.diagnostics[0].message
 
 
-def test_graph_is_bipartite_nets_and_devices():
+def test_net_terminals_join_nets_and_device_pins():
+    # SPICE element syntax (ngspice-39 manual, ch. 3): R and C nodes are n+ then n-
     d = design_of("R1 a b 1k\nC1 b 0 1p\n")
-    g = d.top.graph
-    nets = {n for n in g if isinstance(n, str)}
-    assert nets == {"a", "b", "0"}
-    r1 = next(n for n in g if not isinstance(n, str) and n.name == "r1")
-    assert g[r1]["a"]["pins"] == ("p",) and g.nodes["0"]["external"]
+    terminals = d.top.net_terminals
+    assert set(terminals) == {"a", "b", "0"}
+    assert [(dev.name, pin) for dev, pin in terminals["b"]] == [("r1", "n"), ("c1", "p")]
+    assert d.top.is_external("0") and not d.top.is_external("a")
 
 
 def test_library_roots_when_top_is_empty():

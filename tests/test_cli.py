@@ -167,9 +167,7 @@ def test_program_exit_writes_everything_and_keeps_the_exit_code(tmp_path):
     # the exit code must be those of main() (common practice for command-line tools)
     deck = tmp_path / "open.sp"
     deck.write_text("* one resistor to nowhere\nv1 a 0 1\nr1 a b 1k\n.end\n")
-    proc = subprocess.run([sys.executable, "-m", "lintamp", "check", "--no-config", "--no-cache",
-                           "--format", "json", str(deck)], capture_output=True, text=True, cwd=tmp_path,
-                          env={"PYTHONPATH": str(REPO), "NO_COLOR": "1", "PATH": "/usr/bin:/bin"})
+    proc = run("check", "--no-config", "--no-cache", "--format", "json", str(deck), cwd=tmp_path)
     doc = json.loads(proc.stdout)
     assert proc.returncode == 1 and doc["summary"]["warnings"] >= 1, proc.stderr
     assert main(["check", "--no-config", "--no-cache", "--format", "json", "-o",

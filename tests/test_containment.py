@@ -199,7 +199,9 @@ def test_a_killed_cache_writer_leaves_the_old_entry_usable(tmp_path, rich_findin
         from pathlib import Path
         from lintamp import baseline
         from lintamp.cache import Cache
-        baseline.os.fsync = lambda fd: os.kill(os.getpid(), signal.SIGKILL)
+        # killed after writing the new bytes, before the rename (cache entries are not
+        # flushed to disk one by one, so the rename is the step to interrupt)
+        baseline.os.replace = lambda src, dst: os.kill(os.getpid(), signal.SIGKILL)
         Cache(Path({str(tmp_path)!r}), "k").put([Path({str(deck)!r})], [])
     """)
     done = subprocess.run([sys.executable, "-c", script], capture_output=True, timeout=60)

@@ -121,10 +121,12 @@ def test_5_2_formula_values():
     assert fm.cg_input_ohm(gm, gmb, ro, 10e3) == pytest.approx(983.6, abs=0.1)
     assert fm.cg_input_ohm(gm, gmb, ro, 1e6) == pytest.approx(17.21e3, rel=1e-3)
     assert fm.follower_output_ohm(gm, gmb, ro) == pytest.approx(819.7, abs=0.1)
-    av = gm / (gm + gmb + 1 / ro)  # SF gain (Razavi §3.3)
-    assert av == pytest.approx(0.8197, abs=1e-4)
-    av_rl = gm / (gm + gmb + 1 / ro + 1 / 1e3)
-    assert av_rl == pytest.approx(0.4505, abs=1e-4)
+    # SF gain gm/(gm + gmb + 1/ro) = 0.8197, 0.4505 with RL 1k (Razavi §3.3), from the
+    # MNA solve of the follower's small-signal model: gm(vg - vs) into s, 1/gmb and ro to ground
+    model = "sf\ng1 0 s g s 1m\nrgmb s 0 5k\nro s 0 50k\n"
+    for load, av in (("", 0.8197), ("rl s 0 1k\n", 0.4505)):
+        solver = ImpedanceSolver(flat_from_text(model + load), None, 0.0, driven="g")
+        assert abs(solver.gain_to("s")) == pytest.approx(av, abs=1e-4)
     assert fm.degenerated_drain_ohm(gm, gmb, ro, 1e3) == pytest.approx(111e3, rel=1e-3)
     assert fm.cascode_output_ohm(gm, gmb, ro, ro) == pytest.approx(3.10e6, rel=1e-3)
 

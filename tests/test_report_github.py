@@ -27,9 +27,14 @@ def test_annotation_line():
 
 def test_annotations_then_full_text_report(rich_finding, tmp_path):
     out = render("github", sample_report(rich_finding, tmp_path)).splitlines()
-    annotations = [line for line in out if line.startswith("::")]
+    annotations = [line for line in out if line.startswith(("::error", "::warning", "::notice"))]
     assert len(annotations) == 4
     assert annotations[0].startswith("::warning file=blocks/amp.sp,line=4,col=1,title=dangling-net::")
     assert all("\n" not in a for a in annotations)
-    assert out[4] == "blocks/amp.sp:4:1: warning dangling-net: dangling-net on spare"
-    assert out[-1].startswith("4 files checked: 2 errors")
+    # the text report follows, fenced so the runner acts on nothing in it (GitHub docs,
+    # "Stopping and starting workflow commands")
+    assert out[4].startswith("::stop-commands::")
+    token = out[4].removeprefix("::stop-commands::")
+    assert out[5] == "blocks/amp.sp:4:1: warning dangling-net: dangling-net on spare"
+    assert out[-2].startswith("4 files checked: 2 errors")
+    assert out[-1] == f"::{token}::"

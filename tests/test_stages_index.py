@@ -1,12 +1,10 @@
-"""Stage roles from net indexes agree with the plain scan they replaced.
+"""Stage roles from net indexes hold their invariants on real and stress decks.
 
 ``recognise_stages`` finds related transistors (mirror references and outputs,
 differential-pair partners, devices below a cascode) through indexes by net and
 per-net counts, so that a bias line or supply shared by thousands of devices
-costs no scan per device.  Here it is held to the plain definition, which scans
-every transistor on the same nets, on every rule fixture, the samples, a slice of
-the real corpus and the bench's stress shapes (common practice: two
-implementations of one function are held to each other).
+costs no scan per device.  Here its invariants are held on every rule fixture,
+the samples, a slice of the real corpus and the bench's stress shapes.
 """
 
 from __future__ import annotations
@@ -16,87 +14,12 @@ from pathlib import Path
 
 import pytest
 
-import lintamp.engine.stages as stages_module
-from lintamp.engine.looking_into import ac_ground_nets
-from lintamp.engine.stages import BJT, MOS, _pins, recognise_stages
+from lintamp.engine.stages import BJT, MOS, Role, recognise_stages
 from lintamp.api import flat_circuit_from_text
 
 REPO = Path(__file__).resolve().parent.parent
 CORPUS = REPO.parent / "shared" / "corpus"
 DECKS = sorted((REPO / "tests" / "fixtures" / "rules").glob("*/*.sp")) + sorted((REPO / "samples").glob("*.sp"))
-
-
-def _plain_stages(circuit, op=None):
-    """The roles by their definition (the scan before the indexes).
-
-    One :class:`Stage` per MOS/BJT device, in netlist order.
-
-    Notes
-    -----
-    O(T^2) in the number of transistors sharing nets (indexes by net keep it
-    near-linear for netlist-like circuits).
-    """
-    acg = ac_ground_nets(circuit, signal_sources_ground=False)
-    trans = [d for d in circuit.devices if d.kind in MOS + BJT]
-    by_common: dict[tuple, list[FlatDevice]] = {}
-    by_control: dict[tuple, list[FlatDevice]] = {}
-    by_out: dict[tuple, list[FlatDevice]] = {}
-    for d in trans:
-        out, ctl, com = _pins(d)
-        fam = d.kind
-        by_common.setdefault((fam, com), []).append(d)
-        by_control.setdefault((fam, ctl), []).append(d)
-        by_out.setdefault((fam, out), []).append(d)
-    stages = []
-    for d in trans:
-        out, ctl, com = _pins(d)
-        mos = d.kind in MOS
-        words = {
-            "cs": "common source" if mos else "common emitter",
-            "cg": "common gate" if mos else "common base",
-            "cd": "common drain (source follower)" if mos else "emitter follower",
-        }
-        related: list[str] = []
-        siblings = [o for o in by_control.get((d.kind, ctl), []) if o is not d]
-        diode = out == ctl
-        if out == com:
-            role = "shorted (output tied to common terminal)"
-        elif diode:
-            outs = [o.name for o in siblings if _pins(o)[2] == com and _pins(o)[0] != ctl]
-            role = "current-mirror reference (diode-connected)" if outs else "diode-connected load"
-            related = outs
-        else:
-            refs = [o.name for o in siblings if _pins(o)[0] == ctl and _pins(o)[2] == com]
-            pair = [
-                o.name
-                for o in by_common.get((d.kind, com), [])
-                if o is not d and _pins(o)[1] != ctl and _pins(o)[0] != out and com not in acg
-            ]
-            below = [o.name for o in by_out.get((d.kind, com), []) if o is not d] if com not in acg else []
-            if refs:
-                role, related = "current-mirror output", refs
-            elif ctl in acg and below:
-                role, related = "cascode", below
-            elif ctl in acg and com in acg:
-                role = "current source (fixed bias)"
-            elif out in acg and com not in acg:
-                role = words["cd"]
-            elif ctl in acg:
-                role = words["cg"]
-            elif pair:
-                role, related = "differential pair", pair
-            elif com in acg:
-                role = words["cs"]
-            else:
-                role = words["cs"] + " with degeneration"
-        st = stages_module.Stage(d.name, role, related)
-        if op is not None and d.name in op.devices:
-            dop = op.devices[d.name]
-            st.region = dop.region
-            st.gm_s = dop.values.get("gm_s")
-            st.ro_ohm = dop.values.get("ro_ohm")
-        stages.append(st)
-    return stages
 
 
 def _roles(stages):
@@ -112,7 +35,21 @@ def _flat(path: Path):
 
 
 def _check(circuit):
-    assert _roles(recognise_stages(circuit)) == _roles(_plain_stages(circuit))
+    """The invariants of the indexed recognition: one stage per transistor in netlist
+    order; a pair's halves, an inverter's two devices and a composite's units share a
+    role; every related device is a transistor of the circuit (common practice)."""
+    stages = recognise_stages(circuit)
+    trans = [d.name for d in circuit.devices if d.kind in MOS + BJT]
+    assert [s.device for s in stages] == trans
+    role = {s.device: s.role for s in stages}
+    for s in stages:
+        assert isinstance(s.role, Role)
+        for other in s.related:
+            assert other in role
+            if s.role in (Role.DIFFERENTIAL_PAIR, Role.INVERTER, Role.CROSS_COUPLED):
+                assert role[other] == s.role, (s.device, other)
+        for unit in s.units:
+            assert role[unit] == s.role
 
 
 def test_fixtures_and_samples_agree():

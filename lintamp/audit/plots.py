@@ -8,7 +8,9 @@ input gives the same bytes.
 
 from __future__ import annotations
 
+import hashlib
 import io
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -27,6 +29,24 @@ class Plots:
     made: bool
     reason: str
     images: dict[str, bytes] = field(default_factory=dict)  # curve key -> PNG bytes
+
+
+_SAFE_NAME = re.compile(r"[A-Za-z0-9_-]{1,80}")
+
+
+def plot_file_name(stem: str, key: str) -> str:
+    """The file name of a curve's picture beside the sheet: ``STEM-KEY.png``.
+
+    Keys hold net names, which the netlist chooses: a name with ``/``, ``..``, a
+    leading dot or anything but letters, digits, ``_`` and ``-`` (or over 80 of
+    them) is replaced by those letters and a hash of the key, so the file is always
+    one plain name in the sheet's folder and two keys never share one.
+    """
+    if _SAFE_NAME.fullmatch(key):
+        return f"{stem}-{key}.png"
+    slug = re.sub(r"[^A-Za-z0-9_-]+", "_", key)[:60]
+    digest = hashlib.sha256(key.encode("utf-8", "surrogateescape")).hexdigest()[:12]
+    return f"{stem}-{slug}-{digest}.png"
 
 
 def _pyplot():

@@ -26,15 +26,8 @@ def render_text(data: dict) -> str:
                    f"   [{p['decided_by']}]")
         if p.get("stage"):
             out.append(f"             behind it: {p['stage']}")
-        if p.get("formula"):
-            line = f"             {zname} = {p['formula']}"
-            if p.get("formula_ohm") is not None:
-                line += f" = {si(p['formula_ohm'], 'Ω')}"
-            if p.get("approx"):
-                line += f"  ≈ {p['approx']} = {w.ohm(p.get('approx_ohm'))}"
-            out.append(line)
-        for br in p.get("parallel", []):
-            out.append(f"             in parallel: {br['via']}, {br['formula']}, {w.ohm(br['z_ohm'])}")
+        for line in w.port_form_lines(p, zname):
+            out.append("             " + line)
         for fp in p.get("findings", []):
             out.append(f"             ! {w.finding_line(fp_index[fp])}")
     out.append("")
@@ -42,10 +35,12 @@ def render_text(data: dict) -> str:
     if not data["stages"]:
         out.append("  no transistors")
     for s in data["stages"]:
-        gm = si(s["gm_s"], "S") if s.get("gm_s") is not None else "—"
-        ro = si(s["ro_ohm"], "Ω") if s.get("ro_ohm") is not None else "—"
+        gm = w.number(s.get("gm_s"), "S")
+        ro = w.number(s.get("ro_ohm"), "Ω")
         out.append(f"  {s['device']:<8} {s['role']:<32} {s.get('region') or '—':<11} g_m {gm:<9} "
                    f"r_o {ro:<9} margin {w.margin_text(s)}")
+        if s.get("unevaluated"):
+            out.append(f"           — not evaluated: {s['unevaluated']}")
         for fp in s.get("findings", []):
             out.append(f"           ! {w.finding_line(fp_index[fp])}")
     out.append("")
@@ -61,12 +56,12 @@ def render_text(data: dict) -> str:
         if p.get("poles_hz"):
             out.append("    poles: " + ", ".join(w.freq_text(f) for f in p["poles_hz"]))
         if p.get("formula"):
-            out.append(f"    ≈ {p['formula']} = {w.gain_text(dict(p['gain'], mag=p['formula_value'], sign=1))}")
+            out.append(f"    {w.path_form_text(p)}")
         for h in p.get("chain", []):
             line = f"    {h['device']:<8} {h['role']:<32} {h['from']} → {h['to']} (enters at the {h['enters_at']})" \
                    f"  {w.gain_text(h['gain'])}"
-            if h.get("formula"):
-                line += f"  = {h['formula']}"
+            if h.get("formula") or h.get("formula_none"):
+                line += f"  {w.hop_form_text(h)}"
             out.append(line)
         for i in p.get("interfaces", []):
             band = i["role"] != "input" and "z_in_band_ohm" in i  # judged in the band

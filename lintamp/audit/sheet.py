@@ -20,10 +20,22 @@ Shape (INTERFACE.md, ``lintamp audit --format json``, with additions)::
      "summary": {"errors", "warnings", "infos", "waived"}, "plots": {...}}
 
 An open impedance is ``null`` (``"open": true`` beside it in ``z_ohm``).
+
+Every textbook form carries its error against the exact number it explains:
+``formula_error_pct`` and ``formula_exact`` (within 2 %) on a port's main branch, a
+chain row and a path (whose ``formula`` is the product of its rows' forms, a passive
+element's MNA ratio included); ``port_formula`` / ``port_formula_ohm`` (the parallel of
+the port's branches) and ``port_approx`` with ``port_formula_error_pct`` /
+``port_approx_error_pct``.  A short "~" form more than 10 % off is not given.  A chain
+row without a form says why in ``formula_none``; a row whose form spans the next rows (a
+mirror-loaded pair) lists them in ``spans``.  A stage lintamp did not evaluate has
+``gm_s``/``ro_ohm`` null and ``unevaluated`` (why).  In the JSON the command writes, an
+infinite or NaN number is ``null`` with ``<key>_why`` beside it and a ``non_finite`` list.
 """
 
 from __future__ import annotations
 
+import cmath
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,11 +44,11 @@ import numpy as np
 
 from lintamp import __version__
 from lintamp.audit import forms
-from lintamp.audit.band import ac_sweep_hz, signal_band
 from lintamp.audit.chain import find_chain
-from lintamp.audit.ports import Port, classify_ports, load_elements
+from lintamp.connectivity.intent import IntentAnalysis, Port, ac_sweep_hz, band_of
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
+from lintamp.engine.formulas import parallel
 
 GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
               ("voltage", "voltage"): ("voltage gain", "V/V"),
@@ -81,6 +93,29 @@ class _Block:
     prefix: str
     instance: str | None
     candidates: list[str]
+
+
+@dataclass
+class _Audit:
+    """What every port, path and stage row of one sheet reads, made once per sheet (instead
+    of ten parameters handed from function to function)."""
+
+    block: _Block
+    solves: Solves
+    loads: list[str]
+    stage_rows: dict[str, dict]  # flat device name -> its stage row
+    band_hz: float | None
+    netlist: object
+    curves: list[Curve]
+    plots: bool
+    freqs: np.ndarray | None = None
+
+    @property
+    def circuit(self):
+        return self.block.circuit
+
+    def local(self, name: str) -> str:
+        return _local(self.block, name)
 
 
 # ------------------------------------------------------------------ loading
@@ -137,7 +172,11 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     design_full = load_design(netlist, config)
     block = _choose_block(netlist, design_full, config, top)
-    band = signal_band(netlist, block.cell, option=bandwidth, config_value=getattr(config, "bandwidth", None))
+    try:
+        band = band_of(netlist, [block.cell] if not block.cell.is_top else [], option=bandwidth,
+                       config_value=getattr(config, "bandwidth", None))
+    except ValueError as exc:  # a --bandwidth that is no frequency: the user's to fix
+        raise AuditError(str(exc)) from None
 
     result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
     report = decide(result.findings, result.pragmas, config)
@@ -161,10 +200,12 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
         if diag.severity == "error":
             data["notes"].append(f"{diag.location}: {diag.message} (the numbers are computed without it)")
 
-    config_ports = getattr(config, "ports", None) or {}
-    ports = classify_ports(block.circuit, block.cell.pragmas, candidates=block.candidates,
-                           prefix=block.prefix, config_ports=config_ports)
-    loads = load_elements(block.circuit, block.cell.pragmas, prefix=block.prefix, config_ports=config_ports)
+    intent = IntentAnalysis(netlist, block.circuit, config, {"bandwidth": bandwidth}).block(
+        block.cell, block.prefix, block.candidates)
+    ports, loads = intent.ports, intent.loads
+    data["rails"] = [{"net": n, "decided_by": why} for n, why in intent.rail_nets.items()]
+    data["controls"] = [{"net": n, "decided_by": why} for n, why in intent.controls.items()]
+    data["notes"] += intent.notes
     data["loads"] = [n[len(block.prefix):] for n in loads]
     if not ports:
         data["notes"].append("no inputs or outputs found: mark them with '* lintamp: current-input NET', "
@@ -177,16 +218,23 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     data["operating_point"] = source
     data["notes"] += op_notes
     curves: list[Curve] = []
-    stages = _stages(block, op)
+    stages = _stages(block, op, intent)
     data["stages"] = stages
     if op is None and any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
         data["notes"].append("no numbers: the operating point could not be had, so impedances and gains "
                              "are not computed (roles are from the topology)")
         data["ports"] = [_port_stub(p) for p in ports]
+        from lintamp.engine.stage_paths import block_paths
+        data["paths"], path_notes = block_paths(block.circuit, intent)
+        data["notes"] += path_notes
     else:
         solves = Solves(block.circuit, op)
         try:
-            _numbers(data, block, ports, loads, solves, stages, band.freq_hz, netlist, curves, plots)
+            run = _Audit(block, solves, loads, {s["circuit_device"]: s for s in stages}, band.freq_hz,
+                         netlist, curves, plots)
+            _numbers(data, run, ports)
+            from lintamp.engine.stage_paths import attach_inspection
+            attach_inspection(data["paths"], block.circuit, intent, op)
         except Exception as exc:  # engine trouble on odd input must not lose the rest of the sheet
             from lintamp.engine.small_signal import SmallSignalError
             if not isinstance(exc, (SmallSignalError, ArithmeticError, ValueError, RuntimeError,
@@ -204,27 +252,50 @@ def _sev(label: str):
     return Severity.parse(label)
 
 
+def _unevaluated_devices(circuit, table) -> dict[str, str]:
+    """Nonlinear devices whose numbers would be SPICE defaults, not the designer's: a PDK
+    subcircuit whose library is absent, a model card that is not there (device -> why)."""
+    from lintamp.engine.engine_kinds import NONLINEAR
+    out = {}
+    for dev in circuit.devices:
+        if dev.kind in NONLINEAR and dev.model is None and not (table and dev.name in table):
+            out[dev.name] = dev.kind_detail if "PDK" in (dev.kind_detail or "") else "its model card is not in the files read"
+    return out
+
+
 def _operating_point(circuit, table):
     from lintamp.rulekit.impedance_report import resolve_operating_point
+    unevaluated = _unevaluated_devices(circuit, table)
+    if unevaluated:
+        shown = ", ".join(f"{n} ({why})" for n, why in list(unevaluated.items())[:6])
+        more = f" and {len(unevaluated) - 6} more" if len(unevaluated) > 6 else ""
+        return None, "assumed", [f"no operating point: devices lintamp cannot evaluate: {shown}{more}"]
     try:
         return resolve_operating_point(circuit, table)
     except (ValueError, RuntimeError, ArithmeticError) as exc:
         return None, "assumed", [f"no operating point: {exc}"]
 
 
-def _stages(block: _Block, op) -> list[dict]:
-    from lintamp.engine.stages import recognise_stages
+def _stages(block: _Block, op, intent) -> list[dict]:
+    from lintamp.engine.stages import composite_stages, recognise_stages
 
     out = []
-    for st in recognise_stages(block.circuit, op):
+    unevaluated = _unevaluated_devices(block.circuit, None)
+    for st in composite_stages(recognise_stages(block.circuit, op, **intent.stage_hints())):
         if not st.device.startswith(block.prefix):
             continue
-        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": st.role,
+        row = {"device": st.device[len(block.prefix):], "circuit_device": st.device, "role": str(st.role),
+               "label": st.label[len(block.prefix):] if st.label.startswith(block.prefix) else st.label,
+               "units": [u[len(block.prefix):] for u in st.units],
                "related": [r[len(block.prefix):] if r.startswith(block.prefix) else r for r in st.related],
                "region": st.region or None, "gm_s": st.gm_s,
                "ro_ohm": st.ro_ohm if st.ro_ohm is None or math.isfinite(st.ro_ohm) else None,
                "findings": []}
         dop = op.devices.get(st.device) if op is not None else None
+        if dop is None:
+            row["gm_s"] = row["ro_ohm"] = None  # a number lintamp does not trust is not printed
+            row["unevaluated"] = unevaluated.get(st.device) or (
+                "no operating point" if op is None else "not in the operating point")
         if dop is not None:
             v = dop.values
             if dop.kind in ("nmos", "pmos"):
@@ -266,14 +337,15 @@ def _stage_label(stage_rows: dict, device: str | None) -> str | None:
     return f"{row['role']} ({row['device']})" if row else device
 
 
-def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves, plots):
+def _numbers(data, run: _Audit, ports):
     from lintamp.engine.looking_into import explain_node
 
+    block, solves, stage_rows, band_hz, curves, plots = (run.block, run.solves, run.stage_rows, run.band_hz,
+                                                         run.curves, run.plots)
     circuit = block.circuit
-    stage_rows = {s["circuit_device"]: s for s in stages}
-    detach_of = {p.net: (_input_detach(circuit, p) if p.is_input else list(loads)) for p in ports}
-    span = _plot_span(netlist, band_hz)
-    freqs = log_grid(span[0], span[1], PLOT_POINTS_PER_DECADE) if plots else None
+    detach_of = {p.net: (_input_detach(circuit, p) if p.is_input else list(run.loads)) for p in ports}
+    span = _plot_span(run.netlist, band_hz)
+    freqs = run.freqs = log_grid(span[0], span[1], PLOT_POINTS_PER_DECADE) if plots else None
     port_rows = []
     for port in ports:
         detach = detach_of[port.net]
@@ -283,7 +355,11 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
         row["detached"] = [d[len(block.prefix):] if d.startswith(block.prefix) else d for d in detach]
         if band_hz:
             row["z_band_ohm"] = z_json(solves.z(port.circuit_net, band_hz, detach))
-        expl = explain_node(circuit, port.circuit_net, 0.0, solves.op, detach)
+        # the forms are read at DC, or in the band where DC sees an open (a coupling capacitor)
+        f_form = band_hz if (z_dc is None and band_hz) else 0.0
+        z_form = solves.z(port.circuit_net, f_form, detach) if f_form else z_dc
+        row["formula_freq_hz"] = f_form
+        expl = explain_node(circuit, port.circuit_net, f_form, solves.op, detach)
         best = _main_branch(circuit, expl.branches)
         if best is not None:
             dev = best.elements[0] if best.elements else None
@@ -295,9 +371,27 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
             row["terms"] = forms.clean_terms(best.terms)
             row["parallel"] = [{"via": b.via, "formula": b.formula, "z_ohm": mag_or_none(b.z_mna_ohm)}
                                for b in expl.branches if b is not best and mag_or_none(b.z_mna_ohm) is not None]
+            share = mag_or_none(best.z_mna_ohm)
+            row["branch_ohm"] = share
+            err = form_error_pct(best.z_ohm, best.z_mna_ohm) if share is not None else None
+            row["formula_error_pct"], row["formula_exact"] = err, err is not None and err <= FORM_EXACT_PCT
             short = forms.port_short_form(best.via, best.terms, dev or "")
             if short:
-                row["approx"], row["approx_ohm"] = short
+                err = form_error_pct(short[1], share)
+                if err is not None and err <= forms.APPROX_SHOWN_PCT:  # a wrong "~" line is no help
+                    row["approx"], row["approx_ohm"] = short
+                    row["approx_error_pct"] = err
+            row.update(forms.port_parallel_form(circuit, expl.branches, z_form, block.prefix))
+            z_formula, z_short = row.pop("_z", None), row.pop("_z_short", None)
+            err = form_error_pct(z_formula, z_form)
+            row["port_formula_error_pct"] = err
+            row["port_formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+            if row.get("port_approx") is not None:
+                err = form_error_pct(z_short, z_form)
+                if err is None or err > forms.APPROX_SHOWN_PCT:
+                    row.pop("port_approx"), row.pop("port_approx_ohm", None)
+                else:
+                    row["port_approx_error_pct"] = err
         if plots:
             values = sweep(lambda f, n=port.circuit_net, d=tuple(detach): _z_or_open(solves, n, f, d), freqs)
             curve = Curve(f"|Z| at {port.net} ({port.kind})", "impedance", "Ω", freqs, values,
@@ -318,8 +412,7 @@ def _numbers(data, block, ports, loads, solves, stages, band_hz, netlist, curves
             if len(data["paths"]) >= MAX_PATHS:
                 data["notes"].append(f"only the first {MAX_PATHS} input/output pairs are shown")
                 return
-            data["paths"].append(_path(block, pin, pout, detach_of[pin.net], loads, solves, stage_rows,
-                                       band_hz, freqs, curves, plots))
+            data["paths"].append(_path(run, pin, pout, detach_of[pin.net]))
 
 
 def _z_or_open(solves, net, f, detach):
@@ -360,10 +453,11 @@ def _path_probe(solves, pin: Port, pout: Port, detach, out_current: bool):
     return probe
 
 
-def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, curves, plots) -> dict:
+def _path(run: _Audit, pin: Port, pout: Port, detach) -> dict:
     from lintamp.engine.looking_into import ac_ground_nets
 
-    circuit = block.circuit
+    solves, band_hz, freqs, curves, plots = run.solves, run.band_hz, run.freqs, run.curves, run.plots
+    circuit = run.circuit
     kind, unit = GAIN_UNITS[(pin.signal, pout.signal)]
     out_current = pout.signal == "current"
     probe = _path_probe(solves, pin, pout, tuple(detach), out_current)
@@ -410,7 +504,7 @@ def _path(block, pin, pout, detach, loads, solves, stage_rows, band_hz, freqs, c
         row["notes"].append(f"no signal chain from {pin.net} to {pout.net} through the elements "
                             "(the gain above is whatever the MNA solve finds)")
     else:
-        _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz)
+        _chain(run, row, hops, pin, pout, detach)
     if plots:
         values = sweep(probe, freqs)
         curves.append(Curve(f"{kind} {pin.net} → {pout.net}", "gain", unit, freqs, values,
@@ -423,57 +517,197 @@ def _local(block, name: str) -> str:
     return name[len(block.prefix):] if name.startswith(block.prefix) else name
 
 
-def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_hz):
+FORM_EXACT_PCT = 2.0  # a printed form within this of the exact number reads "="; beyond it "≈ (error)"
+
+
+def _signed_real(value):
+    """A real number as it is; a complex one as its magnitude with the sign of its real part."""
+    if value is None or not isinstance(value, complex):
+        return value
+    return abs(value) if value.real >= 0 else -abs(value)
+
+
+def form_error_pct(value, exact) -> float | None:
+    """| |value| - |exact| | / |exact| in per cent (|value - exact| when their real parts point
+    opposite ways); None when either is missing or not finite."""
+    if value is None or exact is None:
+        return None
+    try:
+        value, exact = complex(value), complex(exact)
+    except (TypeError, ValueError):
+        return None
+    if not (math.isfinite(abs(value)) and math.isfinite(abs(exact))) or abs(exact) == 0:
+        return None
+    # the sheet prints a magnitude with the sign of the real part: that is what is compared,
+    # unless the two point opposite ways
+    if value.real * exact.real >= 0 or min(abs(value.real) / abs(value or 1), abs(exact.real) / abs(exact)) < 0.5:
+        return 100.0 * abs(abs(value) - abs(exact)) / abs(exact)
+    return 100.0 * abs(value - exact) / abs(exact)
+
+
+@dataclass
+class StageGain:
+    """One row of a path's chain: the element the signal crosses, its gain (MNA) and the
+    textbook form that explains it, with that form's error against the gain."""
+
+    device: str
+    role: str
+    from_net: str
+    to_net: str
+    enters_at: str
+    gain: dict
+    formula: str | None = None
+    formula_value: float | None = None
+    formula_phase_deg: float | None = None
+    formula_error_pct: float | None = None
+    formula_exact: bool | None = None
+    formula_none: str | None = None  # why there is no form
+    terms: dict | None = None
+    spans: list[str] | None = None  # a form over several rows (the mirror-loaded pair)
+    spans_to: str | None = None
+    span_gain: dict | None = None
+    in_loop_through: str | None = None
+
+    def set_form(self, text: str, value, exact) -> None:
+        self.formula, self.formula_value = text, _signed_real(value)
+        if isinstance(value, complex) and abs(value.imag) > 1e-9 * abs(value):
+            self.formula_phase_deg = math.degrees(cmath.phase(value))
+        self.formula_error_pct = form_error_pct(value, exact)
+        self.formula_exact = self.formula_error_pct is not None and self.formula_error_pct <= FORM_EXACT_PCT
+
+    def drop_form(self, why: str) -> None:
+        self.formula = self.formula_value = self.formula_phase_deg = None
+        self.formula_error_pct = self.formula_exact = self.terms = None
+        self.formula_none = why
+
+    def to_json(self) -> dict:
+        out = {"device": self.device, "role": self.role, "from": self.from_net, "to": self.to_net,
+               "enters_at": self.enters_at, "gain": self.gain}
+        for key in ("formula", "formula_value", "formula_phase_deg", "formula_error_pct", "formula_exact",
+                    "formula_none", "terms", "spans", "spans_to", "span_gain", "in_loop_through"):
+            value = getattr(self, key)
+            if value is not None:
+                out[key] = value
+        return out
+
+
+class _ChainReading:
+    """The small-signal solve a chain is read from: node phasors at one frequency."""
+
+    def __init__(self, run: _Audit, row: dict, pin: Port, detach):
+        self.run = run
+        self.base = tuple(detach)
+        # a voltage input is an ideal voltage source (an AC short) for every impedance the
+        # chain reads; a current input is an ideal current source (open): detached
+        self.seen = () if pin.signal == "voltage" else self.base
+        self.current_in = pin.signal == "current"
+        # read at DC, or in the band where a coupling capacitor blocks DC (the DC gain is
+        # below the band's by more than 3 dB); the forms take impedances there
+        band = run.band_hz
+        self.f_hz = float(band) if band and row.get("gain_band") and \
+            row["gain"]["mag"] < row["gain_band"]["mag"] / math.sqrt(2) else 0.0
+        self.solver = run.solves.solver(self.f_hz, self.base, driven=None if self.current_in else pin.circuit_net)
+        self.x = self.solver.solve_injection(pin.circuit_net) if self.current_in else None
+        self._v: dict[int, complex] = {}
+
+    def v(self, net_idx: int) -> complex:
+        if net_idx not in self._v:
+            net = self.run.circuit.nets[net_idx]
+            self._v[net_idx] = self.solver.voltage(self.x, net) if self.x is not None else self.solver.gain_to(net)
+        return self._v[net_idx]
+
+    def ratio(self, hops, first: int, last: int) -> complex:
+        """v(to of hop ``last``) over v(from of hop ``first``) (per ampere from a current input)."""
+        den = 1.0 if (first == 0 and self.current_in) else self.v(hops[first].from_net)
+        return self.v(hops[last].to_net) / den if abs(den) > 0 else 0j
+
+    def z_near(self, net_idx: int, gone=()) -> complex | float:
+        return _z_near(self.run.solves, net_idx, self.run.circuit.nets, self.seen + tuple(gone), self.f_hz)
+
+
+def _stage_gain(run: _Audit, reading: _ChainReading, hops, k: int):
+    """The chain row of hop ``k`` and its factor in the path's product: (text, value), or
+    None when the stage has no form."""
+    hop = hops[k]
+    circuit = run.circuit
+    dev = circuit.device(hop.device)
+    first_current = k == 0 and reading.current_in
+    gain = reading.ratio(hops, k, k)
+    stage = StageGain(run.local(hop.device), run.stage_rows.get(hop.device, {}).get("role", dev.kind),
+                      run.local(circuit.nets[hop.from_net]), run.local(circuit.nets[hop.to_net]), hop.entry_word,
+                      {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
+                       "sign": 1 if gain.real >= 0 else -1, "freq_hz": reading.f_hz})
+    op = run.solves.op
+    dop = op.devices.get(hop.device) if op is not None else None
+    active = hop.kind in ("nmos", "pmos", "npn", "pnp")
+    if not active:
+        # a passive element on the way (source resistance, coupling capacitor, divider):
+        # its share is the MNA ratio of the two nets, shown as such
+        return stage, (f"v({stage.to_net})/v({stage.from_net}) across {stage.device} (MNA)", gain)
+    if dop is None:
+        return stage, None
+    near = {"out": reading.z_near(dev.nodes[0], (hop.device,)),
+            "common": reading.z_near(dev.nodes[2], (hop.device,))}
+    if dev.kind in ("npn", "pnp"):
+        near["control"] = reading.z_near(dev.nodes[1], (hop.device,))
+    if first_current:
+        near["source"] = reading.z_near(hop.from_net, (hop.device,))
+        if hop.entry in ("g", "b") and hop.exit in ("d", "c"):
+            near.update(_feedback_resistor(circuit, run.solves, dev, circuit.nets, reading.seen, reading.f_hz))
+    body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
+    form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
+    if form is None:
+        return stage, None
+    text, value, terms = form
+    if value is not None and hop.exit in ("d", "c") and hop.entry in ("s", "e") \
+            and dev.nodes[1] != 0 and abs(reading.v(dev.nodes[1])) > 1e-3 * abs(reading.v(hop.from_net)):
+        stage.drop_form("its gate/base carries signal too (not a common-gate/base stage)")
+        return stage, None
+    stage.set_form(text, value, gain)
+    stage.terms = forms.clean_terms(terms)
+    return stage, ((text, value) if value is not None else None)
+
+
+def _chain(run: _Audit, row: dict, hops, pin: Port, pout: Port, detach):
+    block, loads, solves, band_hz = run.block, run.loads, run.solves, run.band_hz
     circuit = block.circuit
     base = tuple(detach)
     name = circuit.nets
-    s_dc = solves.solver(0.0, base, driven=None if pin.signal == "current" else pin.circuit_net)
-    x = s_dc.solve_injection(pin.circuit_net) if pin.signal == "current" else None
-    values_at = {}
-
-    def v(net_idx: int) -> complex:
-        if net_idx not in values_at:
-            net = name[net_idx]
-            values_at[net_idx] = s_dc.voltage(x, net) if x is not None else s_dc.gain_to(net)
-        return values_at[net_idx]
-
-    product_formula, product_value = [], 1.0
-    for k, hop in enumerate(hops):
-        dev = circuit.device(hop.device)
-        first_current = k == 0 and pin.signal == "current"
-        denom = 1.0 if first_current else v(hop.from_net)
-        gain = v(hop.to_net) / denom if abs(denom) > 0 else 0j
-        entry = {"device": _local(block, hop.device), "role": stage_rows.get(hop.device, {}).get("role", dev.kind),
-                 "from": _local(block, name[hop.from_net]), "to": _local(block, name[hop.to_net]),
-                 "enters_at": hop.entry_word,
-                 "gain": {"mag": abs(gain), "unit": "ohm" if first_current else "V/V",
-                          "sign": 1 if gain.real >= 0 else -1}}
-        dop = solves.op.devices.get(hop.device) if solves.op is not None else None
-        if dop is not None and hop.kind in ("nmos", "pmos", "npn", "pnp"):
-            out_pin, com_pin = (0, 2)
-            near = {"out": _z_near(solves, dev.nodes[out_pin], name, base + (hop.device,)),
-                    "common": _z_near(solves, dev.nodes[com_pin], name, base + (hop.device,))}
-            if first_current:
-                near["source"] = near["common"]
-            form = forms.hop_form(hop, dop.values, near, first_current)
-            if form is not None:
-                entry["formula"], entry["formula_value"], terms = form
-                entry["terms"] = forms.clean_terms(terms)
-                if entry["formula_value"] is not None:
-                    product_value *= entry["formula_value"]
-                    product_formula.append(entry["formula"])
-                else:
-                    product_value = None
-            else:
-                product_value = None
-        else:
-            product_value = None
-        row["chain"].append(entry)
-        if product_value is None:
-            product_formula = []
-    if product_formula and product_value is not None:
-        row["formula"] = " × ".join(f"[{f}]" for f in product_formula)
-        row["formula_value"] = abs(product_value)
+    reading = _ChainReading(run, row, pin, detach)
+    seen = reading.seen
+    row["chain_freq_hz"] = reading.f_hz
+    stages, factors = [], []  # factors: (text, value), "inside" (a pair's inner row), None (no form)
+    for k in range(len(hops)):
+        stage, factor = _stage_gain(run, reading, hops, k)
+        stages.append(stage)
+        factors.append(factor)
+    for k in range(len(hops)):
+        pair = _mirror_loaded_pair(circuit, hops, k, solves.op, run.stage_rows, reading.z_near)
+        if pair is None:
+            continue
+        end, text, value, devices, other_gate = pair
+        exact = reading.ratio(hops, k, end)
+        stage = stages[k]
+        stage.terms = None
+        stage.set_form(text, value, exact)
+        stage.spans, stage.spans_to = [run.local(d) for d in devices], run.local(name[hops[end].to_net])
+        stage.span_gain = {"mag": abs(exact), "unit": "V/V", "sign": 1 if exact.real >= 0 else -1}
+        factors[k] = (text, value)
+        if other_gate != 0 and abs(reading.v(other_gate)) > 1e-3 * abs(reading.v(hops[k].from_net)):
+            # the pair's other gate carries signal: a feedback loop closes through it, and the
+            # textbook form is the open-loop gain, not this node ratio
+            stage.in_loop_through = run.local(name[other_gate])
+            factors[k] = None
+        for m in range(k + 1, end + 1):
+            stages[m].drop_form(f"inside the mirror-loaded pair (the form at {stage.device})")
+            factors[m] = "inside"
+        break
+    row["chain"] = [st.to_json() for st in stages]
+    loops = [st.in_loop_through for st in stages if st.in_loop_through]
+    if loops:
+        row["notes"].append(f"the chain sits inside a feedback loop closed through {', '.join(loops)}: "
+                            "a stage's textbook form is its open-loop gain, the gains above are in the loop")
+    _product_form(row, factors, reading.ratio(hops, 0, len(hops) - 1) if hops else None, reading.f_hz)
     # interfaces: the input net, every net between two stages, the output net
     nets = [hops[0].from_net] + [h.to_net for h in hops] if hops else []
     for k, net_idx in enumerate(nets):
@@ -506,20 +740,20 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
             load_nets = {n for d in circuit.devices if d.name in receiver for n in d.nodes} - {0}
             receiver = receiver + [d.name for d in circuit.devices
                                    if net_idx in d.nodes and d.name not in receiver
-                                   and d.name not in base and len(d.nodes) == 2
+                                   and d.name not in seen and len(d.nodes) == 2
                                    and d.kind in ("capacitor", "resistor", "inductor")
                                    and (set(d.nodes) - {net_idx}) & load_nets]
         others = [d.name for d in circuit.devices if net_idx in d.nodes and d.name not in receiver
-                  and d.name not in base]
-        z_out = solves.z(net, 0.0, base + tuple(receiver))
-        z_in = solves.z(net, 0.0, base + tuple(others)) if receiver else None
+                  and d.name not in seen]
+        z_out = solves.z(net, 0.0, seen + tuple(receiver))
+        z_in = solves.z(net, 0.0, seen + tuple(others)) if receiver else None
         entry = {"net": _local(block, net), "role": role, "signal": signal,
                  "driver": [_local(block, o) for o in others],
                  "receiver": [_local(block, r) for r in receiver],
                  "z_out_ohm": mag_or_none(z_out), "z_in_ohm": mag_or_none(z_in)}
         if band_hz:
-            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, base + tuple(receiver)))
-            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, base + tuple(others)))
+            entry["z_out_band_ohm"] = mag_or_none(solves.z(net, band_hz, seen + tuple(receiver)))
+            entry["z_in_band_ohm"] = (mag_or_none(solves.z(net, band_hz, seen + tuple(others)))
                                       if receiver else None)
             # judged in the signal band, where an AC-coupled load is connected
             entry.update(_verdict(signal, entry["z_out_band_ohm"], entry["z_in_band_ohm"]))
@@ -528,11 +762,97 @@ def _chain(row, block, hops, pin, pout, detach, loads, solves, stage_rows, band_
         row["interfaces"].append(entry)
 
 
-def _z_near(solves, net_idx: int, names, detach) -> float:
-    if net_idx == 0 or solves.solver(0.0, detach).unknown(names[net_idx]) < 0:
+def _product_form(row: dict, factors, exact, f_hz: float) -> None:
+    """The path's form: the product of every stage's form (a passive element's MNA ratio
+    included), when every stage has one, with its error against the path's gain."""
+    if not factors or any(f is None for f in factors):
+        return
+    used = [f for f in factors if f != "inside"]
+    value = 1.0
+    for _text, factor in used:
+        value *= factor
+    row["formula"] = " × ".join(f"[{text}]" for text, _ in used)
+    row["formula_value"] = abs(value)
+    row["formula_freq_hz"] = f_hz
+    err = form_error_pct(value, exact)
+    row["formula_error_pct"] = err
+    row["formula_exact"] = err is not None and err <= FORM_EXACT_PCT
+
+
+def _mirror_loaded_pair(circuit, hops, k, op, stage_rows, z_load_of):
+    """The mirror-loaded differential pair entered at hop ``k`` (Razavi sec. 5.3.3):
+    (last hop index, form, value, devices) or None.
+
+    The input device's gate is the hop's from-net; its partner shares the tail; one
+    side's drain is diode-connected and gates a mirror output device on the other
+    side's drain, which is where the chain leaves the pair (one or two hops later).
+    The gain is g_m1 (r_o2 || r_o4), positive from the diode side's gate; ``z_load_of(net,
+    devices)`` gives what else loads the output net (Z_L, an open at DC as a rule).
+    """
+    hop = hops[k]
+    if op is None or hop.entry != "g" or hop.kind not in ("nmos", "pmos"):
+        return None
+    a = circuit.device(hop.device)
+    row = stage_rows.get(hop.device) or {}
+    if row.get("role") != "differential pair" or not row.get("related"):
+        return None
+    b = circuit.device(row["circuit_related"][0] if row.get("circuit_related") else row["related"][0])
+    if b is None or b.nodes[2] != a.nodes[2]:
+        return None
+    for out_dev, diode_side in ((b, a), (a, b)):
+        node_out, node_diode = out_dev.nodes[0], diode_side.nodes[0]
+        diode = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_diode
+                 and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
+        mirror = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_out
+                  and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
+        if not diode or not mirror:
+            continue
+        end = next((m for m in range(k, min(k + 2, len(hops))) if hops[m].to_net == node_out), None)
+        if end is None:
+            return None
+        values = {n: op.devices[n].values for n in (a.name, out_dev.name, mirror[0].name) if n in op.devices}
+        if len(values) < len({a.name, out_dev.name, mirror[0].name}):
+            return None
+        gm1 = values[a.name]["gm_s"]
+        ro2, ro4 = values[out_dev.name]["ro_ohm"], values[mirror[0].name]["ro_ohm"]
+        sign = 1.0 if out_dev is b else -1.0
+        names = (a.name, out_dev.name, mirror[0].name)
+        z_load = z_load_of(node_out, (out_dev.name, mirror[0].name))
+        text = ("g_m1 (r_o2 || r_o4" if sign > 0 else "-g_m1 (r_o2 || r_o4")
+        value = sign * gm1 * parallel(ro2, ro4, z_load)
+        text += (")" if z_load == math.inf else " || Z_L)") + \
+            f", mirror-loaded pair: 1 = {names[0]} (input), 2 = {names[1]} (output side), 4 = {names[2]} (mirror)"
+        if z_load != math.inf:
+            text += f", Z_L = the rest of {circuit.nets[node_out]}"
+        other_gate = b.nodes[1] if out_dev is b or True else a.nodes[1]
+        return end, text, value, [a.name, out_dev.name, mirror[0].name, diode[0].name], other_gate
+    return None
+
+
+def _feedback_resistor(circuit, solves, dev, names, base, f_hz) -> dict:
+    """R_F and the two nets' impedances without the device and R_F, for a stage with one
+    resistor from its output to its control terminal (shunt feedback); {} otherwise."""
+    out, ctl = dev.nodes[0], dev.nodes[1]
+    rf = [d for d in circuit.devices if d.kind == "resistor" and d.name not in base
+          and set(d.nodes[:2]) == {out, ctl} and out != ctl]
+    if len(rf) != 1:
+        return {}
+    gone = base + (dev.name, rf[0].name)
+    return {"R_F": float(rf[0].value), "R_F_name": rf[0].name,
+            "out_nf": _z_near(solves, out, names, gone, f_hz),
+            "control_nf": _z_near(solves, ctl, names, gone, f_hz)}
+
+
+def _z_near(solves, net_idx: int, names, detach, freq_hz: float = 0.0):
+    """The impedance a terminal sees (0 at AC ground, inf for an open); real at DC,
+    complex in the band when it is not (a capacitance matters there)."""
+    if net_idx == 0 or solves.solver(freq_hz, detach).unknown(names[net_idx]) < 0:
         return 0.0
-    z = solves.z(names[net_idx], 0.0, detach)
-    return math.inf if z is None else abs(z)
+    z = solves.z(names[net_idx], freq_hz, detach)
+    if z is None:
+        return math.inf
+    z = complex(z)
+    return z.real if abs(z.imag) <= 1e-9 * abs(z.real) else z
 
 
 def _verdict(signal: str, z_out, z_in) -> dict:

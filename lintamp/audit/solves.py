@@ -59,3 +59,39 @@ def mag_or_none(z) -> float | None:
         return None
     m = abs(z)
     return None if m >= OPEN_OHM or not math.isfinite(m) else m
+
+
+def finite_for_json(obj, where: str = "", notes: list | None = None):
+    """A copy of ``obj`` where every infinite or NaN float is ``null``, with its reason.
+
+    In a dict the key ``K`` becomes ``null`` and ``K_why`` says why ("infinite" for an
+    open or an unbounded value, "not a number" for a quantity the models gave no value
+    for); ``notes`` (when given) collects ``{"where", "why"}`` for every such value.
+
+    >>> finite_for_json({"z_ohm": float("inf")})
+    {'z_ohm': None, 'z_ohm_why': 'infinite (an open, or a value without bound)'}
+    """
+    if isinstance(obj, float) and not math.isfinite(obj):
+        if notes is not None:
+            notes.append({"where": where, "why": _why(obj)})
+        return None
+    if isinstance(obj, complex):
+        return finite_for_json(abs(obj), where, notes)
+    if isinstance(obj, dict):
+        out = {}
+        for key, value in obj.items():
+            clean = finite_for_json(value, f"{where}.{key}" if where else str(key), notes)
+            out[key] = clean
+            if isinstance(value, float) and not math.isfinite(value):
+                out[f"{key}_why"] = _why(value)
+        return out
+    if isinstance(obj, (list, tuple)):
+        return [finite_for_json(v, f"{where}[{k}]", notes) for k, v in enumerate(obj)]
+    if hasattr(obj, "item") and callable(obj.item) and getattr(obj, "shape", None) == ():
+        return finite_for_json(obj.item(), where, notes)  # a numpy scalar
+    return obj
+
+
+def _why(value: float) -> str:
+    return "not a number (the models gave no value here)" if math.isnan(value) else \
+        "infinite (an open, or a value without bound)"

@@ -10,15 +10,9 @@ def ports_table(data: dict):
     rows = []
     for p in data["ports"]:
         zname = "Z_in" if p["kind"].endswith("input") else "Z_out"
-        form = ""
-        if p.get("formula"):
-            form = f"{zname} = {p['formula']}"
-            if p.get("formula_ohm") is not None:
-                form += f" = {si(p['formula_ohm'], 'Ω')}"
-            if p.get("approx"):
-                form += f"; ≈ {p['approx']} = {w.ohm(p.get('approx_ohm'))}"
-            if p.get("parallel"):
-                form += "; in parallel: " + ", ".join(f"{b['via']} {w.ohm(b['z_ohm'])}" for b in p["parallel"])
+        form = "; ".join(w.port_form_lines(p, zname))
+        if p.get("parallel"):
+            form += "; in parallel: " + ", ".join(f"{b['via']} {w.ohm(b['z_ohm'])}" for b in p["parallel"])
         rows.append([p["net"], p["kind"], w.z_text(p["z_ohm"]), w.z_text(p.get("z_band_ohm")),
                      p.get("stage") or "—", form or "—", p["decided_by"], len(p.get("findings", []))])
     return ("Ports", ["net", "kind", "Z at DC", "Z at band", "stage behind it", "textbook form",
@@ -29,9 +23,8 @@ def stages_table(data: dict):
     rows = []
     for s in data["stages"]:
         rows.append([s["device"], s["role"], s.get("region") or "—",
-                     si(s["gm_s"], "S") if s.get("gm_s") is not None else "—",
-                     si(s["ro_ohm"], "Ω") if s.get("ro_ohm") is not None else "—",
-                     si(s["id_a"], "A") if s.get("id_a") is not None else "—",
+                     w.number(s.get("gm_s"), "S"), w.number(s.get("ro_ohm"), "Ω"),
+                     w.number(s.get("id_a"), "A"),
                      w.margin_text(s), len(s.get("findings", []))])
     return ("Stages", ["device", "role", "region", "g_m", "r_o", "I_D / I_C", "V_DS − V_DSAT", "findings"], rows)
 
@@ -40,8 +33,7 @@ def paths_table(data: dict):
     rows = []
     for p in data["paths"]:
         chain = " → ".join(f"{h['device']} ({h['role']})" for h in p.get("chain", [])) or "—"
-        form = f"≈ {p['formula']} = {w.gain_text(dict(p['gain'], mag=p['formula_value'], sign=1))}" \
-            if p.get("formula") else "—"
+        form = w.path_form_text(p) if p.get("formula") else "—"
         rows.append([f"{p['from']} → {p['to']}", p["kind"], w.gain_text(p["gain"]),
                      w.gain_text(p.get("gain_band")), w.freq_text(p.get("f3db_hz")),
                      ", ".join(w.freq_text(f) for f in p.get("poles_hz") or []) or "—", chain, form])
@@ -63,13 +55,8 @@ def interfaces_table(path: dict):
 def chain_table(path: dict):
     rows = []
     for h in path.get("chain", []):
-        value = ""
-        if h.get("formula"):
-            fv = h.get("formula_value")
-            value = h["formula"] + ("" if fv is None else
-                                    f" = {w.gain_text(dict(h['gain'], mag=abs(fv), sign=1 if fv >= 0 else -1))}")
         rows.append([h["device"], h["role"], f"{h['from']} → {h['to']}", h["enters_at"],
-                     w.gain_text(h["gain"]), value or "—"])
+                     w.gain_text(h["gain"]), w.hop_form_text(h) or "—"])
     return (f"Stages along {path['from']} → {path['to']}",
             ["device", "role", "nets", "signal enters at", "stage gain (MNA)", "textbook form"], rows)
 

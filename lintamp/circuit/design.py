@@ -2,7 +2,7 @@
 
 Each cell (``.subckt`` or the top level) becomes one :class:`CellView`, built
 once whatever the number of its instances: its devices with their kind and pin
-roles, its nets, and a networkx graph.  :class:`Design` ties the views together
+roles, its nets, its terminals as integer tables.  :class:`Design` ties the views together
 with the instance hierarchy, the ground and supply nets, and can flatten the
 whole into a numeric :class:`~lintamp.circuit.flat.FlatCircuit` for the engine.
 """
@@ -10,13 +10,15 @@ whole into a numeric :class:`~lintamp.circuit.flat.FlatCircuit` for the engine.
 from __future__ import annotations
 
 import re
+from collections import Counter
 from dataclasses import dataclass, field
 from functools import cached_property
 from itertools import chain, compress
 from operator import attrgetter, gt
-from typing import Callable, Iterable, Iterator, Mapping
+from typing import Iterable, Iterator, Mapping, NamedTuple
 
 from lintamp.circuit.devicemap import DeviceMap, DeviceSpec
+from lintamp.circuit.kinds import BJT_KINDS
 from lintamp.location import Location
 from lintamp.netlist.statements import (BlockList, Cell, Diagnostic, Element, Model, Netlist,
                                         PlainRun)
@@ -26,6 +28,7 @@ DEFAULT_FLATTEN_LIMIT = 2_000_000
 # below this many terminals a cell's tables are plain lists and its connectivity is a
 # pure-Python union-find: cheaper than importing numpy for a pre-commit run on a small deck
 SMALL_TABLE_TERMINALS = 4096
+_MANY_NAMES = 100_000  # above this many, a cell's names are compared by hash first
 
 # pin roles by device kind (the order of the element's nodes)
 PINS = {
@@ -43,9 +46,6 @@ PINS = {
     "switch": ("p", "n", "cp", "cn"), "cswitch": ("p", "n"),
     "line": ("p1", "n1", "p2", "n2"),
 }
-MOS_KINDS = frozenset({"nmos", "pmos", "mos"})
-BJT_KINDS = frozenset({"npn", "pnp", "bjt"})
-TRANSISTOR_KINDS = MOS_KINDS | BJT_KINDS | {"njf", "pjf", "jfet", "mesfet"}
 
 _LETTER_KIND = {"r": "resistor", "c": "capacitor", "l": "inductor", "k": "coupling",
                 "v": "vsource", "i": "isource", "e": "vcvs", "g": "vccs", "f": "cccs",
@@ -97,7 +97,7 @@ class Device:
         return f"<{self.kind} {self.name} {dict(zip(self.pins, self.nets))}>"
 
 
-class RunDevices:
+class _RunDevices:
     """The devices of a run of plain R/C/L cards (:class:`~lintamp.netlist.statements.PlainRun`):
     each made, once, when first asked for, so that a cell of a million parasitics
     holds their net numbers rather than a million Device objects.
@@ -147,11 +147,11 @@ class RunDevices:
 
 class DeviceList(BlockList):
     """A cell view's devices in netlist order: Device objects, and the devices of
-    runs of plain cards (:class:`RunDevices`), made once each when asked for (see
+    runs of plain cards (:class:`_RunDevices`), made once each when asked for (see
     :class:`~lintamp.netlist.statements.BlockList`: iterating makes every device)."""
 
     __slots__ = ()
-    block = RunDevices
+    block = _RunDevices
 
     add_run = BlockList.add_block
     beyond_runs = BlockList.beyond_blocks
@@ -162,8 +162,8 @@ class DeviceList(BlockList):
         import numpy as np
 
         runs = b"".join([item.run.name_hashes for item in self._items
-                         if item.__class__ is RunDevices])
-        singles = [item.name for item in self._items if item.__class__ is not RunDevices]
+                         if item.__class__ is _RunDevices])
+        singles = [item.name for item in self._items if item.__class__ is not _RunDevices]
         return np.concatenate([np.frombuffer(runs, dtype=np.int64),
                                np.fromiter(map(hash, singles), dtype=np.int64, count=len(singles))])
 
@@ -171,7 +171,7 @@ class DeviceList(BlockList):
         """Every device's name (lower case), in order, without making the run devices."""
         out: list[str] = []
         for item in self._items:
-            if item.__class__ is RunDevices:
+            if item.__class__ is _RunDevices:
                 out.extend(item.run.text.lower().split()[0::4])
             else:
                 out.append(item.name)
@@ -215,13 +215,13 @@ class CellView:
 
     @cached_property
     def in_plain_run(self):
-        """Which devices come from a run of plain R/C/L cards (see :class:`RunDevices`):
+        """Which devices come from a run of plain R/C/L cards (see :class:`_RunDevices`):
         a numpy bool array, or None for a small cell or a cell without runs."""
         devices = self.devices
         if len(devices) < SMALL_TABLE_TERMINALS:
             return None
         spans = [(start, item.run.count) for start, item in devices.blocks()
-                 if item.__class__ is RunDevices]
+                 if item.__class__ is _RunDevices]
         if not spans:
             return None
         import numpy as np
@@ -247,20 +247,108 @@ class CellView:
         """The first device of each name that instantiates a cell view."""
         return {dev.name: dev for dev in reversed(self.devices) if dev.subcell is not None}
 
-    def devices_where(self, wanted: Callable[[tuple], bool]) -> list[Device]:
-        """The devices whose class key ``(kind, pins, element letter, element model)``
-        ``wanted`` accepts, in netlist order: found by device class, without a step per
-        device of the other classes."""
+    # -- named queries: what rules and analyses ask of a cell ----------------------
+    # Each answers from the device classes or the terminal table, so a cell of a
+    # million plain R/C cards makes no Device for the cards the answer leaves out.
+    def devices_of(self, *, kinds: Iterable[str] | None = None,
+                   letters: Iterable[str] | None = None, with_model: bool = False) -> list[Device]:
+        r"""The devices of the given ``kinds`` and element ``letters`` (None: any), and
+        with ``with_model`` only those whose element names a model, in netlist order.
+
+        Found by device class: no step per device of the classes left out.
+
+        >>> from lintamp.netlist.parser import parse_text
+        >>> view = elaborate(parse_text("* title line\nM1 d g 0 0 nch\nR1 d 0 1k\nX1 d sub\n")).top
+        >>> [d.name for d in view.devices_of(letters="mx")], [d.name for d in view.devices_of(kinds=("resistor",))]
+        (['m1', 'x1'], ['r1'])
+        """
+        kinds = None if kinds is None else frozenset(kinds)
+        letters = None if letters is None else frozenset(letters)
         classes = self.device_classes
-        return list(map(self.devices.__getitem__, classes.members(
-            [c for c, key in enumerate(classes.keys) if wanted(key)])))
+        wanted = [c for c, key in enumerate(classes.keys)
+                  if (kinds is None or key.kind in kinds) and (letters is None or key.letter in letters)
+                  and (not with_model or key.model)]
+        return list(map(self.devices.__getitem__, classes.members(wanted)))
+
+    def devices_sharing_names(self) -> dict[str, list[Device]]:
+        r"""Each name two or more devices share, with those devices in netlist order
+        (names in order of first use); empty, the usual answer, when all differ.
+
+        A big cell's names are told apart by their hashes first (one 8-byte integer
+        each, sorted; the parser hashed the names of the runs of plain cards as it read
+        them), so that the usual answer needs no list or set of a million strings;
+        equal hashes fall back to the names, and only the devices that share a name
+        are made.
+
+        >>> from lintamp.netlist.parser import parse_text
+        >>> view = elaborate(parse_text("* title line\nR1 a 0 1k\nC1 a 0 1p\nr1 a b 2k\n")).top
+        >>> {name: [d.display for d in devs] for name, devs in view.devices_sharing_names().items()}
+        {'r1': ['R1', 'r1']}
+        """
+        devices = self.devices
+        if len(devices) > _MANY_NAMES:
+            hashes = devices.name_hashes()
+            hashes.sort()
+            if not (hashes[1:] == hashes[:-1]).any():
+                return {}
+        names = devices.names()
+        if len(set(names)) == len(names):
+            return {}
+        counts = Counter(names)
+        out: dict[str, list[Device]] = {}
+        for d, name in enumerate(names):
+            if counts[name] > 1:
+                out.setdefault(name, []).append(devices[d])
+        return out
+
+    def devices_with_repeated_nets(self) -> list[Device]:
+        """The devices with one net on two or more of their terminals (and those with
+        more than 8 terminals, not compared), in netlist order: found with array
+        operations on the terminal table."""
+        devices = self.devices
+        return [devices[d] for d in self.terminal_table.repeated_net_devices()]
+
+    def roleless_nets(self) -> set[str]:
+        """The nets on pins without a role (an instance with more nets than its cell has
+        ports), which lintamp cannot judge."""
+        devices = self.devices
+        return {net for dev in map(devices.__getitem__, self.terminal_table.extra_devices)
+                for net in dev.nets[len(dev.pins):]}
+
+    def devices_but_nonzero_plain_resistors(self, wanted: Iterable[int],
+                                            resistor_classes: Iterable[int]) -> list[int]:
+        """Numbers of the devices of the ``wanted`` classes, in netlist order, less the
+        resistors (of ``resistor_classes``) from runs of plain cards whose value has a
+        nonzero digit: a literal number, as the parser's run pattern guarantees, so
+        never a zero-ohm branch whatever the scope (the parser lists a run's other
+        resistors as possibly zero).  No run device is made."""
+        classes = self.device_classes
+        wanted = set(wanted)
+        resistor_classes = set(resistor_classes)
+        in_run = self.in_plain_run
+        if in_run is None or not resistor_classes:
+            return classes.members(wanted)
+        import numpy as np
+
+        chosen = np.zeros(len(classes.keys), dtype=bool)
+        chosen[list(wanted)] = True
+        resistor = np.zeros(len(classes.keys), dtype=bool)
+        resistor[list(resistor_classes)] = True
+        in_run_resistor = in_run & resistor[classes.codes]
+        keep = chosen[classes.codes] & ~in_run_resistor
+        for start, item in self.devices.blocks():  # the run resistors that may be zero
+            if item.__class__ is _RunDevices:
+                for i in item.run.maybe_zero:
+                    if in_run_resistor[start + i]:
+                        keep[start + i] = True
+        return np.flatnonzero(keep).tolist()
 
     def instances(self) -> list[Device]:
         """The devices that instantiate a cell view (``subcell`` set), in netlist order;
         found by device class, without a step per device."""
         classes = self.device_classes
         devices = self.devices
-        wanted = [c for c, key in enumerate(classes.keys) if key[0] == "instance"]
+        wanted = [c for c, key in enumerate(classes.keys) if key.kind == "instance"]
         return [dev for dev in map(devices.__getitem__, classes.members(wanted))
                 if dev.subcell is not None]
 
@@ -282,27 +370,6 @@ class CellView:
         """A port, a global or ground: connected from outside this cell."""
         return net in self.ports or net in self.globals
 
-    @cached_property
-    def graph(self):
-        """Bipartite networkx graph: net names (str) and :class:`Device` objects.
-
-        An edge joins a device to each net it touches, with ``pins`` (tuple of pin
-        roles on that net).  ``G.nodes[net]["external"]`` marks ports and globals.
-        """
-        import networkx as nx
-
-        g = nx.Graph()
-        for net in self.net_terminals:
-            g.add_node(net, kind="net", external=self.is_external(net))
-        for dev in self.devices:
-            g.add_node(dev, kind="device")
-            for pin, net in dev.terminals():
-                if g.has_edge(dev, net):
-                    g[dev][net]["pins"] += (pin,)
-                else:
-                    g.add_edge(dev, net, pins=(pin,))
-        return g
-
 
 def _index_dtype(count: int):
     import numpy as np
@@ -310,11 +377,20 @@ def _index_dtype(count: int):
     return np.int32 if count < 2 ** 31 - 1 else np.int64
 
 
+class DeviceClass(NamedTuple):
+    """What every device of one class shares: an analysis derives a role from these."""
+
+    kind: str
+    pins: tuple[str, ...]
+    letter: str            # the element letter as written
+    model: str | None      # the element's model (or subcircuit) name as written
+
+
 class DeviceClasses:
     """A cell's devices numbered by class: devices of one (kind, pins, element letter,
     element model) share every role an analysis derives from those four.
 
-    ``keys[c]`` is class ``c``'s key and ``codes[d]`` the class of device ``d`` (a
+    ``keys[c]`` is class ``c``'s :class:`DeviceClass` and ``codes[d]`` the class of device ``d`` (a
     numpy int64 array, or a list for fewer than :data:`SMALL_TABLE_TERMINALS`
     devices).  :meth:`members` lists the devices of chosen classes in netlist order,
     so an analysis visits only the devices it can act on.
@@ -331,7 +407,8 @@ class DeviceClasses:
         which meets every device's key as it recognises it)."""
         self.small = len(devices) < SMALL_TABLE_TERMINALS
         if known is not None:
-            codes, self.keys = known
+            codes, keys = known
+            self.keys = [DeviceClass(*key) for key in keys]
             if self.small:
                 self.codes = codes
             else:
@@ -349,7 +426,7 @@ class DeviceClasses:
 
             self.codes = np.fromiter(map(numbering.__getitem__, keys), dtype=np.int64,
                                      count=len(devices))
-        self.keys: list[tuple] = list(numbering)
+        self.keys: list[DeviceClass] = [DeviceClass(*key) for key in numbering]
 
     def first_members(self) -> list[int]:
         """The number of the first device of each class (classes are numbered in order
@@ -470,11 +547,11 @@ class TerminalTable:
 
     def _from_runs(self, view: "CellView", netlist: Netlist) -> bool:
         """Build the table from the net numbers the parser kept for the cell's runs of
-        plain R/C/L cards (:class:`RunDevices`): the same table as the general path,
+        plain R/C/L cards (:class:`_RunDevices`): the same table as the general path,
         with names looked up only for the devices outside the runs, and array steps
         for the rest (no run device is made).  False (nothing set) where the cell has
         no runs or is small."""
-        runs = [item.run for _, item in self.devices.blocks() if item.__class__ is RunDevices]
+        runs = [item.run for _, item in self.devices.blocks() if item.__class__ is _RunDevices]
         if sum(run.count for run in runs) * 2 < SMALL_TABLE_TERMINALS:
             return False
         import numpy as np
@@ -503,7 +580,7 @@ class TerminalTable:
         extra_nets: list[int] = []
         outside = []
         for d, dev in devices.blocks():
-            if dev.__class__ is RunDevices:
+            if dev.__class__ is _RunDevices:
                 continue
             outside.append(d)
             nets, n_pins = dev.nets, len(dev.pins)
@@ -629,10 +706,6 @@ class TerminalTable:
                 repeated[has] |= ids[base + a] == ids[base + b]
         return np.flatnonzero(repeated).tolist()
 
-    def degree(self, i: int) -> int:
-        """Number of terminals on net number ``i``."""
-        return int(self.net_start[i + 1] - self.net_start[i])
-
     def terminals_of(self, i: int) -> list[tuple["Device", str]]:
         """(device, pin) terminals on net number ``i``, in netlist order."""
         terms = self.term_order[self.net_start[i]:self.net_start[i + 1]]
@@ -678,13 +751,6 @@ class NetTerminals(Mapping):
 
     def __len__(self) -> int:
         return self.table.n_role_nets
-
-    def degree(self, net: str) -> int:
-        """How many terminals ``net`` has (0 for an unknown name), without building them."""
-        i = self.table.index.get(net)
-        if i is None or i >= self.table.n_role_nets:
-            return 0
-        return self.table.degree(i)
 
     def with_degree(self, count: int) -> list[str]:
         """The nets with exactly ``count`` terminals, in net order."""
@@ -845,9 +911,8 @@ def recognise(element: Element, cell: Cell, devmap: DeviceMap,
     polarity_from = ""
     if letter == "x":
         spec = devmap.lookup(element.model or "") if element.model else None
-        if (spec is not None and getattr(spec, "builtin", False) and subcell is not None
-                and len(subcell.ports) != len(spec.pins)):
-            spec = None  # a generated wrapper that only shares the PDK's prefix: use its definition
+        if spec is not None and getattr(spec, "builtin", False) and subcell is not None:
+            spec = None  # a cell read is that cell; only a project's own [devices] entry overrides it
         if spec is not None:  # the map wins even where the subcircuit is defined
             kind = spec.kind
             pins = spec.pins
@@ -979,7 +1044,7 @@ def elaborate(netlist: Netlist, *, devmap: DeviceMap | None = None, top: str | N
 
 
 def _run_devices(run: PlainRun, cell: Cell, devmap: DeviceMap, known: dict,
-                 class_of: "_Numbering", codes: list[int]) -> RunDevices:
+                 class_of: "_Numbering", codes: list[int]) -> _RunDevices:
     """The devices of a run of plain R/C/L cards, recognised as the loop of
     :func:`elaborate` recognises them (each letter's ``known`` entry, keyed
     ``(letter, None, 2)``), with their class numbers appended to ``codes``."""
@@ -999,7 +1064,7 @@ def _run_devices(run: PlainRun, cell: Cell, devmap: DeviceMap, known: dict,
         codes.extend([code_of[run.letters[0]]] * run.count)
     else:
         codes.extend(map(code_of.__getitem__, run.letters))
-    return RunDevices(run, kinds)
+    return _RunDevices(run, kinds)
 
 
 def _cut_recursion(views: dict[int, CellView], diagnostics: list[Diagnostic]) -> set[int]:

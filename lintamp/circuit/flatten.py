@@ -10,7 +10,7 @@ from __future__ import annotations
 from lintamp.circuit.design import DEFAULT_FLATTEN_LIMIT, CellView, Design, Device
 from lintamp.circuit.flat import FlatCircuit, FlatDevice, ModelCard, SourceValues
 from lintamp.circuit.values import Scope, cell_scope, instance_overrides, top_scope
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 ENGINE_KINDS = frozenset({"resistor", "capacitor", "inductor", "vsource", "isource", "vcvs",
                           "vccs", "cccs", "ccvs", "diode", "npn", "pnp", "njf", "pjf", "nmos",

@@ -209,14 +209,26 @@ def undefined_names(netlist: Netlist) -> Iterator[UndefinedUse | BadExpression]:
     # a netlist with no parameter definitions at all is unsized: its bare names
     # (w=WA, res=rK) are symbolic values, not misspellings
     unsized = not any(c.params or c.defaults for c in netlist.all_cells())
-    for cell in netlist.all_cells():
-        known = set(BUILTIN_NAMES) | passed.get(id(cell), set())
+    scopes: dict[int, frozenset] = {}  # names each cell's scope defines, its parents' included
+
+    def scope_names(cell) -> frozenset:
+        # built once per cell from its parent's (a parent's own object where the cell
+        # adds nothing): O(cells), not O(cells x depth), for deeply nested definitions
+        chain = []
         c = cell
-        while c is not None:
-            known.update(p.name for p in c.params)
-            known.update(c.defaults)
-            known.update(c.funcs)
+        while c is not None and id(c) not in scopes:
+            chain.append(c)
             c = c.parent
+        names = scopes[id(c)] if c is not None else frozenset(BUILTIN_NAMES)
+        for c in reversed(chain):
+            own = {p.name for p in c.params} | set(c.defaults) | set(c.funcs)
+            if own - names:
+                names = names | own
+            scopes[id(c)] = names
+        return names
+
+    for cell in netlist.all_cells():
+        known = scope_names(cell) | passed.get(id(cell), set())
         where = {p.name: p.location for p in cell.params}
         for name, error in circular_params(cell):
             yield BadExpression(None, f".param {name}", error, where.get(name, cell.location), cell)

@@ -10,13 +10,12 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import sys
-import tempfile
 from pathlib import Path
 
-from lintamp.commands.common import (UsageError, add_config_options, epilog, existing_file,
-                                     load_config, load_op, output_target, report_internal_errors)
+from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, epilog,
+                                     existing_file, load_config, load_op, output_target,
+                                     report_internal_errors)
 
 FORMATS = ("text", "json", "markdown", "html")
 
@@ -54,41 +53,51 @@ def register(sub) -> None:
 
 
 
-def write_atomically(path: Path, payload: bytes) -> None:
-    """Write ``payload`` to ``path`` through a temporary file in the same folder."""
-    folder = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+def write_atomically(path: Path, payload: bytes, protect=()) -> None:
+    """Write ``payload`` to ``path`` through a temporary file in the same folder; never
+    through a symbolic link nor over a file in ``protect`` (lintamp.safe_paths)."""
+    from lintamp.safe_paths import write_atomic
     try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(payload)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; a sheet is for sharing
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
+        write_atomic(path, payload, protect=protect, durable=False)
+    except OSError as exc:
+        raise UsageError(f"-o {path}: cannot write it ({exc.strerror or exc})") from None
 
 
 def run(args) -> int:
-    from lintamp.audit.sheet import AuditError, build_sheet
-
     path = existing_file(args.netlist)
     output = output_target("-o", args.output) if args.output else None
     config = load_config(args, path.resolve().parent)
     table = load_op(args.op)
     want_plots = args.format in ("markdown", "html") and (args.format == "html" or output is not None)
     try:
+        return _audit(args, path, output, config, table, want_plots)
+    except (UsageError, KeyboardInterrupt, BrokenPipeError):
+        raise
+    except Exception as exc:  # a bug: one line naming the netlist, never a traceback
+        print(f"lintamp: internal error while auditing {args.netlist}: {type(exc).__name__}: "
+              f"{_one_line(exc)} (please report it with the netlist)", file=sys.stderr)
+        return EXIT_TROUBLE
+
+
+def _one_line(exc: BaseException) -> str:
+    text = " ".join(str(exc).split())
+    return text[:300] + ("..." if len(text) > 300 else "")
+
+
+def _audit(args, path, output, config, table, want_plots) -> int:
+    from lintamp.audit.sheet import AuditError, build_sheet
+    from lintamp.audit.solves import finite_for_json
+
+    try:
         sheet = build_sheet(path, top=args.top, bandwidth=args.bandwidth, table=table,
                             include_paths=[Path(p) for p in args.include_path], config=config,
                             plots=want_plots)
     except AuditError as exc:
         raise UsageError(str(exc)) from None
-    except ValueError as exc:  # --bandwidth that is no frequency
-        raise UsageError(str(exc)) from None
+    non_finite: list = []
+    sheet.data = finite_for_json(sheet.data, notes=non_finite)
+    if non_finite:
+        sheet.data["non_finite"] = non_finite
 
     images: dict[str, bytes] = {}
     if args.format in ("markdown", "html"):
@@ -105,11 +114,14 @@ def run(args) -> int:
         text = json.dumps(sheet.data, indent=2, allow_nan=False, default=str) + "\n"
     elif args.format == "text":
         from lintamp.audit.render_text import render_text
-        text = render_text(sheet.data)
+        from lintamp.report.base import printable
+        # names are the netlist's: no ESC or OSC-8 sequence reaches the terminal or the log
+        text = "\n".join(printable(line) for line in render_text(sheet.data).split("\n"))
     elif args.format == "markdown":
         from lintamp.audit.render_markdown import render_markdown
         stem = output.stem if output is not None else "audit"
-        names = {key: f"{stem}-{key}.png" for key in images}
+        from lintamp.audit.plots import plot_file_name
+        names = {key: plot_file_name(stem, key) for key in images}
         text = render_markdown(sheet.data, names)
     else:
         from lintamp.audit.render_html import render_html
@@ -117,8 +129,9 @@ def run(args) -> int:
     if output is None:
         sys.stdout.write(text)
     else:
+        inputs = [path]  # the netlist checked is never overwritten
         if args.format == "markdown":
             for key, payload in images.items():
-                write_atomically(output.parent / f"{output.stem}-{key}.png", payload)
-        write_atomically(output, text.encode("utf-8"))
+                write_atomically(output.parent / names[key], payload, inputs)
+        write_atomically(output, text.encode("utf-8"), inputs)
     return report_internal_errors(sheet.data.get("internal_errors") or (), sys.stderr)

@@ -9,6 +9,7 @@ named ones), shows progress on a terminal, writes the report and picks the exit 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from pathlib import Path
 
@@ -123,6 +124,12 @@ def run(args) -> int:
             raise UsageError(f"{p}: no such file or folder")
     if args.jobs < 1:
         raise UsageError("--jobs must be at least 1")
+    args.jobs = min(args.jobs, os.cpu_count() or 1)  # more processes than cores only thrash
+    if args.bandwidth:  # refused here as audit refuses it, not ignored
+        from lintamp.connectivity.signal_band import parse_frequency_text
+        if parse_frequency_text(args.bandwidth) is None:
+            raise UsageError(f"--bandwidth {args.bandwidth}: not a frequency "
+                             "(write e.g. 20meg, 1.5g or 2e7)")
     output = output_target("-o", args.output) if args.output else None
     baseline_out = output_target("--write-baseline", args.write_baseline) if args.write_baseline else None
     config = _config(args)
@@ -139,10 +146,10 @@ def run(args) -> int:
     if baseline_out is not None:
         from lintamp.baseline import write_baseline
         from lintamp.config import ConfigError
-        try:
-            write_baseline(baseline_out, report)
-        except ConfigError as exc:  # a folder it may not write in
-            raise config_error(exc) from None
+        try:  # never through a link, never over a netlist checked (lintamp.safe_paths)
+            write_baseline(baseline_out, report, protect=report.files)
+        except ConfigError as exc:
+            raise UsageError(f"--write-baseline: {exc}") from None
     write_report(args, report, output)
     if report_internal_errors(errors, sys.stderr):
         return EXIT_TROUBLE
@@ -158,12 +165,15 @@ def write_report(args, report, output: Path | None = None) -> None:
 
     reporter_cls = get_reporter(args.format)
     if output is not None:
-        try:
-            with open(output, "w", encoding="utf-8", newline="\n") as stream:
-                emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
-                                  counts=args.counts, summary=not args.quiet), report)
+        import io
+        from lintamp.safe_paths import write_atomic
+        stream = io.StringIO(newline="\n")
+        emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
+                          counts=args.counts, summary=not args.quiet), report)
+        try:  # never through a link, never over a netlist checked
+            write_atomic(output, stream.getvalue().encode("utf-8"), protect=report.files)
         except OSError as exc:
-            raise UsageError(f"-o {output}: cannot write it ({exc.strerror or exc})") from None
+            raise UsageError(f"-o {args.output}: cannot write it ({exc.strerror or exc})") from None
         return
     color = want_color(args.color, sys.stdout) if args.format == "text" else False
     emit(reporter_cls(sys.stdout, color=color, rules=all_rules(), tool_version=__version__,

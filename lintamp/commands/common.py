@@ -64,10 +64,11 @@ def load_op(path_text: str | None):
     if not path_text:
         return None
     from lintamp.engine.op_table import load_op_table
+    from lintamp.safe_paths import read_text
     try:
-        return load_op_table(Path(path_text).read_text(encoding="utf-8"))
+        return load_op_table(read_text(path_text))  # a regular file: no pipe, no device
     except (OSError, UnicodeDecodeError, ValueError) as exc:
-        raise UsageError(f"--op {path_text}: {exc}") from None
+        raise UsageError(f"--op {path_text}: {getattr(exc, 'strerror', None) or exc}") from None
 
 
 def existing_file(path_text: str) -> Path:

@@ -8,7 +8,7 @@ import json
 import sys
 from pathlib import Path
 
-from lintamp.commands.common import (EXIT_OK, UsageError, add_config_options, epilog, existing_file,
+from lintamp.commands.common import (EXIT_OK, EXIT_TROUBLE, UsageError, add_config_options, epilog, existing_file,
                                      load_config, load_op)
 from lintamp.report.si import si, si_for_key
 
@@ -56,31 +56,61 @@ def load_flat_circuit(netlist_path: Path, *, top: str | None, include_paths=(), 
     netlist = parse_file(netlist_path, read_options(netlist_path, config, include_paths))
     problems = [d for d in netlist.diagnostics if d.severity == "error"]
     design = load_design(netlist, config, top=top)
-    try:
-        circuit = flatten(design)
+    from lintamp.rulekit.impedance_numbers import MAX_ELEMENTS
+    try:  # the element guard of check's impedance rules: a small deck of nested
+        circuit = flatten(design, limit=MAX_ELEMENTS)  # instances must not run for minutes
     except FlattenLimit as exc:
         raise UsageError(str(exc)) from None
-    return circuit, problems
+    return circuit, problems, netlist, config
 
 
-def parse_frequency(text: str) -> float:
-    from lintamp.netlist.expr import parse_number
-    value = parse_number(text.strip().lower().removesuffix("hz"))
-    if value is None or value < 0:
+def freq_option(text: str) -> float:
+    """``--freq``: a frequency, or 0 for DC."""
+    from lintamp.connectivity.intent import parse_frequency
+
+    word = text.strip().lower()
+    if word.removesuffix("hz") in ("0", "0.0", "dc"):
+        return 0.0
+    value = parse_frequency(word)
+    if value is None:
         raise UsageError(f"--freq {text}: not a frequency (write e.g. 0, 1k, 20meg)")
     return value
 
 
+def block_ports(netlist, circuit, config, top: str | None) -> list:
+    """The ports the intent analysis finds for the block the circuit is built on (the
+    top level, or the ``--top`` cell)."""
+    from lintamp.connectivity.intent import IntentAnalysis
+
+    cell = netlist.top
+    if top:
+        cell = next((c for c in netlist.all_cells() if not c.is_top and c.name == top.lower()), netlist.top)
+    candidates = list(cell.ports) if not cell.is_top else None
+    return IntentAnalysis(netlist, circuit, config).block(cell, "", candidates).ports
+
+
 def run(args) -> int:
+    try:
+        return _impedance(args)
+    except (UsageError, KeyboardInterrupt, BrokenPipeError):
+        raise
+    except Exception as exc:  # a bug: one line naming the netlist, never a traceback
+        text = " ".join(str(exc).split())[:300]
+        print(f"lintamp: internal error while computing the impedance in {args.netlist}: "
+              f"{type(exc).__name__}: {text} (please report it with the netlist)", file=sys.stderr)
+        return EXIT_TROUBLE
+
+
+def _impedance(args) -> int:
     from lintamp.rulekit.impedance_report import impedance_report
     from lintamp.engine.operating_point import OperatingPointError
     from lintamp.engine.small_signal import SmallSignalError
 
     path = existing_file(args.netlist)
     try:
-        freq_hz = parse_frequency(args.freq)
+        freq_hz = freq_option(args.freq)
         config = load_config(args, path.resolve().parent)
-        circuit, problems = load_flat_circuit(path, top=args.top, config=config,
+        circuit, problems, netlist, config = load_flat_circuit(path, top=args.top, config=config,
                                               include_paths=[Path(p) for p in args.include_path])
         node = args.node.lower()
         if circuit.find_net(node) is None:
@@ -93,15 +123,20 @@ def run(args) -> int:
         table = load_op(args.op)
         report = impedance_report(circuit, node, freq_hz, detach=[d.lower() for d in args.detach],
                                   table=table)
+        ports = block_ports(netlist, circuit, config, args.top)
+        report["ports"] = [p.as_json() for p in ports]
+        report["port"] = next((p.as_json() for p in ports if p.circuit_net == node), None)
     except (OperatingPointError, SmallSignalError) as exc:  # the engine's documented refusals
         raise UsageError(f"{args.netlist}: {exc}") from None
+    from lintamp.report.base import printable  # names are the netlist's: no ESC reaches the terminal
     for diag in problems:
-        print(f"lintamp: {diag.location}: {diag.message} (the impedance is computed without it)",
-              file=sys.stderr)
+        print(printable(f"lintamp: {diag.location}: {diag.message} "
+                        "(the impedance is computed without it)"), file=sys.stderr)
     if args.format == "json":
-        print(json.dumps(report, indent=2, sort_keys=False, allow_nan=False, default=str))
+        from lintamp.audit.solves import finite_for_json
+        print(json.dumps(finite_for_json(report), indent=2, sort_keys=False, allow_nan=False, default=str))
     else:
-        print(render_text(report))
+        print("\n".join(printable(line) for line in render_text(report).split("\n")))
     return EXIT_OK
 
 
@@ -121,6 +156,9 @@ def render_text(report: dict) -> str:
     else:
         head = f"{si(z['mag'], 'Ω')}  ∠ {z['phase_deg']:.1f}°"
     lines.append(f"looking into {report['node']} at {at}: {head}")
+    port = report.get("port")
+    if port:
+        lines.append(f"  {port['net']} is a {port['kind']} ({port['decided_by']})")
     lines.append(f"  operating point from {_SOURCES.get(report['operating_point'], report['operating_point'])}")
     for br in report["branches"]:
         if br.get("z_ohm") is None:

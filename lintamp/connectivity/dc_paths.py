@@ -40,11 +40,13 @@ their nets *unknown*, and a component holding an unknown net is never reported.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from enum import Enum
 from itertools import compress
 from operator import attrgetter
 from typing import TYPE_CHECKING
 
-from lintamp.circuit.design import BJT_KINDS, MOS_KINDS, SMALL_TABLE_TERMINALS, CellView, Device
+from lintamp.circuit.design import SMALL_TABLE_TERMINALS, CellView, Device
+from lintamp.circuit.kinds import BJT_KINDS, JFET_KINDS, MOS_KINDS
 from lintamp.netlist.statements import CONTROL_LETTERS
 
 if TYPE_CHECKING:  # numpy is imported only where a large cell needs it
@@ -54,11 +56,9 @@ FULL = "full"
 BIAS = "bias"
 MAX_DEPTH = 200  # nesting bound for the bottom-up summaries
 
-JFET_KINDS = frozenset({"njf", "pjf", "jfet", "mesfet"})
 TWO_TERMINAL_SHORTS = frozenset({"resistor", "inductor", "vsource", "ccvs", "switch",
                                  "cswitch", "vcvs"})
 CURRENT_KINDS = frozenset({"isource", "vccs", "cccs"})
-UNKNOWN_KINDS = frozenset({"other", "xspice", "recursive-instance"})
 _CONTROLS = attrgetter("element.controls")
 
 
@@ -162,9 +162,6 @@ class CellSummary:
     group_of: tuple[int, ...]  # port position -> index into groups
 
 
-UNKNOWN_SUMMARY = None  # an instance without a usable summary: every pin unknown
-
-
 @dataclass(eq=False)
 class CellDC:
     """DC components of one cell's nets in one mode.
@@ -173,7 +170,7 @@ class CellDC:
     (holds a ground net), ``port`` (holds a port), ``unknown``, ``controls`` and
     ``currents`` counts (own terminals plus those reached through instances), and
     ``globals`` (names) where any.  Per-net and per-component values are numpy
-    arrays, or plain lists for a small cell (see :func:`_small_cell_dc`).
+    arrays, or plain lists for a small cell (see :class:`_Lists`).
     """
 
     view: CellView
@@ -232,76 +229,59 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
 
     Notes
     -----
-    One pass over the devices and one sparse connected-components call:
-    O(terminals) time and memory, integer indices only.  A small cell (plain-list
-    terminal table) takes :func:`_small_cell_dc`, a union-find with the same result.
+    Devices of one class (:attr:`CellView.device_classes`) share their DC roles, so
+    each class is handled as one batch of terminal-table columns, then the instances
+    one by one.  O(terminals) time and memory, integer indices only.  The per-net and
+    per-component values live in numpy arrays and the components come from one
+    sparse connected-components call (:class:`_Arrays`); a small cell (plain-list
+    terminal table) does the same steps on lists with a union-find (:class:`_Lists`),
+    so a small deck never imports numpy.
     """
     table = view.terminal_table
-    if table.small:
-        return _small_cell_dc(view, mode, ground_names, summaries)
-    import numpy as np
-    from scipy.sparse import coo_matrix
-    from scipy.sparse.csgraph import connected_components
-
+    ops = _Lists(len(table.nets)) if table.small else _Arrays(len(table.nets), table.net_ids.dtype)
     index = table.index
     nets = table.nets
     n = len(nets)
     net_ids, dev_start = table.net_ids, table.dev_start
-    row_parts: list[np.ndarray] = []
-    col_parts: list[np.ndarray] = []
-    rows: list[int] = []
-    cols: list[int] = []
-    controls = np.zeros(n, dtype=np.int64)
+    controls = ops.zeros(n, int)
+    unknown = ops.zeros(n, bool)
+    sensed = ops.zeros(n, bool)
     currents_at: list[tuple[Device, int]] = []
-    unknown = np.zeros(n, dtype=bool)
     inner_controls: dict[int, list[str]] = {}
     inst_currents: list[int] = []
     inst_controlled: list[int] = []
-    sensed = np.zeros(n, dtype=bool)
-    by_name: dict[str, Device] | None = None
 
-    def join(ids):
-        first = ids[0]
-        for other in ids[1:]:
-            rows.append(first)
-            cols.append(other)
-
-    # devices of one plan key share their DC roles: handle each such batch with
-    # array operations on the terminal table instead of a Python step per device
+    # devices of one plan key share their DC roles: handle each such batch at once
+    # (array operations on the terminal table for a large cell) instead of a step per device
     devices = view.devices
     classes = view.device_classes
-    codes = np.asarray(classes.codes, dtype=np.int64)
-    batches = np.argsort(codes, kind="stable")
-    bounds = np.searchsorted(codes[batches], np.arange(len(classes.keys) + 1))
     current_plans: dict[int, tuple[int, ...]] = {}
     instance_codes: list[int] = []
-    for code, key in enumerate(classes.keys):
-        members = batches[bounds[code]:bounds[code + 1]]
-        kind = key[0]
-        if kind == "instance":
+    for code, (key, members) in enumerate(zip(classes.keys, ops.members_by_class(classes))):
+        if key.kind == "instance":
             instance_codes.append(code)
             continue  # below, one by one (their roles come from the subcell's summary)
         plan = device_plan(devices[int(members[0])])
-        base = dev_start[members]
+        base = ops.take(dev_start, members)
 
         def pin_ids(p):  # net number of pin ``p`` of every device of the batch
-            return net_ids[base + p]
+            return ops.take_shifted(net_ids, base, p)
 
         for group in plan.groups + (plan.full_only if mode == FULL else ()):
             if len(group) > 1:
                 first = pin_ids(group[0])
                 for other in group[1:]:
-                    row_parts.append(first)
-                    col_parts.append(pin_ids(other))
+                    ops.join_columns(first, pin_ids(other))
         for p in plan.controls:
-            np.add.at(controls, pin_ids(p), 1)
+            ops.add_one_at(controls, pin_ids(p))
         for p in plan.unknown:
-            unknown[pin_ids(p)] = True
+            ops.mark_at(unknown, pin_ids(p))
         for p in plan.senses:
-            sensed[pin_ids(p)] = True
+            ops.mark_at(sensed, pin_ids(p))
         if plan.currents:
             current_plans[code] = plan.currents
     # current feeds in netlist order: the findings list them so
+    codes = classes.codes
     for d in classes.members(current_plans):
         dev = devices[d]
         for p in current_plans[int(codes[d])]:
@@ -313,9 +293,10 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     instances = [devices[d] for d in classes.members(instance_codes)]
     groups_memo: dict = {}
     for dev in instances:
-        _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
+        _add_instance(dev, index, summaries, ops.join, unknown, controls, inner_controls,
                       inst_currents, inst_controlled, sensed, groups_memo)
     # F, H, W and POLY forms sense the current of a V source: its nets are observed
+    by_name: dict[str, Device] | None = None
     for dev in _sensing_devices(view):
         if by_name is None:
             by_name = {d.name: d for d in devices}
@@ -324,22 +305,14 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
             if ctl is not None:
                 for net in ctl.nets:
                     sensed[index[net]] = True
-    row_parts.append(np.asarray(rows, dtype=net_ids.dtype))  # the table's (int32) width
-    col_parts.append(np.asarray(cols, dtype=net_ids.dtype))
-    rows = np.concatenate(row_parts)
-    cols = np.concatenate(col_parts)
 
-    if n:
-        graph = coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)), shape=(n, n))
-        n_comp, labels = connected_components(graph, directed=False)
-    else:
-        n_comp, labels = 0, np.zeros(0, dtype=np.int32)
+    n_comp, labels = ops.components()
 
     def ids_of(dev, pos):  # noqa: E306 - a small local accessor
         return index[dev.nets[pos]]
 
-    ground = np.zeros(n_comp, dtype=bool)
-    port = np.zeros(n_comp, dtype=bool)
+    ground = ops.zeros(n_comp, bool)
+    port = ops.zeros(n_comp, bool)
     comp_globals: dict[int, set[str]] = {}
     # ground and global nets in net order (a few names looked up, not every net)
     for i in sorted(i for i in map(index.get, ground_names | view.globals) if i is not None):
@@ -353,24 +326,174 @@ def cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
     # instance groups that reach ground / globals inside anchor their component here
     _anchor_instances(instances, summaries, lambda dev, pin: int(labels[ids_of(dev, pin)]),
                       ground, comp_globals, groups_memo)
-    comp_unknown = np.zeros(n_comp, dtype=bool)
-    if n:
-        comp_unknown[labels[unknown]] = True
-    comp_controls = np.bincount(labels, weights=controls, minlength=n_comp).astype(np.int64) \
-        if n else np.zeros(0, dtype=np.int64)
-    comp_currents = np.zeros(n_comp, dtype=np.int64)
-    comp_controlled = np.zeros(n_comp, dtype=np.int64)
+    comp_currents = ops.zeros(n_comp, int)
+    comp_controlled = ops.zeros(n_comp, int)
     feeds = _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
                          comp_currents, comp_controlled)
-    comp_sensed = np.zeros(n_comp, dtype=bool)
-    if n:
-        comp_sensed[labels[sensed]] = True
     return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
-                  n_components=int(n_comp), ground=ground, port=port, unknown=comp_unknown,
-                  controls=comp_controls, currents=comp_currents, globals=comp_globals,
+                  n_components=int(n_comp), ground=ground, port=port,
+                  unknown=ops.any_per_component(labels, unknown, n_comp),
+                  controls=ops.sum_per_component(labels, controls, n_comp),
+                  currents=comp_currents, globals=comp_globals,
                   inner_controls=inner_controls, current_feeds=feeds,
-                  controlled=comp_controlled, sensed=comp_sensed)
+                  controlled=comp_controlled,
+                  sensed=ops.any_per_component(labels, sensed, n_comp))
 
+
+class _Lists:
+    """The steps of :func:`cell_dc` on plain lists, for a small cell: a union-find with
+    path halving over net numbers, O(terminals x alpha(nets)); components are
+    numbered in order of their first net."""
+
+    def __init__(self, n: int):
+        self.parent = list(range(n))
+
+    @staticmethod
+    def zeros(n: int, kind):
+        return [kind()] * n
+
+    @staticmethod
+    def members_by_class(classes) -> list[list[int]]:
+        out: list[list[int]] = [[] for _ in classes.keys]
+        for d, code in enumerate(classes.codes):
+            out[code].append(d)
+        return out
+
+    @staticmethod
+    def take(values, positions):
+        return [values[i] for i in positions]
+
+    @staticmethod
+    def take_shifted(values, positions, shift: int):
+        return [values[i + shift] for i in positions]
+
+    @staticmethod
+    def add_one_at(counts, ids) -> None:
+        for i in ids:
+            counts[i] += 1
+
+    @staticmethod
+    def mark_at(flags, ids) -> None:
+        for i in ids:
+            flags[i] = True
+
+    def _find(self, x: int) -> int:
+        parent = self.parent
+        while parent[x] != x:
+            parent[x] = parent[parent[x]]
+            x = parent[x]
+        return x
+
+    def join(self, ids) -> None:
+        find, parent = self._find, self.parent
+        root = find(ids[0])
+        for other in ids[1:]:
+            r = find(other)
+            if r != root:
+                parent[r] = root
+
+    def join_columns(self, first, other) -> None:
+        for a, b in zip(first, other):
+            self.join((a, b))
+
+    def components(self):
+        number: dict[int, int] = {}
+        find = self._find
+        labels = [number.setdefault(find(i), len(number)) for i in range(len(self.parent))]
+        return len(number), labels
+
+    @staticmethod
+    def any_per_component(labels, flags, n_comp: int) -> list[bool]:
+        out = [False] * n_comp
+        for i, flag in enumerate(flags):
+            if flag:
+                out[labels[i]] = True
+        return out
+
+    @staticmethod
+    def sum_per_component(labels, counts, n_comp: int) -> list[int]:
+        out = [0] * n_comp
+        for i, count in enumerate(counts):
+            if count:
+                out[labels[i]] += count
+        return out
+
+
+class _Arrays:
+    """The steps of :func:`cell_dc` on numpy arrays, for a large cell: joins are
+    collected as pairs of net-number columns and the components found by one sparse
+    connected-components call (scipy numbers them in order of their first net too)."""
+
+    def __init__(self, n: int, dtype):
+        import numpy as np
+
+        self.np = np
+        self.n = n
+        self.dtype = dtype  # the terminal table's (int32) width
+        self.row_parts: list = []
+        self.col_parts: list = []
+        self.rows: list[int] = []
+        self.cols: list[int] = []
+
+    def zeros(self, n: int, kind):
+        return self.np.zeros(n, dtype=self.np.int64 if kind is int else bool)
+
+    def members_by_class(self, classes) -> list:
+        np = self.np
+        codes = np.asarray(classes.codes, dtype=np.int64)
+        batches = np.argsort(codes, kind="stable")
+        bounds = np.searchsorted(codes[batches], np.arange(len(classes.keys) + 1))
+        return [batches[bounds[c]:bounds[c + 1]] for c in range(len(classes.keys))]
+
+    @staticmethod
+    def take(values, positions):
+        return values[positions]
+
+    @staticmethod
+    def take_shifted(values, positions, shift: int):
+        return values[positions + shift]
+
+    def add_one_at(self, counts, ids) -> None:
+        self.np.add.at(counts, ids, 1)
+
+    @staticmethod
+    def mark_at(flags, ids) -> None:
+        flags[ids] = True
+
+    def join(self, ids) -> None:
+        first = ids[0]
+        for other in ids[1:]:
+            self.rows.append(first)
+            self.cols.append(other)
+
+    def join_columns(self, first, other) -> None:
+        self.row_parts.append(first)
+        self.col_parts.append(other)
+
+    def components(self):
+        np = self.np
+        from scipy.sparse import coo_matrix
+        from scipy.sparse.csgraph import connected_components
+
+        rows = np.concatenate(self.row_parts + [np.asarray(self.rows, dtype=self.dtype)])
+        cols = np.concatenate(self.col_parts + [np.asarray(self.cols, dtype=self.dtype)])
+        if not self.n:
+            return 0, np.zeros(0, dtype=np.int32)
+        graph = coo_matrix((np.ones(len(rows), dtype=np.int8), (rows, cols)),
+                           shape=(self.n, self.n))
+        return connected_components(graph, directed=False)
+
+    def any_per_component(self, labels, flags, n_comp: int):
+        out = self.np.zeros(n_comp, dtype=bool)
+        if len(labels):
+            out[labels[flags]] = True
+        return out
+
+    def sum_per_component(self, labels, counts, n_comp: int):
+        np = self.np
+        if not len(labels):
+            return np.zeros(0, dtype=np.int64)
+        return np.bincount(labels, weights=counts, minlength=n_comp).astype(np.int64)
 
 
 def _sensing_devices(view: CellView) -> list[Device]:
@@ -383,7 +506,7 @@ def _sensing_devices(view: CellView) -> list[Device]:
     else:
         classes = view.device_classes
         chosen = list(map(devices.__getitem__, classes.members(
-            [c for c, key in enumerate(classes.keys) if key[2] in CONTROL_LETTERS])))
+            [c for c, key in enumerate(classes.keys) if key.letter in CONTROL_LETTERS])))
     return [d for d in compress(chosen, map(_CONTROLS, chosen))
             if d.kind != "coupling" and d.kind != "instance"]
 
@@ -450,7 +573,7 @@ def _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
     A current element feeds a component when another of its pins lies outside it; a
     controlled one (G, F, B) also counts in ``comp_controlled``.  ``inst_currents`` and
     ``inst_controlled`` are the nets where a subcircuit instance feeds a current.
-    Shared by the array and the small-cell paths (``labels`` an array or a list).
+    ``labels`` and the counts are arrays or lists (see :func:`cell_dc`).
     """
     feeds: list[tuple[Device, int]] = []
     by_dev: dict[int, list[int]] = {}
@@ -474,133 +597,6 @@ def _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
     for i in inst_controlled:
         comp_controlled[labels[i]] += 1
     return feeds
-
-
-def _small_cell_dc(view: CellView, mode: str, ground_names: frozenset[str],
-                   summaries: dict[int, CellSummary | None]) -> CellDC:
-    """:func:`cell_dc` of a small cell in plain Python: per-component values are lists.
-
-    The same joins and flags as the array version, in the same order (a device's DC
-    roles come from the first device of its plan key, as there), so every component,
-    flag and count is the same; only the numbering of components may differ, and no
-    caller depends on it.
-
-    Notes
-    -----
-    Union-find with path halving over net numbers: O(terminals x alpha(nets)).
-    """
-    table = view.terminal_table
-    index = table.index
-    nets = table.nets
-    n = len(nets)
-    net_ids, dev_start = table.net_ids, table.dev_start
-    parent = list(range(n))
-
-    def find(x):
-        while parent[x] != x:
-            parent[x] = parent[parent[x]]
-            x = parent[x]
-        return x
-
-    def join(ids):
-        root = find(ids[0])
-        for other in ids[1:]:
-            r = find(other)
-            if r != root:
-                parent[r] = root
-
-    controls = [0] * n
-    unknown = [False] * n
-    sensed = [False] * n
-    currents_at: list[tuple[Device, int]] = []
-    inner_controls: dict[int, list[str]] = {}
-    inst_currents: list[int] = []
-    inst_controlled: list[int] = []
-    devices = view.devices
-    plans: dict[tuple, DevicePlan] = {}
-    has_instances = False
-    for d, dev in enumerate(devices):
-        if dev.kind == "instance":
-            has_instances = True
-            continue
-        key = (dev.kind, dev.pins, dev.element.letter, dev.element.model)
-        plan = plans.get(key)
-        if plan is None:
-            plan = plans[key] = device_plan(dev)
-        base = dev_start[d]
-        for group in plan.groups + (plan.full_only if mode == FULL else ()):
-            if len(group) > 1:
-                join([net_ids[base + p] for p in group])
-        for p in plan.controls:
-            controls[net_ids[base + p]] += 1
-        for p in plan.unknown:
-            unknown[net_ids[base + p]] = True
-        for p in plan.senses:
-            sensed[net_ids[base + p]] = True
-        for p in plan.currents:
-            currents_at.append((dev, p))
-    for d in table.extra_devices:
-        dev = devices[d]
-        for net in dev.nets[len(dev.pins):]:
-            unknown[index[net]] = True  # a pin lintamp knows no role for
-    if has_instances:
-        for dev in devices:
-            if dev.kind != "instance":
-                continue
-            _add_instance(dev, index, summaries, join, unknown, controls, inner_controls,
-                          inst_currents, inst_controlled, sensed)
-    by_name: dict[str, Device] | None = None
-    for dev in _sensing_devices(view):
-        if by_name is None:
-            by_name = {d.name: d for d in devices}
-        for name in dev.element.controls:
-            ctl = by_name.get(name)
-            if ctl is not None:
-                for net in ctl.nets:
-                    sensed[index[net]] = True
-
-    # components numbered in order of their first net
-    number: dict[int, int] = {}
-    labels = [0] * n
-    for i in range(n):
-        labels[i] = number.setdefault(find(i), len(number))
-    n_comp = len(number)
-
-    def ids_of(dev, pos):  # noqa: E306 - a small local accessor
-        return index[dev.nets[pos]]
-
-    ground = [False] * n_comp
-    port = [False] * n_comp
-    comp_globals: dict[int, set[str]] = {}
-    for net, i in index.items():
-        if net in ground_names:
-            ground[labels[i]] = True
-        elif net in view.globals:
-            comp_globals.setdefault(labels[i], set()).add(net)
-        if net in view.ports:
-            port[labels[i]] = True
-    _anchor_instances([d for d in devices if d.kind == "instance"], summaries,
-                      lambda dev, pin: labels[ids_of(dev, pin)],
-                      ground, comp_globals)
-    comp_unknown = [False] * n_comp
-    comp_controls = [0] * n_comp
-    comp_sensed = [False] * n_comp
-    for i in range(n):
-        if unknown[i]:
-            comp_unknown[labels[i]] = True
-        if controls[i]:
-            comp_controls[labels[i]] += controls[i]
-        if sensed[i]:
-            comp_sensed[labels[i]] = True
-    comp_currents = [0] * n_comp
-    comp_controlled = [0] * n_comp
-    feeds = _count_feeds(currents_at, ids_of, labels, inst_currents, inst_controlled,
-                         comp_currents, comp_controlled)
-    return CellDC(view=view, mode=mode, nets=nets, index=index, labels=labels,
-                  n_components=n_comp, ground=ground, port=port, unknown=comp_unknown,
-                  controls=comp_controls, currents=comp_currents, globals=comp_globals,
-                  inner_controls=inner_controls, current_feeds=feeds,
-                  controlled=comp_controlled, sensed=comp_sensed)
 
 
 def summarise(dc: CellDC) -> CellSummary:
@@ -888,20 +884,29 @@ def reaches_defined_level(ctx, view: CellView, net: str, mode: str = FULL) -> bo
     return bool(anchored(ddc, ctx.design, dc)[dc.labels[dc.index[net]]])
 
 
-# -- helpers the connectivity rules share ---------------------------------------------------
-def island_rule(island: Island) -> str | None:
-    """Which rule reports an island: a current feed makes it a cut set, a gate or base an
-    unbiased gate, anything else a plain missing DC path.  None when a controlled
+# -- what kind of island it is ------------------------------------------------------------
+class IslandKind(Enum):
+    """What leaves an island without a DC level: the fact a rule picks its islands by."""
+
+    CURRENT_FED = "current-fed"          # current feeds from outside set its current, not its level
+    UNBIASED_CONTROL = "unbiased-control"  # a gate or base on it has no DC bias
+    FLOATING = "floating"                # nothing on it sets a level
+    FEEDBACK_MAY_SET = "feedback-may-set"  # a controlled feed a control input observes
+
+
+def island_kind(island: Island) -> IslandKind:
+    """The kind of an island: a current feed makes it current-fed, a gate or base an
+    unbiased control, anything else floating.  ``FEEDBACK_MAY_SET`` when a controlled
     current source feeds an island that a control input observes: feedback through
     the controlled sources may set its level (an OTA macromodel's G output into a
     capacitor, closed by feedback), which connectivity alone cannot judge."""
     if island.controlled_feeds and island.sensed:
-        return None
+        return IslandKind.FEEDBACK_MAY_SET
     if island.current_feeds:
-        return "current-cutset"
+        return IslandKind.CURRENT_FED
     if island.controls:
-        return "unbiased-gate"
-    return "no-dc-path"
+        return IslandKind.UNBIASED_CONTROL
+    return IslandKind.FLOATING
 
 
 _OPEN_WHY = {

@@ -98,7 +98,7 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
     by_value: dict[int, tuple[int, int] | None] = {}  # resistors: the value decides
     wanted: set[int] = set()
     for code, (key, first) in enumerate(zip(classes.keys, classes.first_members())):
-        kind = key[0]
+        kind = key.kind
         dev = devices[first]
         if kind == "instance":
             wanted.add(code)
@@ -111,7 +111,7 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
     codes = classes.codes
     zero_text: dict[str, bool] = {}
     out: list[tuple[Device, tuple[int, int] | None]] = []
-    for d in _members_but_plain_runs(view, wanted, by_value):
+    for d in view.devices_but_nonzero_plain_resistors(wanted, by_value):
         dev = devices[d]
         code = int(codes[d])
         if code in always:
@@ -136,34 +136,6 @@ def rigid_devices(view: CellView, scope) -> list[tuple[Device, tuple[int, int] |
         if pins is not None:
             out.append((dev, pins))
     return out
-
-
-def _members_but_plain_runs(view: CellView, wanted: set[int], resistors: dict) -> list[int]:
-    """The devices of the ``wanted`` classes, in netlist order, less the resistors of
-    plain runs whose value has a nonzero digit (a literal number, as the parser's run
-    pattern guarantees: nonzero whatever the scope, so never a zero-ohm branch; the
-    parser lists the others as ``PlainRun.maybe_zero``)."""
-    classes = view.device_classes
-    in_run = view.in_plain_run
-    if in_run is None or not resistors:
-        return classes.members(wanted)
-    import numpy as np
-
-    chosen = np.zeros(len(classes.keys), dtype=bool)
-    chosen[list(wanted)] = True
-    resistor = np.zeros(len(classes.keys), dtype=bool)
-    resistor[list(resistors)] = True
-    in_run_resistor = in_run & resistor[classes.codes]
-    keep = chosen[classes.codes] & ~in_run_resistor
-    from lintamp.circuit.design import RunDevices
-
-    for start, item in view.devices.blocks():  # the run resistors that may be zero
-        if item.__class__ is RunDevices:
-            for i in item.run.maybe_zero:
-                if in_run_resistor[start + i]:
-                    keep[start + i] = True
-    return np.flatnonzero(keep).tolist()
-
 
 
 def _pn(dev: Device) -> tuple[int, int] | None:

@@ -19,7 +19,6 @@ from lintamp.connectivity.loops import is_port_source
 from lintamp.circuit.design import CellView
 from lintamp.circuit.values import cell_scope, top_scope
 
-TOLERANCE_V = 1e-9
 MAX_PASSES = 2  # the second pass seeds globals found anywhere in the first
 
 
@@ -85,9 +84,7 @@ def _propagate(view: CellView, seed: dict[str, tuple[float, str]], scope) -> Cel
 
 def _of_kind(view: CellView, kind: str) -> list:
     """The view's devices of one kind, in netlist order (chosen by device class)."""
-    classes = view.device_classes
-    return [view.devices[d] for d in
-            classes.members(c for c, key in enumerate(classes.keys) if key[0] == kind)]
+    return view.devices_of(kinds=(kind,))
 
 
 def _named_nets(view: CellView, names) -> list[str]:

@@ -34,10 +34,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from lintamp.circuit.kinds import BJT, MOS
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 
-MOS = ("nmos", "pmos")
-BJT = ("npn", "pnp")
 MAX_NETS_SEARCHED = 20_000
 MAX_STACK_DEPTH = 8
 

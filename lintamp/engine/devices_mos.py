@@ -30,13 +30,14 @@ from lintamp.engine.devices_common import (
     thermal_voltage,
 )
 from lintamp.circuit.flat import FlatDevice
+from lintamp.engine.engine_kinds import EngineError
 
 DEFAULT_L_M = 100e-6  # ngspice DEFL / DEFW
 DEFAULT_W_M = 100e-6
 INTRINSIC_CARRIERS_PER_M3 = 1.45e16
 
 
-class UnsupportedModel(ValueError):
+class UnsupportedModel(EngineError, ValueError):
     """The device's model is outside what lintamp evaluates (reason in the message)."""
 
 

@@ -88,6 +88,22 @@ def bjt_emitter_ohm(gm, rpi, ro, rb):
     return parallel(over_or_open(rb + rpi, beta + 1), ro)
 
 
+def bjt_emitter_exact_ohm(gm, rpi, ro, rb, rc):
+    """Emitter with base resistance ``rb`` and collector load ``rc``, hybrid-pi with r_o
+    (Sedra & Smith ch. 7 model, solved exactly; Gray & Meyer sec. 3.3 for the CB input):
+    (r_o + rc)/(1 + g_m r_o r_pi/(r_pi + rb)) || (r_pi + rb).  With rb = rc = 0 this is
+    (r_pi/(beta+1)) || r_o up to the r_o/r_pi term; with rb -> inf only r_o + rc is left.
+    """
+    if not _finite(rb):
+        return ro + rc if _finite(ro) and _finite(rc) else INF
+    if not _finite(rc):
+        return rpi + rb
+    k = rpi / (rpi + rb)
+    if not _finite(ro):
+        return parallel(over_or_open(1, gm * k), rpi + rb)
+    return parallel(over_or_open(ro + rc, 1 + gm * ro * k), rpi + rb)
+
+
 def bjt_collector_ohm(gm, rpi, ro, re):
     """Collector with emitter degeneration ``re``: ro[1 + gm(re || r_pi)] + re || r_pi."""
     rx = parallel(re, rpi)

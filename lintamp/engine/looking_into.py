@@ -27,8 +27,10 @@ import math
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
+from lintamp.circuit.kinds import BJT, MOS
 from lintamp.engine import formulas as fm
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
+from lintamp.engine.engine_kinds import OPEN_OHM, UnknownNet, is_open
 
 if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when a node is explained
     from lintamp.engine.operating_point import OperatingPoint
@@ -135,7 +137,7 @@ class _Explainer:
         if net in self.ac_ground:
             return 0.0
         z = self.aux_solver((without,)).z(self.name_of(net))
-        return INF if abs(z) > 1e11 else _as_number(z)
+        return INF if abs(z) >= OPEN_OHM else _as_number(z)
 
     # -- element kinds -------------------------------------------------------------
     def two_terminal(self, dev: FlatDevice, node: int, z_e, label: str, symbol: str) -> Branch:
@@ -146,7 +148,7 @@ class _Explainer:
         here = self.name_of(node)
         gain = self.gain(node, other, dev.name)
         z_th = self.aux_solver((dev.name,), (here,)).z(far)
-        z_th = INF if abs(z_th) > 1e11 else z_th
+        z_th = INF if abs(z_th) >= OPEN_OHM else z_th
         terms = {f"{symbol}_ohm": _mag(z_e), f"Z_{far}_ohm": _mag(z_th)}
         if abs(gain) < 1e-3:
             return Branch(f"{label} to {far}", f"{symbol} + Z({far})", _as_number(z_e + z_th), 0, terms)
@@ -225,9 +227,15 @@ class _Explainer:
             return Branch(f"base of {k}", "r_pi + (beta+1)(R_E || r_o)", fm.bjt_base_ohm(gm, rpi, ro, re), 0, terms)
         if at == {"e"}:
             rb = self.z_seen(b, k)
+            rc = self.z_seen(c, k)
             terms["R_B_ohm"] = _mag(rb)
+            terms["R_C_ohm"] = _mag(rc)
             via = f"emitter of {k}" + (" (emitter-follower output)" if c in self.ac_ground else "")
-            return Branch(via, "(R_B + r_pi)/(beta+1) || r_o", fm.bjt_emitter_ohm(gm, rpi, ro, rb), 0, terms)
+            if _mag(rb) == 0:
+                form = "(r_o + R_C)/(1 + g_m r_o) || r_pi"
+            else:
+                form = "(r_o + R_C)/(1 + g_m r_o r_pi/(r_pi + R_B)) || (r_pi + R_B)"
+            return Branch(via, form, fm.bjt_emitter_exact_ohm(gm, rpi, ro, rb, rc), 0, terms)
         if at == {"c"}:
             re = self.z_seen(e, k)
             terms["R_E_ohm"] = _mag(re)
@@ -271,16 +279,16 @@ class _Explainer:
                 return Branch(f"{n} controlled by its own node", f"1/g_{n}", 1 / gain if gain else INF, 0,
                               {f"g_{n}_s": gain})
             return Branch(f"output of {n}", "open (ideal current output)", INF, 0, {})
-        if kind in ("nmos", "pmos"):
+        if kind in MOS:
             return self.mos(dev, node)
-        if kind in ("npn", "pnp"):
+        if kind in BJT:
             return self.bjt(dev, node)
         return Branch(f"{dev.kind} {n}", "not simulated", None, 0, {})
 
     def explain(self, node_name: str) -> NodeExplanation:
         node = self.circuit.find_net(node_name)
         if node is None:
-            raise ValueError(f"no net named {node_name!r}")
+            raise UnknownNet(f"no net named {node_name!r}")
         solver = self.solver
         z = solver.z(node_name)
         notes = list(solver.notes)
@@ -303,7 +311,7 @@ class _Explainer:
             br.elements = [dev.name]
             zf, zm = br.z_ohm, br.z_mna_ohm
             if min(_mag(zm), _mag(zf)) < 1e10:
-                if _mag(zm) >= 1e11 or _mag(zf) >= 1e11:
+                if _mag(zm) >= OPEN_OHM or _mag(zf) >= OPEN_OHM:
                     diff = INF
                 else:
                     diff = abs(zf - zm) / max(abs(zm), 1e-300)
@@ -320,9 +328,9 @@ class _Explainer:
 
 
 def _fmt(z) -> str:
-    m = _mag(z)
-    if not math.isfinite(m) or m >= 1e11:
+    if is_open(z):
         return "open"
+    m = _mag(z)
     for unit, scale in (("Gohm", 1e9), ("Mohm", 1e6), ("kohm", 1e3)):
         if m >= scale:
             return f"{m / scale:.4g} {unit}"

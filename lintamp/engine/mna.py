@@ -18,12 +18,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lintamp.circuit.kinds import MOS, NONLINEAR
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
+from lintamp.engine.engine_kinds import EngineError
 
 NodeKey = object  # int net index, or str "device:terminal" for an internal node
 
 LINEAR_KINDS = {"resistor", "capacitor", "inductor", "vsource", "isource", "vcvs", "vccs", "cccs", "ccvs"}
-NONLINEAR_KINDS = {"diode", "npn", "pnp", "nmos", "pmos"}
+NONLINEAR_KINDS = frozenset(NONLINEAR)
 TERMINALS = {
     "nmos": ("d", "g", "s", "b"),
     "pmos": ("d", "g", "s", "b"),
@@ -33,7 +35,7 @@ TERMINALS = {
 }
 
 
-class CircuitError(ValueError):
+class CircuitError(EngineError, ValueError):
     """The circuit cannot be set up (bad value, unknown control source...)."""
 
 
@@ -106,9 +108,6 @@ class CompiledCircuit:
 
     def index_of(self, key) -> int:
         return self.node_index.get(key, -1)
-
-    def owner_id(self, name: str) -> int:
-        return self.element_names.index(name)
 
 
 def _two(dev: FlatDevice) -> tuple[int, int]:
@@ -289,7 +288,7 @@ def compile_circuit(
         ids = [idx(k, -1) for k in keys]
         # every terminal pair of a nonlinear device conducts at DC (junction GMIN),
         # except a MOS gate
-        conducting = ids if dev.kind not in ("nmos", "pmos") else [ids[0], *ids[2:4]]  # 3-pin VDMOS too
+        conducting = ids if dev.kind not in MOS else [ids[0], *ids[2:4]]  # 3-pin VDMOS too
         for a in conducting[1:]:
             connect_dc(conducting[0], a)
     return CompiledCircuit(

@@ -32,15 +32,17 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lintamp.circuit.kinds import BJT, MOS, NONLINEAR, TRANSISTORS
 from lintamp.engine.looking_into import ac_ground_nets
 from lintamp.engine.operating_point import DeviceOperatingPoint, OperatingPoint
 from lintamp.circuit.flat import FlatCircuit
+from lintamp.engine.engine_kinds import EngineError, UnknownNet
 
 NUMERIC = ("gm", "gds", "gmb", "ids", "gpi", "go", "gmu", "ic", "gd", "id",
            "cgs", "cgd", "cgb", "cbd", "cbs", "cbe", "cbc")
 
 
-class OpTableError(ValueError):
+class OpTableError(EngineError, ValueError):
     """A table that cannot be read (message says where)."""
 
 
@@ -145,16 +147,16 @@ def operating_point_from_table(circuit: FlatCircuit, table: dict[str, TableEntry
     devices = dict(base.devices) if base is not None else {}
     missing = []
     for dev in circuit.devices:
-        if dev.kind not in ("nmos", "pmos", "npn", "pnp", "diode"):
+        if dev.kind not in NONLINEAR:
             continue
         entry = table.get(dev.name)
         if entry is None:
             if dev.name not in devices:
                 missing.append(dev.name)
             continue
-        if dev.kind in ("nmos", "pmos"):
+        if dev.kind in MOS:
             devices[dev.name] = _mos_entry(entry, dev)
-        elif dev.kind in ("npn", "pnp"):
+        elif dev.kind in BJT:
             devices[dev.name] = _bjt_entry(entry, dev)
         else:
             devices[dev.name] = _diode_entry(entry, dev)
@@ -180,7 +182,8 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
     Classes: ``ac-ground``; ``low`` (~1/gm: a source/emitter, a diode-connected
     device, a diode); ``resistive`` (a resistor to AC ground); ``high`` (~r_o or
     more: only drains/collectors); ``open`` (only gates, capacitors, current
-    sources: no conductive path).  The lowest class present wins.
+    sources: no conductive path); ``unknown`` (only drains/collectors, but the node
+    also reaches a gate or base: feedback may set it).  The lowest class present wins.
 
     Notes
     -----
@@ -188,7 +191,7 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
     """
     net = circuit.find_net(node)
     if net is None:
-        raise ValueError(f"no net named {node!r}")
+        raise UnknownNet(f"no net named {node!r}")
     acg = ac_ground_nets(circuit)
     if net in acg:
         return "ac-ground", [f"{node} is ground or tied to it by a voltage source"]
@@ -198,7 +201,7 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
             continue
         at = {i for i, n in enumerate(d.nodes) if n == net}
         k = d.kind
-        if k in ("nmos", "pmos", "npn", "pnp"):
+        if k in TRANSISTORS:
             out, ctl, com = 0, 1, 2
             if {out, ctl} <= at:
                 found.append(("low", f"diode-connected {d.name}: ~1/gm"))
@@ -206,7 +209,7 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
                 found.append(("low", f"{'source' if k in ('nmos', 'pmos') else 'emitter'} of {d.name}: ~1/gm"))
             elif out in at:
                 found.append(("high", f"{'drain' if k in ('nmos', 'pmos') else 'collector'} of {d.name}: ~r_o or more"))
-            elif ctl in at and k in ("npn", "pnp"):
+            elif ctl in at and k in BJT:
                 found.append(("high", f"base of {d.name}: ~r_pi + (beta+1) R_E"))
             else:
                 found.append(("open", f"gate of {d.name}: open"))
@@ -224,4 +227,30 @@ def impedance_class_by_inspection(circuit: FlatCircuit, node: str) -> tuple[str,
     if not found:
         return "open", [f"nothing is connected to {node}"]
     best = min(found, key=lambda f: CLASS_ORDER.index(f[0]))[0]
-    return best, [why for cls, why in found if cls == best] + [why for cls, why in found if cls != best]
+    reasons = [why for cls, why in found if cls == best] + [why for cls, why in found if cls != best]
+    if best == "high":
+        loop = _drives_a_control(circuit, net, acg)
+        if loop is not None:
+            # a drain that also reaches a gate or base may sit inside a feedback loop (a
+            # unity-gain buffer's output is ohms, not r_o): by inspection alone it is unknown
+            return "unknown", [f"{node} also reaches the {loop}: feedback may lower it far below r_o; "
+                               "only numbers can tell"] + reasons
+    return best, reasons
+
+
+def _drives_a_control(circuit: FlatCircuit, net: int, acg: set[int]) -> str | None:
+    """The first gate/base that ``net`` reaches directly or through R, C, L (not AC ground)."""
+    seen, todo = {net}, [net]
+    while todo:
+        n = todo.pop()
+        for d in circuit.devices:
+            if n not in d.nodes:
+                continue
+            if d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[1] == n and d.nodes[0] != n:
+                return f"{'gate' if d.kind in ('nmos', 'pmos') else 'base'} of {d.name}"
+            if d.kind in ("resistor", "capacitor", "inductor"):
+                for m in d.nodes[:2]:
+                    if m not in seen and m not in acg:
+                        seen.add(m)
+                        todo.append(m)
+    return None

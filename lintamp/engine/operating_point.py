@@ -1,9 +1,12 @@
 """DC operating point: Newton-Raphson on the sparse MNA system.
 
 Capacitors are open, inductors short, independent sources at their DC values.
-Convergence aids, tried in order: plain Newton with SPICE-style step limiting of
-junction and gate voltages; GMIN stepping (a shunt conductance on every node,
-reduced to zero); source stepping (all independent sources ramped from zero).
+Convergence aids, tried in order as ngspice-39 tries them: plain Newton with
+SPICE-style step limiting of junction and gate voltages; dynamic GMIN stepping (a
+shunt conductance on every node, reduced to zero with an adaptive factor that
+backs off after a failed step); source stepping (all independent sources ramped
+from zero with an adaptive step); pseudo-transient continuation (a capacitor on
+every node, backward-Euler steps of growing length until the circuit settles).
 Iterations are capped everywhere, so a netlist can never hang the solve.
 
 A circuit with devices lintamp cannot evaluate raises :class:`CannotEvaluateError`
@@ -18,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from lintamp.circuit.kinds import BJT, MOS, NONLINEAR
 from lintamp.engine.devices_bjt import (
     BjtGroup,
     bjt_capacitances,
@@ -43,13 +47,14 @@ from lintamp.engine.devices_mos import (
     mos_limit,
     mos_params,
 )
+from lintamp.engine.engine_kinds import EngineError
 from lintamp.engine.linear import assemble, factor, to_dense
 from lintamp.engine.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
 from lintamp.circuit.flat import FlatCircuit
-from lintamp.netlist.reader import excerpt
+from lintamp.text import excerpt
 
 
-class OperatingPointError(RuntimeError):
+class OperatingPointError(EngineError, RuntimeError):
     """No DC operating point: singular system or no convergence (message says where)."""
 
 
@@ -101,6 +106,7 @@ class SolveOptions:
     vntol_v: float = 1e-9
     abstol_a: float = 1e-14
     max_iterations: int = 100  # per Newton run (ngspice itl1)
+    step_iterations: int = 30  # per homotopy step: a step that needs more is retried smaller
     max_total_iterations: int = 5000
     gmin_start_s: float = 1e-2
     source_steps_min: float = 1e-4
@@ -116,15 +122,15 @@ class _DeviceSet:
         fam: dict[str, list] = {"mos": [], "bjt": [], "diode": []}
         for dev, keys in cc.nonlinear:
             try:
-                if dev.kind in ("nmos", "pmos"):
+                if dev.kind in MOS:
                     fam["mos"].append((mos_params(dev, temp_c), dev, keys))
-                elif dev.kind in ("npn", "pnp"):
+                elif dev.kind in BJT:
                     fam["bjt"].append((bjt_params(dev, temp_c), dev, keys))
                 else:
                     fam["diode"].append((diode_params(dev, temp_c), dev, keys))
             except UnsupportedModel as exc:
                 unsupported.append((dev.name, str(exc)))
-            if dev.model is None and dev.kind in ("nmos", "pmos", "npn", "pnp", "diode"):
+            if dev.model is None and dev.kind in NONLINEAR:
                 pass  # SPICE defaults apply, as in ngspice
         if unsupported:
             raise CannotEvaluateError(unsupported)
@@ -274,13 +280,21 @@ class _Budget:
         self.used = 0
 
 
-def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state):
-    """One Newton run; returns (x, state, iterations) or None when it does not converge."""
+def _newton(cc, devs, x0, state0, scale, gshunt, opts, budget, first_from_state, x_ref=None,
+            max_iterations=None):
+    """One Newton run; returns (x, state, iterations) or None when it does not converge.
+
+    ``gshunt`` ties every node to ground through that conductance (GMIN stepping) or,
+    with ``x_ref``, to the voltage ``x_ref`` holds for it (a backward-Euler step of a
+    capacitor on every node: pseudo-transient continuation).
+    """
     x = x0.copy()
     state = state0
     rhs_src = cc.rhs_sources * scale
     is_node = np.arange(cc.size) < cc.n_nodes
-    for it in range(opts.max_iterations):
+    if x_ref is not None and gshunt:
+        rhs_src = rhs_src + np.where(is_node, gshunt * x_ref, 0.0)
+    for it in range(max_iterations or opts.max_iterations):
         if budget.left <= 0:
             return None
         budget.left -= 1
@@ -345,58 +359,133 @@ def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = N
         result = _source_stepping(cc, devs, state0, opts, budget)
         method = "source stepping"
     if result is None:
+        result = _pseudo_transient(cc, devs, state0, opts, budget)
+        method = "pseudo-transient"
+    if result is None:
         raise OperatingPointError(
             f"no DC convergence after {budget.used} Newton iterations "
-            "(plain Newton, GMIN stepping and source stepping all failed); "
+            "(plain Newton, GMIN stepping, source stepping and pseudo-transient all failed); "
             "look for positive feedback without a stable point, or nodes held only by devices that are off"
         )
     x, state, _ = result
     return _build_result(cc, devs, x, method, budget.used, series)
 
 
+GMIN_FACTOR_MAX = 10.0  # ngspice's gminfactor: the largest step down per accepted solve
+GMIN_FACTOR_MIN = 1.00005  # a step smaller than this: GMIN stepping gives up (as ngspice does)
+GMIN_FINAL_S = 1e-12
+
+
 def _gmin_stepping(cc, devs, state0, opts, budget):
-    x = np.zeros(cc.size)
-    state = state0
-    gshunt = opts.gmin_start_s
-    first = True
-    while True:
-        res = _newton(cc, devs, x, state, 1.0, gshunt, opts, budget, first)
-        if res is None:
-            return None
-        x, state, _ = res
-        first = False
-        if gshunt == 0.0:
-            return res
-        gshunt = gshunt / 10 if gshunt > 1e-13 else 0.0
-
-
-def _source_stepping(cc, devs, state0, opts, budget):
-    x = np.zeros(cc.size)
-    state = state0
-    res = _newton(cc, devs, x, state, 0.0, 0.0, opts, budget, True)
+    """Dynamic GMIN stepping as ngspice does it: a shunt on every node from ``gmin_start_s``
+    down to nothing; after a solve that fails, back to the last good one with a smaller step
+    (the factor's fourth root), after an easy one a larger step."""
+    gmin = opts.gmin_start_s
+    res = _newton(cc, devs, np.zeros(cc.size), state0, 1.0, gmin, opts, budget, True)
     if res is None:
         return None
     x, state, _ = res
-    scale, step = 0.0, 0.1
+    factor = GMIN_FACTOR_MAX
+    while True:
+        trial = gmin / factor
+        final = trial < GMIN_FINAL_S
+        res = _newton(cc, devs, x, state, 1.0, 0.0 if final else trial, opts, budget, False,
+                      max_iterations=opts.step_iterations)
+        if res is not None:
+            x, state, its = res
+            if final:
+                return res
+            gmin = trial
+            if its < opts.step_iterations // 3:
+                factor = min(factor * np.sqrt(factor), GMIN_FACTOR_MAX)
+            continue
+        if budget.left <= 0:
+            return None
+        factor = factor ** 0.25
+        if factor < GMIN_FACTOR_MIN:
+            return None
+
+
+def _source_stepping(cc, devs, state0, opts, budget):
+    """Source stepping (ngspice's gillespie variant): every independent source from zero,
+    first solved with GMIN stepping when plain Newton fails there, then raised by an
+    adaptive fraction, halved back after a failed step."""
+    res = _newton(cc, devs, np.zeros(cc.size), state0, 0.0, 0.0, opts, budget, True)
+    if res is None:
+        res = _gmin_at_scale(cc, devs, state0, opts, budget, 0.0)
+    if res is None:
+        return None
+    x, state, _ = res
+    scale, step = 0.0, 1e-3
     while scale < 1.0:
         trial = min(1.0, scale + step)
-        res = _newton(cc, devs, x, state, trial, 0.0, opts, budget, False)
+        res = _newton(cc, devs, x, state, trial, 0.0, opts, budget, False,
+                      max_iterations=opts.step_iterations)
         if res is None:
-            step /= 4
-            if step < opts.source_steps_min or budget.left <= 0:
+            step /= 10
+            if step < opts.source_steps_min * 1e-3 or budget.left <= 0:
                 return None
             continue
-        x, state, _ = res
+        x, state, its = res
         scale = trial
-        step = min(step * 2, 0.5)
+        step = min(step * (1.5 if its < opts.step_iterations // 3 else 1.0), 0.1)
     return res
+
+
+def _gmin_at_scale(cc, devs, state0, opts, budget, scale):
+    gmin = opts.gmin_start_s
+    res = _newton(cc, devs, np.zeros(cc.size), state0, scale, gmin, opts, budget, True)
+    while res is not None and gmin > 0:
+        x, state, _ = res
+        gmin = gmin / 10 if gmin > GMIN_FINAL_S else 0.0
+        res = _newton(cc, devs, x, state, scale, gmin, opts, budget, False)
+    return res
+
+
+PTRAN_START_S = 1e-2  # C/h of the first pseudo-transient step, per node (a 1 nF cap, 0.1 us step)
+PTRAN_END_S = 1e-13  # below this the capacitors no longer matter: a last plain Newton
+PTRAN_MAX_STEPS = 400
+
+
+def _pseudo_transient(cc, devs, state0, opts, budget):
+    """Pseudo-transient continuation: a capacitor on every node, the sources switched on at
+    t = 0, backward-Euler steps of growing length until the circuit settles, then plain
+    Newton from there (what ngspice's ``optran`` does when the homotopies fail)."""
+    x = np.zeros(cc.size)
+    state = state0
+    g = PTRAN_START_S  # C/h
+    first = True
+    for _ in range(PTRAN_MAX_STEPS):
+        if budget.left <= 0:
+            return None
+        final = g < PTRAN_END_S
+        res = _newton(cc, devs, x, state, 1.0, 0.0 if final else g, opts, budget, first,
+                      x_ref=None if final else x, max_iterations=opts.step_iterations)
+        if res is None:
+            if final:
+                g = PTRAN_END_S * 10  # not settled yet: keep stepping
+                continue
+            g *= 8.0
+            if g > 1e6:
+                return None
+            continue
+        x_new, state, its = res
+        first = False
+        if final:
+            return res
+        moved = float(np.max(np.abs(x_new[: cc.n_nodes] - x[: cc.n_nodes]))) if cc.n_nodes else 0.0
+        x = x_new
+        g /= 4.0 if its < 10 else 1.5
+        if moved < 1e-9:
+            g = min(g, PTRAN_END_S / 2)
+    return None
 
 
 def _series_resistances(circuit: FlatCircuit) -> dict[str, dict[str, float]]:
     out: dict[str, dict[str, float]] = {}
     for dev in circuit.devices:
         try:
-            if dev.kind in ("npn", "pnp"):
+            if dev.kind in BJT:
                 q = bjt_params(dev, circuit.temperature_c)
                 rs = {"c": q.rc_ohm, "b": q.rb_ohm, "e": q.re_ohm}
             elif dev.kind == "diode":

@@ -18,8 +18,10 @@ from pathlib import Path
 from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
-from lintamp.netlist.reader import (Card, CommentLine, ReadOptions, ReadResult, excerpt, run_pattern,
-                                    open_regular, probed_nets, read, read_text)
+from lintamp.netlist.reader import (MAX_DIAGNOSTICS_PER_RULE, Card, CommentLine, ReadOptions,
+                                    ReadResult, excerpt, run_pattern,
+                                    open_regular, probed_nets, read, read_text,
+                                    sandbox_roots)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
                                         Model, Netlist, Origin, ParamDef, PlainRun, Pragma, Source,
                                         new_plain_element)
@@ -251,6 +253,7 @@ class ParseContext:
         # the .if card]; ``skipping`` while any of them is not read
         self.conditions: list[list] = []
         self.skipping = False
+        self._error_counts: dict[tuple[str, str, str], int] = {}
 
     # -- .if / .elseif / .else / .endif ------------------------------------------
     def reading(self) -> bool:
@@ -272,10 +275,12 @@ class ParseContext:
         defined so far.  A condition that cannot be evaluated here (a name only an
         instance gives) takes its branch if none before it was taken, with a note,
         so that alternative definitions of one element never both count."""
-        outer_reading = all(level[0] for level in self.conditions)
+        # each level keeps whether the levels around it were read when it opened (they
+        # cannot change while it is open): O(1) per card, not O(depth)
+        outer_reading = not self.skipping
         if word == ".if":
             holds = self._condition(card, word) if outer_reading else False
-            self.conditions.append([bool(holds), bool(holds) or not outer_reading, card])
+            self.conditions.append([bool(holds), bool(holds) or not outer_reading, card, outer_reading])
         elif not self.conditions:
             self.error(card, 0, f"{word} without a .if before it", expected=".if (CONDITION)")
             return
@@ -290,7 +295,7 @@ class ParseContext:
                 level[1] = level[0]
             else:  # .else
                 level[0] = level[1] = True
-        self.skipping = not all(level[0] for level in self.conditions)
+        self.skipping = bool(self.conditions) and not (self.conditions[-1][3] and self.conditions[-1][0])
 
     def _condition(self, card: Card, word: str) -> bool:
         from lintamp.netlist.expr import ExprError, evaluate_params, evaluate_value
@@ -324,6 +329,12 @@ class ParseContext:
     # -- diagnostics ---------------------------------------------------------
     def error(self, card: Card, offset: int, message: str, expected: str = "", subject: str = "",
               rule: str = "parse-error", severity: str = "error") -> None:
+        # past MAX_DIAGNOSTICS_PER_RULE of one rule in one file: counted, said once at the end
+        key = (card.path, rule, severity)
+        count = self._error_counts.get(key, 0) + 1
+        self._error_counts[key] = count
+        if count > MAX_DIAGNOSTICS_PER_RULE:
+            return
         self.netlist.diagnostics.append(Diagnostic(
             rule, card.location_at(offset), message, subject=subject, severity=severity,
             expected=expected))
@@ -606,7 +617,14 @@ class ParseContext:
         self.cell.funcs[m.group(1).lower()] = FuncDef(m.group(1).lower(), args, body, card.location)
 
     def finish(self) -> Netlist:
-        for _, _, card in self.conditions:
+        for (path, rule, severity), count in self._error_counts.items():
+            if count > MAX_DIAGNOSTICS_PER_RULE:
+                more = count - MAX_DIAGNOSTICS_PER_RULE
+                self.netlist.diagnostics.append(Diagnostic(
+                    rule, Location(path, 1, 1), f"{more} more {rule} problems in {path} not listed "
+                    f"(the first {MAX_DIAGNOSTICS_PER_RULE} are)", subject=f"{more} more",
+                    severity=severity))
+        for _, _, card, _ in self.conditions:
             self.netlist.diagnostics.append(Diagnostic(
                 "parse-error", card.location, ".if is never closed", expected=".endif"))
         if self.deferred:
@@ -649,7 +667,28 @@ def _need(ctx, card, tokens, positional, count, what) -> bool:
 
 
 def _params(pairs) -> dict[str, str]:
-    return {k.text.lower(): v.text for k, v in pairs}
+    return {k.text.lower(): _inner_braces(v.text) for k, v in pairs}
+
+
+def _inner_braces(text: str) -> str:
+    """An expression with braces inside its quotes or braces (xschem writes
+    ``ad='int(({nf} + 1)/2) * W'``) as the same expression with parentheses there:
+    ngspice-39 evaluates both alike (checked: ``r='int(({n} + 1)/2) * 1k'``)."""
+    if len(text) < 4 or text[0] not in "'{" or "{" not in text[1:-1]:
+        return text
+    inner = text[1:-1]
+    if text[0] == "'":
+        if text[-1] != "'" or "'" in inner:
+            return text
+    else:
+        depth = 0
+        for ch in inner:  # the outer braces must enclose all of it: '{a}*{b}' is two
+            depth += (ch == "{") - (ch == "}")
+            if depth < 0:
+                return text
+        if text[-1] != "}" or depth:
+            return text
+    return text[0] + inner.replace("{", "(").replace("}", ")") + text[-1]
 
 
 def parse_passive(ctx: ParseContext, card: Card, tokens: list[Token]) -> Element | None:
@@ -1039,11 +1078,27 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
         return best
 
     for comment in comments:
+        if comment.kind == "dropped-instance":
+            # kept as a pragma of the cell that lost the instance (as the api keeps its
+            # own "manifest-file" marks): rules read what the netlist lacks from it
+            inst, _, rest = comment.text.partition(" - ")
+            symbol = rest.split()[0] if rest.split() else ""
+            cell = cell_of(comment.location)
+            cell.pragmas.append(Pragma(verb="dropped-instance", args=(inst.strip().lower(), symbol),
+                                       reason="", location=comment.location, cell=cell.name))
+            continue
         if comment.kind == "cdl":
             word, _, rest = comment.text.partition(" ")
             netlist.cdl.setdefault(word.lower(), []).append(rest.strip())
             if word.lower() == ".global":
                 netlist.globals.update(t.lower() for t in rest.split())
+            elif word.lower() == ".pininfo":
+                pins = cell_of(comment.location).pin_info
+                for item in rest.split():
+                    net, _, way = item.rpartition(":")
+                    if net and way.lower() in ("i", "o", "b"):
+                        for bit in _bus_bits(net.lower()):
+                            pins.setdefault(bit, way.lower())
             continue
         text, _, reason = comment.text.partition("--")
         words = text.split()
@@ -1062,6 +1117,20 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
             pragma.element = element.key
             pragma.element_nets = element.nodes
         cell.pragmas.append(pragma)
+
+
+_BUS = re.compile(r"^(.*)\[(\d{1,4}):(\d{1,4})\]$")
+
+
+def _bus_bits(name: str) -> list[str]:
+    """``sw[2:0]`` -> ``sw<2> sw<1> sw<0>`` and the ``[k]`` spellings; a plain name as is."""
+    m = _BUS.match(name)
+    if not m:
+        return [name]
+    hi, lo = int(m.group(2)), int(m.group(3))
+    step = -1 if hi >= lo else 1
+    bits = range(hi, lo + step, step)
+    return [name] + [f"{m.group(1)}<{k}>" for k in bits] + [f"{m.group(1)}[{k}]" for k in bits]
 
 
 _FRAGMENT_FIRST = re.compile(r"\s*\.(subckt|subcircuit|model|lib|include|inc|param|global|option|options|func|macro)\b",
@@ -1100,7 +1169,7 @@ def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
     # The reader streams the file; only its first line is needed here.  A file that
     # cannot be read is reported by the reader.
     try:
-        with open_regular(path) as handle:
+        with open_regular(path, sandbox_roots(opts)) as handle:  # no peek through a link out
             head = handle.read(4096).removeprefix(b"\xef\xbb\xbf")
     except OSError:
         head = b""

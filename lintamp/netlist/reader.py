@@ -14,22 +14,32 @@ from __future__ import annotations
 
 import os
 import re
-import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from itertools import chain
 from typing import BinaryIO, Callable, Iterable, Iterator, Protocol
 
+from lintamp import safe_paths
 from lintamp.location import Location
 from lintamp.netlist.statements import Diagnostic
+from lintamp.text import EXCERPT_CHARS, excerpt  # noqa: F401 - the parser imports them from here
 
 MAX_INCLUDE_DEPTH = 40
-MAX_FILE_BYTES = 256 * 1024 * 1024
+MAX_FILE_BYTES = safe_paths.MAX_NETLIST_BYTES  # 256 MB
+# All the bytes one check reads, its includes and their re-reads counted: a file that
+# includes the next one twice, forty deep, would otherwise read 2**40 files.
+MAX_TOTAL_BYTES = 512 * 1024 * 1024
+# How often one file (one .lib section of it) is read in one check: a models file that
+# every cell file includes is read once per cell file (tens of times); 2,000 reads of
+# it, or 2**40 through a fan-out of includes, are an attack, not a design.
+MAX_READS_PER_FILE = 64
+# Diagnostics of one rule in one file beyond this are counted, not kept: a million
+# stray '+' lines give one message per line up to here, then one that counts the rest.
+MAX_DIAGNOSTICS_PER_RULE = 1000
 MAX_CARD_CHARS = 4 * 1024 * 1024  # a logical card longer than this is refused, not parsed
 # A physical line longer than this is skipped unread: it is never held in memory whole,
 # so a 100 MB one-line file costs one read buffer, not 100 MB (real lines are < 10 KB).
 MAX_LINE_BYTES = 1024 * 1024
-EXCERPT_CHARS = 60
 _READ_CHUNK_BYTES = 256 * 1024
 _HEAD_BYTES = 8192
 # Byte-order marks of encodings simulators do not read (UTF-8's own BOM is skipped).
@@ -37,12 +47,6 @@ _FOREIGN_BOMS = ((b"\x00\x00\xfe\xff", "UTF-32"), (b"\xff\xfe\x00\x00", "UTF-32"
                  (b"\xfe\xff", "UTF-16"), (b"\xff\xfe", "UTF-16"))
 
 _PLACEHOLDER = re.compile(r"\$\{|\$[A-Za-z_]|@@|@[A-Za-z_]|\{[A-Za-z_]\w*\}")
-
-
-def excerpt(text: str, limit: int = EXCERPT_CHARS) -> str:
-    """A short, printable piece of untrusted text for messages."""
-    text = "".join(ch if ch.isprintable() else "?" for ch in text[: limit + 1])
-    return text if len(text) <= limit else text[:limit] + "..."
 
 
 @dataclass(slots=True)
@@ -317,32 +321,24 @@ def _chunks(handle: BinaryIO, head: bytes) -> Iterator[bytes]:
         yield chunk
 
 
-def open_regular(path: Path) -> BinaryIO:
-    """Open ``path`` for reading only if it is a regular file.
+def sandbox_roots(opts: ReadOptions) -> list[Path]:
+    """The real folders a read may come from: the project root and the include paths."""
+    return [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
 
-    Opened non-blocking so that a FIFO cannot stall the open itself; then the
-    open file (not the name, which could be swapped) must be a regular file.
+
+def open_regular(path: Path, roots: Iterable[Path] = ()) -> BinaryIO:
+    """Open ``path`` for reading only if it is a regular file (see
+    :func:`lintamp.safe_paths.open_regular`: non-blocking open, then the open file,
+    not the name, must be a regular file).
 
     Raises
     ------
     OSError
         The file cannot be opened; or it is a folder, device, pipe or socket
-        (``strerror`` says which).
+        (``strerror`` says which); or, given ``roots``, a symbolic link leads it
+        out of them.
     """
-    fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0))
-    try:
-        mode = os.fstat(fd).st_mode
-        if not stat.S_ISREG(mode):
-            what = ("a folder" if stat.S_ISDIR(mode) else "a pipe" if stat.S_ISFIFO(mode)
-                    else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "not a regular file")
-            raise OSError(0, f"it is {what}, not a netlist file" if what != "not a regular file"
-                          else "it is not a regular file")
-        if hasattr(os, "set_blocking"):
-            os.set_blocking(fd, True)
-        return os.fdopen(fd, "rb")
-    except BaseException:
-        os.close(fd)
-        raise
+    return safe_paths.open_regular(path, roots=roots)
 
 
 def looks_binary(data: bytes) -> bool:
@@ -359,8 +355,10 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
     """Split ``line`` into code and inline comment, respecting quotes and braces.
 
     ``;`` always starts a comment; ``$`` only at the line start or after a blank,
-    and not when a name follows it (``M$1``, ``$PDK_ROOT``, ``${dir}`` are names or
-    placeholders); ``//`` after a blank when enabled.
+    and not when a brace follows it (``${dir}``, a generator's placeholder) or a name
+    on an include card (``.include $PDK_ROOT/...``, shown as a placeholder);
+    ``M$1`` is a name; ``$1.68`` and `` $d g s b`` are comments, as ngspice-39 reads
+    them; ``//`` after a blank when enabled.
     """
     if ";" not in line and "$" not in line and "/" not in line:
         return line, ""
@@ -383,13 +381,20 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
             if ch == ";":
                 return line[:i], line[i + 1:]
             if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t") and (
-                    i + 1 == n or not (line[i + 1].isalnum() or line[i + 1] in "_{")):
+                    i + 1 == n or line[i + 1] != "{" and not (
+                        (line[i + 1].isalpha() or line[i + 1] == "_") and _names_a_path(line))):
                 return line[:i], line[i + 1:]
             if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
                     i == 0 or line[i - 1] in " \t"):
                 return line[:i], line[i + 2:]
         i += 1
     return line, ""
+
+
+def _names_a_path(line: str) -> bool:
+    """An include-like card, whose ``$NAME`` stays in view as a placeholder (ngspice-39
+    would take it as a comment and then miss the file name; the placeholder says why)."""
+    return line[:4].lower() in (".inc", ".lib")
 
 
 def _pragma_text(comment: str) -> str | None:
@@ -414,7 +419,11 @@ class _Reader:
         self.reading = reading or (lambda: True)
         self.n_cards = 0
         self.stack: list[tuple[str, str]] = []  # (realpath, section) being read
-        self.allowed = [p.resolve() for p in ((opts.root,) if opts.root else ()) + tuple(opts.include_paths)]
+        self.allowed = sandbox_roots(opts)
+        self.bytes_read = 0  # every file and re-read counted (MAX_TOTAL_BYTES)
+        self.reads: dict[tuple[str, str], int] = {}  # (realpath, section) -> times read
+        self.diag_counts: dict[tuple[str, str, str], int] = {}  # (file, rule, severity) -> count
+        self.over_budget = False
 
     # -- paths ---------------------------------------------------------------
     def display(self, path: Path) -> str:
@@ -437,13 +446,58 @@ class _Reader:
             self.stack.append((str(path.resolve()), ""))
         except OSError:
             pass
+        if data is None and safe_paths.escapes_by_symlink(path, self.allowed):
+            # a committed link out of the project: refused unopened, nothing of it quoted
+            shown = self.display(path)
+            self._diag("parse-error", Location(shown, 1, 1),
+                       f"{shown} is a symbolic link to a file outside the project root and the "
+                       "include paths; not read", expected="a netlist file inside the project")
+            return self.result
         self._read_file(path, top_level=title, section=None, data=data, at=None)
+        self._count_dropped()
         return self.result
 
     def _diag(self, rule: str, loc: Location, message: str, *, severity="error",
               subject="", expected="") -> None:
+        key = (loc.path, rule, severity)
+        count = self.diag_counts.get(key, 0) + 1
+        self.diag_counts[key] = count
+        if count > MAX_DIAGNOSTICS_PER_RULE:
+            return  # counted; one message says how many at the end (_count_dropped)
         self.result.diagnostics.append(
             Diagnostic(rule, loc, message, subject=subject, severity=severity, expected=expected))
+
+    def _count_dropped(self) -> None:
+        """One diagnostic per file and rule that had more than MAX_DIAGNOSTICS_PER_RULE,
+        saying how many more there were."""
+        for (shown, rule, severity), count in self.diag_counts.items():
+            if count > MAX_DIAGNOSTICS_PER_RULE:
+                more = count - MAX_DIAGNOSTICS_PER_RULE
+                self.result.diagnostics.append(Diagnostic(
+                    rule, Location(shown, 1, 1),
+                    f"{more} more {rule} problems in {shown} not listed (the first "
+                    f"{MAX_DIAGNOSTICS_PER_RULE} are)", subject=f"{more} more", severity=severity))
+
+    def _budget(self, real: Path, section: str | None, size: int, loc: Location) -> bool:
+        """Whether one more read of ``real`` (``size`` bytes) fits the check's budget:
+        at most MAX_READS_PER_FILE reads of one file and section, MAX_TOTAL_BYTES in all."""
+        if self.over_budget:
+            return False
+        key = (str(real), section or "")
+        times = self.reads.get(key, 0)
+        if times >= MAX_READS_PER_FILE:
+            self._diag("bad-include", loc, f"{self.display(real)} already read {times} times in "
+                       "this check; not read again", subject=self.display(real))
+            return False
+        if self.bytes_read + size > MAX_TOTAL_BYTES:
+            self.over_budget = True
+            self._diag("bad-include", loc, f"the includes add up to more than {MAX_TOTAL_BYTES} "
+                       f"bytes; {self.display(real)} and the includes after it are not read",
+                       subject=self.display(real))
+            return False
+        self.reads[key] = times + 1
+        self.bytes_read += size
+        return True
 
     def _read_file(self, path: Path, *, top_level: bool, section: str | None,
                    data: bytes | None, at: Location | None) -> None:
@@ -453,7 +507,8 @@ class _Reader:
                 return
             self._note_file(shown)
             self._read_lines(physical_lines((data,), self._runs()), shown, path,
-                             top_level=top_level, section=section)
+                             top_level=top_level, section=section,
+                             script=section is None and is_control_script(data[:_HEAD_BYTES]))
             return
         try:
             handle = open_regular(path)
@@ -467,12 +522,15 @@ class _Reader:
                 self._diag("bad-include" if at else "parse-error", at or Location(shown, 1, 1),
                            f"{shown}: file is {size} bytes, over the {MAX_FILE_BYTES}-byte limit; not read")
                 return
+            if not self._budget(path, section, size, at or Location(shown, 1, 1)):
+                return
             head = handle.read(_HEAD_BYTES)
             if self._refuse(head, shown, at):
                 return
             self._note_file(shown)
             self._read_lines(physical_lines(_chunks(handle, head), self._runs()), shown, path,
-                             top_level=top_level, section=section)
+                             top_level=top_level, section=section,
+                             script=section is None and is_control_script(head))
 
     def _runs(self) -> re.Pattern | None:
         return self.bulk.runs if self.bulk is not None else None
@@ -498,7 +556,7 @@ class _Reader:
         return False
 
     def _read_lines(self, source: Iterable[tuple[int, str | None, int]], shown: str, path: Path, *,
-                    top_level: bool, section: str | None) -> None:
+                    top_level: bool, section: str | None, script: bool = False) -> None:
         opts = self.opts
         sink = self.sink
         lines = iter(source)
@@ -506,7 +564,9 @@ class _Reader:
         # far), else [pieces, segments, first_comment, last_line, size] as it grows
         current: Card | list | None = None
         cdl_open: CommentLine | None = None  # a CDL '*.' directive that '+' lines may continue
-        in_control = False
+        # a file of simulator commands (the kind a .control block sources) is read as
+        # the inside of a .control block: the nets it looks at, no elements, no errors
+        in_control = script
         in_data = False
         spectre = False
         in_section = section is None
@@ -597,6 +657,12 @@ class _Reader:
                 if pragma is not None:
                     self.result.comments.append(
                         CommentLine(pragma, Location(shown, lineno, indent + 1), "pragma"))
+                elif head == "*" and in_section and not in_control and "IS MISSING" in body \
+                        and _DROPPED_INSTANCE.match(body):
+                    # a schematic exporter's note that it left an instance out (its
+                    # symbol was not found): the netlist lacks that instance
+                    self.result.comments.append(
+                        CommentLine(body.strip(), Location(shown, lineno, indent + 1), "dropped-instance"))
                 elif head == "*" and body[:1] == "." and in_section and not in_control:
                     flush()  # a '+' after a CDL directive continues the directive, not a card
                     cdl_open = CommentLine(body.strip(), Location(shown, lineno, indent + 1), "cdl")
@@ -629,19 +695,26 @@ class _Reader:
             if spectre:
                 continue
             code, comment = _strip_inline_comment(stripped, opts)
-            # trailing backslash continues onto the next line (HSPICE / Spectre style)
-            while code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
-                got = next(lines, None)
-                if got is None:
-                    break
-                if got[1] is None:  # an over-long line ends the statement; said below
-                    pushed_back = got
-                    break
-                code = code.rstrip()[:-1] + " "
-                if len(code) > MAX_CARD_CHARS:  # a statement that never ends: stop joining
-                    break
-                more, _ = _strip_inline_comment(got[1].lstrip(), opts)
-                code += more
+            # trailing backslash continues onto the next line (HSPICE / Spectre style);
+            # the pieces are joined once at the end: O(length), not O(length x lines)
+            if code.rstrip().endswith("\\") and not code.rstrip().endswith("\\\\\\"):
+                joined, size, last = [], 0, code
+                while last.rstrip().endswith("\\") and not last.rstrip().endswith("\\\\\\"):
+                    got = next(lines, None)
+                    if got is None:
+                        break
+                    if got[1] is None:  # an over-long line ends the statement; said below
+                        pushed_back = got
+                        break
+                    piece = last.rstrip()[:-1] + " "
+                    joined.append(piece)
+                    size += len(piece)
+                    last = ""
+                    if size > MAX_CARD_CHARS:  # a statement that never ends: stop joining
+                        break
+                    last, _ = _strip_inline_comment(got[1].lstrip(), opts)
+                joined.append(last)
+                code = "".join(joined)
             if head == "+" and cdl_open is not None:
                 cdl_open.text += " " + code[1:].strip()
                 continue
@@ -683,8 +756,10 @@ class _Reader:
                     continue
             if not in_section:
                 continue
-            if word == ".end" or (word.startswith(".end") and word == ".end"):
-                break
+            if word == ".end":
+                # ngspice-39 reads on past .end (checked: an R card, a .subckt and an
+                # .include after it all take part in the circuit), so lintamp does too
+                continue
             if word in (".include", ".inc", ".incl", ".includes"):
                 self._include(code, shown, path, lineno, indent)
                 continue
@@ -743,6 +818,8 @@ class _Reader:
                            f"include path '{excerpt(target)}' holds an unexpanded placeholder; "
                            "the file it names is not read", severity="warning", subject=target)
             return None
+        written = target
+        target = expand_home(target)
         target_path = Path(target.replace("\\", "/"))
         candidates = []
         if target_path.is_absolute():
@@ -755,11 +832,14 @@ class _Reader:
         # nor even told apart as present or absent.
         outside = False
         not_files = []  # inside, existing, but folders, devices or pipes
-        for cand in candidates:
+        for number, cand in enumerate(candidates):
             try:
                 real = cand.resolve()
                 if not self.inside_sandbox(real):
-                    outside = True
+                    # judged by where the path as written points (beside the including
+                    # file, or absolute): a missing file there is missing, even where an
+                    # include path joined to the same text would climb out
+                    outside = outside or number == 0
                     continue
                 if real.is_file():
                     return real
@@ -774,20 +854,26 @@ class _Reader:
                 self._diag("bad-include", loc, f"'{excerpt(target)}' is a folder, device or pipe, "
                            "not a netlist file; not read", subject=target)
             else:
-                self._outside(target, loc)
+                self._outside(written, loc)
             return None
         if not quiet:
             self._diag("missing-include", loc,
-                       f"include file '{excerpt(target)}' not found (looked beside "
+                       f"include file '{excerpt(written)}' not found (looked beside "
                        f"{self.display(including)}" + (" and in the include paths" if self.opts.include_paths else "")
-                       + "); checking goes on without it", severity="warning", subject=target)
+                       + "); checking goes on without it", severity="warning", subject=written)
         return None
 
     def _outside(self, target: str, loc: Location) -> None:
+        # A library named by an absolute or home path (a PDK installed on the author's
+        # machine) is one the reviewer may not have: a warning, as a missing file is.
+        # A relative path that climbs out of the project is an error.
+        machine_path = is_machine_path(target)
         self._diag("bad-include", loc,
                    f"'{excerpt(target)}' resolves outside the project root and the "
                    "include paths; not read (add its folder with --include-path "
-                   "if it is trusted)", subject=target)
+                   "if it is trusted)", subject=target,
+                   severity="warning" if machine_path else "error",
+                   expected=OUTSIDE_EXPECTED)
 
     def _enter(self, real: Path, section: str | None, loc: Location) -> bool:
         key = (str(real), section or "")
@@ -848,6 +934,59 @@ class _Reader:
             return False
 
 
+OUTSIDE_EXPECTED = "a file inside the project root or the include paths"
+# xschem's note for an instance whose symbol it could not find: '*  x1 -  inv  IS MISSING !!!!'
+_DROPPED_INSTANCE = re.compile(r"\s*(\S+)\s+-\s+(\S+)\s+IS MISSING\b")
+
+# ngspice's interactive commands (the ngspice-39 manual, chapter 17): the words a
+# control script's lines begin with
+CONTROL_COMMANDS = frozenset("""
+let alter alterparam altermod set unset setplot setcs run tran ac dc op noise pz sens disto
+meas measure plot print wrdata write wrs2p echo foreach while repeat dowhile if else end
+break continue destroy linearize reset shell quit exit display listing define undefine
+compose rusage remcirc source load snload snsave save fourier spec hardcopy asciiplot iplot
+gnuplot resume stop step status delete trace rehash cd version option options setseed
+""".split())
+_CONTROL_HEAD = re.compile(r"\s*([A-Za-z_]+)")
+
+
+def is_control_script(head: bytes) -> bool:
+    """Whether a file's first bytes read as ngspice commands rather than a circuit:
+    no .control block, no .subckt, no .end, and most statements begin with a command
+    word (``let``, ``alter``, ``meas``, ``plot`` ...), three at least."""
+    text = head.decode("latin-1", errors="replace")
+    commands = statements = 0
+    for line in text.splitlines()[1:200]:  # the first line is a title when checked alone
+        stripped = line.strip()
+        if not stripped or stripped[0] in "*$;+" or stripped.startswith("//"):
+            continue
+        low = stripped.lower()
+        if low.startswith((".control", ".subckt", ".end", ".ends")):
+            return False
+        statements += 1
+        m = _CONTROL_HEAD.match(low)
+        if m and m.group(1) in CONTROL_COMMANDS:
+            commands += 1
+    return commands >= 3 and commands * 10 >= statements * 8
+
+
+def expand_home(target: str) -> str:
+    """``~`` and ``~/...`` as ngspice-39 expands them in include paths (HOME from the
+    environment); ``$NAME`` and ``${NAME}`` it does not expand, and neither does this."""
+    if target == "~" or target.startswith(("~/", "~\\")):
+        home = os.environ.get("HOME")
+        if home:
+            return home.rstrip("/\\") + target[1:]
+    return target
+
+
+def is_machine_path(target: str) -> bool:
+    """Whether an include names a place on the author's machine: an absolute path, a
+    home path or a Windows drive path (not a relative path climbing out)."""
+    t = target.replace("\\", "/")
+    return t.startswith(("/", "~")) or (len(t) > 2 and t[1] == ":" and t[2] == "/")
+
+
 def _split_path_tokens(code: str) -> list[str]:
     """Tokens of an include-like card; quoted paths keep their spaces."""
     out = []
@@ -896,7 +1035,9 @@ def read_text(text: str, path: str = "<text>", opts: ReadOptions | None = None,
     reader = _Reader(opts, sink, reading, bulk)
     reader.result.files.append(path)
     reader._read_lines(_text_lines(text, reader._runs()), path, Path(path), top_level=True,
-                       section=None)
+                       section=None,
+                       script=is_control_script(text[:_HEAD_BYTES].encode("latin-1", "replace")))
+    reader._count_dropped()
     return reader.result
 
 

@@ -505,6 +505,8 @@ class Cell:
     parent: "Cell | None" = field(default=None, repr=False)
     optional_ports: dict[str, str] = field(default_factory=dict)
     repeated_ports: dict[str, str] = field(default_factory=dict)  # placeholder -> port name
+    # pin directions a schematic export writes (``*.PININFO net:I|O|B``): net -> "i" | "o" | "b"
+    pin_info: dict[str, str] = field(default_factory=dict)
 
     def __post_init__(self):
         if self.elements.__class__ is not ElementList:

@@ -14,6 +14,7 @@ from typing import TextIO
 
 from lintamp.findings import Finding, Report
 from lintamp.registry import RuleInfo
+from lintamp.text import plural  # noqa: F401 - the reporters import it from here
 
 
 class Reporter:
@@ -60,10 +61,6 @@ def finding_data(finding: Finding) -> dict:
     data = finding.to_json()
     data["values"] = {k: json_number(v) for k, v in sorted(data["values"].items())}
     return data
-
-
-def plural(count: int, word: str) -> str:
-    return f"{count} {word}" + ("" if count == 1 else "s")
 
 
 _CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]")

@@ -7,17 +7,16 @@ the numbers, lowest-impedance branch first (the one that sets the node).
 
 from __future__ import annotations
 
-import math
 
 from lintamp.engine.looking_into import NodeExplanation
-from lintamp.report.si import si, si_for_key
+from lintamp.engine.engine_kinds import is_open
+from lintamp.text import si, si_for_key
 
 MAX_BRANCHES = 4
 
 
 def _ohm(z) -> str:
-    m = abs(z) if z is not None else math.inf
-    return "open" if not math.isfinite(m) or m >= 1e11 else si(m, "Ω")
+    return "open" if is_open(z) else si(abs(z), "Ω")
 
 
 def _terms(terms: dict) -> str:

@@ -5,7 +5,7 @@ level-1 solve), and small-signal solvers per (frequency, detached elements).
 Numbers are only handed out when they can be trusted: every nonlinear device
 has a model lintamp evaluates (or a table row), no geometry stayed symbolic,
 and the DC solve converged.  Otherwise the rules get a :class:`NoNumbers` with
-the reason, and one ``info`` finding per file says so.
+the reason (``rules/_numbers.py`` turns it into one ``info`` finding per file).
 """
 
 from __future__ import annotations
@@ -15,7 +15,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from lintamp.engine.engine_kinds import NONLINEAR, SmallSignalError
+from lintamp.circuit.kinds import MOS, NONLINEAR, TRANSISTORS
+from lintamp.engine.engine_kinds import EngineError
 from lintamp.engine.flat_places import locate_device
 from lintamp.engine.looking_into import NodeExplanation, ac_ground_nets, explain_node
 from lintamp.circuit.flat import FlatCircuit
@@ -23,11 +24,10 @@ from lintamp.circuit.flat import FlatCircuit
 if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are computed
     from lintamp.engine.operating_point import OperatingPoint
     from lintamp.engine.small_signal import ImpedanceSolver
-from lintamp.findings import Severity
-from lintamp.report.si import si
 
-# what the engine may raise on odd but legal decks; a rule then skips that node, never the file
-ENGINE_ERRORS = (SmallSignalError, ArithmeticError, ValueError, IndexError, KeyError, RuntimeError)
+# what the engine raises on odd but legal decks (a rule then skips that node, never the
+# file); anything else is a bug and reaches the internal-error exit
+ENGINE_ERRORS = (EngineError, ArithmeticError)
 MAX_ELEMENTS = 20_000  # past this the built-in solve is not the right tool; a table is
 GEOMETRY = ("w", "l")
 
@@ -81,7 +81,7 @@ def _untrusted_devices(ctx, circuit: FlatCircuit) -> list[str]:
             why = dev.kind_detail if "PDK" in dev.kind_detail else "model not found"
             out.append(f"{dev.name} ({why})")
             continue
-        if dev.kind in ("nmos", "pmos"):
+        if dev.kind in MOS:
             _view, design_dev = locate_device(ctx.design, dev.name)
             if design_dev is not None:
                 written = [k for k in GEOMETRY if k in design_dev.element.params]
@@ -95,9 +95,10 @@ def _load_table(ctx):
     op_file = (ctx.options or {}).get("op_file")
     if not op_file:
         return None, ""
+    from lintamp import safe_paths
     from lintamp.engine.op_table import load_op_table
-    try:
-        return load_op_table(Path(op_file).read_text(encoding="utf-8"), str(op_file)), ""
+    try:  # a regular file only: a pipe or /dev/zero is refused without blocking
+        return load_op_table(safe_paths.read_text(op_file), str(op_file)), ""
     except (OSError, ValueError) as exc:
         return None, f"--op {op_file}: {exc}"
 
@@ -116,7 +117,7 @@ def _compute(ctx) -> Numbers | NoNumbers | None:
         return NoNumbers(f"the deck could not be flattened ({type(exc).__name__}: {exc})")
     if not circuit.devices:
         return None
-    if not any(d.kind in ("nmos", "pmos", "npn", "pnp") or "PDK" in d.kind_detail for d in circuit.devices):
+    if not any(d.kind in TRANSISTORS or "PDK" in d.kind_detail for d in circuit.devices):
         quiet = True  # no stages to judge: say nothing when numbers are missing
     else:
         quiet = False
@@ -155,42 +156,6 @@ def _numbers_for(ctx, circuit):
 def impedance_numbers(ctx) -> Numbers | NoNumbers | None:
     """The shared numbers, or why there are none (None: no deck to simulate)."""
     return ctx.memo("impedance-numbers", lambda: _compute(ctx))
-
-
-def no_numbers_findings(ctx, numbers) -> list:
-    """At most one info finding per file saying the impedance rules had no numbers."""
-    if not isinstance(numbers, NoNumbers) or numbers.reported_elsewhere:
-        return []
-    broken = [d for d in (*ctx.netlist.diagnostics, *ctx.design.diagnostics) if d.severity == "error"]
-    if broken:
-        return []  # the deck does not simulate as written; its errors say why
-    if "singular matrix" in numbers.reason:
-        return []  # a floating node or a source loop: the connectivity rules report it
-    box = ctx.memo("impedance-numbers-reported", lambda: [False])
-    if box[0]:
-        return []
-    box[0] = True
-    top = ctx.design.top
-    location = top.devices[0].location if top.devices else top.cell.location
-    return [ctx.finding(
-        location=location, subject="(operating point)", severity=Severity.INFO,
-        message="impedance rules skipped: no trusted numbers ("
-                + (numbers.reason if len(numbers.reason) <= 100 else numbers.reason[:100] + "...") + ")",
-        explanation=[
-            f"why: {numbers.reason if len(numbers.reason) <= 400 else numbers.reason[:400] + '...'}",
-            "high-z-current-input, unbuffered-output, undefined-dc-level and device-region need "
-            "an operating point and small-signal values",
-            "lintamp solves level-1 MOS, Gummel-Poon BJT and diode models itself; other models, "
-            "PDK devices without their model cards and symbolic sizes give no numbers it trusts",
-        ],
-        fix="give the operating point from your simulator with --op FILE (CSV/JSON of gm, gds, gmb, "
-            "ids, region per device), or include the model library",
-        values={"reason": numbers.reason})]
-
-
-def fmt_ohm(z) -> str:
-    m = abs(z) if z is not None else math.inf
-    return "open" if not math.isfinite(m) or m >= 1e11 else si(m, "Ω")
 
 
 def device_capacitance_at(numbers: Numbers, net: int) -> tuple[float, list[str]]:

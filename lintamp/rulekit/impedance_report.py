@@ -19,8 +19,8 @@ from lintamp.engine.operating_point import CannotEvaluateError, OperatingPoint, 
 from lintamp.engine.stages import recognise_stages
 from lintamp.circuit.flat import FlatCircuit
 
-OPEN_OHM = 1e11
-NONLINEAR = ("nmos", "pmos", "npn", "pnp", "diode")
+from lintamp.circuit.kinds import NONLINEAR
+from lintamp.engine.engine_kinds import OPEN_OHM, EngineError
 
 
 def _z_json(z) -> dict:
@@ -59,7 +59,7 @@ def resolve_operating_point(
     if table:
         try:
             return operating_point_from_table(circuit, table, base), "table", notes
-        except ValueError as exc:
+        except EngineError as exc:
             notes.append(str(exc))
     if base is not None:
         return base, "level1", notes

@@ -1,20 +1,17 @@
-"""Which nets carry a signal current in, which are voltage outputs, and what loads them.
+"""Which nets the impedance rules judge: current inputs, voltage outputs and their loads.
 
-Sources, strongest first:
+The declared ports come from the one intent analysis every command shares
+(:mod:`lintamp.connectivity.intent`: pragma > config > pin directions > testbench >
+names), per cell of the hierarchy.  On top of them the rules look at:
 
-* pragmas: ``current-input NET``, ``voltage-output NET``, ``load ELEMENT ...``
-  (in a ``.subckt`` they apply to every instance of that cell);
-* the ``[ports]`` table of the configuration (name globs), else the default
-  naming conventions below;
-* testbench stimulus: an independent current source with an AC value or a
-  waveform into a node that has capacitance (a sensor or photodiode model);
 * topology: a current-mirror output, common-gate or cascode drain (collector)
   that feeds the source (emitter) of a common-gate / cascode device or a
   diode-connected mirror input -- a current interface between stages;
 * hierarchy: the parent's passive elements on a cell's voltage-output port are
   that output's load;
 * AC coupling: a capacitor from an output into a purely passive network that
-  ends at AC ground is a load (a coupled headphone, a line input).
+  ends at AC ground is a load (a coupled headphone, a line input); an output
+  taken after the coupling capacitor is judged with the stage behind it.
 
 A passive chain (R, C, L only, ending at AC ground, touching no transistor and no
 source) is what separates a load from a feedback network: a network that leads
@@ -23,26 +20,22 @@ back to a gate or into the driving cell is feedback and stays attached.
 
 from __future__ import annotations
 
-import fnmatch
 from dataclasses import dataclass, field
 
+from lintamp.circuit.kinds import MOS, TRANSISTORS
+from lintamp.connectivity.intent import (DEFAULT_PATTERNS, SOURCES, instance_prefixes, intent_analysis,  # noqa: F401
+                                         matches as _matches, patterns)
 from lintamp.engine.flat_places import local_name, net_aliases, prefix_of, view_of_path
-from lintamp.engine.stages import recognise_stages
+from lintamp.engine.stages import Role, recognise_stages
 from lintamp.circuit.design import CellView, Design
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
 from lintamp.location import Location
 
-DEFAULT_PATTERNS = {
-    "voltage-output": ("out", "out?", "vout", "vout?", "*_out"),
-    "current-input": ("iin", "iin?", "iin_*", "*_iin"),
-    "load": ("rload*", "cload*", "zload*", "rl_load*", "cl_load*"),
-}
 PASSIVE = ("resistor", "capacitor", "inductor")
-MAX_PREFIXES = 10_000
 MAX_CHAIN_NETS = 64
-DRIVER_ROLES = ("current-mirror output", "common gate", "common base", "cascode")
-RECEIVER_ROLES = ("common gate", "common base", "cascode")
-CURRENT_OUTPUT_ROLES = ("current-mirror output", "current source (fixed bias)", "cascode")
+DRIVER_ROLES = (Role.MIRROR_OUTPUT, Role.COMMON_GATE, Role.COMMON_BASE, Role.CASCODE)
+RECEIVER_ROLES = (Role.COMMON_GATE, Role.COMMON_BASE, Role.CASCODE)
+CURRENT_OUTPUT_ROLES = (Role.MIRROR_OUTPUT, Role.CURRENT_SOURCE, Role.CASCODE)
 
 
 @dataclass
@@ -62,39 +55,6 @@ class PortNet:
         return local_name(self.name)
 
 
-def patterns(config, kind: str) -> tuple[str, ...]:
-    ports = getattr(config, "ports", None) or {}
-    return tuple(ports.get(kind, DEFAULT_PATTERNS[kind]))
-
-
-def _matches(name: str, globs) -> str | None:
-    for g in globs:
-        if fnmatch.fnmatchcase(name.lower(), g.lower()):
-            return g
-    return None
-
-
-def instance_prefixes(design: Design) -> list[tuple[str, CellView]]:
-    """Every (flat prefix, cell view) pair below the top, the top as ``("", top)``.
-
-    Notes
-    -----
-    Depth-first, O(instances), capped at ``MAX_PREFIXES``.
-    """
-    out = [("", design.top)]
-    stack = [("", design.top, 0)]
-    while stack and len(out) < MAX_PREFIXES:
-        prefix, view, depth = stack.pop()
-        if depth > 100:
-            continue
-        for dev in view.devices:
-            if dev.kind == "instance" and dev.subcell is not None:
-                child = prefix + dev.name + "/"
-                out.append((child, dev.subcell))
-                stack.append((child, dev.subcell, depth + 1))
-    return out
-
-
 class PortFinder:
     """Port discovery over one flat circuit (build once per netlist)."""
 
@@ -103,6 +63,8 @@ class PortFinder:
         self.design: Design = ctx.design
         self.circuit = circuit
         self.ac_ground = ac_ground
+        self.intent = intent_analysis(ctx, circuit)
+        self.op = op
         self.prefixes = instance_prefixes(self.design)
         self.aliases = net_aliases(circuit)
         self.on_net: dict[int, list[FlatDevice]] = {}
@@ -110,7 +72,21 @@ class PortFinder:
             for n in set(dev.nodes):
                 self.on_net.setdefault(n, []).append(dev)
         self.by_name = {d.name: d for d in circuit.devices}
-        self.roles = {s.device: s for s in recognise_stages(circuit, op)}
+        self.roles = {s.device: s for s in recognise_stages(circuit, op, rails=self.intent.rails())}
+        self._declared = None
+
+    def declared(self) -> list[tuple[str, CellView, object]]:
+        """(prefix, view, intent port) for every port the intent analysis finds in every
+        cell placement, the top first."""
+        if self._declared is None:
+            out = []
+            for prefix, view in self.prefixes:
+                for port in self.intent.block(view.cell, prefix).ports:
+                    out.append((prefix, view, port))
+            # strongest source first, so a cell's pragma names the net its parent drives
+            out.sort(key=lambda item: SOURCES.index(item[2].source))
+            self._declared = out
+        return self._declared
 
     # -- helpers -----------------------------------------------------------------
     def view_of(self, flat_name: str) -> CellView:
@@ -187,40 +163,21 @@ class PortFinder:
     # -- current inputs ----------------------------------------------------------
     def current_inputs(self) -> list[PortNet]:
         found: dict[int, PortNet] = {}
-        for prefix, view in self.prefixes:
-            for pragma in view.cell.pragmas:
-                if pragma.verb != "current-input":
-                    continue
-                for name in pragma.args:
-                    net = self.circuit.find_net(prefix + name)
-                    if net is not None:
-                        self._add(found, PortNet(net, prefix + name, f"declared current-input ({pragma.location})",
-                                                 pragma.location, view, self.current_drivers(net, prefix)))
-        for dev in self.circuit.devices:
-            src = dev.source
-            if dev.kind != "isource" or src is None or not (src.ac_mag or src.time_varying):
+        for prefix, view, port in self.declared():
+            if port.kind != "current-input":
                 continue
-            a, b = dev.nodes[0], dev.nodes[1]
-            if (a in self.ac_ground) == (b in self.ac_ground):
+            net = self.circuit.find_net(port.circuit_net)
+            if net is None:
                 continue
-            net = b if a in self.ac_ground else a
-            c_f, _ = self.net_capacitance_f(net)
-            if c_f <= 0 and net not in found:
-                continue  # a bare AC current is usually an impedance probe, not a sensor
-            stim = "AC" if src.ac_mag else "time-varying"
-            self._add(found, PortNet(net, self.circuit.nets[net],
-                                     f"driven by {stim} current source {dev.display_name or dev.name}",
-                                     dev.location, self.view_of(dev.name), [dev.name]))
-        globs = patterns(self.ctx.config, "current-input")
-        for net, names in self.aliases.items():
-            for name in names:
-                g = _matches(local_name(name), globs)
-                if g and net not in found:
-                    prefix = prefix_of(name)
-                    self._add(found, PortNet(net, name, f"name matches the current-input pattern {g!r}",
-                                             self.first_location(net, prefix), self.view_of(name),
-                                             self.current_drivers(net, prefix)))
-                    break
+            if port.source == "testbench" and port.stimulus:
+                dev = self.by_name.get(port.stimulus)
+                self._add(found, PortNet(net, self.circuit.nets[net], port.decided_by,
+                                         dev.location if dev else self.first_location(net, prefix),
+                                         self.view_of(port.stimulus), [port.stimulus]))
+                continue
+            location = port.location or self.first_location(net, prefix)
+            self._add(found, PortNet(net, port.circuit_net, port.decided_by, location, view,
+                                     self.current_drivers(net, prefix)))
         for port in self.current_interfaces():
             if port.net not in found:
                 self._add(found, port)
@@ -233,7 +190,7 @@ class PortFinder:
         for dev in self.on_net.get(net, []):
             if dev.kind in ("isource", "vccs", "cccs") and net in dev.nodes[:2]:
                 out.append(dev.name)
-            elif prefix and not dev.name.startswith(prefix) and dev.kind in ("nmos", "pmos", "npn", "pnp") \
+            elif prefix and not dev.name.startswith(prefix) and dev.kind in TRANSISTORS \
                     and dev.nodes[0] == net:
                 out.append(dev.name)
         return out
@@ -241,7 +198,7 @@ class PortFinder:
     def current_interfaces(self) -> list[PortNet]:
         out = []
         for dev in self.circuit.devices:
-            if dev.kind not in ("nmos", "pmos", "npn", "pnp"):
+            if dev.kind not in TRANSISTORS:
                 continue
             role = self.roles.get(dev.name)
             if role is None or role.role not in DRIVER_ROLES:
@@ -250,13 +207,13 @@ class PortFinder:
             if net in self.ac_ground:
                 continue
             for other in self.on_net.get(net, []):
-                if other is dev or other.kind not in ("nmos", "pmos", "npn", "pnp"):
+                if other is dev or other.kind not in TRANSISTORS:
                     continue
                 orole = self.roles.get(other.name)
                 into_source = other.nodes[2] == net and orole is not None and orole.role in RECEIVER_ROLES
                 into_diode = other.nodes[0] == net and other.nodes[1] == net
                 if into_source or into_diode:
-                    what = "source" if other.kind in ("nmos", "pmos") else "emitter"
+                    what = "source" if other.kind in MOS else "emitter"
                     where = f"{what} of {other.name}" if into_source else f"diode-connected {other.name}"
                     out.append(PortNet(net, self.circuit.nets[net],
                                        f"{role.role} {dev.name} drives a current into the {where}",
@@ -267,48 +224,120 @@ class PortFinder:
     # -- voltage outputs and loads ---------------------------------------------------
     def voltage_outputs(self) -> list[PortNet]:
         found: dict[int, PortNet] = {}
-        globs = patterns(self.ctx.config, "voltage-output")
         load_globs = patterns(self.ctx.config, "load")
-        declared: list[tuple[int, str, str, Location, CellView]] = []
-        for prefix, view in self.prefixes:
-            for pragma in view.cell.pragmas:
-                if pragma.verb == "voltage-output":
-                    for name in pragma.args:
-                        net = self.circuit.find_net(prefix + name)
-                        if net is not None:
-                            declared.append((net, prefix + name, f"declared voltage-output ({pragma.location})",
-                                             pragma.location, view))
-        for net, names in self.aliases.items():
-            for name in names:
-                prefix = prefix_of(name)
-                view = self.view_of(name)
-                local = local_name(name)
-                if prefix and local not in view.ports:
-                    continue  # inside a cell only its ports are outputs by name
-                g = _matches(local, globs)
-                if g:
-                    declared.append((net, name, f"name matches the voltage-output pattern {g!r}",
-                                     self.first_location(net, prefix), view))
         pragma_loads = self._pragma_loads()
-        for net, name, why, location, view in declared:
-            if net in self.ac_ground or net in found:
+        for prefix, view, port in self.declared():
+            if port.kind != "voltage-output":
                 continue
-            if not why.startswith("declared") and self.is_current_output(net):
+            net = self.circuit.find_net(port.circuit_net)
+            if net is None or net in self.ac_ground or net in found:
+                continue
+            if port.source != "pragma" and self.is_current_output(net):
                 continue  # named like an output, but only current sources drive it
-            loads, load_why = self.loads_of(net, name, load_globs, pragma_loads)
+            location = port.location or self.first_location(net, prefix)
+            loads, load_why = self.loads_of(net, port.circuit_net, load_globs, pragma_loads)
+            if not loads:
+                loads, load_why = self.behind_coupling(net)
             if loads:
-                found[net] = PortNet(net, name, why, location, view, sorted(loads), "; ".join(load_why))
+                found[net] = PortNet(net, port.circuit_net, port.decided_by, location, view, sorted(loads),
+                                     "; ".join(load_why))
+        for net, cap in self.coupled_loads():
+            if net in found or any(n in found for n in cap.nodes[:2]):
+                continue  # the output is already judged after its coupling capacitor
+            loads, load_why = self.loads_of(net, self.circuit.nets[net], load_globs, pragma_loads)
+            if loads:
+                found[net] = PortNet(net, self.circuit.nets[net],
+                                     f"testbench: it drives a load through coupling capacitor {cap.name}",
+                                     cap.location, self.view_of(cap.name), sorted(loads), "; ".join(load_why))
         return sorted(found.values(), key=lambda p: p.name)
+
+    def path_words(self, net: int, toward_output: bool = True) -> str | None:
+        """The signal path by inspection that reaches ``net`` from an input (or leaves it
+        for an output), in words for a finding's reasoning; None without one."""
+        from lintamp.engine.stage_paths import paths_by_inspection
+
+        ports: dict[tuple, tuple[str, str]] = {}
+        for _, _, p in self.declared():
+            idx = self.circuit.find_net(p.circuit_net)
+            if idx is not None and idx != net:
+                ports.setdefault((p.is_input, idx), (p.circuit_net, p.kind))
+        here = [(self.circuit.nets[net], net)]
+        ends = [(name, idx) for (is_input, idx), (name, _) in ports.items() if is_input == toward_output]
+        if not ends:
+            return None
+        inputs, outputs = (ends, here) if toward_output else (here, ends)
+        acg = self.intent.acg | set(self.intent.rails())  # a signal source is no AC ground here
+        rows, _ = paths_by_inspection(self.circuit, list(self.roles.values()), acg, inputs[:4], outputs[:4],
+                                      limit=1, op=self.op)
+        if not rows:
+            return None
+        row = rows[0]
+        kinds = {name: kind for name, kind in ports.values()}
+        current_in = kinds.get(row["from"], "current-input" if not toward_output else "") == "current-input"
+        steps = " → ".join(f"{h['device']} ({h['role']}) → {h['to']}" for h in row["chain"])
+        value = row.get("formula_value")
+        if not row["formula"]:
+            return f"signal path: {row['from']} → {steps}"
+        unit = "" if current_in else " V/V"  # a current input's first form is no voltage gain
+        shown = f" ≈ {value:.4g}{unit}" if value is not None and not current_in else ""
+        return f"signal path: {row['from']} → {steps}; by inspection {row['formula']}{shown}"
+
+    def coupled_loads(self) -> list[tuple[int, FlatDevice]]:
+        """(drain or collector net, capacitor) where a capacitor couples a transistor's
+        output into a passive network that ends at AC ground with a resistor in it (a
+        line or an earpiece): that transistor output is a voltage output."""
+        out = []
+        for dev in self.circuit.devices:
+            if dev.kind != "capacitor" or len(dev.nodes) < 2:
+                continue
+            for near in dev.nodes[:2]:
+                if near in self.ac_ground:
+                    continue
+                if not any(d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[0] == near
+                           for d in self.on_net.get(near, ())):
+                    continue
+                chain = self.passive_chain(near, dev)
+                if chain and any(d.kind == "resistor" for n in chain for d in self.on_net.get(n, ())):
+                    out.append((near, dev))
+        return out
+
+    def behind_coupling(self, net: int) -> tuple[set[str], list[str]]:
+        """An output taken after a coupling capacitor: the passive elements from it to AC
+        ground are the load, and the stage behind the capacitor drives it."""
+        caps = [d for d in self.on_net.get(net, ()) if d.kind == "capacitor"
+                and any(n not in self.ac_ground and n != net for n in d.nodes[:2])]
+        if not caps or self._driven_here(net):
+            # a stage that drives the net itself (a Miller capacitor on an amplifier's
+            # output is no coupling capacitor): its own resistors are no load
+            return set(), []
+        loads, why = set(), []
+        for dev in self.on_net.get(net, ()):
+            if dev in caps or dev.kind not in PASSIVE:
+                continue
+            if self.passive_chain(net, dev) is not None:
+                loads.add(dev.name)
+                why.append(f"{dev.name}: to AC ground behind coupling capacitor {caps[0].name}")
+        return loads, why
+
+    def _driven_here(self, net: int) -> bool:
+        """A transistor's drain, collector, source or emitter, or a controlled source's
+        output, on the net itself."""
+        for d in self.on_net.get(net, ()):
+            if d.kind in TRANSISTORS and net in (d.nodes[0], d.nodes[2]):
+                return True
+            if d.kind in ("vccs", "vcvs", "cccs", "ccvs") and net in d.nodes[:2]:
+                return True
+        return False
 
     def is_current_output(self, net: int) -> bool:
         """Only mirror outputs, fixed-bias current sources or cascodes drive the net:
         a current output by design (a bias-current port), not a voltage output."""
         drivers = [d for d in self.on_net.get(net, [])
-                   if d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[0] == net and d.nodes[1] != net]
+                   if d.kind in TRANSISTORS and d.nodes[0] == net and d.nodes[1] != net]
         if not drivers:
             return False
         others = [d for d in self.on_net.get(net, []) if d not in drivers and d.kind not in PASSIVE
-                  and not (d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[1] == net
+                  and not (d.kind in TRANSISTORS and d.nodes[1] == net
                            and d.nodes[0] != net)]
         roles = [self.roles.get(d.name) for d in drivers]
         return not others and all(r is not None and r.role in CURRENT_OUTPUT_ROLES for r in roles)
@@ -325,12 +354,12 @@ class PortFinder:
                 for dev in self.on_net.get(net, []):
                     if dev.name in skip:
                         continue
-                    if dev.kind in ("nmos", "pmos", "npn", "pnp") and (
+                    if dev.kind in TRANSISTORS and (
                             any_terminal or net in (dev.nodes[0], dev.nodes[2])):
                         return True
                     if dev.kind in ("vcvs", "vccs", "cccs", "ccvs") and (any_terminal or net in dev.nodes[:2]):
                         return True
-                    if dev.kind in ("resistor", "inductor"):
+                    if dev.kind in ("resistor", "inductor", "capacitor"):  # a coupling capacitor too
                         nxt.update(n for n in dev.nodes[:2] if n not in seen and n not in self.ac_ground)
             seen |= nxt
             frontier = nxt
