@@ -49,7 +49,7 @@ def digest_of(argv: list[str]) -> tuple[str, str, int]:
 
 
 def check_argv(path: Path, include: Path | None) -> list[str]:
-    argv = ["check", "--isolated", "--no-cache", "--format", "json", "--fail-on", "never"]
+    argv = ["check", "--no-config", "--no-cache", "--format", "json", "--fail-on", "never"]
     if include is not None:
         argv += ["--include-path", str(include)]
     return argv + [str(path)]

@@ -79,6 +79,23 @@ def pytest_collection_modifyitems(config, items):
 
 # ---------------------------------------------------------------- the checkout stays clean
 
+def _hypothesis_outside_the_checkout() -> None:
+    """hypothesis keeps its examples and constants in .hypothesis/ of the current folder;
+    give it a temporary folder instead, removed when the run ends."""
+    try:
+        from hypothesis.configuration import set_hypothesis_home_dir
+    except ImportError:  # the test extras are not installed: those tests fail on import anyway
+        return
+    import atexit
+    import shutil
+    import tempfile
+    home = tempfile.mkdtemp(prefix="lintamp-tests-hypothesis-")
+    set_hypothesis_home_dir(home)
+    atexit.register(shutil.rmtree, home, True)
+
+
+_hypothesis_outside_the_checkout()
+
 # Where a run without a config file would put its cache if a test let it write into the
 # checkout (the current folder is the repository root when pytest runs from there).
 _CACHE_SPOTS = (REPO / ".lintamp_cache", REPO / "samples" / ".lintamp_cache",

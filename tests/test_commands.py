@@ -330,3 +330,16 @@ def test_a_deck_over_100k_lines_counts_as_long(tmp_path):
     assert not wants_progress([big], Terminal(), environ={"CI": "true"})
     assert not wants_progress([big], sys.stderr if not sys.stderr.isatty() else object(), environ={})
     assert in_ci({"CI": "true"}) and not in_ci({"CI": ""}) and not in_ci({"CI": "false"})
+
+
+def test_output_paths_are_checked_before_any_work(tmp_path, capsys):
+    deck = tmp_path / "a.sp"
+    deck.write_text("divider\nv1 a 0 1\nr1 a b 1k\nr2 b 0 1k\n.end\n")
+    for option in ("-o", "--write-baseline"):
+        assert main(["check", "--no-config", "--no-cache", option, str(tmp_path / "no" / "r"),
+                     str(deck)]) == 2
+        assert capsys.readouterr().err == f"lintamp: {option} {tmp_path / 'no' / 'r'}: no such folder\n"
+        assert main(["check", "--no-config", "--no-cache", option, str(tmp_path), str(deck)]) == 2
+        assert "is a folder, not a file" in capsys.readouterr().err
+    assert main(["audit", "--no-config", "-o", str(tmp_path / "no" / "s.md"), str(deck)]) == 2
+    assert "no such folder" in capsys.readouterr().err

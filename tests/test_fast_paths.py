@@ -326,42 +326,9 @@ def test_physical_lines_with_runs_are_the_same_lines():
     assert sum(-n for _, _, n in reader.physical_lines([crlf], PLAIN_RUNS) if n < 0) > 20_000
 
 
+# The corpus-wide comparison of parsing with and without runs is in test_corpus.py, in the
+# one pass over the corpus that also checks every file.
 CORPUS = __import__("pathlib").Path(__file__).resolve().parent.parent.parent / "shared" / "corpus"
-
-
-def test_corpus_parses_the_same_with_and_without_runs():
-    # every real netlist of ../shared/corpus where runs are taken (about 850 files of 6,300)
-    from lintamp.netlist.parser import ParseContext, parse_file
-    from lintamp.netlist.reader import ReadOptions
-    if not CORPUS.is_dir():
-        pytest.skip(f"the shared corpus is not at {CORPUS}")
-
-    def snapshot(netlist):
-        return ([(c.name, [(e, e.location, dict(e.params)) for e in c.elements])
-                 for c in netlist.all_cells()],
-                [(d.rule, d.location, d.message) for d in netlist.diagnostics], netlist.title)
-
-    skip = {"LICENSE", "NOTICE", "COPYING", "README.md", "SOURCES.md"}
-    files = sorted(p for p in CORPUS.rglob("*")
-                   if p.is_file() and p.suffix != ".tsv" and p.name not in skip)
-    with_runs = differ = 0
-    with pytest.MonkeyPatch.context() as patch:
-        taken = bulk_spy(patch)
-        for path in files:
-            repo = CORPUS / path.relative_to(CORPUS).parts[0]
-            opts = ReadOptions(root=repo, include_paths=(repo,))
-            before = len(taken)
-            fast = snapshot(parse_file(path, opts))
-            if len(taken) == before:
-                continue
-            with_runs += 1
-            patch.setattr(ParseContext, "runs", None)
-            slow = snapshot(parse_file(path, opts))
-            patch.undo()
-            taken = bulk_spy(patch)
-            differ += fast != slow
-            assert fast == slow, path
-    assert with_runs > 100 and differ == 0
 
 
 def test_only_the_control_letters_have_controls():

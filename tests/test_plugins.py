@@ -135,6 +135,9 @@ def test_a_local_rule_folder_loads_rules_from_the_repository(tmp_path):
     out = _run(["check", "--format", "json", "--jobs", "2", "a.sp", "b.sp"], folder)
     assert [(f["path"], f["message"]) for f in json.loads(out.stdout)["findings"]] == [
         ("a.sp", "the edited rule ran"), ("b.sp", "the edited rule ran")]
+    # --only on the command line knows the config's local rules
+    out = _run(["check", "--no-cache", "--only", "deck-note,connectivity", "--format", "json", "a.sp"], folder)
+    assert out.returncode == 0 and json.loads(out.stdout)["summary"]["infos"] == 1, out.stderr
     # without the config, the rule is unknown
     out = _run(["check", "--no-config", "--no-cache", "--only", "deck-note", "a.sp"], folder)
     assert out.returncode == 2 and "unknown rule or category 'deck-note'" in out.stderr

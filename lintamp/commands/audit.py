@@ -14,7 +14,8 @@ import sys
 from pathlib import Path
 
 from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, epilog,
-                                     existing_file, load_config, load_op, report_internal_errors)
+                                     existing_file, load_config, load_op, output_target,
+                                     report_internal_errors)
 
 FORMATS = ("text", "json", "markdown", "html")
 
@@ -64,9 +65,7 @@ def write_atomically(path: Path, payload: bytes, protect=()) -> None:
 
 def run(args) -> int:
     path = existing_file(args.netlist)
-    output = Path(args.output) if args.output else None
-    if output is not None and not (output.parent if str(output.parent) else Path(".")).is_dir():
-        raise UsageError(f"-o {args.output}: no such folder")
+    output = output_target("-o", args.output) if args.output else None
     config = load_config(args, path.resolve().parent)
     table = load_op(args.op)
     want_plots = args.format in ("markdown", "html") and (args.format == "html" or output is not None)

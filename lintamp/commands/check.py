@@ -14,7 +14,7 @@ import sys
 from pathlib import Path
 
 from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, config_error,
-                                     epilog, load_config, report_internal_errors)
+                                     epilog, load_config, output_target, report_internal_errors)
 
 FORMATS = ("text", "json", "sarif", "github", "junit")
 
@@ -73,8 +73,10 @@ def register(sub) -> None:
 
 def _config(args):
     from lintamp.commands.common import known_rules
-    from lintamp.config import ConfigError, parse_fail_on, parse_rule_list
-    known = known_rules()
+    from lintamp.config import ConfigError, parse_fail_on, parse_rule_list, with_overrides
+    start = Path(args.paths[0]) if args.paths else Path.cwd()
+    config = load_config(args, start)
+    known = known_rules()  # after the config: its rule-paths may have added rules
     changes = {}
     try:
         if args.only:
@@ -87,8 +89,7 @@ def _config(args):
         raise config_error(exc) from None
     if args.bandwidth:
         changes["bandwidth"] = args.bandwidth
-    start = Path(args.paths[0]) if args.paths else Path.cwd()
-    return load_config(args, start, **changes)
+    return with_overrides(config, **changes) if changes else config
 
 
 def _baseline(args):
@@ -129,46 +130,48 @@ def run(args) -> int:
         if parse_frequency_text(args.bandwidth) is None:
             raise UsageError(f"--bandwidth {args.bandwidth}: not a frequency "
                              "(write e.g. 20meg, 1.5g or 2e7)")
+    output = output_target("-o", args.output) if args.output else None
+    baseline_out = output_target("--write-baseline", args.write_baseline) if args.write_baseline else None
     config = _config(args)
     baseline = _baseline(args)
     files = _files(args, config)
     options = {"bandwidth": args.bandwidth, "op_file": args.op}
     from lintamp.commands.progress import progress_for
-    with progress_for(files, sys.stderr, machine_stdout=args.format != "text" and not args.output) \
+    with progress_for(files, sys.stderr, machine_stdout=args.format != "text" and output is None) \
             as progress:
         report, errors = check_paths(files, config, top=args.top,
                                      include_paths=[Path(p) for p in args.include_path],
                                      baseline=baseline, options=options, jobs=args.jobs,
                                      use_cache=not args.no_cache, progress=progress)
-    if args.write_baseline:
+    if baseline_out is not None:
         from lintamp.baseline import write_baseline
         from lintamp.config import ConfigError
         try:  # never through a link, never over a netlist checked (lintamp.safe_paths)
-            write_baseline(Path(args.write_baseline), report, protect=report.files)
+            write_baseline(baseline_out, report, protect=report.files)
         except ConfigError as exc:
             raise UsageError(f"--write-baseline: {exc}") from None
-    write_report(args, report)
+    write_report(args, report, output)
     if report_internal_errors(errors, sys.stderr):
         return EXIT_TROUBLE
     return exit_code(report, config.fail_on)
 
 
-def write_report(args, report) -> None:
-    """The report in ``--format``, to ``-o FILE`` (never coloured) or to stdout."""
+def write_report(args, report, output: Path | None = None) -> None:
+    """The report in ``--format``, to ``output`` (``-o FILE``, never coloured) or to stdout."""
     from lintamp import __version__
     from lintamp.registry import all_rules
     from lintamp.report import get_reporter, want_color
     from lintamp.report.base import emit
 
     reporter_cls = get_reporter(args.format)
-    if args.output:
+    if output is not None:
         import io
         from lintamp.safe_paths import write_atomic
         stream = io.StringIO(newline="\n")
         emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
                           counts=args.counts, summary=not args.quiet), report)
         try:  # never through a link, never over a netlist checked
-            write_atomic(Path(args.output), stream.getvalue().encode("utf-8"), protect=report.files)
+            write_atomic(output, stream.getvalue().encode("utf-8"), protect=report.files)
         except OSError as exc:
             raise UsageError(f"-o {args.output}: cannot write it ({exc.strerror or exc})") from None
         return

@@ -79,6 +79,22 @@ def existing_file(path_text: str) -> Path:
     return path
 
 
+def output_target(option: str, text: str) -> Path:
+    """The file an option such as ``-o`` or ``--write-baseline`` will write, checked before
+    anything is computed: its folder must exist and it must not be a folder itself.
+
+    Every command's output paths come through here, so a rule about where lintamp may
+    write is made in one place.
+    """
+    path = Path(text)
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise UsageError(f"{option} {text}: no such folder")
+    if path.is_dir():
+        raise UsageError(f"{option} {text}: is a folder, not a file")
+    return path
+
+
 def report_internal_errors(errors, stream) -> int:
     """Print each internal error on its own line; EXIT_TROUBLE when there was one."""
     for error in errors:
