@@ -618,3 +618,25 @@ def test_a_recursive_func_is_a_finding(tmp_path, kind):
         (tmp_path / "f.sp").write_text(deck)
         ran = subprocess.run(["ngspice", "-b", "f.sp"], cwd=tmp_path, capture_output=True, timeout=30)
         assert ran.returncode != 0
+
+
+def test_audit_has_checks_element_guard_and_a_cap_on_ports(tmp_path):
+    root = project(tmp_path)
+    # 1 KB of text, 8**5 resistors after flattening: refused as check refuses it
+    lines, prev = ["* nest"], None
+    for level in range(5):
+        lines.append(f".subckt c{level} a b")
+        lines += [f"r{k} a b 1k" if prev is None else f"x{k} a b {prev}" for k in range(8)]
+        lines.append(".ends")
+        prev = f"c{level}"
+    lines += [f"x1 in 0 {prev}", "vin in 0 dc 1 ac 1", ".end"]
+    (root / "nest.sp").write_text("\n".join(lines) + "\n")
+    one_line_error(lintamp("audit", "nest.sp", "--no-config", cwd=root, timeout=30), "limit")
+    # 3,000 output pragmas: the sheet shows a block's worth of ports and says so
+    many = ["* many outputs", "vdd vdd 0 1"]
+    for k in range(3000):
+        many += [f"r{k} vdd n{k} 1k", f"c{k} n{k} 0 1p", f"* lintamp: voltage-output n{k}"]
+    (root / "many.sp").write_text("\n".join(many + [".end"]) + "\n")
+    proc = lintamp("audit", "many.sp", "--no-config", "--format", "json", cwd=root, timeout=30)
+    data = json.loads(proc.stdout)
+    assert len(data["ports"]) <= 32 and any("3000 ports found" in n for n in data["notes"])

@@ -50,6 +50,7 @@ from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
 from lintamp.engine.formulas import parallel
 
+MAX_SHEET_PORTS = 32
 GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
               ("voltage", "voltage"): ("voltage gain", "V/V"),
               ("current", "current"): ("current gain", "A/A"),
@@ -121,7 +122,11 @@ class _Audit:
 # ------------------------------------------------------------------ loading
 def _choose_block(netlist, design_full, config, top: str | None) -> _Block:
     from lintamp.api import load_design
-    from lintamp.circuit.flatten import FlattenLimit, flatten
+    from lintamp.circuit.flatten import FlattenLimit, flatten as flatten_all
+    from lintamp.rulekit.impedance_numbers import MAX_ELEMENTS
+
+    def flatten(design):  # check's element guard: a small deck of nested instances
+        return flatten_all(design, limit=MAX_ELEMENTS)  # must not run for minutes
 
     try:
         if top is None:
@@ -203,6 +208,10 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     intent = IntentAnalysis(netlist, block.circuit, config, {"bandwidth": bandwidth}).block(
         block.cell, block.prefix, block.candidates)
     ports, loads = intent.ports, intent.loads
+    if len(ports) > MAX_SHEET_PORTS:  # a sheet is for a block's few ports, not a chip's pins
+        data["notes"].append(f"{len(ports)} ports found; the sheet shows the first "
+                             f"{MAX_SHEET_PORTS} (choose a block with --top CELL)")
+        ports = ports[:MAX_SHEET_PORTS]
     data["rails"] = [{"net": n, "decided_by": why} for n, why in intent.rail_nets.items()]
     data["controls"] = [{"net": n, "decided_by": why} for n, why in intent.controls.items()]
     data["notes"] += intent.notes
