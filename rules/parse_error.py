@@ -22,12 +22,36 @@ Fix
     ``M1 d g s b nch W=1u L=0.18u``.
 """
 
+import re
+
+from lintamp.findings import Related, Severity
 from lintamp.rulekit.context import forward_diagnostics
-from lintamp.findings import Severity
 
 NAME = "parse-error"
 CATEGORY = "syntax"
 SEVERITY = Severity.ERROR
 SUMMARY = "a card lintamp cannot read (with path:line:column and what was expected)"
 
-check = forward_diagnostics
+# a line of a generator's template language ('<% ... %>', '{% ... %}', '{{ ... }}'),
+# as the reader quotes it at the start of its message
+TEMPLATE_LINE = re.compile(r"'(<%|%>|\{%|\{\{)")
+
+
+def check(ctx):
+    template_lines = []
+    for finding in forward_diagnostics(ctx):
+        if finding.rule == NAME and TEMPLATE_LINE.match(finding.message):
+            template_lines.append(finding)  # one cause: the deck is a template
+            continue
+        yield finding
+    if template_lines:
+        first = template_lines[0]
+        yield ctx.finding(
+            location=first.location, subject="template code", severity=Severity.INFO,
+            message=f"{len(template_lines)} line(s) of a generator's template code "
+                    "(<% ... %>): this deck is a template, not a netlist",
+            explanation=["a flow fills this template and writes the netlist it simulates; "
+                         "the template's own code lines are not SPICE and are not read"],
+            fix="check the netlist the flow writes from this template",
+            values={"count": len(template_lines)},
+            related=[Related(f.location, "template code") for f in template_lines[1:9]])

@@ -452,3 +452,13 @@ def test_gf180_capacitors_and_diodes_are_devices_by_their_full_names():
     assert {d.name: d.kind for d in view.devices} == {"xc1": "capacitor", "xc2": "capacitor",
                                                       "xd1": "diode"}
     assert not [f for f in check_text(text, "blk.spice").findings if f.rule == "unknown-cell"]
+
+
+def test_a_templates_code_lines_are_one_info():
+    # the shape of a characterisation flow's template (Mako-style '<% %>' code between
+    # SPICE cards; common practice in generator flows): one info for the deck, no errors
+    text = ("* load step template\n.include ${model_file}\nxldo vin vout ldoinst\n"
+            "<% for i in range(3): %>\n<% endfor %>\n.tran 1n 1u\n.end\n")
+    found = check_text(text, "ldo_template.sp").findings
+    parse = [f for f in found if f.rule == "parse-error"]
+    assert [(f.severity.label, f.values.get("count")) for f in parse] == [("info", 2)]
