@@ -12,11 +12,13 @@ What it finds
     net that ``.print``, ``.plot``, ``.save``, ``.meas`` or a ``.control`` script looks at
     (``v(out)``) is an observed output, not a forgotten one.  A net whose one terminal
     is a subcircuit port that drives it inside (an unused complementary output) is
-    reported as information only.
+    reported as information only.  A net whose one terminal is a gate or a base, a
+    capacitor or a transistor body is left to ``unbiased-gate``, ``no-dc-path`` and
+    ``body-tie``, which say what that one end leaves undetermined.
 
 Why it matters
     A net with one end is nearly always a typo or a connection that was never made:
-    ``M1 d inn 0 0`` where ``in`` was meant leaves both ``in`` and ``inn`` half
+    ``R1 vdd outt 10k`` where ``out`` was meant leaves both ``out`` and ``outt`` half
     connected.  Simulators accept it (or see a floating node) and the circuit is
     silently different from the schematic.
 
@@ -25,7 +27,7 @@ Example
 
         V2 in 0 dc 0.9
         R1 vdd out 10k
-        M1 out inp 0 0 nch      <- 'inp': the one terminal on this net
+        M1 outt in 0 0 nch      <- 'outt': the one terminal on this net
 
 Fix
     Connect the net where it was meant to go, or delete the unused element.
@@ -103,6 +105,9 @@ def check(ctx):
                 continue  # a capacitor alone on its net: no-dc-path is the finding (one cause)
             if pin == "b" and dev.kind in ("nmos", "pmos") and len(dev.nets) <= 4:
                 continue  # a body alone on its net: body-tie says it floats (one cause, one finding)
+            if (pin == "g" and dev.kind in ("nmos", "pmos", "njf", "pjf")) or \
+                    (pin == "b" and dev.kind in ("npn", "pnp")):
+                continue  # a gate or base alone on its net: unbiased-gate says nothing biases it
             if dev.kind in _parasitics.PASSIVE_KINDS and _parasitics.is_extraction_net(ctx, view, net):
                 stubs.append((net, dev, pin))  # a dead-end stub of an extracted RC network
                 continue

@@ -97,6 +97,13 @@ def check(ctx):
                 fix = (f"bias {net}: a resistor from it to a defined level (the coupling "
                        "capacitor and that resistor set the input's high-pass corner, "
                        "1/(2 pi R C))")
+            elif len(island.nets) == 1 and len(island.terminals) == 1:
+                # one terminal on the net: most often a misspelt net name (the one
+                # finding for it: dangling-net leaves lone gates to this rule)
+                steps.insert(1, f"{net} has no other terminal: most often a misspelt net "
+                                "name, or a connection never made")
+                fix = (f"connect {net} where it was meant to go (check the spelling against "
+                       "the nets nearby), or give it a DC path to a defined level")
             elif _only_controls(island) and len(island.controls) > 1:
                 fix = ("diode-connect the mirror's reference device (its gate to its own "
                        "drain, which the reference current feeds), or drive the net from a "
