@@ -119,8 +119,8 @@ def run_audit(data: bytes, sandbox: Path, config) -> None:
     except AuditError:
         return  # documented refusal: one line, exit 2
     text = "\n".join(printable(line) for line in render_text(sheet.data).split("\n"))  # as the command
-    from lintamp.commands.audit import json_safe
-    json.dumps(json_safe(sheet.data), allow_nan=False, default=str)  # as the command writes it
+    from lintamp.audit.solves import finite_for_json
+    json.dumps(finite_for_json(sheet.data), allow_nan=False, default=str)  # as the command writes it
     markdown = render_markdown(sheet.data, {})
     for name, out in (("text", text), ("markdown", markdown)):
         if _CONTROL.search(out):

@@ -126,8 +126,8 @@ def run(args) -> int:
         raise UsageError("--jobs must be at least 1")
     args.jobs = min(args.jobs, os.cpu_count() or 1)  # more processes than cores only thrash
     if args.bandwidth:  # refused here as audit refuses it, not ignored
-        from lintamp.connectivity.signal_band import parse_frequency_text
-        if parse_frequency_text(args.bandwidth) is None:
+        from lintamp.connectivity.intent import parse_frequency
+        if parse_frequency(args.bandwidth) is None:
             raise UsageError(f"--bandwidth {args.bandwidth}: not a frequency "
                              "(write e.g. 20meg, 1.5g or 2e7)")
     output = output_target("-o", args.output) if args.output else None
