@@ -232,3 +232,14 @@ def test_rail_sources():
     assert "bodies" in why["nw"]  # only a body ties to it
     assert "bidirectional" in why["well"]  # a B pin only sources and bodies touch
     assert "x" not in why and "y" not in why
+
+
+def test_xschem_pin_lines_give_pin_directions_at_the_top_level():
+    # xschem netlists a cell as a testbench with its '.subckt' line commented out and one
+    # '*.ipin NET' / '*.opin NET' / '*.iopin NET' line per pin (common practice); those are
+    # the pin directions, stronger than names: 'sense' is no name pattern of an input
+    deck = ("**.subckt amp sense vdd vss result\n*.ipin sense\n*.iopin vdd\n*.iopin vss\n"
+            "*.opin result\nm1 result sense vss vss nch\nm2 result result vdd vdd pch\n" + MODELS)
+    ports, _ = ports_of(deck)
+    assert ports["sense"] == ("voltage-input", "pin direction")
+    assert ports["result"] == ("voltage-output", "pin direction")

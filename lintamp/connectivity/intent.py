@@ -458,7 +458,7 @@ class IntentAnalysis:
                 else:
                     kind = "current-output" if matches(net, patterns(self.config, "current-output")) \
                         else "voltage-output"
-                add(net, kind, "pin direction", f"pin direction ({net}:{d.upper()} in *.PININFO)")
+                add(net, kind, "pin direction", f"pin direction ({net}:{d.upper()}, from the schematic export)")
         for net in ordered:
             idx = idx_of(net)
             if idx in self.stimuli:

@@ -1099,6 +1099,14 @@ def attach_comments(netlist: Netlist, comments: list[CommentLine],
                     if net and way.lower() in ("i", "o", "b"):
                         for bit in _bus_bits(net.lower()):
                             pins.setdefault(bit, way.lower())
+            elif word.lower() in (".ipin", ".opin", ".iopin"):
+                # xschem's own pin lines ('*.ipin vin'), one net each, also at the top
+                # level of a cell netlisted as a testbench: the same pin directions
+                way = {".ipin": "i", ".opin": "o", ".iopin": "b"}[word.lower()]
+                pins = cell_of(comment.location).pin_info
+                for net in rest.split():
+                    for bit in _bus_bits(net.lower()):
+                        pins.setdefault(bit, way)
             continue
         text, _, reason = comment.text.partition("--")
         words = text.split()
