@@ -28,8 +28,9 @@ def no_numbers_findings(ctx, numbers) -> list:
     location = top.devices[0].location if top.devices else top.cell.location
     return [ctx.finding(
         location=location, subject="(operating point)", severity=Severity.INFO,
-        message="impedance rules skipped: no trusted numbers ("
-                + (numbers.reason if len(numbers.reason) <= 100 else numbers.reason[:100] + "...") + ")",
+        message="no trusted operating point, so the bias and impedance rules did not judge "
+                "this deck (" + (numbers.reason if len(numbers.reason) <= 100
+                                 else numbers.reason[:100] + "...") + ")",
         explanation=[
             f"why: {numbers.reason if len(numbers.reason) <= 400 else numbers.reason[:400] + '...'}",
             f"{', '.join(NUMBER_RULES[:-1])} and {NUMBER_RULES[-1]} need "
