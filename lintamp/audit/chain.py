@@ -18,6 +18,7 @@ import heapq
 from dataclasses import dataclass
 
 from lintamp.circuit.flat import FlatCircuit
+from lintamp.circuit.kinds import MOS, BJT, TRANSISTORS
 
 ACTIVE_COST = 1
 PASSIVE_COST = 3
@@ -52,9 +53,9 @@ def _edges(circuit: FlatCircuit, ac_ground: set[int]):
 
     for dev in circuit.devices:
         k, n = dev.kind, dev.nodes
-        if k in ("nmos", "pmos", "npn", "pnp"):
+        if k in TRANSISTORS:
             out, ctl, com = n[0], n[1], n[2]
-            o, c, m = ("d", "g", "s") if k in ("nmos", "pmos") else ("c", "b", "e")
+            o, c, m = ("d", "g", "s") if k in MOS else ("c", "b", "e")
             add(ctl, out, ACTIVE_COST, Hop(dev.name, k, ctl, out, c, o))
             add(ctl, com, ACTIVE_COST, Hop(dev.name, k, ctl, com, c, m))
             add(com, out, ACTIVE_COST, Hop(dev.name, k, com, out, m, o))

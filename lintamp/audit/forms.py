@@ -13,6 +13,8 @@ import cmath
 import math
 
 from lintamp.engine.formulas import INF, parallel
+from lintamp.engine.engine_kinds import OPEN_OHM
+from lintamp.circuit.kinds import MOS
 
 # the engine's branch description -> the reviewer's short form (Razavi ch. 3; Sedra & Smith ch. 7)
 _PORT_SHORT = (
@@ -118,11 +120,11 @@ def port_parallel_form(circuit, branches, z_port, prefix: str = "") -> dict:
     for b in branches:
         share = b.z_mna_ohm
         try:
-            open_share = share is None or not math.isfinite(abs(share)) or abs(share) >= 1e11
+            open_share = share is None or not math.isfinite(abs(share)) or abs(share) >= OPEN_OHM
         except TypeError:
             open_share = True
         value = _branch_value(b)
-        if open_share and (value is None or value == INF or abs(value) >= 1e11):
+        if open_share and (value is None or value == INF or abs(value) >= OPEN_OHM):
             continue
         if value is None:
             return {}
@@ -191,7 +193,7 @@ def _hop_form(hop, values: dict, near: dict[str, float], first_current: bool, *,
         return None
     ro = values.get("ro_ohm", INF)
     ro = INF if ro is None or not math.isfinite(ro) else ro
-    mos = hop.kind in ("nmos", "pmos")
+    mos = hop.kind in MOS
     gmb = 0.0 if (not mos or body_at_source) else (values.get("gmb_s") or 0.0)
     if not math.isfinite(gmb):
         return None

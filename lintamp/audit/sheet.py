@@ -49,6 +49,7 @@ from lintamp.connectivity.intent import IntentAnalysis, Port, ac_sweep_hz, band_
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
 from lintamp.engine.formulas import parallel
+from lintamp.circuit.kinds import MOS, BJT, TRANSISTORS
 
 MAX_SHEET_PORTS = 32
 GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
@@ -307,7 +308,7 @@ def _stages(block: _Block, op, intent) -> list[dict]:
                 "no operating point" if op is None else "not in the operating point")
         if dop is not None:
             v = dop.values
-            if dop.kind in ("nmos", "pmos"):
+            if dop.kind in MOS:
                 row.update(gmb_s=v.get("gmb_s"), id_a=v.get("ids_a"), vgs_v=v.get("vgs_v"),
                            vds_v=v.get("vds_v"), vdsat_v=v.get("vdsat_v"))
                 if v.get("vds_v") is not None and v.get("vdsat_v") is not None:
@@ -432,7 +433,7 @@ def _z_or_open(solves, net, f, detach):
 def _main_branch(circuit, branches):
     """The transistor that sets the port (lowest exact share), else the lowest branch."""
     kinds = {d.name: d.kind for d in circuit.devices}
-    active = [b for b in branches if b.elements and kinds.get(b.elements[0]) in ("nmos", "pmos", "npn", "pnp")]
+    active = [b for b in branches if b.elements and kinds.get(b.elements[0]) in TRANSISTORS]
     pool = active or [b for b in branches if b.elements]
     return pool[0] if pool else None  # the engine sorts branches by exact share
 
@@ -648,7 +649,7 @@ def _stage_gain(run: _Audit, reading: _ChainReading, hops, k: int):
                        "sign": 1 if gain.real >= 0 else -1, "freq_hz": reading.f_hz})
     op = run.solves.op
     dop = op.devices.get(hop.device) if op is not None else None
-    active = hop.kind in ("nmos", "pmos", "npn", "pnp")
+    active = hop.kind in TRANSISTORS
     if not active:
         # a passive element on the way (source resistance, coupling capacitor, divider):
         # its share is the MNA ratio of the two nets, shown as such
@@ -657,13 +658,13 @@ def _stage_gain(run: _Audit, reading: _ChainReading, hops, k: int):
         return stage, None
     near = {"out": reading.z_near(dev.nodes[0], (hop.device,)),
             "common": reading.z_near(dev.nodes[2], (hop.device,))}
-    if dev.kind in ("npn", "pnp"):
+    if dev.kind in BJT:
         near["control"] = reading.z_near(dev.nodes[1], (hop.device,))
     if first_current:
         near["source"] = reading.z_near(hop.from_net, (hop.device,))
         if hop.entry in ("g", "b") and hop.exit in ("d", "c"):
             near.update(_feedback_resistor(circuit, run.solves, dev, circuit.nets, reading.seen, reading.f_hz))
-    body_at_source = hop.kind in ("nmos", "pmos") and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
+    body_at_source = hop.kind in MOS and len(dev.nodes) > 3 and dev.nodes[3] == dev.nodes[2]
     form = forms.hop_form(hop, dop.values, near, first_current, body_at_source=body_at_source)
     if form is None:
         return stage, None
@@ -799,7 +800,7 @@ def _mirror_loaded_pair(circuit, hops, k, op, stage_rows, z_load_of):
     devices)`` gives what else loads the output net (Z_L, an open at DC as a rule).
     """
     hop = hops[k]
-    if op is None or hop.entry != "g" or hop.kind not in ("nmos", "pmos"):
+    if op is None or hop.entry != "g" or hop.kind not in MOS:
         return None
     a = circuit.device(hop.device)
     row = stage_rows.get(hop.device) or {}
@@ -810,9 +811,9 @@ def _mirror_loaded_pair(circuit, hops, k, op, stage_rows, z_load_of):
         return None
     for out_dev, diode_side in ((b, a), (a, b)):
         node_out, node_diode = out_dev.nodes[0], diode_side.nodes[0]
-        diode = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_diode
+        diode = [d for d in circuit.devices if d.kind in MOS and d.nodes[0] == node_diode
                  and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
-        mirror = [d for d in circuit.devices if d.kind in ("nmos", "pmos") and d.nodes[0] == node_out
+        mirror = [d for d in circuit.devices if d.kind in MOS and d.nodes[0] == node_out
                   and d.nodes[1] == node_diode and d.name not in (a.name, b.name)]
         if not diode or not mirror:
             continue

@@ -6,7 +6,7 @@ import math
 
 from lintamp.engine.small_signal import ImpedanceSolver
 
-OPEN_OHM = 1e11  # at or above: open (the engine's 1e-12 S shunt reads as 1e12 ohm)
+from lintamp.engine.engine_kinds import OPEN_OHM  # at or above: open
 MAX_CACHED = 256
 
 

@@ -32,9 +32,9 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 
 from lintamp.circuit.flat import FlatCircuit
+from lintamp.circuit.kinds import MOS, TRANSISTORS
 
 PORT_VERBS = ("current-input", "voltage-input", "voltage-output", "current-output")
-TRANSISTORS = ("nmos", "pmos", "npn", "pnp")
 DEFAULT_PATTERNS: dict[str, tuple[str, ...]] = {
     "current-input": ("iin", "iin?", "iin_*", "*_iin"),
     "current-output": ("iout", "iout?", "iout_*", "*_iout"),
@@ -260,7 +260,7 @@ def _touches(circuit: FlatCircuit) -> tuple[set[int], set[int], set[int]]:
     for dev in circuit.devices:
         if dev.kind in TRANSISTORS:
             active.update(dev.nodes[:2])
-            if dev.kind in ("nmos", "pmos") and len(dev.nodes) > 3:
+            if dev.kind in MOS and len(dev.nodes) > 3:
                 body.add(dev.nodes[3])
         elif dev.kind not in ("capacitor", "vsource"):
             other.update(dev.nodes[:2])
@@ -335,7 +335,7 @@ def stimuli(circuit: FlatCircuit, acg: set[int]) -> dict[int, tuple[str, str, st
     caps: set[int] = set()
     driven: set[int] = set()
     for dev in circuit.devices:
-        if dev.kind in ("nmos", "pmos", "npn", "pnp") and dev.nodes:
+        if dev.kind in TRANSISTORS and dev.nodes:
             driven.add(dev.nodes[0])
         elif dev.kind in ("vccs", "vcvs", "cccs", "ccvs") and len(dev.nodes) >= 2:
             driven.update(dev.nodes[:2])
@@ -532,7 +532,7 @@ def _shared_gate_lines(circuit: FlatCircuit, rails) -> set[int]:
     sources: dict[int, set[int]] = {}
     drains: dict[int, set[int]] = {}
     for dev in circuit.devices:
-        if dev.kind in ("nmos", "pmos"):
+        if dev.kind in MOS:
             other.update((dev.nodes[0], dev.nodes[2]))
             sources.setdefault(dev.nodes[1], set()).add(dev.nodes[2])
             drains.setdefault(dev.nodes[1], set()).add(dev.nodes[0])

@@ -16,8 +16,8 @@ import re
 
 from lintamp.circuit.flat import FlatCircuit
 from lintamp.engine.stages import Role, Stage
+from lintamp.circuit.kinds import MOS, BJT, TRANSISTORS
 
-TRANSISTORS = ("nmos", "pmos", "npn", "pnp")
 PASSIVE_COST = 3
 GATE_TO_DRAIN = (Role.COMMON_SOURCE, Role.COMMON_SOURCE_DEGENERATED, Role.COMMON_EMITTER,
                  Role.COMMON_EMITTER_DEGENERATED, Role.DIFFERENTIAL_PAIR, Role.INVERTER,
@@ -254,7 +254,7 @@ def _forms(circuit, roles, z: _Impedances, hops) -> list[dict]:
         else:
             form = ""  # a passive element: part of the next stage's load
         entry = ENTRY_WORDS.get(how, "")
-        if dev is not None and dev.kind in ("npn", "pnp"):
+        if dev is not None and dev.kind in BJT:
             entry = {"gate": "base", "source": "emitter"}.get(entry, entry)
         out.append({"device": label, "role": role, "from": names[a], "to": names[b], "form": form,
                     "form_value": value, "enters_at": entry})

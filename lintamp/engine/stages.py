@@ -34,9 +34,8 @@ from lintamp.engine.looking_into import ac_ground_nets
 if TYPE_CHECKING:
     from lintamp.engine.operating_point import OperatingPoint
 from lintamp.circuit.flat import FlatCircuit, FlatDevice
+from lintamp.circuit.kinds import MOS, BJT
 
-MOS = ("nmos", "pmos")
-BJT = ("npn", "pnp")
 MAX_RELATED = 64  # related devices listed per stage (a shared line may reach thousands)
 
 

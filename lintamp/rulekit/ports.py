@@ -293,7 +293,7 @@ class PortFinder:
             for near in dev.nodes[:2]:
                 if near in self.ac_ground:
                     continue
-                if not any(d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[0] == near
+                if not any(d.kind in TRANSISTORS and d.nodes[0] == near
                            for d in self.on_net.get(near, ())):
                     continue
                 chain = self.passive_chain(near, dev)
