@@ -49,7 +49,7 @@ from lintamp.connectivity.intent import IntentAnalysis, Port, ac_sweep_hz, band_
 from lintamp.audit.response import find_corners, log_grid, poles_hz, sweep
 from lintamp.audit.solves import Solves, mag_or_none, z_json
 from lintamp.engine.formulas import parallel
-from lintamp.circuit.kinds import MOS, BJT, TRANSISTORS
+from lintamp.circuit.kinds import MOS, BJT, NONLINEAR, TRANSISTORS
 
 MAX_SHEET_PORTS = 32
 GAIN_UNITS = {("current", "voltage"): ("transimpedance", "ohm"),
@@ -223,14 +223,14 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
                              "the testbench an AC source")
 
     op, source, op_notes = _operating_point(block.circuit, table)
-    if op is None and not any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
+    if op is None and not any(d.kind in NONLINEAR for d in block.circuit.devices):
         source, op_notes = "linear", []  # nothing to linearise: the small-signal solve needs no bias
     data["operating_point"] = source
     data["notes"] += op_notes
     curves: list[Curve] = []
     stages = _stages(block, op, intent)
     data["stages"] = stages
-    if op is None and any(d.kind in ("nmos", "pmos", "npn", "pnp", "diode") for d in block.circuit.devices):
+    if op is None and any(d.kind in NONLINEAR for d in block.circuit.devices):
         data["notes"].append("no numbers: the operating point could not be had, so impedances and gains "
                              "are not computed (roles are from the topology)")
         data["ports"] = [_port_stub(p) for p in ports]

@@ -246,7 +246,7 @@ def _drives_a_control(circuit: FlatCircuit, net: int, acg: set[int]) -> str | No
         for d in circuit.devices:
             if n not in d.nodes:
                 continue
-            if d.kind in ("nmos", "pmos", "npn", "pnp") and d.nodes[1] == n and d.nodes[0] != n:
+            if d.kind in TRANSISTORS and d.nodes[1] == n and d.nodes[0] != n:
                 return f"{'gate' if d.kind in ('nmos', 'pmos') else 'base'} of {d.name}"
             if d.kind in ("resistor", "capacitor", "inductor"):
                 for m in d.nodes[:2]:
