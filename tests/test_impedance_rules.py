@@ -354,3 +354,29 @@ R2 op cmv {rout}
 def test_a_miller_capacitor_is_no_coupling_capacitor_and_a_stages_own_resistor_no_load():
     findings = check_deck(BEHAVIOURAL_MILLER)
     assert [f for f in findings if f.rule == "unbuffered-output"] == []
+
+
+# An LC oscillator of our own (a Colpitts-type tank on the collector side, taken out
+# through a capacitor and plotted): the tank's L and C return the node to the supply and
+# ground, but they are the oscillator, not a load that takes signal power (common
+# practice: a load behind a coupling capacitor has a resistance, a line or an earpiece)
+LC_TANK = """lc oscillator
+.model qx npn(bf=100 va=60)
+vcc vcc 0 6
+lchoke vcc b 47u
+cb b 0 4.7n
+q1 c b 0 qx
+re c 0 3.3k
+cfb c tank 150p
+csplit c 0 470p
+ct tank 0 1.5n
+lt tank vcc 5.6u
+.tran 10n 30u
+.plot tran v(tank)
+.end
+"""
+
+
+def test_an_oscillator_tank_behind_a_capacitor_is_no_load():
+    findings = check_deck(LC_TANK)
+    assert [f for f in findings if f.rule == "unbuffered-output"] == []

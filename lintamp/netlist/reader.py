@@ -358,7 +358,8 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
     and not when a brace follows it (``${dir}``, a generator's placeholder) or a name
     on an include card (``.include $PDK_ROOT/...``, shown as a placeholder);
     ``M$1`` is a name; ``$1.68`` and `` $d g s b`` are comments, as ngspice-39 reads
-    them; ``//`` after a blank when enabled.
+    them, but PSpice's net names (``$N_0001``, ``$G_DPWR``, ``$D_HI``) are names, as
+    PSpice and Xyce read them; ``//`` after a blank when enabled.
     """
     if ";" not in line and "$" not in line and "/" not in line:
         return line, ""
@@ -382,13 +383,20 @@ def _strip_inline_comment(line: str, opts: ReadOptions) -> tuple[str, str]:
                 return line[:i], line[i + 1:]
             if ch == "$" and opts.dollar_comments and (i == 0 or line[i - 1] in " \t") and (
                     i + 1 == n or line[i + 1] != "{" and not (
-                        (line[i + 1].isalpha() or line[i + 1] == "_") and _names_a_path(line))):
+                        (line[i + 1].isalpha() or line[i + 1] == "_") and _names_a_path(line))
+                    and not _PSPICE_NET.match(line, i)):
                 return line[:i], line[i + 1:]
             if ch == "/" and opts.slash_comments and i + 1 < n and line[i + 1] == "/" and (
                     i == 0 or line[i - 1] in " \t"):
                 return line[:i], line[i + 2:]
         i += 1
     return line, ""
+
+
+# PSpice's own net names ($N_0001 for unnamed nets, $G_DPWR for globals, $D_HI for digital
+# levels), which its schematics write into every netlist and which Xyce reads as nets:
+# a comment does not start that way
+_PSPICE_NET = re.compile(r"\$(?:N_\d+|G_\w+|D_\w+)(?=[\s,()=]|$)")
 
 
 def _names_a_path(line: str) -> bool:

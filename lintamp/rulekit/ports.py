@@ -310,13 +310,18 @@ class PortFinder:
             # a stage that drives the net itself (a Miller capacitor on an amplifier's
             # output is no coupling capacitor): its own resistors are no load
             return set(), []
-        loads, why = set(), []
+        loads, why, kinds = set(), [], set()
         for dev in self.on_net.get(net, ()):
             if dev in caps or dev.kind not in PASSIVE:
                 continue
             if self.passive_chain(net, dev) is not None:
                 loads.add(dev.name)
+                kinds.add(dev.kind)
                 why.append(f"{dev.name}: to AC ground behind coupling capacitor {caps[0].name}")
+        if "resistor" not in kinds:
+            # only L and C behind the capacitor: a tank or a filter of the circuit itself
+            # (an oscillator's LC tank), not a load that takes signal power
+            return set(), []
         return loads, why
 
     def _driven_here(self, net: int) -> bool:
