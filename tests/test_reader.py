@@ -239,3 +239,14 @@ def test_reader_never_mutates_the_file(tmp_path):
     parse_file(f, ReadOptions(root=tmp_path))
     assert f.read_bytes() == data and os.stat(f).st_mtime_ns == before
     assert sorted(p.name for p in tmp_path.iterdir()) == ["deck.sp"]
+
+
+def test_pspice_net_names_after_a_blank_are_names_not_comments():
+    # PSpice schematics name unnamed nets $N_0001 and globals $G_DPWR (PSpice reference
+    # manual, from memory); Xyce reads them as nets.  A ' $' before anything else still
+    # starts a comment, as ngspice-39 reads ' $ a comment' and ' $1.68'
+    from lintamp.api import check_text
+    text = ("pspice nets\nV1 $N_0002 0 DC 1\nR1 $N_0002 $N_0001 1k\nR2 $N_0001 0 1k $1.68\n"
+            "R3 $N_0001 0 2k $ a comment\n.end\n")
+    findings = check_text(text, "ps.cir").findings
+    assert not [f for f in findings if f.rule in ("parse-error", "dangling-net", "no-dc-path")]
