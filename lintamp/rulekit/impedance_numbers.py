@@ -50,6 +50,8 @@ class Numbers:
 
     @property
     def source_words(self) -> str:
+        if self.source == "ngspice":
+            return "ngspice's operating point (--op-from ngspice)"
         return "the --op table" if self.source == "table" else "lintamp's level-1 operating point"
 
     def solver(self, freq_hz: float, detach=()) -> ImpedanceSolver:
@@ -91,8 +93,34 @@ def _untrusted_devices(ctx, circuit: FlatCircuit) -> list[str]:
     return out
 
 
+def _table_from_simulator(ctx):
+    """``--op-from ngspice`` in check: ngspice's table, or None (the one note is printed on
+    stderr and the rules reason as they do without numbers: findings and exit code unchanged)."""
+    import sys
+    from lintamp.engine.ngspice_op import SimulatorFailed, SimulatorSettings, operating_point_table
+    options = ctx.options
+    path = options.get("netlist_path")
+    if not path:
+        return None
+    settings = options.get("simulator") or SimulatorSettings()
+    from lintamp.circuit.flatten import flatten
+    try:
+        circuit = flatten(ctx.design, limit=MAX_ELEMENTS)
+        return operating_point_table(Path(path), ctx.design, ctx.netlist, circuit,
+                                     options.get("read_options"), settings)
+    except SimulatorFailed as exc:
+        print(f"lintamp: note: {path}: --op-from ngspice: {exc}; reasoning by inspection instead",
+              file=sys.stderr)
+    except ENGINE_ERRORS as exc:
+        print(f"lintamp: note: {path}: --op-from ngspice: no deck for ngspice ({exc}); "
+              "reasoning by inspection instead", file=sys.stderr)
+    return None
+
+
 def _load_table(ctx):
     op_file = (ctx.options or {}).get("op_file")
+    if not op_file and (ctx.options or {}).get("op_from"):
+        return _table_from_simulator(ctx), ""
     if not op_file:
         return None, ""
     from lintamp import safe_paths
