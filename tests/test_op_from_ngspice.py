@@ -271,3 +271,23 @@ def test_raw_reader_reads_ascii_and_binary_alike(tmp_path):
     # ngspice-39 operating point, printed
     ref = ng.operating_point(path.read_text(), nodes=["out"])
     assert got[0]["v(out)"][0] == pytest.approx(ref["out"], rel=1e-9)
+
+
+def test_check_and_audit_reason_at_ngspice_operating_point(tmp_path):
+    ng.require_ngspice()
+    path = _write(tmp_path, DECKS["diff_pair"][0])
+    plain = _run_cli(tmp_path, "check", str(path), "--no-cache")
+    assert "no trusted numbers" in plain.stdout  # BSIM4 inside wrappers: lintamp alone has none
+    asked = _run_cli(tmp_path, "check", str(path), "--op-from", "ngspice")
+    assert asked.returncode == 0 and "no trusted numbers" not in asked.stdout, asked.stdout
+    sheet = _run_cli(tmp_path, "audit", str(path), "--op-from", "ngspice", "--format", "json")
+    import json
+    data = json.loads(sheet.stdout)
+    assert data["operating_point"] == "ngspice"
+    assert not any("no trusted numbers" in f.get("message", "") for f in data.get("findings", []))
+    # the sheet's gain is the one ngspice-39's AC analysis gives (V(out)/V(inp), within 1 %)
+    netlist = path.read_text()
+    a_ngspice = (ng.transfer(netlist, "inp", "out") / ng.impedance(netlist, "inp")[0]).real
+    values = [p["gain"]["mag"] * p["gain"].get("sign", 1) for p in data["paths"]
+              if p["from"] == "inp" and p["to"] == "out"]
+    assert values and abs(values[0] - a_ngspice) <= 0.01 * abs(a_ngspice), (values, a_ngspice)

@@ -118,6 +118,8 @@ def _table_from_simulator(ctx):
 
 
 def _load_table(ctx):
+    if (ctx.options or {}).get("op_table") is not None:  # a table already read (audit)
+        return ctx.options["op_table"], ""
     op_file = (ctx.options or {}).get("op_file")
     if not op_file and (ctx.options or {}).get("op_from"):
         return _table_from_simulator(ctx), ""
