@@ -35,6 +35,13 @@ Example::
     current-input = ["iin*"]
     load = ["rload*", "cload*"]
 
+    [simulator]                  # --op-from ngspice (see SimulatorConfig)
+    op-from = "ngspice"          # ask for it on every run
+    command = "ngspice"          # a program name on PATH, never a path
+    timeout = 60                 # seconds
+    memory = "2G"                # address-space limit of the ngspice process
+    include-paths = ["pdk"]      # folders inside the repository for the deck's includes
+
 Globs
 -----
 ``netlists`` and ``exclude`` and the ``[paths]`` keys are matched against
