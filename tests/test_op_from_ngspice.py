@@ -291,3 +291,26 @@ def test_check_and_audit_reason_at_ngspice_operating_point(tmp_path):
     values = [p["gain"]["mag"] * p["gain"].get("sign", 1) for p in data["paths"]
               if p["from"] == "inp" and p["to"] == "out"]
     assert values and abs(values[0] - a_ngspice) <= 0.01 * abs(a_ngspice), (values, a_ngspice)
+
+
+def test_op_file_may_be_the_raw_file_of_the_designers_own_run(tmp_path):
+    exe = ng.require_ngspice()
+    body = DECKS["cs_resistor"][0]
+    path = _write(tmp_path, body)
+    run = _write(tmp_path, body + ".save @m.x1.m1[gm] @m.x1.m1[gds] @m.x1.m1[gmbs] @m.x1.m1[id]\n.op\n",
+                 "run.sp")
+    subprocess.run([exe, "-b", "-r", str(tmp_path / "own.raw"), str(run)], cwd=tmp_path,
+                   capture_output=True, stdin=subprocess.DEVNULL, timeout=60)
+    done = _run_cli(tmp_path, "impedance", str(path), "out", "--op", str(tmp_path / "own.raw"),
+                    "--format", "json")
+    assert done.returncode == 0, done.stderr
+    import json
+    z_lintamp = json.loads(done.stdout)["z_ohm"]["mag"]
+    z_ngspice = abs(ng.impedance(path.read_text(), "out")[0])  # ngspice-39 AC analysis
+    assert abs(z_lintamp - z_ngspice) <= 0.01 * z_ngspice
+    # a raw file without any device quantity is refused with what to save (exit 2)
+    bare = _write(tmp_path, body + ".save v(out)\n.op\n", "bare.sp")
+    subprocess.run([exe, "-b", "-r", str(tmp_path / "bare.raw"), str(bare)], cwd=tmp_path,
+                   capture_output=True, stdin=subprocess.DEVNULL, timeout=60)
+    lacking = _run_cli(tmp_path, "impedance", str(path), "out", "--op", str(tmp_path / "bare.raw"))
+    assert lacking.returncode == 2 and "no device quantities" in lacking.stderr

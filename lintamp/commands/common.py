@@ -66,7 +66,12 @@ def load_op(path_text: str | None):
     from lintamp.engine.op_table import load_op_table
     from lintamp.safe_paths import read_text
     try:
-        return load_op_table(read_text(path_text))  # a regular file: no pipe, no device
+        from lintamp.safe_paths import MAX_TABLE_BYTES, read_regular
+        from lintamp.engine.ngspice_op import looks_like_raw, table_from_designer_raw
+        data = read_regular(path_text, limit=MAX_TABLE_BYTES)  # a regular file: no pipe, no device
+        if looks_like_raw(data):  # a raw file of the designer's own ngspice run
+            return table_from_designer_raw(data, path_text)
+        return load_op_table(read_text(path_text))
     except (OSError, UnicodeDecodeError, ValueError) as exc:
         raise UsageError(f"--op {path_text}: {getattr(exc, 'strerror', None) or exc}") from None
 

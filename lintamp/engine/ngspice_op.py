@@ -295,3 +295,54 @@ def operating_point_table(path: Path, design, netlist, circuit, read_options,
         raise SimulatorFailed("ngspice gave no device quantities")
     table.elapsed_s = time.monotonic() - started
     return table
+
+
+def looks_like_raw(data: bytes) -> bool:
+    """Whether an ``--op`` file is an ngspice raw file rather than a CSV/JSON table."""
+    head = data[:4096].lstrip().lower()
+    return head.startswith(b"title:") and b"plotname:" in head
+
+
+_KIND_OF_LETTER = {"m": "mos", "q": "bjt", "d": "diode"}
+
+
+def table_from_designer_raw(data: bytes, path: str = "<raw file>") -> OpTable:
+    """The op table in a raw file of the designer's own ngspice run (device quantities saved
+    with ``.save @m1[gm] ...``): keyed by lintamp's names, ``@m.x1.m3[gm]`` -> ``x1/m3``, and
+    also by the wrapper ``x1`` when ``m3`` is the only device saved inside it."""
+    import re
+    from lintamp.engine.raw_file import read_raw, scalar_name
+    plots = read_raw(data, path)
+    plot = next((p for p in plots if "operating" in p.plotname.lower()), plots[0])
+    devices: dict[str, tuple[str, str]] = {}
+    for name in plot.vectors:
+        m = re.fullmatch(r"@([^\[\]]+)\[(\w+)\]", scalar_name(name))
+        if m is None:
+            continue
+        ng_name = m.group(1)
+        parts = ng_name.split(".")
+        if len(parts) > 1 and len(parts[0]) == 1:  # m.x1.m3: letter, then the path
+            letter, path_parts = parts[0], parts[1:]
+        else:
+            letter, path_parts = ng_name[:1], parts
+        kind = _KIND_OF_LETTER.get(letter)
+        if kind is None:
+            continue
+        devices["/".join(path_parts)] = (ng_name, kind)
+    # a wrapper instance gets the values of the one device saved inside it
+    by_prefix: dict[str, list[str]] = {}
+    for full in devices:
+        parts = full.split("/")
+        for k in range(1, len(parts)):
+            by_prefix.setdefault("/".join(parts[:k]), []).append(full)
+    names = dict(devices)
+    for prefix, inside in by_prefix.items():
+        if len(inside) == 1 and prefix not in names:
+            names[prefix] = devices[inside[0]]
+    table = table_from_raw(data, names, path)
+    table.origin = "table"
+    if not table:
+        from lintamp.engine.raw_file import RawFileError
+        raise RawFileError(f"{path}: no device quantities in the raw file (save them in the run, "
+                           "e.g. .save @m1[gm] @m1[gds] @m1[gmbs] @m1[id])")
+    return table

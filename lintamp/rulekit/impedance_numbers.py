@@ -128,6 +128,10 @@ def _load_table(ctx):
     from lintamp import safe_paths
     from lintamp.engine.op_table import load_op_table
     try:  # a regular file only: a pipe or /dev/zero is refused without blocking
+        from lintamp.engine.ngspice_op import looks_like_raw, table_from_designer_raw
+        data = safe_paths.read_regular(op_file, limit=safe_paths.MAX_TABLE_BYTES)
+        if looks_like_raw(data):  # a raw file of the designer's own ngspice run
+            return table_from_designer_raw(data, str(op_file)), ""
         return load_op_table(safe_paths.read_text(op_file), str(op_file)), ""
     except (OSError, ValueError) as exc:
         return None, f"--op {op_file}: {exc}"
