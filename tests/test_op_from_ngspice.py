@@ -88,6 +88,11 @@ DECKS = {
     # the same common source one level down the hierarchy: names map x1/x1 -> m.x1.x1.m1
     "nested_cs": (".subckt amp a y vdd\nrd vdd y 10k\nx1 y a 0 0 acme_nfet w=2u l=0.18u\n.ends\n"
                   + BIASED_IN.format(vb=0.65) + "vdd vdd 0 1.2\nxamp in out vdd amp\n", "out", ("in", "out")),
+    # common emitter with emitter degeneration, Gummel-Poon with Early effect (Gray, Hurst,
+    # Lewis, Meyer, Analysis and Design of Analog ICs, 5th ed., sec. 3.3.4); a diode load
+    "bjt_ce_diode": ("vdd vdd 0 5\nvb bias 0 0.75\nrb bias in 100k\nrc vdd out 10k\nre e 0 100\n"
+                     ".model qn npn is=1e-16 bf=150 vaf=60 br=2\n.model dd d is=1e-15 n=1.1\n"
+                     "q1 out in e qn\nd1 out dn dd\nidn dn 0 5u\nrdn dn 0 1meg\n", "out", ("in", "out")),
 }
 
 

@@ -42,7 +42,7 @@ CIRCUIT_CARDS = {".model", ".subckt", ".ends", ".param", ".global", ".func", ".t
                  ".option", ".options", ".opt", ".if", ".elseif", ".else", ".endif",
                  ".nodeset", ".ic", ".csparam"}
 MOS_QUANTITIES = ("id", "vgs", "vds", "vbs", "vth", "vdsat", "gm", "gds", "gmbs", "gmb")
-BJT_QUANTITIES = ("ic", "vbe", "vce", "gm", "gpi", "go", "gmu")
+BJT_QUANTITIES = ("ic", "vbe", "vbc", "gm", "gpi", "go", "gmu")
 DIODE_QUANTITIES = ("id", "gd")
 MAX_OUTPUT_CHARS = 2000
 
@@ -183,6 +183,21 @@ def _limits(memory_bytes):
 
 def run_ngspice(deck_text: str, settings: SimulatorSettings) -> bytes:
     """Run the deck; the raw file's bytes.  Raises :class:`SimulatorFailed`."""
+    return run_ngspice_with_output(deck_text, settings)[0]
+
+
+def unrecognized(output: str) -> set[str]:
+    """The saved quantities ngspice did not know (it writes a column of zeros for each):
+    ``Warning: unrecognized variable - @m.x1.m1[gmb]``."""
+    out = set()
+    for line in output.splitlines():
+        if "unrecognized variable" in line.lower():
+            out.add(line.rsplit("-", 1)[-1].strip().lower())
+    return out
+
+
+def run_ngspice_with_output(deck_text: str, settings: SimulatorSettings) -> tuple[bytes, str]:
+    """Run the deck; the raw file's bytes and what ngspice printed."""
     import shutil
     exe = shutil.which(settings.command) if os.sep not in settings.command else settings.command
     if not exe or not os.access(exe, os.X_OK):
@@ -212,7 +227,7 @@ def run_ngspice(deck_text: str, settings: SimulatorSettings) -> bytes:
         if not raw.is_file() or raw.stat().st_size == 0:
             raise SimulatorFailed(f"{settings.command} wrote no operating point (exit {proc.returncode}): "
                                   + _first_error(text))
-        return raw.read_bytes()
+        return raw.read_bytes(), text
 
 
 def _first_error(text: str) -> str:
@@ -234,8 +249,10 @@ def _region_mos(v: dict[str, float]) -> str:
     return "from ngspice"
 
 
-def table_from_raw(data: bytes, names: dict[str, tuple[str, str]], path: str = "out.raw") -> OpTable:
-    """The op table of the devices in ``names`` from an operating-point raw file."""
+def table_from_raw(data: bytes, names: dict[str, tuple[str, str]], path: str = "out.raw",
+                   unknown: set[str] = frozenset()) -> OpTable:
+    """The op table of the devices in ``names`` from an operating-point raw file
+    (``unknown``: quantities ngspice said it does not have; their zeros are not values)."""
     from lintamp.engine.raw_file import read_raw, scalar_name
     plots = read_raw(data, path)
     plot = next((p for p in plots if "operating" in p.plotname.lower()), plots[0])
@@ -244,7 +261,7 @@ def table_from_raw(data: bytes, names: dict[str, tuple[str, str]], path: str = "
         if column:
             x = column[0]
             x = x.real if isinstance(x, complex) else x
-            if math.isfinite(x):
+            if math.isfinite(x) and scalar_name(name) not in unknown:
                 values[scalar_name(name)] = x
     table = OpTable()
     lacked = []
@@ -266,7 +283,9 @@ def table_from_raw(data: bytes, names: dict[str, tuple[str, str]], path: str = "
         elif kind == "bjt":
             entry.values = {k: abs(got.get(k, 0.0)) for k in ("gm", "gpi", "go", "gmu")}
             entry.values["ic"] = abs(got.get("ic", 0.0))
-            entry.values.update({k: abs(got[k]) for k in ("vbe", "vce") if k in got})
+            if "vbe" in got and "vbc" in got:  # ngspice has V_BE and V_BC; V_CE = V_BE - V_BC
+                entry.values["vbe"] = abs(got["vbe"])
+                entry.values["vce"] = abs(got["vbe"] - got["vbc"])
             entry.region = "from ngspice"
         else:
             entry.values = {"gd": abs(got.get("gd", 0.0)), "id": got.get("id", 0.0)}
@@ -286,9 +305,9 @@ def operating_point_table(path: Path, design, netlist, circuit, read_options,
     if not names:
         raise SimulatorFailed("no device for ngspice to evaluate")
     deck = write_deck(path, read_options, names)
-    raw = run_ngspice(deck.text, settings)
+    raw, output = run_ngspice_with_output(deck.text, settings)
     try:
-        table = table_from_raw(raw, names)
+        table = table_from_raw(raw, names, unknown=unrecognized(output))
     except RawFileError as exc:
         raise SimulatorFailed(f"the raw file ngspice wrote cannot be read: {exc}") from None
     if not table:
