@@ -160,7 +160,7 @@ def write_deck(path: Path, read_options, names: dict[str, tuple[str, str]]) -> D
         elif word[0] == "a":  # XSPICE code models read and write files
             dropped.append(f"{card.location}: {word}")
             continue
-        lines.append(text.replace("\r", " "))
+        lines.append(" ".join(text.split()))  # one physical line per card, whatever it held
     saves = []
     for lintamp_name, (ng_name, kind) in names.items():
         wanted = MOS_QUANTITIES if kind == "mos" else BJT_QUANTITIES if kind == "bjt" else DIODE_QUANTITIES
