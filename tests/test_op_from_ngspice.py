@@ -319,3 +319,27 @@ def test_op_file_may_be_the_raw_file_of_the_designers_own_run(tmp_path):
                    capture_output=True, stdin=subprocess.DEVNULL, timeout=60)
     lacking = _run_cli(tmp_path, "impedance", str(path), "out", "--op", str(tmp_path / "bare.raw"))
     assert lacking.returncode == 2 and "no device quantities" in lacking.stderr
+
+
+def test_pdk_models_come_through_include_and_lib_sections(tmp_path):
+    ng.require_ngspice()
+    pdk = tmp_path / "pdk"
+    pdk.mkdir()
+    # a PDK-style library file: corners as .lib sections, the wrapper in the section
+    (pdk / "models.lib").write_text(".lib tt\n" + MODELS + ".endl tt\n.lib ff\n"
+                                    + MODELS.replace("vth0=0.4", "vth0=0.3") + ".endl ff\n")
+    body = DECKS["cs_resistor"][0]
+    proj = tmp_path / "proj"
+    proj.mkdir()
+    deck = proj / "cs.sp"
+    deck.write_text(f"* cs\n.lib '{pdk / 'models.lib'}' tt\n" + body + ".end\n")
+    config = parse_config(CONFIG, source=proj / "lintamp.toml")
+    from lintamp.commands.common import table_from_simulator
+    # outside the project root and not given as an include path: not read, so no models
+    table, note = table_from_simulator(deck, config, top=None)
+    assert table is None and "by inspection" in note
+    table, note = table_from_simulator(deck, config, top=None, include_paths=[pdk])
+    assert table is not None, note
+    # ngspice-39 operating point of the same deck, the tt section read by ngspice itself
+    ref = ng.operating_point(deck.read_text(), device_params=[("m.x1.m1", "gm")])
+    assert table["x1"].values["gm"] == pytest.approx(ref["@m.x1.m1[gm]"], rel=1e-6)
