@@ -343,3 +343,25 @@ def test_pdk_models_come_through_include_and_lib_sections(tmp_path):
     # ngspice-39 operating point of the same deck, the tt section read by ngspice itself
     ref = ng.operating_point(deck.read_text(), device_params=[("m.x1.m1", "gm")])
     assert table["x1"].values["gm"] == pytest.approx(ref["@m.x1.m1[gm]"], rel=1e-6)
+
+
+def test_raw_reader_refuses_malformed_files_with_a_message():
+    import random
+    from lintamp.engine.raw_file import RawFileError, read_raw
+    good = (b"Title: t\nDate: x\nPlotname: Operating Point\nFlags: real\nNo. Variables: 2\n"
+            b"No. Points: 1\nVariables:\n\t0\tv(a)\tvoltage\n\t1\t@m1[gm]\tadmittance\nBinary:\n"
+            + __import__("struct").pack("<2d", 1.5, 2e-4))
+    assert read_raw(good)[0].vectors == {"v(a)": [1.5], "@m1[gm]": [2e-4]}  # the layout the manual gives
+    bad = [b"", b"Title: t\n", good[:-3], good.replace(b"No. Points: 1", b"No. Points: 99999999"),
+           good.replace(b"No. Variables: 2", b"No. Variables: x"), b"\x00" * 100]
+    rng = random.Random(22)
+    for _ in range(200):  # random damage: a message or a result, never another exception
+        data = bytearray(good)
+        for _k in range(rng.randint(1, 8)):
+            data[rng.randrange(len(data))] = rng.randrange(256)
+        bad.append(bytes(data))
+    for data in bad:
+        try:
+            read_raw(data)
+        except RawFileError:
+            pass
