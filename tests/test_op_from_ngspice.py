@@ -11,7 +11,6 @@ capacitances do not matter there): impedances and gains agree within 1 %.
 from __future__ import annotations
 
 import os
-import shutil
 import subprocess
 import sys
 import time

@@ -44,7 +44,6 @@ CIRCUIT_CARDS = {".model", ".subckt", ".ends", ".param", ".global", ".func", ".t
 MOS_QUANTITIES = ("id", "vgs", "vds", "vbs", "vth", "vdsat", "gm", "gds", "gmbs", "gmb")
 BJT_QUANTITIES = ("ic", "vbe", "vbc", "gm", "gpi", "go", "gmu")
 DIODE_QUANTITIES = ("id", "gd")
-MAX_OUTPUT_CHARS = 2000
 
 
 class SimulatorFailed(RuntimeError):
@@ -72,8 +71,7 @@ class OpTable(dict):
 @dataclass
 class Deck:
     text: str
-    dropped: list[str] = field(default_factory=list)  # "path:line: .tran ..." of each card left out
-    wanted: dict[str, tuple[str, str, str]] = field(default_factory=dict)  # lintamp name -> (ngspice name, kind, letter)
+    dropped: list[str] = field(default_factory=list)  # "path:line:col: .tran" of each card left out
 
 
 # -- names ------------------------------------------------------------------------
