@@ -42,7 +42,7 @@ CIRCUIT_CARDS = {".model", ".subckt", ".ends", ".param", ".global", ".func", ".t
                  ".option", ".options", ".opt", ".if", ".elseif", ".else", ".endif",
                  ".nodeset", ".ic", ".csparam"}
 MOS_QUANTITIES = ("id", "vgs", "vds", "vbs", "vth", "vdsat", "gm", "gds", "gmbs", "gmb")
-BJT_QUANTITIES = ("ic", "vbe", "vbc", "gm", "gpi", "go", "gmu")
+BJT_QUANTITIES = ("ic", "vbe", "vbc", "gm", "gpi", "go", "gmu", "cpi", "cmu")
 DIODE_QUANTITIES = ("id", "gd")
 
 
@@ -281,6 +281,9 @@ def table_from_raw(data: bytes, names: dict[str, tuple[str, str]], path: str = "
         elif kind == "bjt":
             entry.values = {k: abs(got.get(k, 0.0)) for k in ("gm", "gpi", "go", "gmu")}
             entry.values["ic"] = abs(got.get("ic", 0.0))
+            # C_pi and C_mu (junction + diffusion) as ngspice's model gives them at this bias
+            entry.values.update({t: got[k] for k, t in (("cpi", "cbe"), ("cmu", "cbc"))
+                                 if got.get(k, 0.0) > 0})
             if "vbe" in got and "vbc" in got:  # ngspice has V_BE and V_BC; V_CE = V_BE - V_BC
                 entry.values["vbe"] = abs(got["vbe"])
                 entry.values["vce"] = abs(got["vbe"] - got["vbc"])
