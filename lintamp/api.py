@@ -133,6 +133,8 @@ def check_file(path: Path, config=None, *, top: str | None = None,
     release()  # the previous file's objects, if the command line kept them
     with paused_gc():  # see lintamp.gcpause: millions of live objects, almost no cycles
         netlist = parse_file(path, read_options(path, config, include_paths))
+        if options and options.get("op_from"):  # --op-from: the deck is written from this file
+            options = dict(options, netlist_path=str(path), read_options=read_options(path, config, include_paths))
         return analyse(netlist, config, top=top, options=options)
 
 

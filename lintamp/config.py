@@ -35,6 +35,13 @@ Example::
     current-input = ["iin*"]
     load = ["rload*", "cload*"]
 
+    [simulator]                  # --op-from ngspice (see SimulatorConfig)
+    op-from = "ngspice"          # ask for it on every run
+    command = "ngspice"          # a program name on PATH, never a path
+    timeout = 60                 # seconds
+    memory = "2G"                # address-space limit of the ngspice process
+    include-paths = ["pdk"]      # folders inside the repository for the deck's includes
+
 Globs
 -----
 ``netlists`` and ``exclude`` and the ``[paths]`` keys are matched against
@@ -211,6 +218,7 @@ class Config:
     thresholds: dict[str, float] = field(default_factory=dict)
     ports: dict[str, tuple[str, ...]] = field(default_factory=dict)  # kind -> name globs
     rule_paths: tuple[Path, ...] = ()  # folders of the repository's own rule modules
+    simulator: "SimulatorConfig | None" = None  # [simulator]: for --op-from
 
     # ---- rules
 
@@ -290,6 +298,7 @@ class Config:
             "thresholds": dict(sorted(self.thresholds.items())),
             "ports": {k: list(v) for k, v in sorted(self.ports.items())},
             "rule_paths": [str(p) for p in self.rule_paths],
+            "simulator": None if self.simulator is None else self.simulator.to_json(),
             "root": str(self.root),
         }
         text = json.dumps(data, sort_keys=True, separators=(",", ":"))
@@ -547,7 +556,7 @@ def load_config(path: Path | None, *, no_config: bool = False, start: Path,
 
 
 _TOP_KEYS = ("netlists", "exclude", "only", "skip", "fail-on", "bandwidth", "include-paths",
-             "severity", "paths", "devices", "thresholds", "ports", "rule-paths")
+             "severity", "paths", "devices", "thresholds", "ports", "rule-paths", "simulator")
 # Keys of lintamp 0.1.0 and what they are called now: reading one is an error that says so.
 RENAMED_KEYS = {"include": "netlists", "select": "only", "ignore": "skip",
                 "per-file-ignores": "paths"}
@@ -608,7 +617,36 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
         config.thresholds = check.thresholds(data["thresholds"], "thresholds")
     if "ports" in data:
         config.ports = check.ports(data["ports"], "ports")
+    if "simulator" in data:
+        config.simulator = check.simulator(data["simulator"], "simulator", root)
     return config
+
+
+SIMULATOR_KEYS = ("op-from", "command", "timeout", "memory", "include-paths")
+_MEMORY = re.compile(r"(\d+(?:\.\d+)?)\s*([kmg]?)i?b?", re.IGNORECASE)
+_COMMAND = re.compile(r"[A-Za-z0-9_.+-]+")
+
+
+@dataclass(frozen=True)
+class SimulatorConfig:
+    """``[simulator]``: how ``--op-from ngspice`` runs ngspice.
+
+    ``op-from = "ngspice"`` asks for it on every run (as the flag does); ``command`` is a
+    program name looked up on PATH (never a path: a committed config cannot point lintamp
+    at a script of the repository); ``timeout`` in seconds (default 60); ``memory`` the
+    address-space limit, e.g. "2G"; ``include-paths`` folders inside the repository the
+    deck's includes may also read (the PDK root outside it is given with --include-path).
+    """
+
+    op_from: str | None = None
+    command: str = "ngspice"
+    timeout_s: float = 60.0
+    memory_bytes: int | None = None
+    include_paths: tuple[Path, ...] = ()
+
+    def to_json(self) -> dict:
+        return {"op_from": self.op_from, "command": self.command, "timeout_s": self.timeout_s,
+                "memory_bytes": self.memory_bytes, "include_paths": [str(p) for p in self.include_paths]}
 
 
 def _load_rule_folders(folders: tuple[Path, ...], where: str, prefix: str) -> dict[str, str]:
@@ -699,6 +737,41 @@ class _Checker:
         if not re.fullmatch(r"[0-9.]+(?:e[-+]?\d+)?[a-z]*", text, re.IGNORECASE):
             raise self.fail(key, f"is {value!r}", 'a frequency such as "20meg", "1.5g" or 2e7')
         return text
+
+    def simulator(self, value, key: str, root: Path) -> SimulatorConfig:
+        table = self.table(value, key)
+        for name in table:
+            if name not in SIMULATOR_KEYS:
+                raise self.fail(f"{key}.{name}", "unknown key", "one of " + ", ".join(SIMULATOR_KEYS))
+        op_from = table.get("op-from")
+        if op_from is not None and op_from != "ngspice":
+            raise self.fail(f"{key}.op-from", f"is {op_from!r}", '"ngspice"')
+        command = table.get("command", "ngspice")
+        if not isinstance(command, str) or not _COMMAND.fullmatch(command):
+            raise self.fail(f"{key}.command", f"is {command!r}",
+                            'a program name found on PATH, such as "ngspice" (no path, no arguments)')
+        timeout = table.get("timeout", 60)
+        if isinstance(timeout, bool) or not isinstance(timeout, (int, float)) or not 0 < timeout <= 3600:
+            raise self.fail(f"{key}.timeout", f"is {timeout!r}", "seconds, more than 0 and at most 3600")
+        memory = table.get("memory")
+        memory_bytes = None
+        if memory is not None:
+            m = _MEMORY.fullmatch(str(memory).strip()) if not isinstance(memory, bool) else None
+            if m is None:
+                raise self.fail(f"{key}.memory", f"is {memory!r}", 'a size such as "2G" or "512M"')
+            memory_bytes = int(float(m.group(1)) * {"": 1, "k": 1 << 10, "m": 1 << 20, "g": 1 << 30}[m.group(2).lower()])
+            if memory_bytes < 64 << 20:
+                raise self.fail(f"{key}.memory", f"is {memory!r}", "at least 64M (ngspice needs it to start)")
+        paths: tuple[Path, ...] = ()
+        if "include-paths" in table:
+            from lintamp.safe_paths import include_root_inside, repository_of
+            try:
+                paths = tuple(include_root_inside(root, p, repository_of(root))
+                              for p in self.strings(table["include-paths"], f"{key}.include-paths"))
+            except ValueError as exc:
+                raise self.fail(f"{key}.include-paths", str(exc),
+                                "folders inside the repository (give others with --include-path)") from None
+        return SimulatorConfig(op_from, command, float(timeout), memory_bytes, paths)
 
     def table(self, value, key: str) -> dict:
         if not isinstance(value, dict):

@@ -184,7 +184,9 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
     except ValueError as exc:  # a --bandwidth that is no frequency: the user's to fix
         raise AuditError(str(exc)) from None
 
-    result = analyse(netlist, config, top=top, options={"bandwidth": bandwidth})
+    # the findings reason at the sheet's operating point (--op FILE, --op-from ngspice)
+    result = analyse(netlist, config, top=top,
+                     options={"bandwidth": bandwidth, **({"op_table": table} if table else {})})
     report = decide(result.findings, result.pragmas, config)
     findings = [f.to_json() for f in report.findings]
     data = {

@@ -6,6 +6,7 @@ from lintamp.report.si import si
 
 UNIT_SYMBOL = {"ohm": "Ω", "S": "S", "V/V": "V/V", "A/A": "A/A"}
 OP_SOURCE = {"level1": "lintamp's level-1 / Gummel-Poon models", "table": "the operating-point table",
+             "ngspice": "ngspice (--op-from ngspice)",
              "assumed": "none (roles by inspection only)",
              "linear": "not needed (no nonlinear devices)"}
 

@@ -15,7 +15,8 @@ from pathlib import Path
 
 from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, epilog,
                                      existing_file, load_config, load_op, output_target,
-                                     report_internal_errors)
+                                     report_internal_errors, add_op_from_option, op_from,
+                                     table_from_simulator)
 
 FORMATS = ("text", "json", "markdown", "html")
 
@@ -44,6 +45,7 @@ def register(sub) -> None:
                    help="write the sheet to FILE (replaced whole, never half-written)")
     p.add_argument("--op", metavar="FILE",
                    help="operating-point table from your simulator (CSV or JSON)")
+    add_op_from_option(p)
     p.add_argument("--bandwidth", metavar="FREQ", help="the signal band, e.g. 20meg")
     p.add_argument("--include-path", action="append", default=[], metavar="DIR",
                    help="another folder .include/.lib may read from (repeatable)")
@@ -68,6 +70,11 @@ def run(args) -> int:
     output = output_target("-o", args.output) if args.output else None
     config = load_config(args, path.resolve().parent)
     table = load_op(args.op)
+    simulator_note = None
+    if table is None and op_from(args, config):
+        table, simulator_note = table_from_simulator(path, config, top=args.top,
+                                                     include_paths=[Path(p) for p in args.include_path])
+    args.simulator_note = simulator_note
     want_plots = args.format in ("markdown", "html") and (args.format == "html" or output is not None)
     try:
         return _audit(args, path, output, config, table, want_plots)
@@ -94,6 +101,8 @@ def _audit(args, path, output, config, table, want_plots) -> int:
                             plots=want_plots)
     except AuditError as exc:
         raise UsageError(str(exc)) from None
+    if getattr(args, "simulator_note", None):
+        sheet.data["notes"] = [args.simulator_note, *(sheet.data.get("notes") or [])]
     non_finite: list = []
     sheet.data = finite_for_json(sheet.data, notes=non_finite)
     if non_finite:

@@ -13,8 +13,9 @@ import os
 import sys
 from pathlib import Path
 
-from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, config_error,
-                                     epilog, load_config, output_target, report_internal_errors)
+from lintamp.commands.common import (EXIT_TROUBLE, UsageError, add_config_options, add_op_from_option,
+                                     config_error, epilog, load_config, op_from, output_target,
+                                     report_internal_errors, simulator_settings)
 
 FORMATS = ("text", "json", "sarif", "github", "junit")
 
@@ -56,6 +57,7 @@ def register(sub) -> None:
     p.add_argument("--top", metavar="CELL", help="the cell to elaborate as the top level")
     p.add_argument("--op", metavar="FILE",
                    help="operating-point table from your simulator (CSV or JSON)")
+    add_op_from_option(p)
     p.add_argument("--bandwidth", metavar="FREQ", help="the signal band, e.g. 20meg")
     p.add_argument("--include-path", action="append", default=[], metavar="DIR",
                    help="another folder .include/.lib may read from (repeatable)")
@@ -136,13 +138,21 @@ def run(args) -> int:
     baseline = _baseline(args)
     files = _files(args, config)
     options = {"bandwidth": args.bandwidth, "op_file": args.op}
+    include_paths = [Path(p) for p in args.include_path]
+    use_cache = not args.no_cache
+    simulator = op_from(args, config)
+    if simulator and not args.op:
+        settings = simulator_settings(config)
+        options.update(op_from=simulator, simulator=settings)
+        include_paths += list(settings.include_paths)
+        use_cache = False  # ngspice's answer depends on files and a program the cache cannot see
     from lintamp.commands.progress import progress_for
     with progress_for(files, sys.stderr, machine_stdout=args.format != "text" and output is None) \
             as progress:
         report, errors = check_paths(files, config, top=args.top,
-                                     include_paths=[Path(p) for p in args.include_path],
+                                     include_paths=include_paths,
                                      baseline=baseline, options=options, jobs=args.jobs,
-                                     use_cache=not args.no_cache, progress=progress)
+                                     use_cache=use_cache, progress=progress)
     if baseline_out is not None:
         from lintamp.baseline import write_baseline
         from lintamp.config import ConfigError

@@ -66,7 +66,12 @@ def load_op(path_text: str | None):
     from lintamp.engine.op_table import load_op_table
     from lintamp.safe_paths import read_text
     try:
-        return load_op_table(read_text(path_text))  # a regular file: no pipe, no device
+        from lintamp.safe_paths import MAX_TABLE_BYTES, read_regular
+        from lintamp.engine.ngspice_op import looks_like_raw, table_from_designer_raw
+        data = read_regular(path_text, limit=MAX_TABLE_BYTES)  # a regular file: no pipe, no device
+        if looks_like_raw(data):  # a raw file of the designer's own ngspice run
+            return table_from_designer_raw(data, path_text)
+        return load_op_table(read_text(path_text))
     except (OSError, UnicodeDecodeError, ValueError) as exc:
         raise UsageError(f"--op {path_text}: {getattr(exc, 'strerror', None) or exc}") from None
 
@@ -109,3 +114,56 @@ def epilog(*examples: tuple[str, str]) -> str:
         lines.append(f"  {command}")
         lines.append(f"      {what}")
     return "\n".join(lines)
+
+
+OP_FROM_CHOICES = ("ngspice",)
+
+
+def add_op_from_option(parser) -> None:
+    """``--op-from ngspice``: the operating point from the designer's own ngspice."""
+    parser.add_argument("--op-from", choices=OP_FROM_CHOICES, metavar="SIMULATOR",
+                        help="run ngspice on a sanitised .op deck of the circuit and reason with its "
+                             "operating point (BSIM and other PDK models); see [simulator] in the config")
+
+
+def op_from(args, config) -> str | None:
+    """The simulator asked for by ``--op-from`` or ``[simulator] op-from``, else None."""
+    chosen = getattr(args, "op_from", None)
+    if chosen:
+        return chosen
+    simulator = getattr(config, "simulator", None)
+    return simulator.op_from if simulator is not None else None
+
+
+def simulator_settings(config):
+    """The :class:`~lintamp.engine.ngspice_op.SimulatorSettings` of ``[simulator]``."""
+    from lintamp.engine.ngspice_op import SimulatorSettings
+    sim = getattr(config, "simulator", None)
+    if sim is None:
+        return SimulatorSettings()
+    return SimulatorSettings(sim.command, sim.timeout_s, sim.memory_bytes, sim.include_paths)
+
+
+def table_from_simulator(path: Path, config, *, top: str | None, include_paths=()):
+    """``(table, note)``: the op table ngspice gives for ``path``, or None and the one note
+    that says why not (the commands then reason by inspection, exit code unchanged)."""
+    from lintamp.api import load_design, read_options
+    from lintamp.engine.ngspice_op import SimulatorFailed, operating_point_table
+    from lintamp.netlist.parser import parse_file
+    from lintamp.circuit.flatten import flatten
+    settings = simulator_settings(config)
+    include_paths = [*include_paths, *settings.include_paths]
+    opts = read_options(path, config, include_paths)
+    try:
+        netlist = parse_file(path, opts)
+        design = load_design(netlist, config, top=top)
+        circuit = flatten(design)
+        table = operating_point_table(path, design, netlist, circuit, opts, settings)
+    except SimulatorFailed as exc:
+        return None, f"--op-from ngspice: {exc}; reasoning by inspection instead"
+    except (ValueError, RuntimeError, ArithmeticError, OSError) as exc:
+        return None, f"--op-from ngspice: no deck for ngspice ({type(exc).__name__}: {exc}); reasoning by inspection instead"
+    note = f"operating point from ngspice ({len(table)} devices, {table.elapsed_s:.2f} s)"
+    if table.lacked:
+        note += "; ngspice gave nothing for " + ", ".join(table.lacked[:6])
+    return table, note

@@ -9,7 +9,7 @@ import sys
 from pathlib import Path
 
 from lintamp.commands.common import (EXIT_OK, EXIT_TROUBLE, UsageError, add_config_options, epilog, existing_file,
-                                     load_config, load_op)
+                                     add_op_from_option, load_config, load_op, op_from, table_from_simulator)
 from lintamp.report.si import si, si_for_key
 
 EXAMPLES = epilog(
@@ -38,6 +38,7 @@ def register(sub) -> None:
     p.add_argument("--top", metavar="CELL", help="the cell to elaborate as the top level")
     p.add_argument("--op", metavar="FILE",
                    help="operating-point table from your simulator (CSV or JSON)")
+    add_op_from_option(p)
     p.add_argument("--format", default="text", choices=["text", "json"],
                    help="text for people, json for scripts (default: text)")
     p.add_argument("--include-path", action="append", default=[], metavar="DIR",
@@ -121,8 +122,14 @@ def _impedance(args) -> int:
         if missing:
             raise UsageError(f"--detach: no element {', '.join(missing)} in {args.netlist}")
         table = load_op(args.op)
+        simulator_note = None
+        if table is None and op_from(args, config):
+            table, simulator_note = table_from_simulator(path, config, top=args.top,
+                                                         include_paths=[Path(p) for p in args.include_path])
         report = impedance_report(circuit, node, freq_hz, detach=[d.lower() for d in args.detach],
                                   table=table)
+        if simulator_note:
+            report["notes"] = [simulator_note, *(report.get("notes") or [])]
         ports = block_ports(netlist, circuit, config, args.top)
         report["ports"] = [p.as_json() for p in ports]
         report["port"] = next((p.as_json() for p in ports if p.circuit_net == node), None)
@@ -141,6 +148,7 @@ def _impedance(args) -> int:
 
 
 _SOURCES = {"level1": "lintamp's level-1 models", "table": "the operating-point table",
+            "ngspice": "ngspice (--op-from ngspice)",
             "assumed": "no numbers (by inspection)"}
 
 

@@ -39,7 +39,8 @@ from lintamp.circuit.flat import FlatCircuit
 from lintamp.engine.engine_kinds import EngineError, UnknownNet
 
 NUMERIC = ("gm", "gds", "gmb", "ids", "gpi", "go", "gmu", "ic", "gd", "id",
-           "cgs", "cgd", "cgb", "cbd", "cbs", "cbe", "cbc")
+           "cgs", "cgd", "cgb", "cbd", "cbs", "cbe", "cbc",
+           "vgs", "vds", "vth", "vdsat", "vbe", "vce")  # bias voltages: device-region's margins
 
 
 class OpTableError(EngineError, ValueError):
@@ -110,6 +111,7 @@ def _mos_entry(e: TableEntry, dev) -> DeviceOperatingPoint:
     values = {"gm_s": gm, "gds_s": gds, "gmb_s": gmb, "ids_a": v.get("ids", 0.0),
               "ro_ohm": 1 / gds if gds else float("inf"),
               "cgs_f": caps[0][2], "cgd_f": caps[1][2], "cgb_f": caps[2][2]}
+    values.update({f"{k}_v": v[k] for k in ("vgs", "vds", "vth", "vdsat") if k in v})
     return DeviceOperatingPoint(dev.name, dev.kind, e.region or "from table", values, tuple(dev.nodes[:4]),
                                 jac, [c for c in caps if c[2] > 0])
 
@@ -123,6 +125,7 @@ def _bjt_entry(e: TableEntry, dev) -> DeviceOperatingPoint:
     jac[2] = -(jac[0] + jac[1])
     values = {"gm_s": gm, "gpi_s": gpi, "go_s": go, "gmu_s": gmu, "ic_a": v.get("ic", 0.0),
               "rpi_ohm": 1 / gpi if gpi else float("inf"), "ro_ohm": 1 / go if go else float("inf")}
+    values.update({f"{k}_v": v[k] for k in ("vbe", "vce") if k in v})
     caps = [(1, 2, v.get("cbe", 0.0)), (1, 0, v.get("cbc", 0.0))]
     return DeviceOperatingPoint(dev.name, dev.kind, e.region or "from table", values, tuple(dev.nodes[:3]),
                                 jac, [c for c in caps if c[2] > 0])

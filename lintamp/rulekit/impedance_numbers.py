@@ -50,6 +50,8 @@ class Numbers:
 
     @property
     def source_words(self) -> str:
+        if self.source == "ngspice":
+            return "ngspice's operating point (--op-from ngspice)"
         return "the --op table" if self.source == "table" else "lintamp's level-1 operating point"
 
     def solver(self, freq_hz: float, detach=()) -> ImpedanceSolver:
@@ -91,13 +93,45 @@ def _untrusted_devices(ctx, circuit: FlatCircuit) -> list[str]:
     return out
 
 
+def _table_from_simulator(ctx):
+    """``--op-from ngspice`` in check: ngspice's table, or None (the one note is printed on
+    stderr and the rules reason as they do without numbers: findings and exit code unchanged)."""
+    import sys
+    from lintamp.engine.ngspice_op import SimulatorFailed, SimulatorSettings, operating_point_table
+    options = ctx.options
+    path = options.get("netlist_path")
+    if not path:
+        return None
+    settings = options.get("simulator") or SimulatorSettings()
+    from lintamp.circuit.flatten import flatten
+    try:
+        circuit = flatten(ctx.design, limit=MAX_ELEMENTS)
+        return operating_point_table(Path(path), ctx.design, ctx.netlist, circuit,
+                                     options.get("read_options"), settings)
+    except SimulatorFailed as exc:
+        print(f"lintamp: note: {path}: --op-from ngspice: {exc}; reasoning by inspection instead",
+              file=sys.stderr)
+    except ENGINE_ERRORS as exc:
+        print(f"lintamp: note: {path}: --op-from ngspice: no deck for ngspice ({exc}); "
+              "reasoning by inspection instead", file=sys.stderr)
+    return None
+
+
 def _load_table(ctx):
+    if (ctx.options or {}).get("op_table") is not None:  # a table already read (audit)
+        return ctx.options["op_table"], ""
     op_file = (ctx.options or {}).get("op_file")
+    if not op_file and (ctx.options or {}).get("op_from"):
+        return _table_from_simulator(ctx), ""
     if not op_file:
         return None, ""
     from lintamp import safe_paths
     from lintamp.engine.op_table import load_op_table
     try:  # a regular file only: a pipe or /dev/zero is refused without blocking
+        from lintamp.engine.ngspice_op import looks_like_raw, table_from_designer_raw
+        data = safe_paths.read_regular(op_file, limit=safe_paths.MAX_TABLE_BYTES)
+        if looks_like_raw(data):  # a raw file of the designer's own ngspice run
+            return table_from_designer_raw(data, str(op_file)), ""
         return load_op_table(safe_paths.read_text(op_file), str(op_file)), ""
     except (OSError, ValueError) as exc:
         return None, f"--op {op_file}: {exc}"

@@ -58,7 +58,8 @@ def resolve_operating_point(
         notes.append(str(exc))
     if table:
         try:
-            return operating_point_from_table(circuit, table, base), "table", notes
+            # a table ngspice wrote says so: every rule and the sheet name where the numbers came from
+            return operating_point_from_table(circuit, table, base), getattr(table, "origin", "table"), notes
         except EngineError as exc:
             notes.append(str(exc))
     if base is not None:
