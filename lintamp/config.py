@@ -624,7 +624,10 @@ def parse_config(data: dict, *, source: Path, prefix: str = "",
 
 SIMULATOR_KEYS = ("op-from", "command", "timeout", "memory", "include-paths")
 _MEMORY = re.compile(r"(\d+(?:\.\d+)?)\s*([kmg]?)i?b?", re.IGNORECASE)
-_COMMAND = re.compile(r"[A-Za-z0-9_.+-]+")
+# the simulator's program name on PATH: an ngspice build ("ngspice", "ngspice-39"), never a
+# path, an argument or another program (a committed config must not be able to make
+# lintamp run, say, a shell on the checked deck)
+_COMMAND = re.compile(r"ngspice[A-Za-z0-9_.+-]*")
 
 
 @dataclass(frozen=True)
@@ -749,7 +752,7 @@ class _Checker:
         command = table.get("command", "ngspice")
         if not isinstance(command, str) or not _COMMAND.fullmatch(command):
             raise self.fail(f"{key}.command", f"is {command!r}",
-                            'a program name found on PATH, such as "ngspice" (no path, no arguments)')
+                            'the name of an ngspice build on PATH, such as "ngspice" or "ngspice-39" (no path, no arguments)')
         timeout = table.get("timeout", 60)
         if isinstance(timeout, bool) or not isinstance(timeout, (int, float)) or not 0 < timeout <= 3600:
             raise self.fail(f"{key}.timeout", f"is {timeout!r}", "seconds, more than 0 and at most 3600")

@@ -240,7 +240,7 @@ def test_a_deck_that_keeps_ngspice_busy_is_cut_at_the_timeout(tmp_path):
 def test_without_ngspice_one_note_and_the_same_exit_code(tmp_path):
     path = _write(tmp_path, DECKS["cs_resistor"][0])
     cfg = ('[devices]\n"acme_nfet" = {kind = "nmos", pins = ["d", "g", "s", "b"]}\n'
-           '[simulator]\ncommand = "no-such-simulator-here"\n')
+           '[simulator]\ncommand = "ngspice-not-installed-here"\n')
     plain = _run_cli(tmp_path, "check", str(path), "--no-cache", config_text=cfg)
     asked = _run_cli(tmp_path, "check", str(path), "--op-from", "ngspice", config_text=cfg)
     assert asked.returncode == plain.returncode
@@ -305,14 +305,14 @@ def test_check_and_audit_reason_at_ngspice_operating_point(tmp_path):
     ng.require_ngspice()
     path = _write(tmp_path, DECKS["diff_pair"][0])
     plain = _run_cli(tmp_path, "check", str(path), "--no-cache")
-    assert "no trusted numbers" in plain.stdout  # BSIM4 inside wrappers: lintamp alone has none
+    assert "no trusted operating point" in plain.stdout  # BSIM4 inside wrappers: lintamp alone has none
     asked = _run_cli(tmp_path, "check", str(path), "--op-from", "ngspice")
-    assert asked.returncode == 0 and "no trusted numbers" not in asked.stdout, asked.stdout
+    assert asked.returncode == 0 and "no trusted operating point" not in asked.stdout, asked.stdout
     sheet = _run_cli(tmp_path, "audit", str(path), "--op-from", "ngspice", "--format", "json")
     import json
     data = json.loads(sheet.stdout)
     assert data["operating_point"] == "ngspice"
-    assert not any("no trusted numbers" in f.get("message", "") for f in data.get("findings", []))
+    assert not any("no trusted operating point" in f.get("message", "") for f in data.get("findings", []))
     # the sheet's gain is the one ngspice-39's AC analysis gives (V(out)/V(inp), within 1 %)
     netlist = path.read_text()
     a_ngspice = (ng.transfer(netlist, "inp", "out") / ng.impedance(netlist, "inp")[0]).real
@@ -388,3 +388,28 @@ def test_raw_reader_refuses_malformed_files_with_a_message():
             read_raw(data)
         except RawFileError:
             pass
+
+
+def test_a_committed_config_cannot_name_another_program_as_the_simulator(tmp_path):
+    # a pull request's lintamp.toml must not make lintamp run a shell on the checked deck
+    # (common practice for tools run on untrusted pull requests)
+    from lintamp.config import ConfigError, load_config
+    for command in ("sh", "bash", "python3", "/usr/bin/ngspice", "ngspice -x"):
+        (tmp_path / "lintamp.toml").write_text(f'[simulator]\ncommand = "{command}"\n')
+        with pytest.raises(ConfigError, match="simulator.command"):
+            load_config(tmp_path / "lintamp.toml", no_config=False, start=tmp_path, known_rules={})
+    (tmp_path / "lintamp.toml").write_text('[simulator]\ncommand = "ngspice-39"\n')
+    assert load_config(tmp_path / "lintamp.toml", no_config=False, start=tmp_path,
+                       known_rules={}).simulator.command == "ngspice-39"
+
+
+def test_without_the_flag_a_wrapper_around_bsim4_gets_no_made_up_numbers(tmp_path):
+    # lintamp evaluates level-1 only: a [devices]-mapped wrapper whose transistor is a
+    # BSIM4 card has no operating point of lintamp's own, so the impedance is by
+    # inspection ("—" in numbers' place), never a level-1 solve with default parameters
+    # (ngspice-39 gives this device g_m in the hundreds of µS; defaults gave a number that
+    # was no one's)
+    path = _write(tmp_path, DECKS["cs_resistor"][0])
+    imp = _run_cli(tmp_path, "impedance", str(path), "out")
+    assert imp.returncode == 0, imp.stderr
+    assert "level-1" not in imp.stdout and "by inspection" in imp.stdout, imp.stdout

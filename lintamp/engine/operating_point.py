@@ -121,6 +121,13 @@ class _DeviceSet:
         unsupported = list(cc.unsupported)
         fam: dict[str, list] = {"mos": [], "bjt": [], "diode": []}
         for dev, keys in cc.nonlinear:
+            if dev.model is None:
+                # no model card at all (a PDK wrapper whose library is not read, or a
+                # model name no .model defines): nothing to evaluate, never defaults
+                detail = dev.kind_detail or ""
+                unsupported.append((dev.name, detail if "model not evaluated" in detail
+                                    else "its model card is not in the files read"))
+                continue
             try:
                 if dev.kind in MOS:
                     fam["mos"].append((mos_params(dev, temp_c), dev, keys))
@@ -130,8 +137,6 @@ class _DeviceSet:
                     fam["diode"].append((diode_params(dev, temp_c), dev, keys))
             except UnsupportedModel as exc:
                 unsupported.append((dev.name, str(exc)))
-            if dev.model is None and dev.kind in NONLINEAR:
-                pass  # SPICE defaults apply, as in ngspice
         if unsupported:
             raise CannotEvaluateError(unsupported)
         cls = {"mos": MosGroup, "bjt": BjtGroup, "diode": DiodeGroup}
