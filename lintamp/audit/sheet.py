@@ -156,6 +156,23 @@ def _choose_block(netlist, design_full, config, top: str | None) -> _Block:
         raise AuditError(str(exc)) from None
 
 
+def _untrusted_corners(data: dict, op, source: str) -> None:
+    """An operating point that carries no MOS capacitances (an --op table or ngspice's,
+    read without them) says nothing about the -3 dB points: each is "—" with the reason,
+    never "no capacitance limits this path"."""
+    mos = [d for d in op.devices.values() if d.kind in MOS]
+    caps = ("cgs_f", "cgd_f", "cgb_f", "cbd_f", "cbs_f")
+    if source == "level1" or not mos or any(d.values.get(k) for d in mos for k in caps):
+        return
+    why = (f"the operating point from {source} carries no MOS capacitances, so the -3 dB "
+           "points and poles are not known")
+    for row in data.get("paths", []):
+        row["f3db_hz"] = None
+        row["f3db_why"] = why
+        row["poles_hz"] = None
+        row["notes"] = [n for n in row.get("notes", []) if "no -3 dB point" not in n] + [why]
+
+
 # ------------------------------------------------------------------ building
 def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | None = None,
                 table=None, include_paths=(), config=None, plots: bool = True) -> Sheet:
@@ -247,6 +264,7 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
             _numbers(data, run, ports)
             from lintamp.engine.stage_paths import attach_inspection
             attach_inspection(data["paths"], block.circuit, intent, op)
+            _untrusted_corners(data, op, source)
         except Exception as exc:  # engine trouble on odd input must not lose the rest of the sheet
             from lintamp.engine.small_signal import SmallSignalError
             if not isinstance(exc, (SmallSignalError, ArithmeticError, ValueError, RuntimeError,
