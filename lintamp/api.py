@@ -303,9 +303,42 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
                 pragmas.append(pragma)
         errors.extend(result.internal_errors)
     report = decide(findings, pragmas, config, baseline)
-    report.findings = cap_findings(report.findings)
+    report.findings = cap_findings(fold_shared_libraries(report.findings))
     report.files = [_display(f) for f in files]
     return report, errors
+
+
+def fold_shared_libraries(findings: list[Finding]) -> list[Finding]:
+    """One finding per include library that several checked decks cannot read (a PDK
+    absent on this machine is one cause, not one warning per testbench): the first
+    deck's finding stays and names the others; the others go.  The findings are in
+    report order, so the one kept is the same from run to run."""
+    from dataclasses import replace
+    from lintamp.findings import Related
+
+    by_root: dict[tuple[str, str], list[int]] = {}
+    for k, f in enumerate(findings):
+        root = f.values.get("library_root") if f.values else None
+        if root:
+            by_root.setdefault((f.rule, root), []).append(k)
+    drop: set[int] = set()
+    folded: dict[int, Finding] = {}
+    for (_, root), places in by_root.items():
+        if len(places) < 2:
+            continue
+        first, others = findings[places[0]], [findings[k] for k in places[1:]]
+        decks = sorted({f.location.path for f in others} - {first.location.path})
+        folded[places[0]] = replace(
+            first, explanation=(*first.explanation,
+                                f"the same holds for {len(decks)} other checked deck(s); "
+                                "they are not listed one by one"),
+            values={**first.values, "decks": len(decks) + 1},
+            related=(*first.related, *(Related(f.location, "same library, another deck")
+                                       for f in others[:8])))
+        drop.update(places[1:])
+    if not folded:
+        return findings
+    return [folded.get(k, f) for k, f in enumerate(findings) if k not in drop]
 
 
 MAX_FINDINGS_PER_RULE = 1000  # per file: past this a report is a flood, not a review

@@ -174,6 +174,7 @@ def group_findings(ctx, rule: str):
                 values=values, fix="check the deck the flow writes from this template",
                 related=[Related(d.location, excerpt(d.subject)) for d in group.diagnostics[1:]])
             continue
+        values["library_root"] = group.root  # the same library for other decks: one finding
         if n > 1:
             message = (f"{n} include files under {excerpt(group.root)} are {what} "
                        f"(first: {excerpt(first.subject)})")

@@ -462,3 +462,19 @@ def test_a_templates_code_lines_are_one_info():
     found = check_text(text, "ldo_template.sp").findings
     parse = [f for f in found if f.rule == "parse-error"]
     assert [(f.severity.label, f.values.get("count")) for f in parse] == [("info", 2)]
+
+
+def test_a_pdk_library_absent_for_many_testbenches_is_one_finding(tmp_path):
+    # xschem testbenches each include the PDK's model library by its install path
+    # (common practice); on a machine without the PDK that is one cause for the run
+    from lintamp.api import check_paths
+    from lintamp.config import Config
+    (tmp_path / ".git").mkdir()
+    for k in range(3):
+        (tmp_path / f"tb{k}.spice").write_text(
+            f"** tb{k}\n.lib /opt/no-such-pdk/libs.tech/ngspice/models.lib.spice tt\n"
+            "v1 a 0 1\nr1 a 0 1k\n.end\n")
+    report, _ = check_paths(sorted(tmp_path.glob("*.spice")), Config(root=tmp_path))
+    found = [f for f in report.findings if f.rule == "bad-include"]
+    assert len(found) == 1 and found[0].values["decks"] == 3
+    assert len(found[0].related) >= 2
