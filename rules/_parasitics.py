@@ -79,3 +79,40 @@ def reaches_into_instance(ctx, view, net: str) -> bool:
     names = ctx.memo(("parasitics", "instances", id(view)), lambda: {
         d.name.lower() for d in view.devices_of(kinds=("instance",))})
     return net.split(".", 1)[0].lower() in names
+
+
+
+def passive_inside(ctx, dev, pin: str, depth: int = 0) -> bool:
+    """Whether an instance pin leads, inside the instance, only to parasitic elements:
+    the port's net, and every net a resistor joins to it, carry only R and C pins (or
+    pins of deeper instances that lead only to R and C).  magic writes one wrapper
+    cell per device geometry with the substrate node as a port whose only terminals
+    are the cell's capacitors to substrate (a PMOS wrapper's ``VSUBS``)."""
+    sub = dev.subcell
+    if sub is None or pin not in dev.pins or depth > 8:
+        return False
+    pos = dev.pins.index(pin)
+    if pos >= len(sub.ports):
+        return False
+    port = sub.ports[pos]
+    return ctx.memo(("parasitics", "passive-port", id(sub), port),
+                    lambda: _only_passive(ctx, sub, port, depth))
+
+
+def _only_passive(ctx, view, port: str, depth: int) -> bool:
+    seen, todo = {port}, [port]
+    while todo:
+        net = todo.pop()
+        for dev, pin in view.net_terminals.get(net, ()):
+            if dev.kind == "capacitor":
+                continue
+            if dev.kind == "resistor":
+                for other in dev.nets[:2]:
+                    if other in view.ports and other != port:
+                        return False  # the wire reaches another port: not a dead end
+                    if other not in seen:
+                        seen.add(other)
+                        todo.append(other)
+            elif dev.kind != "instance" or not passive_inside(ctx, dev, pin, depth + 1):
+                return False
+    return True

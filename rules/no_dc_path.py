@@ -86,9 +86,13 @@ def check(ctx):
 
 def _floating_metal(ctx, view, island) -> bool:
     """Metal an extractor wrote that only coupling capacitors (and wire resistors)
-    hold: every terminal on the island is an R or C pin, one at least a C."""
-    kinds = {dev.kind for dev, _ in island.terminals}
-    if "capacitor" not in kinds or not kinds <= set(_parasitics.PASSIVE_KINDS):
+    hold: every terminal on the island is an R or C pin, one at least a C, or the pin
+    of an instance that leads inside only to R and C (magic's substrate node in a
+    cell of device wrappers, when the cell does not bring it out as a port)."""
+    kinds = {dev.kind for dev, pin in island.terminals
+             if dev.kind != "instance" or not _parasitics.passive_inside(ctx, dev, pin)}
+    passive = any(dev.kind == "capacitor" or dev.kind == "instance" for dev, _ in island.terminals)
+    if not passive or not kinds <= set(_parasitics.PASSIVE_KINDS):
         return False
     return all(_parasitics.EXTRACTED_NAME.search(n) for n in island.nets) or \
         _parasitics.looks_extracted(ctx, view)
@@ -99,19 +103,26 @@ def _floating_finding(ctx, view, islands):
     first = min((i.first_device for i in islands),
                 key=lambda d: (d.location.path, d.location.line, d.location.column))
     nets = [n for i in islands for n in i.nets]
+    wrapped = sum(1 for i in islands if any(d.kind == "instance" for d, _ in i.terminals))
     return ctx.finding(
         location=first.location, subject="floating metal", view=view, nets=nets[:50],
         severity=Severity.INFO,
         message=f"{len(islands)} piece(s) of floating metal held only by coupling capacitors "
                 f"({len(nets)} net(s); largest: {net_phrase(largest)}, "
                 f"{len(largest.terminals)} terminals)",
-        explanation=["on these nets every terminal is a parasitic capacitor (or a wire "
-                     "resistor between such nets): fill, shields or unconnected wells the "
-                     "extractor wrote with their coupling", "an extraction fact; a simulator "
-                     "needs a DC return there only for its operating point (ngspice-39: "
-                     "'.option rshunt' gives one)"],
+        explanation=[
+            "on these nets every terminal is a parasitic capacitor (or a wire resistor "
+            "between such nets): fill, shields or unconnected wells the extractor wrote with "
+            "their coupling",
+            *([f"{'it reaches' if len(islands) == 1 else f'{wrapped} of them reach'} only "
+               "capacitors inside instances: the "
+               "substrate node of the extractor's device cells, which this cell does not "
+               "bring out as a port"] if wrapped else []),
+            "an extraction fact; a simulator needs a DC return there only for its operating "
+            "point (ngspice-39: '.option rshunt' gives one)"],
         fix="nothing to do for the extraction; tie the metal in layout if it was meant to be "
-            "a shield or a well tap",
+            "a shield or a well tap" + ("; to simulate the cell on its own, make the "
+                                        "substrate node a port" if wrapped else ""),
         values={"count": len(islands), "island_nets": len(nets)},
         related=[Related(largest.first_device.location, f"largest: {largest.nets[0]}")])
 

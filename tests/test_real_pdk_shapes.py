@@ -211,6 +211,45 @@ def test_a_hand_drawn_floating_node_is_still_an_error():
     assert [(f.rule, f.severity.label) for f in loud(deck)] == [("no-dc-path", "error")]
 
 
+# magic writes the substrate node of each device wrapper as a port (VSUBS) that, in a
+# PMOS wrapper, holds only the wrapper's capacitors to substrate; a parent cell that
+# does not bring VSUBS out leaves it floating (ngspice-39 .op on such a cell: 'singular
+# matrix: check node ...vsubs'), an extraction fact like floating metal
+SUBSTRATE_NOT_BROUGHT_OUT = """\
+* NGSPICE file created from pmos_load.ext - technology: sky130A
+
+.subckt sky130_fd_pr__pfet_01v8_8RMJP2 a_n73_n100# a_15_n100# w_n211_n319# a_n33_n197# VSUBS
+X0 a_15_n100# a_n33_n197# a_n73_n100# w_n211_n319# sky130_fd_pr__pfet_01v8 ad=0.29 pd=2.58 as=0.29 ps=2.58 w=1 l=0.15
+C0 a_15_n100# VSUBS 0.11f
+C1 a_n73_n100# VSUBS 0.11f
+C2 w_n211_n319# VSUBS 0.21f
+.ends
+
+.subckt pmos_load VDDE D G
+Xsky130_fd_pr__pfet_01v8_8RMJP2_0 VDDE D VDDE G VSUBS sky130_fd_pr__pfet_01v8_8RMJP2
+Xsky130_fd_pr__pfet_01v8_8RMJP2_1 VDDE G VDDE G VSUBS sky130_fd_pr__pfet_01v8_8RMJP2
+C0 G D 2.06f
+.ends
+"""
+
+
+def test_substrate_node_a_cell_does_not_bring_out_is_one_info():
+    found = check_text(SUBSTRATE_NOT_BROUGHT_OUT, "pmos_load.spice").findings
+    assert not [f for f in found if f.severity.label != "info"]
+    metal = [f for f in found if f.rule == "no-dc-path"]
+    assert len(metal) == 1 and metal[0].subject == "floating metal"
+    assert "substrate node" in " ".join(metal[0].explanation)
+
+
+def test_a_substrate_node_that_reaches_a_gate_is_still_reported():
+    # the same wrapper with VSUBS also on a transistor gate inside: not parasitic only
+    deck = SUBSTRATE_NOT_BROUGHT_OUT.replace(
+        "C2 w_n211_n319# VSUBS 0.21f",
+        "C2 w_n211_n319# VSUBS 0.21f\nX1 a_15_n100# VSUBS a_n73_n100# w_n211_n319# "
+        "sky130_fd_pr__pfet_01v8 w=1 l=0.15")
+    assert [f.rule for f in loud(deck) if "vsubs" in f.message.lower()] == ["unbiased-gate"]
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
