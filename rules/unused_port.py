@@ -32,6 +32,7 @@ Fix
     line and from every instance.
 """
 
+from lintamp.circuit.kinds import TRANSISTORS
 from lintamp.connectivity.dc_paths import unread_cells
 from lintamp.findings import Severity
 
@@ -68,9 +69,10 @@ def check(ctx):
         # library; a tie or diode cell leaves some of them unused by design)
         library_power = (not ctx.design.in_deck(view)
                          and all(_power_pin(ctx, p) for p in unused))
+        substrate = None if library_power else _substrate_pin(ctx, view, unused)
         yield ctx.finding(
             location=view.cell.location, subject=port, view=view, nets=unused[:50],
-            severity=Severity.INFO if library_power else None,
+            severity=Severity.INFO if library_power or substrate else None,
             message=(f"port {port} of {view.label} is not connected to anything inside"
                      if len(unused) == 1 else
                      f"{len(unused)} ports of {view.label} are not connected to anything "
@@ -81,7 +83,11 @@ def check(ctx):
                          + (f" ({count} instance(s))" if count else ""),
                          *(["a library cell this deck does not instantiate, and only supply or "
                             "well pins are unused: a cell library keeps them for one pin "
-                            "interface across its cells"] if library_power else [])],
+                            "interface across its cells"] if library_power else []),
+                         *([f"{view.label} holds only devices, and every instance ties "
+                            f"{'it' if len(unused) == 1 else 'them'} to the substrate or well "
+                            f"the transistors sit in ({substrate}): the spare substrate pin "
+                            "a layout extractor gives its device cells"] if substrate else [])],
             fix=f"use {'it' if len(unused) == 1 else 'them'} inside {view.label}, or remove "
                 f"{'it' if len(unused) == 1 else 'them'} from the .subckt line and from "
                 "every instance",
@@ -115,6 +121,47 @@ def repeated_port(ctx, view, placeholder, port, count):
         fix=f"list {port} once on the .subckt line and drop the extra node from every "
             "instance, or give the second pin its own name if it is a separate net",
         values={"instances": count, "pin": second + 1, "first_pin": first + 1})
+
+
+def _substrate_pin(ctx, view, unused) -> str | None:
+    """The body net the parents tie a device cell's unused pins to, or None.
+
+    A layout extractor writes a cell per device (KLayout: ``pmos$1``, ``rppd$1``) with
+    a substrate or well terminal that the device inside may not use (a resistor, or
+    a PMOS whose well is another pin).  Such a pin is spare when the cell holds only
+    devices and every instance puts it on a net that is a transistor body in the
+    parent, directly or one instance down ("net 1, the body of M$1 in X$4")."""
+    if any(d.kind == "instance" for d in view.devices):
+        return None
+    users = [(parent, dev) for parent in ctx.cells() for dev in parent.instances()
+             if dev.subcell is view]
+    if not users:
+        return None
+    positions = [i for i, p in enumerate(view.ports) if p in unused]
+    example = None
+    for parent, dev in users:
+        for pos in positions:
+            if pos >= len(dev.nets):
+                return None
+            body = _body_on(parent, dev.nets[pos])
+            if body is None:
+                return None
+            example = example or f"net {dev.nets[pos]}, the {body}"
+    return example
+
+
+def _body_on(view, net: str) -> str | None:
+    """'body of M1' or 'body of M$1 in X$4' for a transistor body on ``net``, else None."""
+    for dev, pin in view.net_terminals.get(net, ()):
+        if pin == "b" and dev.kind in TRANSISTORS:
+            return f"body of {dev.display}"
+        if dev.kind == "instance" and dev.subcell is not None and pin in dev.pins:
+            pos = dev.pins.index(pin)
+            inner = dev.subcell.ports[pos] if pos < len(dev.subcell.ports) else None
+            for d, p in dev.subcell.net_terminals.get(inner, ()):
+                if p == "b" and d.kind in TRANSISTORS:
+                    return f"body of {d.display} in {dev.display}"
+    return None
 
 
 WELL_PINS = ("vpb", "vnb", "vpw", "vnw", "vsub", "sub", "bulk", "nwell", "pwell", "vbn", "vbp")

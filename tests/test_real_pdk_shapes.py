@@ -250,6 +250,46 @@ def test_a_substrate_node_that_reaches_a_gate_is_still_reported():
     assert [f.rule for f in loud(deck) if "vsubs" in f.message.lower()] == ["unbiased-gate"]
 
 
+# KLayout's LVS extraction writes one cell per device variant (``pmos$1``) with a
+# substrate terminal the device inside may not use; the parent ties it to the
+# substrate net, which is the NMOS bodies (shape from memory of KLayout netlists)
+KLAYOUT_DEVICE_CELLS = """\
+* Extracted by KLayout
+
+.SUBCKT TOP
+X$1 4 3 5 1 pmos$1
+X$2 3 2 1 nmos$1
+X$3 4 2 1 rppd$1
+.ENDS TOP
+
+.SUBCKT pmos$1 1 2 3 4
+M$1 1 2 3 3 sg13_lv_pmos L=0.15u W=0.5u
+.ENDS pmos$1
+
+.SUBCKT nmos$1 1 2 3
+M$1 1 2 3 3 sg13_lv_nmos L=0.15u W=0.5u
+.ENDS nmos$1
+
+.SUBCKT rppd$1 1 2 3
+R$1 1 2 rppd w=1u l=12u
+.ENDS rppd$1
+"""
+
+
+def test_an_extractor_device_cells_spare_substrate_pin_is_an_info():
+    found = [f for f in check_text(KLAYOUT_DEVICE_CELLS, "top.cir").findings
+             if f.rule == "unused-port"]
+    assert sorted((f.subject, f.severity.label) for f in found) == [("3", "info"), ("4", "info")]
+
+
+def test_a_device_cells_unused_pin_on_a_signal_net_stays_a_warning():
+    # the same pmos$1 cell with its spare pin tied to a net no body is on
+    deck = KLAYOUT_DEVICE_CELLS.replace("X$1 4 3 5 1 pmos$1", "X$1 4 3 5 6 pmos$1")
+    found = {f.subject: f.severity.label for f in check_text(deck, "top.cir").findings
+             if f.rule == "unused-port"}
+    assert found["4"] == "warning"
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
