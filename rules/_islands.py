@@ -12,6 +12,7 @@ from lintamp.connectivity.dc_paths import (BIAS, FULL, IslandKind, describe_term
                                            islands, reaches_defined_level, unread_cells)
 from lintamp.findings import Related
 from lintamp.rules._supply import declared_pins
+from lintamp.rules._pin_order import touches_swapped
 
 MAX_LISTED = 8
 # the rule that reports each kind of island (one the feedback may set is not reported)
@@ -46,6 +47,8 @@ def island_findings(ctx, rule: str):
         for island in islands(ctx, view, FULL):
             if view.cell.is_top and pins and any(n in pins for n in island.nets):
                 continue
+            if touches_swapped(ctx, view, island.terminals):
+                continue  # an instance in another pin order left it: swapped-pins says so
             if RULE_OF_KIND.get(island_kind(island)) == rule:
                 yield view, island, False
         if rule != "unbiased-gate":
@@ -54,6 +57,8 @@ def island_findings(ctx, rule: str):
             if island.current_feeds or not island.controls:
                 continue
             if view.cell.is_top and pins and any(n in pins for n in island.nets):
+                continue
+            if touches_swapped(ctx, view, island.terminals):
                 continue
             if not reaches_defined_level(ctx, view, island.nets[0], FULL):
                 continue  # already reported as a FULL island

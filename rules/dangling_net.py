@@ -38,6 +38,7 @@ from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is
 from lintamp.findings import Related, Severity
 from lintamp.rules import _cascade, _parasitics, _supply
 from lintamp.rules._islands import sealed_cells
+from lintamp.rules._pin_order import touches_swapped
 
 NAME = "dangling-net"
 CATEGORY = "connectivity"
@@ -98,6 +99,8 @@ def check(ctx):
                 continue  # a pin of a many-conductor line lintamp does not name
             if _parasitics.reaches_into_instance(ctx, view, net):
                 continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
+            if touches_swapped(ctx, view, terminals):
+                continue  # an instance in another pin order: swapped-pins says it once
             if left_out:
                 opened.append((net, dev.location))
                 continue

@@ -290,6 +290,36 @@ def test_a_device_cells_unused_pin_on_a_signal_net_stays_a_warning():
     assert found["4"] == "warning"
 
 
+# a spare-cell CDL written in layout pin order (A Y VPB VNB VPWR VGND) against cell
+# definitions in alphabetical order (A VGND VNB VPB VPWR Y): shape from memory of
+# standard-cell CDL; SPICE connects by position (ngspice-39 manual, sec. 2.4.3)
+SPARE_CELL = """\
+* spare cell CDL
+.subckt inv_2 A VGND VNB VPB VPWR Y
+X0 VGND A Y VNB sky130_fd_pr__nfet_01v8 w=0.65 l=0.15
+X1 VPWR A Y VPB sky130_fd_pr__pfet_01v8 w=1 l=0.15
+.ends
+.subckt spare VGND VNB VPB VPWR LO
+Xinv_0 LO inv_0/Y VPB VNB VPWR VGND inv_2
+Xinv_1 LO inv_1/Y VPB VNB VPWR VGND inv_2
+.ends
+"""
+
+
+def test_an_instance_in_another_pin_order_is_one_finding_for_its_cell():
+    found = loud(SPARE_CELL)
+    assert [(f.rule, f.values["instances"]) for f in found] == [("swapped-pins", 2)]
+    assert "vgnd on pin y" in " ".join(found[0].explanation)
+
+
+def test_a_supply_on_a_body_pin_and_a_plain_short_are_no_swapped_pins():
+    # VPWR on VPB is a body tie by choice; VGND on both VGND and VPWR is a short (the
+    # port of its own name carries it), which is not an order
+    ordered = SPARE_CELL.replace("LO inv_0/Y VPB VNB VPWR VGND", "LO VGND VNB VPWR VPWR inv_0/Y")
+    ordered = ordered.replace("LO inv_1/Y VPB VNB VPWR VGND", "LO VGND VGND VGND VGND inv_1/Y")
+    assert "swapped-pins" not in [f.rule for f in check_text(ordered, "deck.spice").findings]
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
