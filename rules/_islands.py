@@ -36,6 +36,22 @@ def sealed_cells(ctx) -> dict[int, object]:
     return ctx.memo("sealed-cells", build)
 
 
+def implicit_rail(ctx, view, island) -> str | None:
+    """The rail net of a library cell that the island holds without it being a port:
+    a standard-cell CDL that takes ``VDD``/``VSS`` as global by name (LVS tools join
+    power nets so) leaves them local to the cell as SPICE reads it, and the tie cell's
+    diode-connected device then floats with them.  Only for cells the deck does not
+    use: where a deck instantiates the cell, the local rail is a real open."""
+    if view.cell.is_top or ctx.design.in_deck(view):
+        return None
+    from lintamp.connectivity.intent import matches, patterns
+    rails = patterns(ctx.config, "supply") + patterns(ctx.config, "ground")
+    for net in island.nets:
+        if net not in view.ports and net not in ctx.netlist.globals and matches(net, rails):
+            return net
+    return None
+
+
 def island_findings(ctx, rule: str):
     """(view, island, bias_only) for every island the named rule reports."""
     skip = unread_cells(ctx)
@@ -49,6 +65,10 @@ def island_findings(ctx, rule: str):
                 continue
             if touches_swapped(ctx, view, island.terminals):
                 continue  # an instance in another pin order left it: swapped-pins says so
+            if implicit_rail(ctx, view, island):
+                if rule == "no-dc-path":
+                    yield view, island, False  # one info per cell there
+                continue
             if RULE_OF_KIND.get(island_kind(island)) == rule:
                 yield view, island, False
         if rule != "unbiased-gate":

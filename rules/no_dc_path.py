@@ -34,7 +34,7 @@ Fix
 from lintamp.findings import Related, Severity
 from lintamp.rules import _cascade, _parasitics
 from lintamp.connectivity.dc_paths import FULL, islands
-from lintamp.rules._islands import (context_steps, elements, island_findings, net_phrase,
+from lintamp.rules._islands import (context_steps, elements, implicit_rail, island_findings, net_phrase,
                                     related, sealed_cells, terminal_lines)
 
 NAME = "no-dc-path"
@@ -45,6 +45,7 @@ SUMMARY = "nodes with no DC path to ground"
 
 def check(ctx):
     floating: dict[int, list] = {}
+    implicit: dict[int, list] = {}
     for view, island, _ in island_findings(ctx, NAME):
         first = island.first_device
         if first is None:
@@ -56,6 +57,10 @@ def check(ctx):
             continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
         if _floating_metal(ctx, view, island):
             floating.setdefault(id(view), [view]).append(island)
+            continue
+        rail = implicit_rail(ctx, view, island)
+        if rail:
+            implicit.setdefault(id(view), [view, rail]).append(island)
             continue
         count = len(island.nets)
         yield ctx.finding(
@@ -76,6 +81,8 @@ def check(ctx):
             related=related(island, skip=first))
     for view, *found in floating.values():
         yield _floating_finding(ctx, view, found)
+    for view, rail, *found in implicit.values():
+        yield _implicit_rail_finding(ctx, view, rail, found)
     for view in sealed_cells(ctx).values():
         if not view.ports:
             finding = _portless_finding(ctx, view)
@@ -125,6 +132,27 @@ def _floating_finding(ctx, view, islands):
                                         "substrate node a port" if wrapped else ""),
         values={"count": len(islands), "island_nets": len(nets)},
         related=[Related(largest.first_device.location, f"largest: {largest.nets[0]}")])
+
+
+def _implicit_rail_finding(ctx, view, rail, islands):
+    nets = [n for i in islands for n in i.nets]
+    first = min((i.first_device for i in islands),
+                key=lambda d: (d.location.path, d.location.line, d.location.column))
+    gates = sum(len(i.controls) for i in islands)
+    return ctx.finding(
+        location=first.location, subject=rail, view=view, nets=nets[:50],
+        severity=Severity.INFO,
+        message=f"{view.label} uses the rail {rail} without a port or .global: as SPICE reads "
+                f"it, {rail} is local to the cell and floats ({net_phrase(islands[0])})",
+        explanation=[f"{rail} is not on the .subckt line of {view.label} and no .global names "
+                     "it; LVS tools join power nets by name, so a cell library written for them "
+                     "takes it as global",
+                     f"this deck does not instantiate {view.label}; the {len(nets)} net(s) and "
+                     f"{gates} gate or base pin(s) left without a level follow from this one "
+                     "cause"],
+        fix=f"add {rail} to the .subckt line (or '.global {rail}') before simulating the cell",
+        values={"island_nets": len(nets), "gates": gates},
+        related=[Related(first.location, f"first element: {first.display}")])
 
 
 def _portless_finding(ctx, view):
