@@ -344,6 +344,31 @@ def test_a_used_cells_rail_without_a_port_is_still_reported():
     assert "unbiased-gate" in [f.rule for f in loud(deck)]
 
 
+# a project that vendors a PDK's standard-cell netlist (sky130_fd_sc_hvl, as the PDK
+# publishes it: a level shifter whose PMOS source goes nowhere) checks the PDK's
+# netlist, not its design; the same cell used by the project's deck stays loud
+PDK_CELL = """\
+* vendored cell library
+.subckt sky130_fd_sc_hvl__lsbuf_1 A VGND VNB VPB VPWR X
+X0 X A VGND VNB sky130_fd_pr__nfet_g5v0d10v5 w=1.5 l=0.5
+X1 X A VPWR VPB sky130_fd_pr__pfet_g5v0d10v5 w=1.5 l=0.5
+X2 X A a_1793_563# VPB sky130_fd_pr__pfet_g5v0d10v5 w=0.42 l=1
+.ends
+"""
+
+
+def test_findings_inside_an_unused_pdk_standard_cell_are_infos():
+    found = [f for f in check_text(PDK_CELL, "cells.spice").findings if f.rule == "dangling-net"]
+    assert [f.severity.label for f in found] == ["info"]
+    assert "standard-cell library" in " ".join(found[0].explanation)
+
+
+def test_a_pdk_standard_cell_the_deck_uses_keeps_its_severity():
+    deck = PDK_CELL + ("vdd vdd 0 5\nvin in 0 1\nx1 in 0 0 vdd vdd out sky130_fd_sc_hvl__lsbuf_1\n"
+                       "r1 out 0 10k\n.op\n.end\n")
+    assert "dangling-net" in [f.rule for f in loud(deck)]
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand

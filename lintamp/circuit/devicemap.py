@@ -14,6 +14,7 @@ the subcircuit name; the first match wins.
 from __future__ import annotations
 
 import fnmatch
+import re
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -114,6 +115,27 @@ BUILTIN = (
     *_names("npn", "npn13G2 npn13G2l npn13G2v"), _b("pnpMPA", "pnp"),
     *_names("resistor", "rsil rppd rhigh", ("p", "n", "b")), _b("cap_cmim", "capacitor"),
 )
+
+
+# The open PDKs' standard-cell libraries, by the prefix of their cell names (from
+# memory of the PDKs' cell libraries).  A project that vendors one of them checks the
+# PDK's netlists as published; what lintamp sees inside a cell the deck does not use
+# is the PDK's, not the design's.
+PDK_CELL_LIBRARIES = re.compile(
+    r"^(sky130_fd_sc_[a-z]+|sky130_osu_sc_\w+?|gf180mcu_fd_sc_mcu\d+t\d+v\d+|"
+    r"gf180mcu_osu_sc_\w+?|sg13g2)_(?:_)?[a-z]", re.IGNORECASE)
+
+
+def pdk_cell_library(cell_name: str) -> str | None:
+    """The PDK standard-cell library a cell name belongs to, or None.
+
+    >>> pdk_cell_library("sky130_fd_sc_hd__inv_2"), pdk_cell_library("sg13g2_tiehi")
+    ('sky130_fd_sc_hd', 'sg13g2')
+    >>> pdk_cell_library("sky130_sw_ip__por") is None
+    True
+    """
+    found = PDK_CELL_LIBRARIES.match(cell_name)
+    return found.group(1).lower() if found else None
 
 
 class DeviceMap:

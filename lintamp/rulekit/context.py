@@ -73,6 +73,12 @@ class Context:
         if view is not None and not view.cell.is_top:
             cell = view.cell.label
             instances = tuple("/".join(p) for p in self.design.instances(view) if p)
+        library = self._pdk_library(view)
+        if library:
+            severity = Severity.INFO
+            explanation = (*explanation, f"{view.cell.label} is a cell of the PDK's {library} "
+                           "standard-cell library that this deck does not use: the PDK's "
+                           "netlist as published, not this design")
         if len(message) > MAX_MESSAGE_CHARS:  # one sentence; the detail belongs in explanation
             message = message[: MAX_MESSAGE_CHARS - 3] + "..."
         return Finding(
@@ -80,6 +86,13 @@ class Context:
             subject=subject, message=message, cell=cell, instances=instances,
             nets=tuple(nets), elements=tuple(elements), explanation=tuple(explanation),
             fix=fix, values=dict(values or {}), related=tuple(related))
+
+    def _pdk_library(self, view: CellView | None) -> str | None:
+        """The PDK standard-cell library of a cell the deck does not use, or None."""
+        if view is None or view.cell.is_top or self.design.in_deck(view):
+            return None
+        from lintamp.circuit.devicemap import pdk_cell_library
+        return pdk_cell_library(view.cell.name)
 
     def from_diagnostic(self, diag: Diagnostic) -> Finding:
         """The reader's or parser's diagnostic as a finding of the running rule."""
