@@ -36,6 +36,19 @@ def sealed_cells(ctx) -> dict[int, object]:
     return ctx.memo("sealed-cells", build)
 
 
+def only_unused_pins(terminals) -> bool:
+    """Whether every terminal is an instance pin whose port nothing inside the cell
+    touches: the net is open because of that cell (unused-port says it once)."""
+    for dev, pin in terminals:
+        sub = dev.subcell if dev.kind == "instance" else None
+        if sub is None or pin not in dev.pins:
+            return False
+        pos = dev.pins.index(pin)
+        if pos >= len(sub.ports) or sub.net_terminals.get(sub.ports[pos]):
+            return False
+    return bool(terminals)
+
+
 def implicit_rail(ctx, view, island) -> str | None:
     """The rail net of a library cell that the island holds without it being a port:
     a standard-cell CDL that takes ``VDD``/``VSS`` as global by name (LVS tools join
@@ -65,6 +78,8 @@ def island_findings(ctx, rule: str):
                 continue
             if touches_swapped(ctx, view, island.terminals):
                 continue  # an instance in another pin order left it: swapped-pins says so
+            if only_unused_pins(island.terminals):
+                continue  # open because the cell leaves those ports unused: unused-port
             if implicit_rail(ctx, view, island):
                 if rule == "no-dc-path":
                     yield view, island, False  # one info per cell there

@@ -37,7 +37,7 @@ from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is
                                        unread_cells)
 from lintamp.findings import Related, Severity
 from lintamp.rules import _cascade, _parasitics, _supply
-from lintamp.rules._islands import sealed_cells
+from lintamp.rules._islands import only_unused_pins, sealed_cells
 from lintamp.rules._pin_order import touches_swapped
 
 NAME = "dangling-net"
@@ -101,6 +101,8 @@ def check(ctx):
                 continue  # 'x1.mid' is the node inside x1, as ngspice-39 names it
             if touches_swapped(ctx, view, terminals):
                 continue  # an instance in another pin order: swapped-pins says it once
+            if only_unused_pins(terminals):
+                continue  # the cell leaves that port unused inside: unused-port says it
             if left_out:
                 opened.append((net, dev.location))
                 continue

@@ -70,6 +70,7 @@ def check(ctx):
         library_power = (not ctx.design.in_deck(view)
                          and all(_power_pin(ctx, p) for p in unused))
         substrate = None if library_power else _substrate_pin(ctx, view, unused)
+        stranded = _stranded_nets(ctx, view, unused)
         yield ctx.finding(
             location=view.cell.location, subject=port, view=view, nets=unused[:50],
             severity=Severity.INFO if library_power or substrate else None,
@@ -84,6 +85,10 @@ def check(ctx):
                          *(["a library cell this deck does not instantiate, and only supply or "
                             "well pins are unused: a cell library keeps them for one pin "
                             "interface across its cells"] if library_power else []),
+                         *([f"{stranded[0]}; it floats (dangling, no DC path), which follows "
+                            "from this port and is not reported again"
+                            + (f" ({len(stranded)} such net(s))" if len(stranded) > 1 else "")]
+                           if stranded else []),
                          *([f"{view.label} holds only devices, and every instance ties "
                             f"{'it' if len(unused) == 1 else 'them'} to the substrate or well "
                             f"the transistors sit in ({substrate}): the spare substrate pin "
@@ -121,6 +126,24 @@ def repeated_port(ctx, view, placeholder, port, count):
         fix=f"list {port} once on the .subckt line and drop the extra node from every "
             "instance, or give the second pin its own name if it is a separate net",
         values={"instances": count, "pin": second + 1, "first_pin": first + 1})
+
+
+def _stranded_nets(ctx, view, unused) -> list[str]:
+    """'clk_out, on x1 pin clk_out, has no other terminal', per parent net that an
+    unused port leaves with nothing else."""
+    positions = [i for i, p in enumerate(view.ports) if p in unused]
+    out = []
+    for parent in ctx.cells():
+        for dev in parent.instances():
+            if dev.subcell is not view:
+                continue
+            for pos in positions:
+                if pos < len(dev.nets):
+                    net = dev.nets[pos]
+                    if len(parent.net_terminals.get(net, ())) == 1 and not parent.is_external(net):
+                        out.append(f"{net}, on {dev.display} pin {view.ports[pos]}, has no other "
+                                   "terminal")
+    return out
 
 
 def _substrate_pin(ctx, view, unused) -> str | None:

@@ -369,6 +369,31 @@ def test_a_pdk_standard_cell_the_deck_uses_keeps_its_severity():
     assert "dangling-net" in [f.rule for f in loud(deck)]
 
 
+# a post-layout cell whose ports the extraction did not join to its nets (magic with
+# port labels that no net carries): the testbench's output net then touches only
+# that pin; one cause, one finding (common practice)
+UNJOINED_PORTS_TB = """\
+* testbench of an extraction
+vdd vdd 0 1.2
+vin in 0 pulse(0 1.2 0 1n 1n 5n 10n)
+x1 in out vdd 0 div
+.subckt div clk_in clk_out vdd vss
+M0 a_10_20# a_30_40# a_50_60# a_50_60# nmos_lv w=1u l=0.13u
+R0 a_10_20# a_30_40# 1k
+R1 a_30_40# a_50_60# 1k
+.ends
+.model nmos_lv nmos level=1
+.tran 1n 100n
+.end
+"""
+
+
+def test_a_net_open_only_through_an_unused_port_is_one_finding():
+    found = loud(UNJOINED_PORTS_TB)
+    assert [f.rule for f in found] == ["unused-port"]
+    assert "out, on x1 pin clk_out, has no other terminal" in " ".join(found[0].explanation)
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
