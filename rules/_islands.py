@@ -41,8 +41,8 @@ def only_unused_pins(terminals) -> bool:
     touches: the net is open because of that cell (unused-port says it once)."""
     for dev, pin in terminals:
         sub = dev.subcell if dev.kind == "instance" else None
-        if sub is None or pin not in dev.pins:
-            return False
+        if sub is None or not sub.devices or pin not in dev.pins:
+            return False  # (an empty .subckt is a black box, not a cell with unused ports)
         pos = dev.pins.index(pin)
         if pos >= len(sub.ports) or sub.net_terminals.get(sub.ports[pos]):
             return False

@@ -85,6 +85,7 @@ def check(ctx):
                      if view is ctx.design.top else set())
         stubs: list = []
         unknown_pins: list = []
+        boxed_pins: list = []
         opened: list = []  # open because the export left instances out
         left_out = bool(_cascade.dropped_instances(view))
         for net in view.net_terminals.with_degree(1):
@@ -119,6 +120,9 @@ def check(ctx):
             if dev.kind == "instance" and dev.subcell is None:
                 unknown_pins.append((net, dev, pin))  # unknown-cell is the finding
                 continue
+            if dev.kind == "instance" and not dev.subcell.devices:
+                boxed_pins.append((net, dev, pin))  # a black box: its pins' directions unknown
+                continue
             if dev.kind == "instance" and _drives_port(dev, pin):
                 # an output pin left open (an unused complementary output) is common and
                 # harmless; say so quietly
@@ -150,6 +154,8 @@ def check(ctx):
             yield _stubs_finding(ctx, view, stubs)
         if unknown_pins:
             yield _unknown_pins_finding(ctx, view, unknown_pins)
+        if boxed_pins:
+            yield _unknown_pins_finding(ctx, view, boxed_pins, black_box=True)
 
 
 def _stubs_finding(ctx, view, stubs):
@@ -174,16 +180,24 @@ def _stubs_finding(ctx, view, stubs):
         related=[Related(dev.location, f"largest stub: {net}")])
 
 
-def _unknown_pins_finding(ctx, view, items):
-    """Nets that only an unknown cell's pin touches: consequences of unknown-cell."""
+def _unknown_pins_finding(ctx, view, items, black_box: bool = False):
+    """Nets that only an unknown cell's pin touches (consequences of unknown-cell), or
+    only a black box's pin (an empty .subckt: an abstract view with no directions)."""
     first = min(items, key=lambda s: (s[1].location.line, s[1].location.column))
     shown = ", ".join(s[0] for s in items[:5]) + (", ..." if len(items) > 5 else "")
+    cells = sorted({s[1].subcell.label for s in items}) if black_box else []
+    why = (f"{', '.join(cells[:3])} {'is an empty .subckt' if len(cells) == 1 else 'are empty .subckts'} "
+           "(a black box for an abstract view), so whether its pins are open outputs or "
+           "inputs is not known" if black_box else
+           "the cell these pins belong to is not defined here (see unknown-cell), "
+           "so whether its pins are open outputs or inputs is not known")
     return ctx.finding(
-        location=first[1].location, subject="nets on unknown cells", view=view,
+        location=first[1].location,
+        subject="nets on black boxes" if black_box else "nets on unknown cells", view=view,
         nets=[s[0] for s in items][:50], elements=sorted({s[1].name for s in items})[:50],
         severity=Severity.INFO,
-        message=f"{len(items)} net(s) touched only by a pin of an undefined cell ({shown})",
-        explanation=["the cell these pins belong to is not defined here (see unknown-cell), "
-                     "so whether its pins are open outputs or inputs is not known"],
+        message=f"{len(items)} net(s) touched only by a pin of "
+                f"{'a black-box' if black_box else 'an undefined'} cell ({shown})",
+        explanation=[why],
         fix="define or include the cell, then check again", values={"count": len(items)})
 

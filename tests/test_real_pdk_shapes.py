@@ -394,6 +394,24 @@ def test_a_net_open_only_through_an_unused_port_is_one_finding():
     assert "out, on x1 pin clk_out, has no other terminal" in " ".join(found[0].explanation)
 
 
+# a synthesised netlist whose standard cells are black-box entries for their abstract
+# views (empty .subckts): a tie cell's unused output is not known to be an output
+BLACK_BOX_NETLIST = """\
+* Black-box entry subcircuit for conb_1 abstract view
+.subckt conb_1 VGND VNB VPB VPWR HI LO
+.ends
+.subckt dig VGND VPWR en
+X_1_ VGND VGND VPWR VPWR en _1_/LO conb_1
+.ends
+"""
+
+
+def test_a_net_on_a_black_box_pin_alone_is_one_info():
+    found = [f for f in check_text(BLACK_BOX_NETLIST, "dig.spice").findings
+             if f.rule == "dangling-net"]
+    assert [(f.severity.label, f.subject) for f in found] == [("info", "nets on black boxes")]
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
