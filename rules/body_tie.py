@@ -42,6 +42,7 @@ from lintamp.circuit.kinds import MOS, MOS_KINDS
 from lintamp.connectivity.rails import get_rails
 from lintamp.findings import Related, Severity
 from lintamp.rules._islands import sealed_cells
+from lintamp.rules._supply import declared_pins
 
 NAME = "body-tie"
 CATEGORY = "connectivity"
@@ -230,7 +231,7 @@ def _check_device(ctx, view, dev, known, low, high, shared_done, body_nets, floa
         return
     # no voltages known: structural evidence only
     terms = body_nets.terms(body)
-    if not view.is_external(body):
+    if not view.is_external(body) and not (view.cell.is_top and body in declared_pins(ctx)):
         if body not in shared_done and body_nets.only_bodies(body):
             shared_done.add(body)
             others = [d for d, _ in terms if d is not dev and d.kind != "capacitor"]

@@ -412,6 +412,32 @@ def test_a_net_on_a_black_box_pin_alone_is_one_info():
     assert [(f.severity.label, f.subject) for f in found] == [("info", "nets on black boxes")]
 
 
+# xschem netlisting a block as the top level: the .subckt line is commented out and
+# the pins are *.iopin lines; well pins that only bodies touch inside are still the
+# block's pins, biased by whatever instantiates it (shape from memory of xschem output)
+EXPORTED_WELL_PINS = """\
+** sch_path: /foss/designs/op.sch
+**.subckt op vo vdd vss vi psubs nwell
+*.iopin vss
+*.iopin vdd
+*.opin vo
+*.ipin vi
+*.iopin psubs
+*.iopin nwell
+XM1 vo vi vss psubs sky130_fd_pr__nfet_01v8 L=1 W=2 nf=1
+XM2 vo vo vdd nwell sky130_fd_pr__pfet_01v8 L=1 W=4 nf=1
+**.ends
+.end
+"""
+
+
+def test_an_exported_blocks_well_pins_are_not_floating_bodies():
+    assert "body-tie" not in [f.rule for f in loud(EXPORTED_WELL_PINS)]
+    # the same bodies on nets that are not pins float (common practice)
+    bare = EXPORTED_WELL_PINS.replace("*.iopin psubs\n", "").replace("*.iopin nwell\n", "")
+    assert "body-tie" in [f.rule for f in loud(bare)]
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
