@@ -705,3 +705,14 @@ def test_a_pdk_library_absent_for_many_testbenches_is_one_finding(tmp_path):
     found = [f for f in report.findings if f.rule == "bad-include"]
     assert len(found) == 1 and found[0].values["decks"] == 3
     assert len(found[0].related) >= 2
+
+
+def test_a_symbolic_link_stored_as_text_is_an_empty_deck_with_one_info(tmp_path):
+    # git writes a link as a file holding the target's path when links are off; ngspice-39
+    # reads that one line as the title of an empty deck (checked: no error, no circuit)
+    from lintamp.api import check_file
+    from lintamp.config import Config
+    stored = tmp_path / "dig.out.spice"
+    stored.write_bytes(b"xspice/dig.out.spice")
+    found = check_file(stored, Config()).findings
+    assert [(f.rule, f.severity.label) for f in found] == [("unsupported-syntax", "info")]
