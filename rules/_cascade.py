@@ -12,7 +12,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
-from lintamp.netlist.reader import OUTSIDE_EXPECTED, excerpt, is_machine_path
+from lintamp.netlist.reader import OUTSIDE_EXPECTED, excerpt, is_machine_path, is_template_path
 from lintamp.netlist.statements import Diagnostic
 
 # Folder names under which PDKs and model collections keep their files: a library's
@@ -21,13 +21,6 @@ from lintamp.netlist.statements import Diagnostic
 LIBRARY_FOLDERS = ("libs.tech", "libs.ref", "libraries", "models", "cells", "model", "lib")
 LOCAL_SET = 3
 TEMPLATE_KEY = "template placeholders"
-_TEMPLATE_PATH = re.compile(r"\$\{|@|\{[A-Za-z_]")
-
-
-def is_template_path(diag: Diagnostic) -> bool:
-    """An include path with a generator's placeholder ('{DUT_path}', '${model_file}',
-    '@@PEX_PATH'): the deck is a template the flow fills in, not a deck to run."""
-    return "placeholder" in diag.message and _TEMPLATE_PATH.search(diag.subject) is not None
 _PLACEHOLDER = re.compile(r"\$\{|\$[A-Za-z_]|@|\{[A-Za-z_]")
 _NUMBER = re.compile(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[a-zA-Z]*")
 

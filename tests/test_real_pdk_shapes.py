@@ -485,6 +485,28 @@ def test_a_template_full_of_placeholders_is_one_info():
     assert [(f.severity.label, f.values["count"]) for f in params] == [("info", 6)]
 
 
+# a characterisation template whose block under test comes from a placeholder include
+# and whose instance line is a template directive: the top level is what the flow fills
+TEMPLATE_WITH_DUT = """\
+* temperature sensor template
+.include '${netlist_path}'
+vVDD VDD 0 1.8
+*@verification+ VDD VSS en lc_out out ${design_name}
+c0 lc_out 0 1f
+.tran 1p 1u
+.end
+"""
+
+
+def test_a_templates_top_level_is_not_judged_without_its_block():
+    found = check_text(TEMPLATE_WITH_DUT, "tempsense.sp").findings
+    assert not [f for f in found if f.severity.label != "info"]
+    # the same deck with its block written out (no placeholder) is judged: the open
+    # capacitor node is the finding (ngspice-39: singular matrix)
+    plain = TEMPLATE_WITH_DUT.replace(".include '${netlist_path}'\n", "")
+    assert "no-dc-path" in [f.rule for f in loud(plain)]
+
+
 # -- 8. severities that do not flip -------------------------------------------------------------
 def test_undefined_param_severity_does_not_depend_on_an_unrelated_param():
     deck = "t\nV1 a 0 1\nR1 a b rval\nR2 b 0 {rtop}\n.end\n"

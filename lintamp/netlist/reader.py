@@ -988,6 +988,15 @@ def expand_home(target: str) -> str:
     return target
 
 
+_TEMPLATE_PATH = re.compile(r"\$\{|@|\{[A-Za-z_]")
+
+
+def is_template_path(diag) -> bool:
+    """An include path with a generator's placeholder ('{DUT_path}', '${model_file}',
+    '@@PEX_PATH'): the deck is a template the flow fills in, not a deck to run."""
+    return "placeholder" in diag.message and _TEMPLATE_PATH.search(diag.subject) is not None
+
+
 def is_machine_path(target: str) -> bool:
     """Whether an include names a place on the author's machine: an absolute path, a
     home path or a Windows drive path (not a relative path climbing out)."""
