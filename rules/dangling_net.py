@@ -33,8 +33,8 @@ Fix
     Connect the net where it was meant to go, or delete the unused element.
 """
 
-from lintamp.connectivity.dc_paths import (describe_terminal, interface_view, is_voltage_output,
-                                       unread_cells)
+from lintamp.connectivity.dc_paths import (FULL, describe_terminal, interface_view,
+                                       is_voltage_output, reaches_defined_level, unread_cells)
 from lintamp.findings import Related, Severity
 from lintamp.rules import _cascade, _parasitics, _supply
 from lintamp.rules._islands import only_unused_pins, sealed_cells
@@ -120,6 +120,8 @@ def check(ctx):
             if dev.kind == "instance" and dev.subcell is None:
                 unknown_pins.append((net, dev, pin))  # unknown-cell is the finding
                 continue
+            if dev.kind == "instance" and not reaches_defined_level(ctx, view, net, FULL):
+                continue  # a pin that leads to gates only: the island rules say it once
             if dev.kind == "instance" and not dev.subcell.devices:
                 boxed_pins.append((net, dev, pin))  # a black box: its pins' directions unknown
                 continue

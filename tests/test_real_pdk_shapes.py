@@ -146,6 +146,23 @@ def test_unknown_cells_are_one_finding_per_cell_and_name():
     assert found.values["count"] == 6 and len(found.related) == 5
 
 
+def test_a_net_on_one_instance_input_pin_alone_is_one_unbiased_gate():
+    # a synthesised block whose flip-flop was lost: the mux select net touches only the
+    # select pin, which inside is MOS gates; ngspice-39 would warn 'singular matrix'
+    deck = """* block
+.subckt inv A VGND VPWR Y
+M0 Y A VGND VGND nch w=1u l=0.15u
+M1 Y A VPWR VPWR pch w=2u l=0.15u
+.ends
+.model nch nmos level=1
+.model pch pmos level=1
+.subckt blk VGND VPWR out
+X1 sel VGND VPWR out inv
+.ends
+"""
+    assert [f.rule for f in loud(deck)] == ["unbiased-gate"]
+
+
 # -- 4. layout dummies --------------------------------------------------------------------
 # a schematic export with dummies drawn for matching (d = g = s on a rail or a net)
 # and a dummy resistor and capacitor with both ends on one net
