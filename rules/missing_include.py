@@ -28,6 +28,8 @@ Fix
     that holds the file, or ignore this rule where the library is knowingly absent.
 """
 
+from dataclasses import replace
+
 from lintamp.findings import Severity
 from lintamp.rules import _cascade
 
@@ -36,7 +38,14 @@ CATEGORY = "references"
 SEVERITY = Severity.WARNING
 SUMMARY = "an .include or .lib file (or section) that cannot be found"
 
+
 def check(ctx):
     yield from _cascade.group_findings(ctx, NAME)
     for diag in _cascade.alone(ctx, NAME):
-        yield ctx.from_diagnostic(diag)
+        finding = ctx.from_diagnostic(diag)
+        name = diag.subject.strip("'\"")
+        if name and "/" not in name and "\\" not in name and "placeholder" not in diag.message:
+            # a bare file name is looked up in the include paths, the same for every deck
+            # of a run: decks missing it share one cause (folded into one finding by the run)
+            finding = replace(finding, values={**finding.values, "library_root": name})
+        yield finding

@@ -755,3 +755,15 @@ def test_a_symbolic_link_stored_as_text_is_an_empty_deck_with_one_info(tmp_path)
     stored.write_bytes(b"xspice/dig.out.spice")
     found = check_file(stored, Config()).findings
     assert [(f.rule, f.severity.label) for f in found] == [("unsupported-syntax", "info")]
+
+
+def test_an_included_symbolic_link_stored_as_text_is_a_missing_include(tmp_path):
+    # included, the same file is a card to ngspice-39 ('Error on line 1', checked): the
+    # include does not bring in the target, which is the finding, at the include line
+    from lintamp.api import check_file
+    from lintamp.config import Config
+    (tmp_path / "dig.out.spice").write_bytes(b"xspice/dig.out.spice")
+    deck = tmp_path / "tb.spice"
+    deck.write_text("* tb\n.include dig.out.spice\nv1 a 0 1\nr1 a 0 1k\n.op\n.end\n")
+    found = check_file(deck, Config()).findings
+    assert [(f.rule, f.location.line) for f in found] == [("missing-include", 2)]

@@ -19,7 +19,7 @@ from lintamp.gcpause import paused_gc
 from lintamp.location import Location
 from lintamp.netlist.expr import parse_number
 from lintamp.netlist.reader import (MAX_DIAGNOSTICS_PER_RULE, Card, CommentLine, ReadOptions,
-                                    ReadResult, excerpt, run_pattern,
+                                    ReadResult, excerpt, run_pattern, stored_link,
                                     open_regular, probed_nets, read, read_text,
                                     sandbox_roots)
 from lintamp.netlist.statements import (NO_PARAMS, Analysis, Cell, Diagnostic, Element, FuncDef,
@@ -1200,20 +1200,6 @@ def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
                   bulk=ctx)
     return parse_read(result, shown, ctx)
 
-
-_STORED_LINK = re.compile(rb"(?:\.{1,2}/|[\w.-]+/)*[\w.-]+\.(?:cir|sp|spi|spice|net|ckt|cdl|lib|inc|sub|mod)")
-
-
-def stored_link(head: bytes) -> str | None:
-    """The target path when a file's whole text is one relative path with a folder and a
-    netlist ending and no line break (how git writes a symbolic link where links are off).
-
-    >>> stored_link(b"xspice/brownout_dig.out.spice"), stored_link(b"* title\\nR1 a 0 1k\\n")
-    ('xspice/brownout_dig.out.spice', None)
-    """
-    if len(head) > 1024 or b"/" not in head or not _STORED_LINK.fullmatch(head):
-        return None
-    return head.decode("latin-1")
 
 
 def parse_text(text: str, path: str = "<text>", opts: ReadOptions | None = None) -> Netlist:

@@ -549,6 +549,15 @@ class _Reader:
 
     def _refuse(self, head: bytes, shown: str, at: Location | None) -> bool:
         """Say why a file is not netlist text (judged by its first bytes), or return False."""
+        link = stored_link(head) if at is not None else None
+        if link:  # (a top-level file like this is the parser's: ngspice reads it as a title)
+            self._diag("missing-include", at,
+                       f"{shown} holds only the path '{link}': a symbolic link checked out as "
+                       "a text file (git with core.symlinks off), so its target is not read",
+                       severity="warning", subject=link,
+                       expected="a working link (clone with symbolic links on), or include "
+                                "the target file")
+            return True
         encoding = foreign_encoding(head)
         if encoding is not None:
             self._diag("parse-error", at or Location(shown, 1, 1),
@@ -986,6 +995,20 @@ def expand_home(target: str) -> str:
         if home:
             return home.rstrip("/\\") + target[1:]
     return target
+
+_STORED_LINK = re.compile(rb"(?:\.{1,2}/|[\w.-]+/)*[\w.-]+\.(?:cir|sp|spi|spice|net|ckt|cdl|lib|inc|sub|mod)")
+
+
+def stored_link(head: bytes) -> str | None:
+    """The target path when a file's whole text is one relative path with a folder and a
+    netlist ending and no line break (how git writes a symbolic link where links are off).
+
+    >>> stored_link(b"xspice/brownout_dig.out.spice"), stored_link(b"* title\\nR1 a 0 1k\\n")
+    ('xspice/brownout_dig.out.spice', None)
+    """
+    if len(head) > 1024 or b"/" not in head or not _STORED_LINK.fullmatch(head):
+        return None
+    return head.decode("latin-1")
 
 
 _TEMPLATE_PATH = re.compile(r"\$\{|@|\{[A-Za-z_]")
