@@ -35,6 +35,7 @@ Fix
 from lintamp.circuit.kinds import TRANSISTORS
 from lintamp.connectivity.dc_paths import unread_cells
 from lintamp.findings import Severity
+from lintamp.rules import _parasitics
 
 NAME = "unused-port"
 CATEGORY = "references"
@@ -70,10 +71,13 @@ def check(ctx):
         library_power = (not ctx.design.in_deck(view)
                          and all(_power_pin(ctx, p) for p in unused))
         substrate = None if library_power else _substrate_pin(ctx, view, unused)
+        # magic names a port after its metal when the parent's wiring overlaps a piece of
+        # the cell's metal that carries no pin label: metal, not a pin of the design
+        metal = all(_parasitics.EXTRACTED_NAME.search(p) and "#" in p for p in unused)
         stranded = _stranded_nets(ctx, view, unused)
         yield ctx.finding(
             location=view.cell.location, subject=port, view=view, nets=unused[:50],
-            severity=Severity.INFO if library_power or substrate else None,
+            severity=Severity.INFO if library_power or substrate or metal else None,
             message=(f"port {port} of {view.label} is not connected to anything inside"
                      if len(unused) == 1 else
                      f"{len(unused)} ports of {view.label} are not connected to anything "
@@ -89,6 +93,10 @@ def check(ctx):
                             "from this port and is not reported again"
                             + (f" ({len(stranded)} such net(s))" if len(stranded) > 1 else "")]
                            if stranded else []),
+                         *(["the extractor named these ports after their metal (no pin "
+                            "label): pieces of the cell's metal that the parent's wiring "
+                            "overlaps, which nothing inside the cell connects to"]
+                           if metal else []),
                          *([f"{view.label} holds only devices, and every instance ties "
                             f"{'it' if len(unused) == 1 else 'them'} to the substrate or well "
                             f"the transistors sit in ({substrate}): the spare substrate pin "

@@ -455,6 +455,23 @@ def test_an_exported_blocks_well_pins_are_not_floating_bodies():
     assert "body-tie" in [f.rule for f in loud(bare)]
 
 
+def test_ports_an_extractor_named_after_their_metal_are_an_info_when_unused():
+    # magic writes a port named after the metal ('m2_1725_n286520#') where the parent's
+    # wiring overlaps unlabelled metal of the cell (shape from memory of magic output)
+    deck = """* NGSPICE file created from por.ext - technology: sky130A
+.subckt delay in out vdd vss m2_1725_n286520# m2_1729_n290386#
+X0 out in vss vss sky130_fd_pr__nfet_01v8 w=1 l=0.15
+X1 out in vdd vdd sky130_fd_pr__pfet_01v8 w=2 l=0.15
+.ends
+"""
+    found = [f for f in check_text(deck, "por.spice").findings if f.rule == "unused-port"]
+    assert [f.severity.label for f in found] == ["info"]
+    # a port with a designer's name stays a warning (common practice)
+    named = deck.replace("m2_1729_n290386#", "en")
+    found = [f for f in check_text(named, "por.spice").findings if f.rule == "unused-port"]
+    assert [f.severity.label for f in found] == ["warning"]
+
+
 # -- 6. include paths as ngspice reads them -------------------------------------------------
 def test_home_path_expands_as_ngspice_does(tmp_path, monkeypatch):
     # ngspice-39 reads '.include ~/m.inc' from $HOME (checked); $NAME it does not expand
