@@ -44,7 +44,10 @@ def check(ctx):
     for diag in _cascade.alone(ctx, NAME):
         finding = ctx.from_diagnostic(diag)
         name = diag.subject.strip("'\"")
-        if name and "/" not in name and "\\" not in name and "placeholder" not in diag.message:
+        if "symbolic link" in diag.message:  # one link file, however many decks include it
+            finding = replace(finding, values={**finding.values,
+                                               "library_root": diag.message.split(" ", 1)[0]})
+        elif name and "/" not in name and "\\" not in name and "placeholder" not in diag.message:
             # a bare file name is looked up in the include paths, the same for every deck
             # of a run: decks missing it share one cause (folded into one finding by the run)
             finding = replace(finding, values={**finding.values, "library_root": name})
