@@ -78,3 +78,49 @@ def plural(count: int, word: str) -> str:
     ('1 error', '0 warnings')
     """
     return f"{count} {word}" + ("" if count == 1 else "s")
+
+
+def edit_distance(a: str, b: str, limit: int) -> int:
+    """Edits from ``a`` to ``b`` (case-insensitive; an insertion, deletion, change or
+    swap of two neighbours counts one), or ``limit + 1`` once it must exceed ``limit``.
+
+    >>> edit_distance("vbias", "vbais", 3), edit_distance("dig", "ana", 2)
+    (1, 3)
+    """
+    a, b = a.lower(), b.lower()
+    if abs(len(a) - len(b)) > limit:
+        return limit + 1
+    before, previous = None, list(range(len(b) + 1))
+    for i, ca in enumerate(a, 1):
+        current = [i]
+        for j, cb in enumerate(b, 1):
+            d = min(previous[j] + 1, current[j - 1] + 1, previous[j - 1] + (ca != cb))
+            if before is not None and j > 1 and ca == b[j - 2] and a[i - 2] == cb:
+                d = min(d, before[j - 2] + 1)
+            current.append(d)
+        if min(current) > limit:
+            return limit + 1
+        before, previous = previous, current
+    return min(previous[-1], limit + 1)
+
+
+def near_miss(name: str, candidates) -> str | None:
+    """The candidate ``name`` is most likely a slip of: at most one edit per five
+    characters (at least one), closest first; None when nothing is that close.  A
+    name that differs in a whole word ('brownout_dig' for 'brownout_ana') is another
+    name, not a slip.
+
+    >>> near_miss("brownout_dig", ["brownout_ana"]), near_miss("vbais", ["vbias", "vb"])
+    (None, 'vbias')
+    """
+    if len(name) > 60:
+        return None  # a name longer than any real one has no match worth the search
+    limit = max(1, len(name) // 5)
+    best, best_d = None, limit + 1
+    for cand in candidates:
+        if cand.lower() == name.lower():
+            continue
+        d = edit_distance(name, cand, limit)
+        if d < best_d:
+            best, best_d = cand, d
+    return best

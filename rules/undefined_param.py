@@ -24,14 +24,13 @@ Fix
     correct the spelling.
 """
 
-import difflib
 import re
 
 from lintamp.circuit.design import visible_params
 from lintamp.circuit.values import BadExpression
 from lintamp.findings import Severity
 from lintamp.rules import _cascade
-from lintamp.text import excerpt
+from lintamp.text import excerpt, near_miss
 
 NAME = "undefined-param"
 CATEGORY = "syntax"
@@ -70,9 +69,8 @@ def check(ctx):
                 explanation=["the value stays unknown, so nothing that depends on it is computed"],
                 elements=[element.key] if element else [])
             continue
-        # a name longer than any real one has no close match worth the quadratic search
-        close = (difflib.get_close_matches(use.name, visible_params(use.cell), n=1)
-                 if use.cell and len(use.name) <= 60 else [])
+        close = ([m] if use.cell and (m := near_miss(use.name, visible_params(use.cell)))
+                 else [])
         if close:
             pass  # a near miss of a defined name is a slip: always an error
         elif use.symbolic_size or _bare_name(use):

@@ -27,14 +27,13 @@ Fix
     device name in ``[devices]``.
 """
 
-import difflib
 import re
 
 from lintamp.circuit.design import scopes
 from lintamp.findings import Related, Severity
 from lintamp.rulekit.context import forward_diagnostics
 from lintamp.rules import _cascade
-from lintamp.text import excerpt
+from lintamp.text import excerpt, near_miss
 
 NAME = "unknown-cell"
 CATEGORY = "references"
@@ -110,8 +109,7 @@ def check(ctx):
 def _name_finding(ctx, view, devs, visible, library):
     first = devs[0]
     model = first.element.model
-    # a name longer than any real one has no close match worth the quadratic search
-    close = difflib.get_close_matches(model, visible, n=1) if len(model) <= 60 else []
+    close = [m] if (m := near_miss(model, visible)) else []
     hint = f"; did you mean '{excerpt(close[0])}'?" if close else ""
     name, shown = excerpt(model), excerpt(first.display)
     times = f" ({len(devs)} instances)" if len(devs) > 1 else ""

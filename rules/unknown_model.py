@@ -23,12 +23,11 @@ Fix
     lives outside the project).
 """
 
-import difflib
 
 from lintamp.circuit.design import scopes
 from lintamp.findings import Severity
-from lintamp.text import excerpt
 from lintamp.netlist.statements import is_digital_primitive
+from lintamp.text import excerpt, near_miss
 
 NAME = "unknown-model"
 CATEGORY = "references"
@@ -54,8 +53,7 @@ def check(ctx):
             if is_digital_primitive(el):
                 continue  # its timing and I/O models live in the digital simulator's libraries
             names = [m for scope in scopes(view.cell) for m in scope.models]
-            # a name longer than any real one has no close match worth the quadratic search
-            close = difflib.get_close_matches(el.model, names, n=1) if len(el.model) <= 60 else []
+            close = [m] if (m := near_miss(el.model, names)) else []
             hint = f"; did you mean '{excerpt(close[0])}'?" if close else ""
             model = excerpt(el.model)
             polarity = f"; its type is guessed as {dev.kind} from the name" if dev.polarity_from == "name" else ""

@@ -784,3 +784,15 @@ def test_an_included_symbolic_link_stored_as_text_is_a_missing_include(tmp_path)
     deck.write_text("* tb\n.include dig.out.spice\nv1 a 0 1\nr1 a 0 1k\n.op\n.end\n")
     found = check_file(deck, Config()).findings
     assert [(f.rule, f.location.line) for f in found] == [("missing-include", 2)]
+
+
+def test_a_hint_names_a_slip_not_another_block():
+    # 'brownout_dig' is a block of its own beside 'brownout_ana', not a misspelling of
+    # it; 'brownout_anna' is one edit from it (common practice for suggestions)
+    deck = ("* top\n.subckt brownout_ana a b\nr1 a b 1k\n.ends\n"
+            "x1 n1 0 brownout_dig\nx2 n1 0 brownout_anna\nv1 n1 0 1\n.op\n.end\n")
+    messages = {f.subject: f.message for f in check_text(deck, "top.spice").findings
+                if f.rule == "unknown-cell"}
+    joined = " ".join(messages.values())
+    assert "did you mean 'brownout_ana'" in joined
+    assert joined.count("did you mean") == 1
