@@ -874,10 +874,18 @@ class _Reader:
                 self._outside(written, loc)
             return None
         if not quiet:
+            bare = "/" not in written and "\\" not in written
             self._diag("missing-include", loc,
                        f"include file '{excerpt(written)}' not found (looked beside "
                        f"{self.display(including)}" + (" and in the include paths" if self.opts.include_paths else "")
-                       + "); checking goes on without it", severity="warning", subject=written)
+                       + "); checking goes on without it", severity="warning", subject=written,
+                       # a bare library name is found through the simulator's search path
+                       # (ngspice-39, checked: the folders of 'set sourcepath', which a PDK's
+                       # .spiceinit sets)
+                       expected="the folder that holds it, given with --include-path "
+                                "(include-paths in the config)" + (
+                                    "; ngspice finds such a name through the folders of its "
+                                    "sourcepath, which a PDK's .spiceinit sets" if bare else ""))
         return None
 
     def _outside(self, target: str, loc: Location) -> None:
