@@ -18,10 +18,11 @@ Why it matters
 Example
     ::
 
-        .subckt inv A VGND VNB VPB VPWR Y
-        ...
+        .subckt buf in vdd vss vout
+        M1 vout in vss vss nch w=1u l=0.18u
+        M2 vout in vdd vdd pch w=2u l=0.18u
         .ends
-        X1 in out VPB VNB VPWR VGND inv     <- written in the order A Y VPB VNB VPWR VGND
+        x1 a vout vdd vss buf     <- written for the order in vout vdd vss
 
 Fix
     Write the nets in the order of the ``.subckt`` line (or regenerate the netlist
