@@ -179,7 +179,7 @@ def check(ctx):
             continue  # nothing else conducts DC at the drain: the connectivity rules report that
         if stage.role in NEEDS_SATURATION and dev.nodes[0] in numbers.ac_ground:
             continue  # drain held by a source: a device-characterisation bench, V_DS is the stimulus
-        problem = _problem(dev, stage.role, dop, margin, vce_min)
+        problem = _problem(dev, stage.role, dop, margin, vce_min, numbers.source)
         if problem is None or (problem[2].get("region") == "cutoff" and not judge_cutoff):
             continue
         message, steps, values = problem
@@ -201,7 +201,7 @@ def check(ctx):
                 "net that should turn it on")
 
 
-def _problem(dev, role, dop, margin, vce_min):
+def _problem(dev, role, dop, margin, vce_min, source="level1"):
     v = dop.values
     region = dop.region
     mos = dev.kind in MOS
@@ -233,7 +233,7 @@ def _problem(dev, role, dop, margin, vce_min):
         return (f"{role} device is {where}: |V_DS| = {si(vds, 'V')} against V_DSAT = {si(vdsat, 'V')} "
                 f"+ {si(margin, 'V')} margin",
                 [f"a {role} must stay saturated: |V_DS| >= V_DSAT + margin",
-                 f"|V_DS| = {si(vds, 'V')}, V_DSAT = V_GS - V_TH = {si(vdsat, 'V')}, headroom "
+                 f"|V_DS| = {si(vds, 'V')}, {_vdsat_words(source)} = {si(vdsat, 'V')}, headroom "
                  f"{si(vds - vdsat, 'V')}; margin {si(margin, 'V')} (threshold saturation-margin-v)"],
                 {"region": region, "vds_v": vds, "vdsat_v": vdsat, "margin_v": margin,
                  "headroom_v": vds - vdsat})
@@ -246,3 +246,12 @@ def _problem(dev, role, dop, margin, vce_min):
             [f"a {role} must stay forward-active: |V_CE| >= {si(vce_min, 'V')} (threshold bjt-vce-min-v)",
              f"|V_CE| = {si(vce, 'V')}, region {region}"],
             {"region": region, "vce_v": vce, "vce_min_v": vce_min})
+
+
+def _vdsat_words(source: str) -> str:
+    """What V_DSAT is, by where the operating point came from: level-1's square law
+    gives V_GS - V_TH; a BSIM-class model in ngspice or a simulator's table gives its
+    own (velocity saturation lowers it below V_GS - V_TH)."""
+    if source == "level1":
+        return "V_DSAT = V_GS - V_TH"
+    return "V_DSAT (ngspice's vdsat)" if source == "ngspice" else "V_DSAT (from the --op table)"

@@ -417,3 +417,20 @@ def test_without_the_flag_a_wrapper_around_bsim4_gets_no_made_up_numbers(tmp_pat
     imp = _run_cli(tmp_path, "impedance", str(path), "out")
     assert imp.returncode == 0, imp.stderr
     assert "level-1" not in imp.stdout and "by inspection" in imp.stdout, imp.stdout
+
+
+def test_device_region_says_whose_vdsat_it_compares(tmp_path):
+    # with ngspice's operating point V_DSAT is ngspice's vdsat (for BSIM below
+    # V_GS - V_TH); only lintamp's own level-1 solve may call it V_GS - V_TH
+    ng.require_ngspice()
+    fixture = Path(__file__).resolve().parent / "fixtures" / "rules" / "device-region" / "bad.sp"
+    deck = tmp_path / "region.sp"
+    deck.write_text(fixture.read_text())
+    own = _run_cli(tmp_path, "check", str(deck), "--format", "json")
+    theirs = _run_cli(tmp_path, "check", str(deck), "--format", "json", "--op-from", "ngspice")
+    import json as _json
+    def steps(run):
+        return " ".join(s for f in _json.loads(run.stdout)["findings"] if f["rule"] == "device-region"
+                        for s in f["explanation"])
+    assert "V_DSAT = V_GS - V_TH" in steps(own)
+    assert "ngspice's vdsat" in steps(theirs) and "V_GS - V_TH =" not in steps(theirs)
