@@ -305,6 +305,7 @@ def check_paths(paths: Iterable[str | Path], config=None, *, top: str | None = N
     report = decide(findings, pragmas, config, baseline)
     report.findings = cap_findings(fold_shared_libraries(report.findings))
     report.files = [_display(f) for f in files]
+    report.files_read = sorted({f for r in results for f in r.files_read})
     return report, errors
 
 

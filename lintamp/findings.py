@@ -156,7 +156,8 @@ class Report:
     """The result of a run: what the decision layer kept, in report order.
 
     ``findings`` is sorted by path, line, column, rule, subject; ``files`` are the
-    paths checked (as given, relative where the user gave them relative).
+    paths checked (as given, relative where the user gave them relative), ``files_read``
+    those and every file they include (what ``-o`` must never overwrite).
     ``baseline_gone`` lists fingerprints of baseline entries that no longer occur.
     """
 
@@ -166,6 +167,7 @@ class Report:
     baseline_gone: list[dict] = field(default_factory=list)
     baseline_matched: int = 0
     baseline_used: bool = False  # a baseline was applied (reporters then list baseline_gone)
+    files_read: list[str] = field(default_factory=list)  # every file read, includes too
 
     def count(self, severity: Severity) -> int:
         return sum(1 for f in self.findings if f.severity == severity)

@@ -198,7 +198,7 @@ def check_write_target(path: str | Path, *, protect: Iterable[str | Path] = ()) 
         for other in protect:
             try:
                 if _same_file(info, os.stat(other)):
-                    raise PathRefused(path, "it is a netlist being checked; not overwritten")
+                    raise PathRefused(path, "it is a netlist being checked or one it includes; not overwritten")
             except (OSError, ValueError) as exc:
                 if isinstance(exc, PathRefused):
                     raise

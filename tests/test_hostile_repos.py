@@ -645,3 +645,25 @@ def test_audit_has_checks_element_guard_and_a_cap_on_ports(tmp_path):
     proc = lintamp("audit", "many.sp", "--no-config", "--format", "json", cwd=root, timeout=30)
     data = json.loads(proc.stdout)
     assert len(data["ports"]) <= 32 and any("3000 ports found" in n for n in data["notes"])
+
+
+@pytest.mark.parametrize("option", ["-o", "--write-baseline"])
+def test_output_over_a_file_the_netlist_includes_is_refused(tmp_path, option):
+    # the include is the user's netlist as much as the deck is: never overwritten
+    root = project(tmp_path)
+    (root / "lib.sp").write_text("* library\n.subckt unit a b\nr1 a b 1k\n.ends\n")
+    (root / "deck.sp").write_text("* deck\n.include lib.sp\nv1 n 0 1\nx1 n 0 unit\n.op\n.end\n")
+    before = (root / "lib.sp").read_bytes()
+    proc = lintamp("check", "--no-cache", option, "lib.sp", "deck.sp", cwd=root)
+    one_line_error(proc, "one it includes")
+    assert (root / "lib.sp").read_bytes() == before
+
+
+def test_audit_output_over_an_included_file_is_refused(tmp_path):
+    root = project(tmp_path)
+    (root / "lib.sp").write_text("* library\n.subckt unit a b\nr1 a b 1k\n.ends\n")
+    (root / "deck.sp").write_text("* deck\n.include lib.sp\nv1 n 0 1\nx1 n 0 unit\n.op\n.end\n")
+    before = (root / "lib.sp").read_bytes()
+    proc = lintamp("audit", "deck.sp", "--format", "json", "-o", "lib.sp", cwd=root)
+    one_line_error(proc, "one it includes")
+    assert (root / "lib.sp").read_bytes() == before

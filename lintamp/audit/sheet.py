@@ -85,6 +85,7 @@ class Curve:
 class Sheet:
     data: dict
     curves: list[Curve]
+    files_read: list[str] = field(default_factory=list)  # the netlist and its includes
 
 
 @dataclass
@@ -274,7 +275,7 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
             data["ports"] = data["ports"] or [_port_stub(p) for p in ports]
         data["notes"] += [n for n in solves.notes if n not in data["notes"]]
     _attach_findings(data, block)
-    return Sheet(data, curves)
+    return Sheet(data, curves, files_read=list(netlist.files))
 
 
 def _sev(label: str):

@@ -138,7 +138,7 @@ def _audit(args, path, output, config, table, want_plots) -> int:
     if output is None:
         sys.stdout.write(text)
     else:
-        inputs = [path]  # the netlist checked is never overwritten
+        inputs = [path, *sheet.files_read]  # the netlist and its includes are never overwritten
         if args.format == "markdown":
             for key, payload in images.items():
                 write_atomically(output.parent / names[key], payload, inputs)

@@ -157,7 +157,7 @@ def run(args) -> int:
         from lintamp.baseline import write_baseline
         from lintamp.config import ConfigError
         try:  # never through a link, never over a netlist checked (lintamp.safe_paths)
-            write_baseline(baseline_out, report, protect=report.files)
+            write_baseline(baseline_out, report, protect=[*report.files, *report.files_read])
         except ConfigError as exc:
             raise UsageError(f"--write-baseline: {exc}") from None
     write_report(args, report, output)
@@ -181,7 +181,8 @@ def write_report(args, report, output: Path | None = None) -> None:
         emit(reporter_cls(stream, color=False, rules=all_rules(), tool_version=__version__,
                           counts=args.counts, summary=not args.quiet), report)
         try:  # never through a link, never over a netlist checked
-            write_atomic(output, stream.getvalue().encode("utf-8"), protect=report.files)
+            write_atomic(output, stream.getvalue().encode("utf-8"),
+                         protect=[*report.files, *report.files_read])
         except OSError as exc:
             raise UsageError(f"-o {args.output}: cannot write it ({exc.strerror or exc})") from None
         return
