@@ -39,11 +39,18 @@ TEMPLATE_LINE = re.compile(r"'(<%|%>|\{%|\{\{)")
 
 def check(ctx):
     template_lines = []
+    placeholders = []
+    exported = "kicad-eeschema" in ctx.netlist.cdl
     for finding in forward_diagnostics(ctx):
         if finding.rule == NAME and TEMPLATE_LINE.match(finding.message):
             template_lines.append(finding)  # one cause: the deck is a template
             continue
+        if exported and finding.rule == NAME and finding.message[:1].lower() == "u":
+            placeholders.append(finding)  # eSim's U cards: its converter writes them out
+            continue
         yield finding
+    if placeholders:
+        yield _schematic_export(ctx, placeholders)
     if template_lines:
         first = template_lines[0]
         yield ctx.finding(
@@ -55,3 +62,20 @@ def check(ctx):
             fix="check the netlist the flow writes from this template",
             values={"count": len(template_lines)},
             related=[Related(f.location, "template code") for f in template_lines[1:9]])
+
+
+def _schematic_export(ctx, found):
+    first = found[0]
+    converted = ctx.netlist.cdl.get("converted-deck")
+    return ctx.finding(
+        location=first.location, subject="schematic placeholders", severity=Severity.INFO,
+        message=f"{len(found)} U card(s) of a KiCad schematic netlist as eSim writes it: "
+                "placeholders for its models and plots, not SPICE",
+        explanation=["eSim's converter turns these U cards into XSPICE models and plot "
+                     "commands and adds the .sub files of the subcircuits; the converted "
+                     "deck is what ngspice runs"
+                     + (f" ({converted[0]})" if converted else "")],
+        fix=(f"check {converted[0]}" if converted else "check the deck eSim's converter writes "
+             "(<name>.cir.out)"),
+        values={"count": len(found)},
+        related=[Related(f.location, "placeholder card") for f in found[1:9]])

@@ -89,6 +89,13 @@ def check(ctx):
         if incomplete:
             yield _consequence_finding(ctx, view, names, incomplete=True)
             continue
+        subs = set(ctx.netlist.cdl.get("kicad-eeschema", ()))
+        beside = {n: d for n, d in names.items() if n in subs}
+        if beside:  # eSim's converter includes <name>.sub for these
+            yield _converter_finding(ctx, view, beside)
+            names = {n: d for n, d in names.items() if n not in beside}
+            if not names:
+                continue
         from_pdk = {n: d for n, d in names.items() if n.startswith(PDK_LIBRARY_PREFIXES)}
         if from_pdk:
             yield _consequence_finding(ctx, view, from_pdk, incomplete=False)
@@ -104,6 +111,20 @@ def check(ctx):
     for view, devs in in_library.values():
         visible = [c for scope in scopes(view.cell) for c in scope.cells]
         yield _name_finding(ctx, view, devs, visible, True)
+
+
+def _converter_finding(ctx, view, names):
+    first = min((d for devs in names.values() for d in devs), key=lambda d: d.location.line)
+    shown = ", ".join(f"{n}.sub" for n in sorted(names)[:6])
+    return ctx.finding(
+        location=first.location, subject="subcircuits of the converter", view=view,
+        severity=Severity.INFO, elements=sorted({d.name for devs in names.values() for d in devs})[:50],
+        message=f"{len(names)} subcircuit(s) come from .sub files beside this schematic netlist "
+                f"({shown}), which eSim's converter includes",
+        explanation=["a KiCad schematic netlist as eSim writes it leaves its subcircuits to "
+                     "the .sub files of the folder; the converted deck (<name>.cir.out) "
+                     "includes them"],
+        fix="check the converted deck", values={"count": len(names)})
 
 
 def _name_finding(ctx, view, devs, visible, library):

@@ -796,3 +796,27 @@ def test_a_hint_names_a_slip_not_another_block():
     joined = " ".join(messages.values())
     assert "did you mean 'brownout_ana'" in joined
     assert joined.count("did you mean") == 1
+
+
+def test_a_kicad_schematic_netlist_as_esim_writes_it_is_read_for_what_it_is(tmp_path):
+    # eSim (KiCad EESchema netlist): U cards are its plot and model placeholders and
+    # subcircuits come from .sub files beside it, which its converter includes in
+    # <name>.cir.out (shape from memory of eSim projects); ngspice-39 reads U as an RC line
+    from lintamp.api import check_file
+    from lintamp.config import Config
+    (tmp_path / "amp.cir").write_text(
+        "* /home/user/eSim-Workspace/amp/amp.cir\n\n"
+        "* EESchema Netlist Version 1.1 (Spice format) creation date: Mon Jan  6 10:00:00 2025\n\n"
+        "* Sheet Name: /\nv1 in GND sine(0 0.1 1k)\nR1 in Net-_X1-Pad2_ 10k\n"
+        "X1 GND Net-_X1-Pad2_ out vcc vee opamp\nR2 out Net-_X1-Pad2_ 100k\nU1 out plot_v1\n.end\n")
+    (tmp_path / "opamp.sub").write_text("* Subcircuit opamp\n.subckt opamp p n o vp vn\n"
+                                       "e1 o 0 p n 1e5\n.ends opamp\n")
+    (tmp_path / "amp.cir.out").write_text("* amp\n.include opamp.sub\n.end\n")
+    found = check_file(tmp_path / "amp.cir", Config()).findings
+    assert sorted((f.rule, f.severity.label) for f in found
+                  if f.rule in ("parse-error", "unknown-cell")) == [("parse-error", "info"),
+                                                                    ("unknown-cell", "info")]
+    # the same cards without the schematic header are errors (a deck ngspice refuses)
+    (tmp_path / "plain.cir").write_text((tmp_path / "amp.cir").read_text().replace("EESchema", "Other"))
+    found = check_file(tmp_path / "plain.cir", Config()).findings
+    assert {f.severity.label for f in found if f.rule in ("parse-error", "unknown-cell")} == {"error"}

@@ -1198,7 +1198,20 @@ def _parse_file(path: Path, opts: ReadOptions) -> Netlist:
         return netlist
     result = read(path, opts, title=not is_fragment(first), sink=ctx.card, reading=ctx.reading,
                   bulk=ctx)
-    return parse_read(result, shown, ctx)
+    netlist = parse_read(result, shown, ctx)
+    if _SCHEMATIC_EXPORT in head[:2048]:
+        # KiCad's schematic netlist as eSim writes it before its converter: U cards stand
+        # for eSim's models and plots, and subcircuits come from .sub files beside it,
+        # which the converter includes in <name>.cir.out (the deck ngspice runs)
+        netlist.cdl["kicad-eeschema"] = sorted(
+            p.stem.lower() for p in path.parent.glob("*.sub") if p.is_file())[:200]
+        converted = path.with_name(path.name + ".out")
+        if converted.is_file():
+            netlist.cdl["converted-deck"] = [_display(converted, opts)]
+    return netlist
+
+
+_SCHEMATIC_EXPORT = b"EESchema Netlist"
 
 
 
