@@ -380,3 +380,24 @@ lt tank vcc 5.6u
 def test_an_oscillator_tank_behind_a_capacitor_is_no_load():
     findings = check_deck(LC_TANK)
     assert [f for f in findings if f.rule == "unbuffered-output"] == []
+
+
+def test_a_sensor_current_into_a_sense_resistor_is_no_unbuffered_output():
+    # a photodiode model (a G source for the photocurrent, the junction beside it) into
+    # a 1 ohm monitor resistor whose voltage the testbench plots: a current measured by
+    # design, not a voltage stage losing its signal (common practice for current sensing)
+    deck = ("* photodiode monitor\n.subckt pin input cathode anode resp=0.5\n"
+            "gin dk da input 0 {resp}\nrin input 0 1g\ncin input 0 {resp}\ndpn da dk pnd\n"
+            "ra anode da 0.001ohm\nrk cathode dk 0.001ohm\n"
+            ".model pnd d is=0.974p rs=0.1 n=1.986 cjo=99.2p vj=0.455 m=0.418 tt=500n\n.ends\n"
+            "vbias psu 0 10\nvlight input 0 2m\nxpin input cathode anode pin resp=0.7\n"
+            "rmon anode 0 1\nrq psu cathode 1k\n.dc vlight 0 10m 0.01m\n"
+            ".control\nplot v(anode)\n.endc\n.end\n")
+    assert "unbuffered-output" not in {rule for rule, _ in rules_of(check_deck(deck))}
+    # a common-source stage plotted, AC coupled into 32 ohm, is still judged (Razavi ch. 3;
+    # the unbuffered-output fixture's headphone driver)
+    stage = ("* cs into a heavy load\n.model nch nmos level=1 vto=0.5 kp=200u gamma=0.5 phi=0.7 "
+             "lambda=0.1\nvdd vdd 0 3\nvin in 0 dc 0.75 ac 1\nrd vdd out 10k\n"
+             "m1 out in 0 0 nch w=10u l=1u\ncc out hp 220u\nrhp hp 0 32\n"
+             ".ac dec 10 1k 1meg\n.print ac v(out)\n.end\n")
+    assert ("unbuffered-output", "out") in rules_of(check_deck(stage))

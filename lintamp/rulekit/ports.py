@@ -347,10 +347,14 @@ class PortFinder:
         roles = [self.roles.get(d.name) for d in drivers]
         return not others and all(r is not None and r.role in CURRENT_OUTPUT_ROLES for r in roles)
 
-    def has_active_driver(self, port: PortNet, hops: int = 2, any_terminal: bool = False) -> bool:
+    def has_active_driver(self, port: PortNet, hops: int = 2, any_terminal: bool = False,
+                          voltage_mode: bool = False) -> bool:
         """A transistor or controlled source on the net, or a resistor or two away
         (an op amp's output resistor), not counting the load elements.  With
-        ``any_terminal`` a gate, base or control input counts too (a stage input)."""
+        ``any_terminal`` a gate, base or control input counts too (a stage input); with
+        ``voltage_mode`` a controlled current source does not (a sensor's signal
+        current, such as a photodiode model's G source, is no voltage stage)."""
+        controlled = ("vcvs", "ccvs") if voltage_mode else ("vcvs", "vccs", "cccs", "ccvs")
         skip = set(port.detach)
         frontier, seen = {port.net}, {port.net}
         for _ in range(hops + 1):
@@ -362,7 +366,7 @@ class PortFinder:
                     if dev.kind in TRANSISTORS and (
                             any_terminal or net in (dev.nodes[0], dev.nodes[2])):
                         return True
-                    if dev.kind in ("vcvs", "vccs", "cccs", "ccvs") and (any_terminal or net in dev.nodes[:2]):
+                    if dev.kind in controlled and (any_terminal or net in dev.nodes[:2]):
                         return True
                     if dev.kind in ("resistor", "inductor", "capacitor"):  # a coupling capacitor too
                         nxt.update(n for n in dev.nodes[:2] if n not in seen and n not in self.ac_ground)
