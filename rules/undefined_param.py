@@ -69,8 +69,10 @@ def check(ctx):
                 explanation=["the value stays unknown, so nothing that depends on it is computed"],
                 elements=[element.key] if element else [])
             continue
-        close = ([m] if use.cell and (m := near_miss(use.name, visible_params(use.cell)))
-                 else [])
+        # the parameter being defined is no candidate ('.param speed1 = {speed}')
+        defining = use.key[len(".param "):].lower() if use.key.startswith(".param ") else None
+        close = ([m] if use.cell and (m := near_miss(
+            use.name, [p for p in visible_params(use.cell) if p.lower() != defining])) else [])
         if close:
             pass  # a near miss of a defined name is a slip: always an error
         elif use.symbolic_size or _bare_name(use):

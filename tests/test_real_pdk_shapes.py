@@ -820,3 +820,12 @@ def test_a_kicad_schematic_netlist_as_esim_writes_it_is_read_for_what_it_is(tmp_
     (tmp_path / "plain.cir").write_text((tmp_path / "amp.cir").read_text().replace("EESchema", "Other"))
     found = check_file(tmp_path / "plain.cir", Config()).findings
     assert {f.severity.label for f in found if f.rule in ("parse-error", "unknown-cell")} == {"error"}
+
+
+def test_a_library_parameter_is_not_offered_itself_as_a_hint():
+    # a vendor's cell library takes 'speed' from the deck that includes it; the
+    # parameter being defined ('speed1') is no spelling of it (common practice)
+    lib = "* logic library\n.subckt inv1 a y vcc vgnd speed1={speed}\nr1 a y {speed1}\n.ends\n"
+    found = [f for f in check_text(lib, "logic.lib").findings if f.rule == "undefined-param"]
+    assert [f.severity.label for f in found] == ["info"]
+    assert "did you mean" not in found[0].message

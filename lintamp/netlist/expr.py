@@ -511,8 +511,8 @@ BUILTIN_FUNCTIONS: dict[str, tuple[int, int | None, Callable, str]] = {
     "ceil": (1, 1, math.ceil, "ngspice"),
     "pow": (2, 2, _pow_c, "ngspice"),
     "pwr": (2, 2, _pwr, "ngspice"),
-    "min": (2, None, min, "ngspice"),
-    "max": (2, None, max, "ngspice"),
+    "min": (2, 2, min, "ngspice"),
+    "max": (2, 2, max, "ngspice"),
     "sgn": (1, 1, _sgn, "ngspice"),
     "gauss": (2, 4, _nominal, "ngspice"),
     "agauss": (2, 4, _nominal, "ngspice"),
@@ -528,6 +528,13 @@ BUILTIN_FUNCTIONS: dict[str, tuple[int, int | None, Callable, str]] = {
     "hypot": (2, 2, math.hypot, "extension"),
 }
 _LAZY_FUNCTIONS = frozenset({"if", "ternary_fcn"})
+# what ngspice-39 makes of a slip in the operand count of min and max (checked: max(0.5)
+# = 1, min(7) = 1, max(2, 7, 3) = 3, four operands a syntax error), said in the error
+_NGSPICE_READS = {
+    (f, 1): f" (ngspice-39 takes the missing operand as 1: {f}(x) is {f}(x, 1))" for f in ("min", "max")
+} | {
+    (f, 3): f" (ngspice-39 drops the middle one: {f}(a, b, c) is {f}(a, c))" for f in ("min", "max")
+}
 
 
 # -------------------------------------------------------------------------- grammar
@@ -554,7 +561,8 @@ def _make_call(text: str, loc: int, tokens: pp.ParseResults) -> _Node:
         wanted = str(fewest) if fewest == most else (
             f"at least {fewest}" if most is None else f"{fewest} to {most}"
         )
-        raise ExprError(f"{name}() takes {wanted} argument(s), {len(args)} given", head.offset)
+        raise ExprError(f"{name}() takes {wanted} argument(s), {len(args)} given"
+                        + _NGSPICE_READS.get((name, min(len(args), 3)), ""), head.offset)
     if name in _LAZY_FUNCTIONS:
         return _Ternary(((args[0], args[1]),), args[2])
     return _BuiltinCall(name, function, args, head.offset)
