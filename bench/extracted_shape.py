@@ -256,8 +256,12 @@ def extracted(n_elements: int, seed: int = 1, transistors: int = 300, core: str 
         all_nodes.extend(nodes)
         wire_of_node.extend([k] * len(nodes))
     # capacitance to the substrate on segments
-    for _ in range(n_ground):
-        body.append(f"{names.element('c')} {rng.choice(all_nodes)} vss {_fmt_farad(rng)}")
+    made = 0
+    while made < n_ground:
+        node = rng.choice(all_nodes)
+        if node != "vss":
+            body.append(f"{names.element('c')} {node} vss {_fmt_farad(rng)}")
+            made += 1
     # coupling between wires that run side by side: the wires run in bundles of
     # four, each couples to the others of its bundle, a node to the node beside it
     # (the coupling stays local, as in a layout: coupling between any wires made
@@ -297,22 +301,23 @@ def extracted(n_elements: int, seed: int = 1, transistors: int = 300, core: str 
         if rng.random() < 0.6 and made < n_stub:
             body.append(f"{names.element('c')} {end} vss {_fmt_farad(rng)}")
             made += 1
-    # floating metal: small pieces held only by coupling capacitors
+    # floating metal: small pieces (a few nodes in series) held only by coupling
+    # capacitors to the wires they lie over, at least one on every node
     made = 0
-    while made < n_float:
-        piece = [names.net(rng.choice(("m2", "m3", "m4")))]
+    while n_float - made >= 1:
+        size = rng.randrange(1, 5)
+        while size > 1 and made + 2 * size - 1 > n_float:
+            size -= 1
         anchor = rng.randrange(n_all)  # the wires it lies over
-        for _ in range(rng.randrange(0, 4)):
-            if made >= n_float:
-                break
+        piece = [names.net(rng.choice(("m2", "m3", "m4")))]
+        for _ in range(size - 1):
             new = names.net("m2")
             body.append(f"{names.element('r')} {piece[-1]} {new} {_fmt_ohm(rng)}")
             piece.append(new)
             made += 1
-        for node in piece:
-            for _ in range(rng.randrange(1, 3)):
-                if made >= n_float:
-                    break
+        for k, node in enumerate(piece):
+            spare = n_float - made - (len(piece) - k)  # cards left beyond one per node
+            for _ in range(1 + (1 if spare > 0 and rng.random() < 0.5 else 0)):
                 near = all_nodes[min(n_all - 1, anchor + rng.randint(-3, 3))]
                 body.append(f"{names.element('c')} {node} {near} {_fmt_farad(rng, 0.005, 0.3)}")
                 made += 1
