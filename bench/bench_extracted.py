@@ -36,7 +36,8 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
 sys.path.insert(0, str(HERE))
 
-from bench_scale import CHECK, CONNECTIVITY, fmt_mb, fmt_s, median_run, paired, timed  # noqa: E402
+from bench_scale import (CHECK, CONNECTIVITY, fmt_mb, fmt_s, median_run, paired,  # noqa: E402
+                         print_table, timed)
 from extracted_shape import extracted, write  # noqa: E402
 
 OP_TIMEOUT_S = 1800
@@ -110,10 +111,7 @@ def main(argv=None) -> int:
             rows.append((f"growth {big_n:,}/{small_n:,}, {label}: time / memory",
                          f"{t_ratio:.2f} / {m_ratio:.2f}", f"<= {grow * 1.1:.0f}", "", ""))
 
-    header = ("figure", "lintamp", "target", "ngspice-39 read", "note")
-    widths = [max(len(str(row[i])) for row in rows + [header]) for i in range(len(header))]
-    for row in [header, tuple("-" * w for w in widths), *rows]:
-        print("  ".join(str(c).ljust(w) for c, w in zip(row, widths)).rstrip())
+    print_table(("figure", "lintamp", "target", "ngspice-39 read", "note"), rows)
     print(f"\nmedian of {args.runs} run(s), each a fresh process; {os.cpu_count()} cores; "
           f"python {sys.version.split()[0]}; deck seed {args.seed}")
     return 0
