@@ -111,8 +111,8 @@ def repeated_port(ctx, view, placeholder, port, count):
     """The later listing of a port named twice on the ``.subckt`` line."""
     first = view.ports.index(port)
     second = view.ports.index(placeholder)
-    split = [dev for parent in ctx.cells() for dev in parent.instances()
-             if dev.subcell is view and len(dev.nets) > second
+    split = [dev for _, dev in _users(ctx).get(id(view), [])
+             if len(dev.nets) > second
              and dev.nets[first] != dev.nets[second]]
     steps = [f"pins {first + 1} and {second + 1} of {view.label} are both named {port}; "
              f"ngspice-39 joins the body's {port} to pin {first + 1} and leaves pin "
@@ -136,21 +136,29 @@ def repeated_port(ctx, view, placeholder, port, count):
         values={"instances": count, "pin": second + 1, "first_pin": first + 1})
 
 
+def _users(ctx) -> dict[int, list]:
+    """id(cell view) -> [(parent view, instance)], every instance of every cell, once."""
+    def build():
+        out: dict[int, list] = {}
+        for parent in ctx.cells():
+            for dev in parent.instances():
+                out.setdefault(id(dev.subcell), []).append((parent, dev))
+        return out
+    return ctx.memo(("unused-port", "users"), build)
+
+
 def _stranded_nets(ctx, view, unused) -> list[str]:
     """'clk_out, on x1 pin clk_out, has no other terminal', per parent net that an
     unused port leaves with nothing else."""
     positions = [i for i, p in enumerate(view.ports) if p in unused]
     out = []
-    for parent in ctx.cells():
-        for dev in parent.instances():
-            if dev.subcell is not view:
-                continue
-            for pos in positions:
-                if pos < len(dev.nets):
-                    net = dev.nets[pos]
-                    if len(parent.net_terminals.get(net, ())) == 1 and not parent.is_external(net):
-                        out.append(f"{net}, on {dev.display} pin {view.ports[pos]}, has no other "
-                                   "terminal")
+    for parent, dev in _users(ctx).get(id(view), [])[:1000]:
+        for pos in positions:
+            if pos < len(dev.nets):
+                net = dev.nets[pos]
+                if parent.net_terminals.degree(net) == 1 and not parent.is_external(net):
+                    out.append(f"{net}, on {dev.display} pin {view.ports[pos]}, has no other "
+                               "terminal")
     return out
 
 
@@ -164,8 +172,7 @@ def _substrate_pin(ctx, view, unused) -> str | None:
     parent, directly or one instance down ("net 1, the body of M$1 in X$4")."""
     if any(d.kind == "instance" for d in view.devices):
         return None
-    users = [(parent, dev) for parent in ctx.cells() for dev in parent.instances()
-             if dev.subcell is view]
+    users = _users(ctx).get(id(view), [])
     if not users:
         return None
     positions = [i for i, p in enumerate(view.ports) if p in unused]
