@@ -12,9 +12,11 @@ note); the growth from the small deck to the big one.  Each figure is the median
 of ``--runs`` fresh processes, peak memory read with ``os.wait4`` (helpers shared
 with ``bench_scale.py``).
 
-The full run also times ngspice-39's ``.op`` on the big deck, once (minutes: its
-reordering of the matrix dominates), with ``.option rshunt`` so that the floating
-metal leaves no singular matrix; ``--no-op`` leaves it out.  Other baselines hook
+The full run also times ngspice-39's ``.op`` on the big deck, once, with ``.option
+rshunt`` so that the floating metal leaves no singular matrix; ``--no-op`` leaves it
+out.  Its reordering of the matrix dominates: 34 s on the 100k deck (21 s of it
+reordering), and the 1M deck did not finish in 40 minutes on the shared 2-core
+machine, so past :data:`OP_TIMEOUT_S` the row shows '-'.  Other baselines hook
 in through :data:`BASELINES` (a name, and a function of the deck's path giving
 ``(wall_s, peak_bytes)`` or None).
 
