@@ -289,7 +289,7 @@ def extracted(n_elements: int, seed: int = 1, transistors: int = 300, core: str 
     while couples < n_couple and n_all > 1:
         i = rng.randrange(n_all)
         other = beside(i)
-        if other:
+        if other and other != all_nodes[i]:  # (never a capacitor from a net to itself)
             body.append(f"{names.element('c')} {all_nodes[i]} {other} {_fmt_farad(rng, 0.005, 0.5)}")
             couples += 1
     # dangling stubs: a resistor to a dead end, or a resistor and a capacitor to the substrate
