@@ -11,6 +11,7 @@ import numpy as np
 import pytest
 
 from lintamp.circuit.flat import FlatCircuit, FlatDevice, SourceValues
+from lintamp.engine.engine_kinds import OPEN_OHM
 from lintamp.engine.mna import compile_circuit
 from lintamp.engine.operating_point import solve_operating_point
 from lintamp.engine.reduce import reduce_for_dc
@@ -119,3 +120,65 @@ def test_dangling_stub_and_floating_metal_at_ac_against_formula():
     c_series = 1e-12 * 3e-12 / 4e-12
     expected = 1 / (1 / 1e3 + 2j * np.pi * freq_hz * c_series)
     assert abs(z - expected) <= 1e-9 * abs(expected)
+
+
+def _amplifier_with_wires(seed: int) -> FlatCircuit:
+    """Common-source stages on random RC wiring (a scenario of our own)."""
+    from lintamp.circuit.flat import ModelCard
+    rng = np.random.default_rng(seed)
+    c = FlatCircuit()
+    model = ModelCard("nch", "nmos", {"vto": 0.5, "kp": 2e-4, "lambda": 0.1, "tox": 9e-9,
+                                      "cgso": 2e-10, "cgdo": 2e-10})
+    vdd, vin = c.net("vdd"), c.net("vin")
+    c.add(FlatDevice("vdd", "vsource", (vdd, 0), LOC, source=SourceValues(dc=3.0)))
+    c.add(FlatDevice("vin", "vsource", (vin, 0), LOC, source=SourceValues(dc=1.0, ac_mag=1.0)))
+    wires = [c.net(f"w{k}") for k in range(400)]  # above the dense limit
+    for k, w in enumerate(wires):
+        prev = wires[k - 1] if k else vin
+        c.add(FlatDevice(f"rw{k}", "resistor", (prev, w), LOC, value=float(rng.uniform(1, 50))))
+        if k % 50 == 49:  # a bleed resistor: no piece of wire floats at DC whatever is detached
+            c.add(FlatDevice(f"rb{k}", "resistor", (w, 0), LOC, value=1e5))
+        c.add(FlatDevice(f"cw{k}", "capacitor", (w, wires[int(rng.integers(0, 400))] if k % 3 else 0), LOC,
+                         value=float(rng.uniform(1e-15, 1e-13))))
+    for j in range(4):
+        d = c.net(f"d{j}")
+        c.add(FlatDevice(f"rd{j}", "resistor", (vdd, d), LOC, value=10e3))
+        c.add(FlatDevice(f"m{j}", "nmos", (d, wires[90 * j + 7], 0, 0), LOC, model=model,
+                         params={"w": 10e-6, "l": 1e-6}))
+        c.add(FlatDevice(f"cl{j}", "capacitor", (d, 0), LOC, value=1e-13))
+    return c
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_variants_from_one_factor_equal_their_own_factorisation(seed, monkeypatch):
+    # linear algebra: Y' = Y + U V^T solved through Y's LU (Woodbury) against an LU of Y' itself
+    from lintamp.engine import shared_factor, small_signal
+    c = _amplifier_with_wires(seed)
+    op = solve_operating_point(c)
+    variants = [dict(), dict(detach=("cl1", "rd2")), dict(detach=("m0",)), dict(grounded=("d1",)),
+                dict(detach=("vin",)), dict(driven="w40", detach=("rw41",)), dict(grounded=("w10", "w90"))]
+    nets = ["d0", "d1", "d3", "w7", "w55", "w399"]
+    for freq_hz in (0.0, 1e6, 3e8):
+        for kwargs in variants:
+            monkeypatch.setattr(small_signal, "SHARED_FACTOR_MIN", 10**9)
+            own = ImpedanceSolver(c, op, freq_hz, **kwargs)
+            monkeypatch.setattr(small_signal, "SHARED_FACTOR_MIN", 0)
+            shared_factor.clear()
+            ImpedanceSolver(c, op, freq_hz)  # the base, factored once
+            variant = ImpedanceSolver(c, op, freq_hz, **kwargs)
+            assert isinstance(variant._lu, shared_factor.VariantFactor)
+            for net in nets:
+                z_own, z_var = own.z(net), variant.z(net)
+                if abs(z_own) >= OPEN_OHM:  # an open node: any value past the limit means open
+                    assert abs(z_var) >= OPEN_OHM
+                    continue
+                assert abs(z_var - z_own) <= 1e-9 * max(abs(z_own), 1e-9), (freq_hz, kwargs, net)
+            if "driven" in kwargs:
+                for net in nets:
+                    assert abs(variant.gain_to(net) - own.gain_to(net)) <= 1e-9 * abs(own.gain_to(net)) + 1e-12
+            for name in ("rd0", "m3", "cw5"):
+                sol_own, sol_var = own.solve_injection("d0"), variant.solve_injection("d0")
+                i_own = own.element_current(sol_own, name, "d0")
+                i_var = variant.element_current(sol_var, name, "d0")
+                assert abs(i_var - i_own) <= 1e-9 * max(abs(i_own), 1e-12)
+    shared_factor.clear()
