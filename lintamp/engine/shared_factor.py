@@ -39,6 +39,7 @@ class SharedBase:
         self.matrix = matrix
         self.lu = lu
         self._abs = None
+        self.notes: list[str] = []
 
     def abs_matrix(self):
         if self._abs is None:
@@ -56,9 +57,7 @@ def base_for(key: tuple, build) -> SharedBase | None:
         base = _BASES.pop(key)
         _BASES[key] = base  # most recently used last
         return base
-    base = build()
-    if base is None:
-        return None
+    base = build()  # None is kept too: a network that cannot serve is not tried again
     while len(_BASES) >= BASES_KEPT:
         _BASES.pop(next(iter(_BASES)))
     _BASES[key] = base

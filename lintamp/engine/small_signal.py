@@ -144,6 +144,7 @@ class ImpedanceSolver:
             return False
         cc = base.compiled
         self.compiled = cc
+        self.notes = list(base.notes)
         self._device_owner = base.device_owner
         removed = set()
         for name in self.detach:
@@ -206,12 +207,14 @@ class ImpedanceSolver:
         matrix = assemble(rows, cols, vals, cc.size, dtype=complex)
         if isinstance(matrix, np.ndarray):
             return None
-        try:
-            lu = factor(matrix, PERMC_SPEC, eager=True)
-        except RuntimeError:
-            return None  # singular as a whole: each variant is factored on its own
+        self.notes = []
+        try:  # singular as a whole (floating metal at DC): shunted once, with the note
+            matrix, lu = self._factor_own(matrix)
+        except SmallSignalError:
+            return None
         base = SharedBase(self.circuit, self.op, cc, rows, cols, vals, owner, dict(self._device_owner),
                           matrix, lu)
+        base.notes = list(self.notes)
         owners_of: dict[str, list[int]] = {}
         for k, name in enumerate(cc.element_names):
             head, _, tail = name.rpartition(":r")
