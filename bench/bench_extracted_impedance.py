@@ -22,7 +22,6 @@ from __future__ import annotations
 
 import argparse
 import os
-import resource
 import subprocess
 import sys
 import tempfile
@@ -48,19 +47,22 @@ def _env():
 
 
 def run_child(argv: list[str], timeout_s: float) -> tuple[float | None, float | None, str]:
-    """(seconds, peak MB, last line of output) of one fresh process; None on a timeout."""
-    before = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    """(seconds, peak MB, last line of output) of one fresh process; None on a timeout.
+    The peak is the child's maximum resident set as GNU time reports it."""
     start = time.perf_counter()
     try:
-        proc = subprocess.run(argv, capture_output=True, text=True, timeout=timeout_s, env=_env(), cwd=ROOT)
+        proc = subprocess.run(["/usr/bin/time", "-f", "peak-kb %M", *argv], capture_output=True,
+                              text=True, timeout=timeout_s, env=_env(), cwd=ROOT)
     except subprocess.TimeoutExpired:
         return None, None, f"timed out after {timeout_s:.0f} s"
     seconds = time.perf_counter() - start
-    peak_kb = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-    # ru_maxrss of children is the largest so far: a smaller child after a larger one reads
-    # as the larger, so the sizes run smallest first
-    peak_mb = peak_kb / 1024 if peak_kb > before else None
-    lines = (proc.stdout + proc.stderr).strip().splitlines()
+    peak_mb = None
+    lines = []
+    for line in (proc.stdout + proc.stderr).strip().splitlines():
+        if line.startswith("peak-kb "):
+            peak_mb = int(line.split()[1]) / 1024
+        else:
+            lines.append(line)
     return seconds, peak_mb, lines[-1] if lines else ""
 
 

@@ -24,7 +24,7 @@ import numpy as np
 BACKWARD_ERROR_MAX = 1e-10  # componentwise |Y'x - b| / (|Y'||x| + |b|) (Oettli-Prager)
 SMALL_CONDITION_MAX = 1e10  # of I + V^T Z; above, the update would lose too many digits
 MAX_CHANGED_ROWS = 400  # past this a factorisation of the variant is cheaper
-BASES_KEPT = 3  # (circuit, operating point, frequency) bases held; each is a full LU
+BASES_KEPT = 2  # (circuit, operating point, frequency) bases held; each is a full LU
 
 
 class SharedBase:
@@ -71,28 +71,27 @@ def clear() -> None:
 class VariantFactor:
     """Solves ``Y' x = b`` for ``Y' = Y + delta`` from the base's LU (see the module text).
 
-    ``delta`` is a sparse matrix (CSR) whose nonzero rows are the changed rows; ``matrix``
-    is ``Y'`` itself, used for the backward-error check and for the fallback
-    factorisation ``refactor(singular=False)`` (``singular=True``: ``Y'`` is known to be
-    singular, ``det(Y') = det(Y) det(I + V^T Z)``).
+    ``delta`` is a sparse matrix (CSR) whose nonzero rows are the changed rows (None: no
+    change).  ``Y'`` is never assembled unless ``refactor(singular=False)`` is called for
+    the fallback factorisation (``singular=True``: ``Y'`` is known to be singular,
+    ``det(Y') = det(Y) det(I + V^T Z)``).
     """
 
-    def __init__(self, base: SharedBase, delta, matrix, refactor):
+    def __init__(self, base: SharedBase, delta, refactor):
         self.base = base
-        self.matrix = matrix
+        self.delta = delta
         self._refactor = refactor
         self._own = None
-        self._abs = base.abs_matrix() if matrix is base.matrix else None
-        changed = np.unique(delta.nonzero()[0])
+        self._z = None
+        self.shape = base.matrix.shape
+        changed = np.unique(delta.nonzero()[0]) if delta is not None else np.zeros(0, np.int64)
         self.changed_rows = changed
-        self.shape = matrix.shape
         if len(changed) == 0:
-            self._z = None
             return
         if len(changed) > MAX_CHANGED_ROWS:
             self._own = refactor()
             return
-        size = matrix.shape[0]
+        size = self.shape[0]
         u = np.zeros((size, len(changed)), dtype=complex)
         u[changed, np.arange(len(changed))] = 1.0
         self._z = base.lu.solve(u)  # Y^-1 U
@@ -120,12 +119,16 @@ class VariantFactor:
         return x
 
     def _trusted(self, x, rhs) -> bool:
+        """Componentwise backward error of ``x``; in the changed rows ``|Y| + |delta|`` bounds
+        ``|Y'|`` (Y' itself is never assembled)."""
         if not np.all(np.isfinite(x)):
             return False
-        if self._abs is None:
-            self._abs = abs(self.matrix)
-        residual = np.abs(self.matrix @ x - rhs)
-        scale = self._abs @ np.abs(x) + np.abs(rhs)
+        product = self.base.matrix @ x
+        scale = self.base.abs_matrix() @ np.abs(x) + np.abs(rhs)
+        if self.delta is not None:
+            product = product + self.delta @ x
+            scale = scale + abs(self.delta) @ np.abs(x)
+        residual = np.abs(product - rhs)
         with np.errstate(divide="ignore", invalid="ignore"):
             ratio = np.where(scale > 0, residual / scale, np.where(residual > 0, np.inf, 0.0))
         return bool(np.max(ratio, initial=0.0) <= BACKWARD_ERROR_MAX)

@@ -77,6 +77,7 @@ class ImpedanceSolver:
         self.notes: list[str] = []
         self._cache: dict = {}
         self._grounded: set[int] = set()
+        self._variant = None
         if len(circuit.nets) >= SHARED_FACTOR_MIN and self._from_shared_base(grounded_nets, driven, series):
             return
         try:
@@ -161,7 +162,7 @@ class ImpedanceSolver:
         if not removed and not cleared:
             self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
             self._matrix = base.matrix
-            self._lu = shared_factor.VariantFactor(base, base.matrix[:0, :0], base.matrix,
+            self._lu = shared_factor.VariantFactor(base, None,
                                                    lambda singular=False: self._factor_own(base.matrix, singular)[1])
             return True
         drop = np.isin(owner, np.fromiter(removed, dtype=np.int64, count=len(removed)))
@@ -169,10 +170,7 @@ class ImpedanceSolver:
         keep = ~drop
         emptied = np.setdiff1d(np.unique(rows[drop]), rows[keep])  # a detached branch, an internal node
         identity = np.union1d(np.fromiter(cleared, dtype=np.int64, count=len(cleared)), emptied)
-        self._rows = np.concatenate([rows[keep], identity])
-        self._cols = np.concatenate([cols[keep], identity])
-        self._vals = np.concatenate([vals[keep], np.ones(len(identity), dtype=complex)])
-        self._owner = np.concatenate([owner[keep], np.full(len(identity), -1)])
+        self._variant = (base, keep, identity)  # the triplets are the base's, masked: no copy
         import scipy.sparse as sp
         size = cc.size
         delta = sp.csr_matrix((np.concatenate([-vals[drop], np.ones(len(identity), dtype=complex)]),
@@ -180,14 +178,13 @@ class ImpedanceSolver:
                               shape=(size, size))
         delta.sum_duplicates()
         delta.eliminate_zeros()
-        matrix = (base.matrix + delta).tocsc()
         self._matrix = None  # z_many solves net by net (a reordered LU would factor again)
 
         def own_factor(singular=False):
-            self._matrix, lu = self._factor_own(matrix, singular)
+            self._matrix, lu = self._factor_own((base.matrix + delta).tocsc(), singular)
             return lu
 
-        self._lu = shared_factor.VariantFactor(base, delta, matrix, own_factor)
+        self._lu = shared_factor.VariantFactor(base, delta, own_factor)
         return True
 
     def _build_base(self, series):
@@ -271,6 +268,12 @@ class ImpedanceSolver:
         ``driven`` its row is the driven net's ``v = 1`` constraint.
         """
         size = self.compiled.size
+        if self._variant is not None:
+            base, keep, identity = self._variant
+            rows = np.concatenate([base.rows[keep], identity])
+            cols = np.concatenate([base.cols[keep], identity])
+            vals = np.concatenate([base.vals[keep], np.ones(len(identity), dtype=complex)])
+            return to_sparse(assemble(rows, cols, vals, size, dtype=complex))
         return to_sparse(assemble(self._rows, self._cols, self._vals, size, dtype=complex))
 
     # -- lookups -----------------------------------------------------------
@@ -368,6 +371,10 @@ class ImpedanceSolver:
             if element not in cc.element_names:
                 return 0j
             owner = cc.element_names.index(element)
+        if self._variant is not None:  # the base's triplets that this variant keeps
+            base, keep, _identity = self._variant
+            mask = (base.owner == owner) & (base.rows == k) & keep
+            return complex(np.sum(base.vals[mask] * solution[base.cols[mask]]))
         mask = (self._owner == owner) & (self._rows == k)
         return complex(np.sum(self._vals[mask] * solution[self._cols[mask]]))
 
