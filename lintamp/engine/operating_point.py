@@ -357,7 +357,9 @@ def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = N
         raise OperatingPointError(f"cannot set up the circuit: {exc}") from None
     if cc.unsupported:
         raise CannotEvaluateError(cc.unsupported)
-    devs = _DeviceSet(cc, circuit.temperature_c)
+    devs = _DeviceSet(cc, circuit.temperature_c)  # raises first for devices it cannot evaluate
+    if floating_groups(cc):  # singular however round-off hides it: never a number from it
+        raise OperatingPointError(describe_singular(cc))
     budget = _Budget(opts.max_total_iterations)
     x0 = np.zeros(cc.size)
     state0 = devs.initial_state()
