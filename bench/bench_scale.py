@@ -34,7 +34,8 @@ sys.path.insert(0, str(HERE))
 
 from generate import flat, hierarchical, write  # noqa: E402
 
-CHECK = ["-m", "lintamp", "check", "--no-config", "--format", "json", "-o", os.devnull]
+# the report goes to stdout, which timed() discards (check -o refuses a device)
+CHECK = ["-m", "lintamp", "check", "--no-config", "--format", "json"]
 CONNECTIVITY = ["--only", "connectivity,references,syntax"]
 
 
@@ -80,6 +81,13 @@ def paired(argv: list[str], path: Path, runs: int):
 def plain_python(path: Path, runs: int) -> float:
     code = f"open({str(path)!r}, encoding='utf-8').read().split('\\n')"
     return median_run([sys.executable, "-c", code], path.parent, runs)[0]
+
+
+def print_table(header: tuple, rows: list[tuple]) -> None:
+    """The rows in columns as wide as their widest cell, under the header."""
+    widths = [max(len(str(row[i])) for row in rows + [header]) for i in range(len(header))]
+    for row in [header, tuple("-" * w for w in widths), *rows]:
+        print("  ".join(str(c).ljust(w) for c, w in zip(row, widths)).rstrip())
 
 
 def fmt_s(v):
@@ -158,9 +166,7 @@ def main(argv=None) -> int:
                      fmt_s(r["factor_s"] + r["solve1000_s"]), "<= 2 s", "", "",
                      f"LU {r['factor_s']:.2f} s, solves {r['solve1000_s']:.2f} s"))
 
-    widths = [max(len(str(row[i])) for row in rows + [HEADER]) for i in range(len(HEADER))]
-    for row in [HEADER, tuple("-" * w for w in widths), *rows]:
-        print("  ".join(str(c).ljust(w) for c, w in zip(row, widths)).rstrip())
+    print_table(HEADER, rows)
     print(f"\nmedian of {args.runs} run(s), each a fresh process; {os.cpu_count()} cores; "
           f"python {sys.version.split()[0]}")
     return 0

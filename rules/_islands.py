@@ -29,7 +29,7 @@ def sealed_cells(ctx) -> dict[int, object]:
         for view in ctx.cells():
             if view.cell.is_top or not view.devices:
                 continue
-            if not any(view.net_terminals.get(port) for port in view.ports):
+            if not any(view.net_terminals.degree(port) for port in view.ports):
                 sealed[id(view)] = view
         return sealed
     return ctx.memo("sealed-cells", build)

@@ -51,7 +51,7 @@ def check(ctx):
         unused = []
         count = ctx.design.instance_count(view)
         for port in dict.fromkeys(view.ports):
-            if port in optional or view.net_terminals.get(port):
+            if port in optional or view.net_terminals.degree(port):
                 continue
             if port in repeated:
                 yield repeated_port(ctx, view, port, repeated[port], count)

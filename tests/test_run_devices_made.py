@@ -87,3 +87,20 @@ def test_rules_make_only_the_devices_findings_name(random_mesh, category):
         # is held to what any finding names, not to its own findings
         assert counts[rule] <= len(everything_named), (rule, counts[rule])
         assert counts[rule] < N // 50, (rule, counts[rule])
+
+
+def test_an_extracted_shape_deck_makes_only_the_devices_its_findings_need():
+    # bench/extracted_shape.py (a scenario of our own): wrapper cells per transistor
+    # geometry, coordinate net names, resistor trees, coupling capacitors, stubs and
+    # floating metal.  The DC summary of a cell's ports looks for gate descriptions
+    # only on the nets that hold a gate (it once made a Device for every card of the
+    # top cell, a million on a 1M deck); the folded infos (stubs, floating metal) name
+    # a few thousand elements between them.
+    from extracted_shape import extracted
+
+    n = 30_000
+    counts, named, _ = made_per_rule(extracted(n, seed=3))
+    assert named["dangling-net"]  # the folded info of the stubs names some of them
+    for rule in ("no-dc-path", "unbiased-gate", "current-cutset", "unused-port", "body-tie",
+                 "dangling-net"):
+        assert counts[rule] < n // 5, (rule, counts[rule])

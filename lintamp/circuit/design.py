@@ -737,6 +737,15 @@ class NetTerminals(Mapping):
     def __len__(self) -> int:
         return self.table.n_role_nets
 
+    def degree(self, net: str) -> int:
+        """How many terminals ``net`` has (0 for a net the cell does not have), without
+        making the list (a rail of an extracted cell holds a terminal per device)."""
+        table = self.table
+        i = table.index.get(net)
+        if i is None or i >= table.n_role_nets:
+            return 0
+        return int(table.net_start[i + 1] - table.net_start[i])
+
     def with_degree(self, count: int) -> list[str]:
         """The nets with exactly ``count`` terminals, in net order."""
         table = self.table

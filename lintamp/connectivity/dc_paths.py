@@ -639,14 +639,15 @@ def summarise(dc: CellDC) -> CellSummary:
         by_comp[comp].append(pos)
     wanted = set(order)
     descriptions: dict[int, list[str]] = {c: [] for c in order}
-    for net, terms in view.net_terminals.items():
-        comp = int(dc.labels[dc.index[net]])
+    table = view.terminal_table
+    for i in control_nets(view, dc.inner_controls):  # only these nets add a description
+        comp = int(dc.labels[i])
         if comp not in wanted or len(descriptions[comp]) >= 4:
             continue
-        for dev, pin in terms:
+        for dev, pin in table.terminals_of(i):
             if is_control(dev, pin):
                 descriptions[comp].append(control_label(dev, pin))
-        descriptions[comp].extend(dc.inner_controls.get(dc.index[net], ()))
+        descriptions[comp].extend(dc.inner_controls.get(i, ()))
     groups = []
     group_of = [-1] * len(view.ports)
     for comp in order:
@@ -659,6 +660,35 @@ def summarise(dc: CellDC) -> CellSummary:
             unknown=bool(dc.unknown[comp]), controlled=int(dc.controlled[comp]),
             sensed=bool(dc.sensed[comp])))
     return CellSummary(groups=tuple(groups), group_of=tuple(group_of))
+
+
+def control_nets(view: CellView, inner_controls: dict[int, list[str]]) -> list[int]:
+    """Numbers of the nets (with a pin role) that hold a control terminal (see
+    :func:`is_control`) or a control inside an instance, in net order.
+
+    Notes
+    -----
+    Found from the device classes of transistors: no step per plain R/C card of an
+    extracted cell (which are never controls).
+    """
+    table = view.terminal_table
+    classes = view.device_classes
+    found = set(inner_controls)
+    for code, key in enumerate(classes.keys):
+        if key.kind in MOS_KINDS or key.kind in JFET_KINDS:
+            pin = "g"
+        elif key.kind in BJT_KINDS:
+            pin = "b"
+        else:
+            continue
+        if pin not in key.pins:
+            continue
+        pos = key.pins.index(pin)
+        start, ids = table.dev_start, table.net_ids
+        for d in classes.members((code,)):
+            if start[d] + pos < start[d + 1]:
+                found.add(int(ids[start[d] + pos]))
+    return sorted(i for i in found if i < table.n_role_nets)
 
 
 def is_control(dev: Device, pin: str) -> bool:

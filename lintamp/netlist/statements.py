@@ -11,7 +11,9 @@ from __future__ import annotations
 from bisect import bisect_right
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from itertools import accumulate, islice
+from array import array
+from itertools import accumulate, islice, repeat
+from operator import add
 from typing import Iterable, Iterator
 
 from lintamp.location import Location
@@ -294,17 +296,21 @@ class PlainRun:
         self.b = b
         self.letters = letters
         self.net_names = net_names
-        self._lines: list[str] | None = None
+        self._lines = None  # line starts, made by element()
 
     def __repr__(self) -> str:
         return f"<PlainRun {self.count} cards from {self.origin.path}:{self.first_line}>"
 
     def element(self, i: int) -> Element:
         """The element of card ``i`` (a new object each time, equal to the others)."""
-        lines = self._lines
-        if lines is None:
-            lines = self._lines = self.text.split("\n")
-        name, raw_a, raw_b, value = lines[i].split()
+        starts = self._lines
+        if starts is None:
+            # where each line starts (8 bytes a line), not the lines themselves: a rule
+            # that looks at a few cards of each run would otherwise keep a string per
+            # card of the deck (about 50 MB on a 1M extracted deck)
+            starts = self._lines = array("q", accumulate(
+                map(add, map(len, self.text.split("\n")), repeat(1)), initial=0))
+        name, raw_a, raw_b, value = self.text[starts[i]:starts[i + 1] - 1].split()
         names = self.net_names
         nodes = (names[self.a[i]], names[self.b[i]])
         return new_plain_element(name, self.letters[i], nodes, self.first_line + i, None, value,
