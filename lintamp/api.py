@@ -8,6 +8,7 @@ prints.
 from __future__ import annotations
 
 import os
+import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Iterable
@@ -122,6 +123,9 @@ def analyse(netlist: Netlist, config=None, *, top: str | None = None,
                 "this is a bug in lintamp, please report it with the netlist")
     for cell in netlist.all_cells():
         result.pragmas.extend(cell.pragmas)
+    shared = sys.modules.get("lintamp.engine.shared_factor")  # loaded only when solves ran
+    if shared is not None:
+        shared.clear()  # the whole-network LUs of this netlist are not needed by the next
     retain(ctx)  # the command line exits without freeing it (see lintamp.gcpause)
     return result
 

@@ -55,8 +55,9 @@ def rich_finding() -> Finding:
 
 # ---------------------------------------------------------------- slow tests
 
-SLOW_REASON = ("builds the pre-commit hook's environment (pip installs lintamp, minutes); "
-               "run with --run-slow, as .ci/run and the README's second command do")
+SLOW_REASON = ("slow: builds the pre-commit hook's environment (pip installs lintamp, minutes) or "
+               "runs ngspice on a post-layout deck; run with --run-slow, as .ci/run and the "
+               "README's second command do")
 
 
 def pytest_addoption(parser):

@@ -449,12 +449,12 @@ def test_deep_nesting_and_long_continuations_are_not_quadratic(tmp_path, shape):
 
 
 def test_impedance_has_an_element_guard(tmp_path):
-    # five levels of eight instances: 8**5 = 32,768 resistors from a 1 KB deck
+    # six levels of eight instances: 8**6 = 262,144 resistors from a 1 KB deck
     levels = ["* nest\n"]
     levels.append(".subckt l0 a b\nr1 a b 1k\n.ends\n")
-    for k in range(1, 6):
+    for k in range(1, 7):
         levels.append(f".subckt l{k} a b\n" + "".join(f"x{j} a b l{k - 1}\n" for j in range(8)) + ".ends\n")
-    levels.append("x1 in 0 l5\nv1 in 0 1\n.end\n")
+    levels.append("x1 in 0 l6\nv1 in 0 1\n.end\n")
     (tmp_path / "nest.sp").write_text("".join(levels))
     proc = lintamp("impedance", "nest.sp", "in", cwd=tmp_path, timeout=LIMIT_S)
     one_line_error(proc, "elements")
@@ -627,9 +627,9 @@ def test_a_recursive_func_is_a_finding(tmp_path, kind):
 
 def test_audit_has_checks_element_guard_and_a_cap_on_ports(tmp_path):
     root = project(tmp_path)
-    # 1 KB of text, 8**5 resistors after flattening: refused as check refuses it
+    # 1 KB of text, 8**6 resistors after flattening: refused as check refuses it
     lines, prev = ["* nest"], None
-    for level in range(5):
+    for level in range(6):
         lines.append(f".subckt c{level} a b")
         lines += [f"r{k} a b 1k" if prev is None else f"x{k} a b {prev}" for k in range(8)]
         lines.append(".ends")

@@ -275,6 +275,8 @@ def build_sheet(netlist_path: Path, *, top: str | None = None, bandwidth: str | 
             data["ports"] = data["ports"] or [_port_stub(p) for p in ports]
         data["notes"] += [n for n in solves.notes if n not in data["notes"]]
     _attach_findings(data, block)
+    from lintamp.engine import shared_factor
+    shared_factor.clear()  # the whole-network LUs of this sheet are not needed by the next
     return Sheet(data, curves, files_read=list(netlist.files))
 
 

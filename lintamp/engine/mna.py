@@ -121,6 +121,7 @@ def compile_circuit(
     detach: tuple[str, ...] | list[str] = (),
     grounded: tuple[int, ...] | list[int] = (),
     series_resistances: dict[str, dict[str, float]] | None = None,
+    absent: set[int] | frozenset[int] = frozenset(),
 ) -> CompiledCircuit:
     """Number the unknowns and stamp every linear element.
 
@@ -128,6 +129,8 @@ def compile_circuit(
     ----------
     detach : element names left out (lower case).
     grounded : net indices merged into ground (used for Thevenin impedances).
+    absent : net indices no element of ``circuit`` touches (eliminated by
+        :mod:`lintamp.engine.reduce`); they get no unknown (index -1).
     series_resistances : per nonlinear device, terminal -> ohm; each nonzero one
         gets an internal node between the pin and the intrinsic device.
 
@@ -140,7 +143,7 @@ def compile_circuit(
     node_index: dict = {}
     names: list[str] = []
     for net, net_name in enumerate(circuit.nets):
-        if net in ground_set:
+        if net in ground_set or net in absent:
             node_index[net] = -1
         else:
             node_index[net] = len(names)

@@ -50,6 +50,7 @@ from lintamp.engine.devices_mos import (
 from lintamp.engine.engine_kinds import EngineError
 from lintamp.engine.linear import assemble, factor, to_dense
 from lintamp.engine.mna import CircuitError, CompiledCircuit, compile_circuit, floating_groups
+from lintamp.engine.reduce import reduce_for_dc
 from lintamp.circuit.flat import FlatCircuit
 from lintamp.text import excerpt
 
@@ -344,14 +345,21 @@ def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = N
     circuit size for netlist-like sparsity; iterations are capped by ``options``.
     """
     opts = options or SolveOptions()
-    series = _series_resistances(circuit)
+    # capacitors are open and wire resistance reduces exactly: Newton runs on what is left
+    reduction = reduce_for_dc(circuit)
+    reduced = reduction.circuit
+    series = _series_resistances(reduced)
+    touched = {n for dev in reduced.devices for n in dev.nodes}
+    absent = {n for n in range(1, len(circuit.nets)) if n not in touched}
     try:
-        cc = compile_circuit(circuit, series_resistances=series)
+        cc = compile_circuit(reduced, series_resistances=series, absent=absent)
     except CircuitError as exc:  # e.g. an F/H source whose controlling source is absent
         raise OperatingPointError(f"cannot set up the circuit: {exc}") from None
     if cc.unsupported:
         raise CannotEvaluateError(cc.unsupported)
-    devs = _DeviceSet(cc, circuit.temperature_c)
+    devs = _DeviceSet(cc, circuit.temperature_c)  # raises first for devices it cannot evaluate
+    if floating_groups(cc):  # singular however round-off hides it: never a number from it
+        raise OperatingPointError(describe_singular(cc))
     budget = _Budget(opts.max_total_iterations)
     x0 = np.zeros(cc.size)
     state0 = devs.initial_state()
@@ -373,7 +381,23 @@ def solve_operating_point(circuit: FlatCircuit, options: SolveOptions | None = N
             "look for positive feedback without a stable point, or nodes held only by devices that are off"
         )
     x, state, _ = result
-    return _build_result(cc, devs, x, method, budget.used, series)
+    op = _build_result(cc, devs, x, method, budget.used, series)
+    if reduction.eliminated:
+        kept = {n: x[i] for n, i in cc.node_index.items() if isinstance(n, int) and i >= 0}
+        voltages = reduction.expand(kept)
+        op.node_voltages_v = {name: float(voltages[n]) for n, name in enumerate(circuit.nets)
+                              if n and n in voltages}
+        op.notes.append(_reduction_note(reduction))
+    return op
+
+
+def _reduction_note(reduction) -> str:
+    words = (f"DC solve on the reduced network: {len(reduction.steps)} wire node(s) of "
+             f"{reduction.resistors_before} resistor(s) eliminated exactly")
+    if reduction.floating:
+        words += (f"; {len(reduction.floating)} net(s) that only capacitors hold have no DC level "
+                  "(floating metal)")
+    return words
 
 
 GMIN_FACTOR_MAX = 10.0  # ngspice's gminfactor: the largest step down per accepted solve
@@ -509,8 +533,8 @@ def _build_result(cc, devs, x, method, iterations, series) -> OperatingPoint:
     circuit = cc.circuit
     node_v = {}
     for net, name in enumerate(circuit.nets):
-        if net == 0:
-            continue
+        if net == 0 or cc.node_index[net] < 0:
+            continue  # an eliminated net: reduce.expand gives its voltage
         node_v[name] = float(x[cc.node_index[net]])
     branch_i = {name: float(x[i]) for name, i in cc.branch_index.items()}
     # evaluate exactly at the solution (no limiting) for small-signal values

@@ -29,6 +29,7 @@ OPEN_SHUNT_S = 1e-12  # added per node only when Y is singular (a node with no A
 PERMC_SPEC = "COLAMD"
 SELECTED_MIN = 24  # nets; below this, one solve per net is cheaper than a second LU
 SELECTED_GROUP = 1000  # nets per reordered LU; the dense trailing step grows as m^3
+SHARED_FACTOR_MIN = 2000  # nets; from here the variants of one frequency share one LU
 
 
 class ImpedanceSolver:
@@ -73,6 +74,12 @@ class ImpedanceSolver:
                 raise SmallSignalError(f"no net named {name!r}")
             grounded_nets.append(idx)
         series = op.series_resistances if op is not None else {}
+        self.notes: list[str] = []
+        self._cache: dict = {}
+        self._grounded: set[int] = set()
+        self._variant = None
+        if len(circuit.nets) >= SHARED_FACTOR_MIN and self._from_shared_base(grounded_nets, driven, series):
+            return
         try:
             self.compiled: CompiledCircuit = compile_circuit(
                 circuit, detach=self.detach, grounded=grounded_nets, series_resistances=series
@@ -84,7 +91,6 @@ class ImpedanceSolver:
             missing = [n for n, _ in cc.unsupported]
             raise SmallSignalError("cannot build the small-signal model: " + ", ".join(
                 f"{n} ({why})" for n, why in cc.unsupported) if missing else "")
-        self.notes: list[str] = []
         omega = 2 * math.pi * self.freq_hz
         rows, cols, vals, owner = self._triplets(omega)
         self._driven = -1
@@ -99,14 +105,20 @@ class ImpedanceSolver:
                 self._driven = k
         self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
         matrix = assemble(rows, cols, vals, cc.size, dtype=complex)
+        self._matrix, self._lu = self._factor_own(matrix)
+
+    def _factor_own(self, matrix, singular: bool = False):
+        """(matrix factored, its factor); a singular one gets a shunt on every node and a note."""
+        cc = self.compiled
         try:
-            self._lu = factor(matrix, PERMC_SPEC, eager=True)
-            self._matrix = matrix
+            if singular:
+                raise RuntimeError("singular")
+            return matrix, factor(matrix, PERMC_SPEC, eager=True)
         except RuntimeError:
             groups = floating_groups(cc)
             try:
-                self._matrix = add_to_diagonal(matrix, cc.n_nodes, OPEN_SHUNT_S)
-                self._lu = factor(self._matrix, PERMC_SPEC, eager=True)
+                shunted = add_to_diagonal(matrix, cc.n_nodes, OPEN_SHUNT_S)
+                lu = factor(shunted, PERMC_SPEC, eager=True)
             except RuntimeError as exc:
                 raise SmallSignalError(
                     "singular small-signal matrix even with a shunt on every node "
@@ -117,7 +129,99 @@ class ImpedanceSolver:
                 f"the small-signal matrix is singular (no AC path at {where}); a {OPEN_SHUNT_S:g} S shunt "
                 "was added to every node, so an impedance near 1e12 ohm means open"
             )
-        self._cache: dict = {}
+            return shunted, lu
+
+    # -- one factorisation per frequency (lintamp/engine/shared_factor.py) ---------
+    def _from_shared_base(self, grounded_nets, driven, series) -> bool:
+        """Set this solver up as a variant of the whole network's factor; False when
+        the whole network cannot serve (it does not compile or is singular)."""
+        from lintamp.engine import shared_factor
+
+        circuit = self.circuit
+        # the lengths catch a circuit that grew since (tests build circuits step by step)
+        key = (id(circuit), len(circuit.devices), len(circuit.nets), id(self.op), self.freq_hz)
+        base = shared_factor.base_for(key, lambda: self._build_base(series))
+        if base is None:
+            return False
+        cc = base.compiled
+        self.compiled = cc
+        self.notes = list(base.notes)
+        self._device_owner = base.device_owner
+        removed = set()
+        for name in self.detach:
+            removed.update(base.owners_of.get(name, ()))
+        cleared = {cc.index_of(n) for n in grounded_nets} - {-1}
+        self._grounded = cleared.copy()
+        self._driven = -1
+        if driven is not None:
+            k = cc.index_of(circuit.find_net(driven)) if circuit.find_net(driven) is not None else -1
+            if k >= 0 and k not in cleared:
+                self._driven = k
+                cleared.add(k)
+        rows, cols, vals, owner = base.rows, base.cols, base.vals, base.owner
+        if not removed and not cleared:
+            self._rows, self._cols, self._vals, self._owner = rows, cols, vals, owner
+            self._matrix = base.matrix
+            self._lu = shared_factor.VariantFactor(base, None,
+                                                   lambda singular=False: self._factor_own(base.matrix, singular)[1])
+            return True
+        drop = np.isin(owner, np.fromiter(removed, dtype=np.int64, count=len(removed)))
+        drop |= np.isin(rows, np.fromiter(cleared, dtype=np.int64, count=len(cleared)))
+        keep = ~drop
+        emptied = np.setdiff1d(np.unique(rows[drop]), rows[keep])  # a detached branch, an internal node
+        identity = np.union1d(np.fromiter(cleared, dtype=np.int64, count=len(cleared)), emptied)
+        self._variant = (base, keep, identity)  # the triplets are the base's, masked: no copy
+        import scipy.sparse as sp
+        size = cc.size
+        delta = sp.csr_matrix((np.concatenate([-vals[drop], np.ones(len(identity), dtype=complex)]),
+                               (np.concatenate([rows[drop], identity]), np.concatenate([cols[drop], identity]))),
+                              shape=(size, size))
+        delta.sum_duplicates()
+        delta.eliminate_zeros()
+        self._matrix = None  # z_many solves net by net (a reordered LU would factor again)
+
+        def own_factor(singular=False):
+            self._matrix, lu = self._factor_own((base.matrix + delta).tocsc(), singular)
+            return lu
+
+        self._lu = shared_factor.VariantFactor(base, delta, own_factor)
+        return True
+
+    def _build_base(self, series):
+        from lintamp.engine.shared_factor import SharedBase
+
+        try:
+            cc = compile_circuit(self.circuit, series_resistances=series)
+        except CircuitError:
+            return None
+        if cc.unsupported:
+            return None
+        detach, self.detach, self.compiled = self.detach, (), cc
+        try:
+            rows, cols, vals, owner = self._triplets(2 * math.pi * self.freq_hz)
+        finally:
+            self.detach = detach
+        matrix = assemble(rows, cols, vals, cc.size, dtype=complex)
+        if isinstance(matrix, np.ndarray):
+            return None
+        self.notes = []
+        try:  # singular as a whole (floating metal at DC): shunted once, with the note
+            matrix, lu = self._factor_own(matrix)
+        except SmallSignalError:
+            return None
+        base = SharedBase(self.circuit, self.op, cc, rows, cols, vals, owner, dict(self._device_owner),
+                          matrix, lu)
+        base.notes = list(self.notes)
+        owners_of: dict[str, list[int]] = {}
+        for k, name in enumerate(cc.element_names):
+            head, _, tail = name.rpartition(":r")
+            if head in series and tail.isdigit():  # a series resistance inside a device
+                name = head
+            owners_of.setdefault(name, []).append(k)
+        for name, k in self._device_owner.items():
+            owners_of.setdefault(name, []).append(k)
+        base.owners_of = owners_of
+        return base
 
     def _triplets(self, omega: float):
         cc = self.compiled
@@ -164,6 +268,12 @@ class ImpedanceSolver:
         ``driven`` its row is the driven net's ``v = 1`` constraint.
         """
         size = self.compiled.size
+        if self._variant is not None:
+            base, keep, identity = self._variant
+            rows = np.concatenate([base.rows[keep], identity])
+            cols = np.concatenate([base.cols[keep], identity])
+            vals = np.concatenate([base.vals[keep], np.ones(len(identity), dtype=complex)])
+            return to_sparse(assemble(rows, cols, vals, size, dtype=complex))
         return to_sparse(assemble(self._rows, self._cols, self._vals, size, dtype=complex))
 
     # -- lookups -----------------------------------------------------------
@@ -172,7 +282,8 @@ class ImpedanceSolver:
         net = self.circuit.find_net(node)
         if net is None:
             raise SmallSignalError(f"no net named {node!r}")
-        return self.compiled.index_of(net)
+        k = self.compiled.index_of(net)
+        return -1 if k in self._grounded else k
 
     def solve_injection(self, node: str) -> np.ndarray:
         """Solution vector for 1 A injected into ``node`` (zeros if it is AC ground)."""
@@ -211,7 +322,8 @@ class ImpedanceSolver:
         out = np.zeros(len(idx), dtype=complex)
         wanted = np.unique(idx[idx >= 0])
         z_of = {}
-        if len(wanted) >= SELECTED_MIN and not isinstance(self._matrix, np.ndarray):
+        if (len(wanted) >= SELECTED_MIN and self._matrix is not None
+                and not isinstance(self._matrix, np.ndarray)):
             from lintamp.engine.inverse_diagonal import inverse_diagonal
 
             for start in range(0, len(wanted), SELECTED_GROUP):
@@ -259,6 +371,10 @@ class ImpedanceSolver:
             if element not in cc.element_names:
                 return 0j
             owner = cc.element_names.index(element)
+        if self._variant is not None:  # the base's triplets that this variant keeps
+            base, keep, _identity = self._variant
+            mask = (base.owner == owner) & (base.rows == k) & keep
+            return complex(np.sum(base.vals[mask] * solution[base.cols[mask]]))
         mask = (self._owner == owner) & (self._rows == k)
         return complex(np.sum(self._vals[mask] * solution[self._cols[mask]]))
 

@@ -28,7 +28,7 @@ if TYPE_CHECKING:  # the engine (numpy, scipy) is imported only when numbers are
 # what the engine raises on odd but legal decks (a rule then skips that node, never the
 # file); anything else is a bug and reaches the internal-error exit
 ENGINE_ERRORS = (EngineError, ArithmeticError)
-MAX_ELEMENTS = 20_000  # past this the built-in solve is not the right tool; a table is
+MAX_ELEMENTS = 50_000  # flattened elements; past this the solves take minutes and GBs (bench_extracted_impedance.py)
 GEOMETRY = ("w", "l")
 
 
@@ -145,8 +145,8 @@ def _compute(ctx) -> Numbers | NoNumbers | None:
     try:
         circuit = flatten(ctx.design, limit=MAX_ELEMENTS)
     except FlattenLimit:
-        return NoNumbers(f"more than {MAX_ELEMENTS} elements after flattening; "
-                         "give the operating point with --op for decks this size")
+        return NoNumbers(f"more than {MAX_ELEMENTS:,} elements after flattening: lintamp's own "
+                         "solves would take minutes on a deck this size; check a block with --top CELL")
     except ENGINE_ERRORS as exc:
         return NoNumbers(f"the deck could not be flattened ({type(exc).__name__}: {exc})")
     if not circuit.devices:
