@@ -184,17 +184,21 @@ def check(ctx):
             continue
         message, steps, values = problem
         view, local = finder.view_of(dev.name), dev.name.rsplit("/", 1)[-1]
+        if stage.units and stage.units[0] != dev.name:
+            continue  # a composite's later unit: its first unit stands for it
         key = (id(view), local)
         if key in seen:
             continue
         seen.add(key)
+        # a cell used more than once: the numbers are this instance's, so it is named
+        shown = dev.name if ctx.design.instance_count(view) > 1 else local
         steps.append(f"role from the topology: {stage.role}"
                      + (f" (with {listing(stage.related)})" if stage.related else ""))
         steps.append(f"numbers from {numbers.source_words}")
         related = [Related(d.location, f"{d.name}: related device") for n in stage.related[:MAX_LISTED]
                    for d in [finder.by_name.get(n)] if d is not None]
         yield ctx.finding(
-            location=dev.location, subject=local, view=view, message=f"{local}: {message}",
+            location=dev.location, subject=local, view=view, message=f"{shown}: {message}",
             elements=[local], explanation=steps, values=values, related=related,
             fix="re-bias the device: lower the load or level-shift drop so V_DS clears V_DSAT by the margin, "
                 "adjust the cascode or bias gate voltage, size for a smaller overdrive, or check the bias "

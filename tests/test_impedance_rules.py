@@ -401,3 +401,19 @@ def test_a_sensor_current_into_a_sense_resistor_is_no_unbuffered_output():
              "m1 out in 0 0 nch w=10u l=1u\ncc out hp 220u\nrhp hp 0 32\n"
              ".ac dec 10 1k 1meg\n.print ac v(out)\n.end\n")
     assert ("unbuffered-output", "out") in rules_of(check_deck(stage))
+
+
+def test_extractor_made_names_are_no_ports_by_name():
+    # magic names the pieces of a wire after a label and a coordinate ('out_n12#'); the
+    # designer named only 'out' (common practice: '#' marks an extractor's own name)
+    from lintamp.circuit.flatten import flatten
+    from lintamp.connectivity.intent import intent_analysis
+    deck = ("* extracted stage\nvdd vdd 0 1.8\nvin in 0 dc 0.8 ac 1\nrd vdd out 10k\n"
+            "m1 out_n12# in 0 0 nch w=10u l=1u\nrw out_n12# out 2\ncl out 0 1p\n"
+            ".model nch nmos level=1 vto=0.5 kp=200u lambda=0.1\n.end\n")
+    from lintamp.api import load_design
+    netlist = parse_text(deck, "<deck>", ReadOptions(root=Path.cwd(), display_root=Path.cwd()))
+    ctx = Context(netlist, load_design(netlist, Config()), config=Config(), options={})
+    block = intent_analysis(ctx, flatten(ctx.design)).block(ctx.design.top.cell)
+    names = [p.net for p in block.ports]
+    assert "out_n12#" not in names and "out" in names

@@ -474,6 +474,8 @@ class IntentAnalysis:
             idx = idx_of(net)
             if idx is None or idx in self.acg:
                 continue  # a DC-held net is no port, whatever its name
+            if "#" in net:
+                continue  # an extractor's own name ('out_n12#', 'a_120_n45#'): no designer chose it
             what = is_control_name(net)
             if what:
                 controls.setdefault(net, f"{what} (named like a {what} line)")

@@ -203,15 +203,20 @@ class PortFinder:
             role = self.roles.get(dev.name)
             if role is None or role.role not in DRIVER_ROLES:
                 continue
-            net = dev.nodes[0]
+            # pins as the stage conducts: an extractor writes a device's fingers with
+            # drain and source swapped in turn, and they are one composite, not a stage
+            # driving the next one's source
+            net = role.pins[0] if role.pins else dev.nodes[0]
             if net in self.ac_ground:
                 continue
+            own = set(role.units)
             for other in self.on_net.get(net, []):
-                if other is dev or other.kind not in TRANSISTORS:
+                if other is dev or other.kind not in TRANSISTORS or other.name in own:
                     continue
                 orole = self.roles.get(other.name)
-                into_source = other.nodes[2] == net and orole is not None and orole.role in RECEIVER_ROLES
-                into_diode = other.nodes[0] == net and other.nodes[1] == net
+                opins = orole.pins if orole is not None and orole.pins else tuple(other.nodes[:3])
+                into_source = opins[2] == net and orole is not None and orole.role in RECEIVER_ROLES
+                into_diode = opins[0] == net and opins[1] == net
                 if into_source or into_diode:
                     what = "source" if other.kind in MOS else "emitter"
                     where = f"{what} of {other.name}" if into_source else f"diode-connected {other.name}"
