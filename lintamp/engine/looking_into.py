@@ -167,6 +167,8 @@ class _Explainer:
 
     def mos(self, dev: FlatDevice, node: int) -> Branch:
         d, g, s, b = dev.nodes[:4]
+        if self._reversed(dev, d, s):
+            d, s = s, d  # the channel conducts the other way: its source is the netlist's drain
         v = self.op.devices[dev.name].values
         gm, gds = v["gm_s"], v["gds_s"]
         gmb = 0.0 if b == s else v["gmb_s"]
@@ -213,6 +215,19 @@ class _Explainer:
             return Branch(f"gate of {k}", "1/(j w (C_gs + C_gd + C_gb)), Miller effect not included",
                           1 / (1j * self.omega * cgg), 0, {"C_gg_f": cgg})
         return Branch(f"{'+'.join(sorted(at))} of {k}", "MNA (no textbook form for this connection)", None, 0, terms)
+
+    def _reversed(self, dev: FlatDevice, d: int, s: int) -> bool:
+        """Whether a MOS conducts from its netlist source to its netlist drain at the
+        operating point (an NMOS whose 'drain' sits below its 'source'): a symmetric
+        device, as an extractor writes every other finger.  ngspice-39 and lintamp's
+        level-1 solve swap the pins there, and the small-signal values are for the
+        pins as swapped."""
+        try:
+            vd = self.op.v(self.circuit.nets[d])
+            vs = self.op.v(self.circuit.nets[s])
+        except (KeyError, IndexError):
+            return False  # a table without node voltages: the pins as written
+        return vd < vs if dev.kind == "nmos" else vd > vs
 
     def bjt(self, dev: FlatDevice, node: int) -> Branch:
         c, b, e = dev.nodes[:3]
