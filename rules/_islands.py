@@ -39,12 +39,11 @@ def sealed_cells(ctx) -> dict[int, object]:
 def only_unused_pins(terminals) -> bool:
     """Whether every terminal is an instance pin whose port nothing inside the cell
     touches: the net is open because of that cell (unused-port says it once)."""
-    for dev, pin in terminals:
+    for dev, pin in terminals:  # an instance's pins are named after its cell's ports
         sub = dev.subcell if dev.kind == "instance" else None
-        if sub is None or not sub.devices or pin not in dev.pins:
+        if sub is None or not sub.devices or pin not in sub.ports:
             return False  # (an empty .subckt is a black box, not a cell with unused ports)
-        pos = dev.pins.index(pin)
-        if pos >= len(sub.ports) or sub.net_terminals.get(sub.ports[pos]):
+        if sub.net_terminals.degree(pin):
             return False
     return bool(terminals)
 

@@ -81,7 +81,6 @@ def reaches_into_instance(ctx, view, net: str) -> bool:
     return net.split(".", 1)[0].lower() in names
 
 
-
 def passive_inside(ctx, dev, pin: str, depth: int = 0) -> bool:
     """Whether an instance pin leads, inside the instance, only to parasitic elements:
     the port's net, and every net a resistor joins to it, carry only R and C pins (or
@@ -89,14 +88,10 @@ def passive_inside(ctx, dev, pin: str, depth: int = 0) -> bool:
     cell per device geometry with the substrate node as a port whose only terminals
     are the cell's capacitors to substrate (a PMOS wrapper's ``VSUBS``)."""
     sub = dev.subcell
-    if sub is None or pin not in dev.pins or depth > 8:
-        return False
-    pos = dev.pins.index(pin)
-    if pos >= len(sub.ports):
-        return False
-    port = sub.ports[pos]
-    return ctx.memo(("parasitics", "passive-port", id(sub), port),
-                    lambda: _only_passive(ctx, sub, port, depth))
+    if sub is None or pin not in sub.ports or depth > 8:
+        return False  # (an instance's pins are named after its cell's ports)
+    return ctx.memo(("parasitics", "passive-port", id(sub), pin),
+                    lambda: _only_passive(ctx, sub, pin, depth))
 
 
 def _only_passive(ctx, view, port: str, depth: int) -> bool:

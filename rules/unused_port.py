@@ -35,7 +35,6 @@ Fix
 from lintamp.circuit.kinds import TRANSISTORS
 from lintamp.connectivity.dc_paths import unread_cells
 from lintamp.findings import Severity
-from lintamp.rules import _parasitics
 
 NAME = "unused-port"
 CATEGORY = "references"
@@ -73,7 +72,7 @@ def check(ctx):
         substrate = None if library_power else _substrate_pin(ctx, view, unused)
         # magic names a port after its metal when the parent's wiring overlaps a piece of
         # the cell's metal that carries no pin label: metal, not a pin of the design
-        metal = all(_parasitics.EXTRACTED_NAME.search(p) and "#" in p for p in unused)
+        metal = all("#" in p for p in unused)
         stranded = _stranded_nets(ctx, view, unused)
         yield ctx.finding(
             location=view.cell.location, subject=port, view=view, nets=unused[:50],
@@ -193,10 +192,8 @@ def _body_on(view, net: str) -> str | None:
     for dev, pin in view.net_terminals.get(net, ()):
         if pin == "b" and dev.kind in TRANSISTORS:
             return f"body of {dev.display}"
-        if dev.kind == "instance" and dev.subcell is not None and pin in dev.pins:
-            pos = dev.pins.index(pin)
-            inner = dev.subcell.ports[pos] if pos < len(dev.subcell.ports) else None
-            for d, p in dev.subcell.net_terminals.get(inner, ()):
+        if dev.kind == "instance" and dev.subcell is not None and pin in dev.subcell.ports:
+            for d, p in dev.subcell.net_terminals.get(pin, ()):  # pins are named after ports
                 if p == "b" and d.kind in TRANSISTORS:
                     return f"body of {d.display} in {dev.display}"
     return None
