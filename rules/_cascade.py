@@ -173,6 +173,7 @@ def group_findings(ctx, rule: str):
                        f"(first: {excerpt(first.subject)})")
         else:
             message = first.message
+            explanation = explanation[1:]  # the message says it already
         yield ctx.finding(
             location=first.location, subject=excerpt(group.root), severity=severity,
             message=message, explanation=explanation, values=values, fix=what_to_set(group),

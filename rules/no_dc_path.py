@@ -32,6 +32,7 @@ Fix
 """
 
 from lintamp.findings import Related, Severity
+from lintamp.text import plural
 from lintamp.rules import _cascade, _parasitics
 from lintamp.connectivity.dc_paths import FULL, islands
 from lintamp.rules._islands import (context_steps, elements, implicit_rail, island_findings, net_phrase,
@@ -116,7 +117,7 @@ def _floating_finding(ctx, view, islands):
         severity=Severity.INFO,
         message=f"{len(islands)} piece(s) of floating metal held only by coupling capacitors "
                 f"({len(nets)} net(s); largest: {net_phrase(largest)}, "
-                f"{len(largest.terminals)} terminals)",
+                f"{plural(len(largest.terminals), 'terminal')})",
         explanation=[
             "on these nets every terminal is a parasitic capacitor (or a wire resistor "
             "between such nets): fill, shields or unconnected wells the extractor wrote with "
