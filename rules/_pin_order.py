@@ -26,7 +26,8 @@ class Misplaced:
 
 
 def rail_side(ctx, name: str) -> int:
-    """+1 for a supply or n-well name, -1 for a ground or p-well name, 0 otherwise."""
+    """+1 for a supply or n-well name, -1 for a ground or p-well name, 0 otherwise
+    (the intent analysis's supply and ground patterns; shared with unused-port)."""
     from lintamp.connectivity.intent import matches, patterns
     low = name.lower()
     if low in WELL_HIGH or matches(low, patterns(ctx.config, "supply")):

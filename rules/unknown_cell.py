@@ -30,6 +30,7 @@ Fix
 import re
 
 from lintamp.circuit.design import scopes
+from lintamp.circuit.devicemap import PDK_LIBRARY_PREFIXES
 from lintamp.findings import Related, Severity
 from lintamp.rulekit.context import forward_diagnostics
 from lintamp.rules import _cascade
@@ -41,12 +42,6 @@ SEVERITY = Severity.ERROR
 SUMMARY = "an instance of a subcircuit that is not defined (nor mapped as a device)"
 MAX_RELATED = 20
 _TEMPLATE_MARK = re.compile(r"\$\{|\$[a-z_]|\{[a-z_]|@[a-z_]|<%", re.I)
-# Cell libraries of the open PDKs (standard cells, I/O cells, primitive devices):
-# a netlist written for layout-versus-schematic or for a PDK flow names them and
-# leaves their definitions to the PDK, which is then simply not among the files read.
-PDK_LIBRARY_PREFIXES = ("sky130_fd_sc_", "sky130_osu_sc_", "sky130_fd_io__", "sky130_fd_pr__",
-                        "sky130_ef_io__", "sky130_ef_sc_", "gf180mcu_fd_sc_", "gf180mcu_osu_sc_",
-                        "gf180mcu_fd_io__", "gf180mcu_fd_pr__", "sg13g2_")
 
 
 def check(ctx):

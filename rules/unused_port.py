@@ -35,6 +35,7 @@ Fix
 from lintamp.circuit.kinds import TRANSISTORS
 from lintamp.connectivity.dc_paths import unread_cells
 from lintamp.findings import Severity
+from lintamp.rules._pin_order import rail_side
 
 NAME = "unused-port"
 CATEGORY = "references"
@@ -199,11 +200,9 @@ def _body_on(view, net: str) -> str | None:
     return None
 
 
-WELL_PINS = ("vpb", "vnb", "vpw", "vnw", "vsub", "sub", "bulk", "nwell", "pwell", "vbn", "vbp")
+BODY_PINS = ("bulk", "vbn", "vbp")  # body pins whose name says no side
 
 
 def _power_pin(ctx, port: str) -> bool:
     """A supply, ground or well pin by name (the intent analysis's patterns)."""
-    from lintamp.connectivity.intent import matches, patterns
-    return port in WELL_PINS or bool(matches(port, patterns(ctx.config, "supply"))
-                                     or matches(port, patterns(ctx.config, "ground")))
+    return rail_side(ctx, port) != 0 or port.lower() in BODY_PINS

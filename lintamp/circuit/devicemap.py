@@ -117,7 +117,14 @@ BUILTIN = (
 )
 
 
-# The open PDKs' standard-cell libraries, by the prefix of their cell names (from
+# Cell libraries of the open PDKs (standard cells, I/O cells, primitive devices):
+# a netlist written for layout-versus-schematic or for a PDK flow names them and
+# leaves their definitions to the PDK, which is then simply not among the files read.
+PDK_LIBRARY_PREFIXES = ("sky130_fd_sc_", "sky130_osu_sc_", "sky130_fd_io__", "sky130_fd_pr__",
+                        "sky130_ef_io__", "sky130_ef_sc_", "gf180mcu_fd_sc_", "gf180mcu_osu_sc_",
+                        "gf180mcu_fd_io__", "gf180mcu_fd_pr__", "sg13g2_")
+
+# Of those, the standard-cell libraries, by the prefix of their cell names (from
 # memory of the PDKs' cell libraries).  A project that vendors one of them checks the
 # PDK's netlists as published; what lintamp sees inside a cell the deck does not use
 # is the PDK's, not the design's.
