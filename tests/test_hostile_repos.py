@@ -129,13 +129,24 @@ def test_output_into_a_committed_folder_link_is_refused(tmp_path, option):
     assert list(outside.iterdir()) == []
 
 
+def with_library(root):
+    """A deck that includes a library file of the project (both are the user's netlists)."""
+    (root / "lib.sp").write_text("* library\n.subckt unit a b\nr1 a b 1k\n.ends\n")
+    (root / "deck.sp").write_text("* deck\n.include lib.sp\nv1 n 0 1\nx1 n 0 unit\n.op\n.end\n")
+    return root
+
+
 @pytest.mark.parametrize("option", ["-o", "--write-baseline"])
-def test_output_over_a_checked_netlist_is_refused(tmp_path, option):
-    root = project(tmp_path)
-    before = (root / "amp.sp").read_bytes()
-    proc = lintamp("check", "--no-cache", option, "amp.sp", "amp.sp", cwd=root)
-    one_line_error(proc, "netlist being checked")
-    assert (root / "amp.sp").read_bytes() == before
+@pytest.mark.parametrize("target, checked, said", [
+    ("amp.sp", "amp.sp", "netlist being checked"),
+    # the include is the user's netlist as much as the deck is: never overwritten
+    ("lib.sp", "deck.sp", "one it includes")])
+def test_output_over_a_netlist_read_is_refused(tmp_path, option, target, checked, said):
+    root = with_library(project(tmp_path))
+    before = (root / target).read_bytes()
+    proc = lintamp("check", "--no-cache", option, target, checked, cwd=root)
+    one_line_error(proc, said)
+    assert (root / target).read_bytes() == before
 
 
 def test_committed_cache_folder_link_gets_no_writes(tmp_path):
@@ -647,22 +658,8 @@ def test_audit_has_checks_element_guard_and_a_cap_on_ports(tmp_path):
     assert len(data["ports"]) <= 32 and any("3000 ports found" in n for n in data["notes"])
 
 
-@pytest.mark.parametrize("option", ["-o", "--write-baseline"])
-def test_output_over_a_file_the_netlist_includes_is_refused(tmp_path, option):
-    # the include is the user's netlist as much as the deck is: never overwritten
-    root = project(tmp_path)
-    (root / "lib.sp").write_text("* library\n.subckt unit a b\nr1 a b 1k\n.ends\n")
-    (root / "deck.sp").write_text("* deck\n.include lib.sp\nv1 n 0 1\nx1 n 0 unit\n.op\n.end\n")
-    before = (root / "lib.sp").read_bytes()
-    proc = lintamp("check", "--no-cache", option, "lib.sp", "deck.sp", cwd=root)
-    one_line_error(proc, "one it includes")
-    assert (root / "lib.sp").read_bytes() == before
-
-
 def test_audit_output_over_an_included_file_is_refused(tmp_path):
-    root = project(tmp_path)
-    (root / "lib.sp").write_text("* library\n.subckt unit a b\nr1 a b 1k\n.ends\n")
-    (root / "deck.sp").write_text("* deck\n.include lib.sp\nv1 n 0 1\nx1 n 0 unit\n.op\n.end\n")
+    root = with_library(project(tmp_path))
     before = (root / "lib.sp").read_bytes()
     proc = lintamp("audit", "deck.sp", "--format", "json", "-o", "lib.sp", cwd=root)
     one_line_error(proc, "one it includes")
